@@ -1,1 +1,70 @@
-fn main() {}
+//! Speed of the polyhedron gravity field: batches of points (ns per facet per point from the
+//! throughput line: 1e3 / (Melem/s)), single-point latency, and memory per facet.
+//!
+//! Run: `cargo bench -p spinfall-gravity --bench field`.
+
+use std::hint::black_box;
+use std::time::{Duration, Instant};
+
+use criterion::{Criterion, Throughput, criterion_group, criterion_main};
+use nalgebra::{Point3, Vector3};
+use spinfall_gravity::{MassSpec, PolyhedronGravity, generate};
+
+/// `n` points on a spiral shell between 1.1 and 3 body radii (deterministic).
+fn points_around(radius_m: f64, n: usize) -> Vec<Point3<f64>> {
+    (0..n)
+        .map(|i| {
+            let t = (i as f64 + 0.5) / n as f64;
+            let z = 1.0 - 2.0 * t;
+            let phi = i as f64 * 2.399_963_229_728_653; // golden angle
+            let s = (1.0 - z * z).sqrt();
+            let r = radius_m * (1.1 + 1.9 * ((i * 7919) % n) as f64 / n as f64);
+            Point3::from(Vector3::new(s * phi.cos(), s * phi.sin(), z) * r)
+        })
+        .collect()
+}
+
+fn bench_field(c: &mut Criterion) {
+    for subdivisions in [4u32, 6, 7] {
+        let radius_m = 1000.0;
+        let mesh = generate::icosphere(radius_m, subdivisions);
+        let start = Instant::now();
+        let field = match PolyhedronGravity::from_mesh(&mesh, MassSpec::DensityKgM3(2000.0)) {
+            Ok(f) => f,
+            Err(e) => panic!("icosphere {subdivisions}: {e}"),
+        };
+        let faces = field.face_count();
+        eprintln!(
+            "icosphere subdiv {subdivisions}: {faces} faces, built in {:.3} s, {:.1} bytes/facet",
+            start.elapsed().as_secs_f64(),
+            field.memory_bytes() as f64 / faces as f64
+        );
+        let points = points_around(radius_m, 256);
+        let big = faces > 100_000;
+        let mut group = c.benchmark_group(format!("field_{faces}_faces"));
+        group.sample_size(10);
+        group.warm_up_time(Duration::from_millis(if big { 500 } else { 1000 }));
+        group.measurement_time(Duration::from_secs(if big { 4 } else { 3 }));
+        group.throughput(Throughput::Elements((points.len() * faces) as u64));
+        group.bench_function("batch_256_potential_acceleration", |b| {
+            b.iter(|| black_box(field.potential_acceleration_batch(black_box(&points))))
+        });
+        group.throughput(Throughput::Elements(faces as u64));
+        let p = points[17];
+        group.bench_function("single_point_potential_acceleration", |b| {
+            b.iter(|| black_box(field.potential_acceleration(black_box(&p))))
+        });
+        if !big {
+            group.bench_function("single_point_scalar_kernel", |b| {
+                b.iter(|| black_box(field.potential_acceleration_scalar(black_box(&p))))
+            });
+            group.bench_function("single_point_evaluate_with_gradient", |b| {
+                b.iter(|| black_box(field.evaluate(black_box(&p))))
+            });
+        }
+        group.finish();
+    }
+}
+
+criterion_group!(benches, bench_field);
+criterion_main!(benches);

@@ -1,1 +1,48 @@
-//! placeholder
+//! Turns a body, its surface map and flight reports into render scenes.
+//!
+//! What it is: the bridge between Spinfall's physics (`spinfall-dynamics`) and its rasterizer
+//! (`spinfall-render`). It builds the body-fixed view (the body at rest, traces as seen on the
+//! rotating body), the inertial view at time `t` (the body turned to its spin phase, traces as
+//! seen from space), the other-frame overlay (the trace integrated in the other frame,
+//! transformed into this one and drawn dashed; the two must coincide) and the side-by-side
+//! composite with titles, time stamp, legend and scale bar. The GUI and the `spinfall render`
+//! command both use it, so their images match.
+//!
+//! What it is not: no egui, no file I/O, no physics of its own.
+//!
+//! Main types: [`BodyView`] (the body with its `f32` mesh and cached per-map face colours),
+//! [`ViewOptions`], [`body_fixed_scene`], [`inertial_scene`], [`composite`],
+//! [`default_camera`].
+//!
+//! Spinfall is for research and planning, not flight-certified.
+//!
+//! ```no_run
+//! use std::sync::Arc;
+//! use spinfall_scene::{BodyView, CompositeOptions, ViewOptions, composite};
+//! # fn demo(body: Arc<spinfall_dynamics::Body>, reports: Vec<spinfall_dynamics::FlightReport>) {
+//! let view = BodyView::new(body);
+//! let image = composite(&view, &reports, 600.0, &ViewOptions::default(),
+//!     &CompositeOptions { width_px: 1280, height_px: 480, ..Default::default() }).unwrap();
+//! assert_eq!(image.width, 1280);
+//! # }
+//! ```
+#![warn(missing_docs)]
+
+mod body_view;
+mod composite;
+mod error;
+mod options;
+mod scenes;
+pub mod trace;
+
+pub use body_view::{BODY_GREY, BodyView, MapColors, value_range};
+pub use composite::{
+    CompositeOptions, DEFAULT_FOV_Y_DEG, add_title, composite, default_camera, time_stamp,
+};
+pub use error::{Result, SceneError};
+pub use options::{HiddenTraceStyle, ViewOptions};
+pub use scenes::{
+    CONTACT_COLOR, ESCAPE_COLOR, Frame, LAUNCH_COLORS, OVERLAY_COLOR, REST_COLOR, SITE_COLOR,
+    SPIN_AXIS_COLOR, body_fixed_scene, color_bar_rect, end_time_s, frame_scene, inertial_scene,
+    launch_color,
+};

@@ -1,0 +1,219 @@
+//! Per-face surface quantities at face centroids: slope, geopotential, effective gravity,
+//! escape speeds and the sign of the radial effective acceleration.
+//!
+//! Conventions (all in the rotating body frame, at the face centroid `r`, spin `w`, outward
+//! face normal `n`, polyhedron potential `U > 0`):
+//! - effective acceleration `g_eff = grad U + w^2 r_perp` (gravity plus centrifugal);
+//! - slope = angle between the inward normal `-n` and `g_eff`, deg (0 = level, > 90 = overhang
+//!   where material would slide off even a flat floor);
+//! - geopotential `Phi = -(U + |w x r|^2 / 2)`, m^2/s^2: an energy per unit mass, so material
+//!   moves "downhill" toward lower `Phi` and `g_eff = -grad Phi`;
+//! - escape speeds use the criterion "zero two-body energy with the polyhedron potential": a
+//!   particle leaving the surface with velocity `v` relative to the surface has inertial speed
+//!   `|v + w x r|` and escapes if `|v + w x r|^2 / 2 - U(r) >= 0`. This is the usual approximation
+//!   (it neglects later exchange of energy with the rotating non-spherical field). Along the normal
+//!   the speed solves `v^2 + 2 v (n . w x r) + |w x r|^2 - 2U = 0`; over all directions the
+//!   minimum is `sqrt(2U) - |w x r|` (launch along `w x r`). Both are clamped at 0;
+//! - radial sign: +1 where `g_eff . n > 0` (loose material lifts off), -1 otherwise.
+
+use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
+
+use nalgebra::{Point3, Unit, Vector3};
+use rayon::prelude::*;
+use serde::{Deserialize, Serialize};
+
+use crate::body::Body;
+use crate::error::{DynamicsError, Result};
+
+/// Escape speeds (along `normal`, minimum over directions) at `p_body_m`, m/s; see module docs.
+pub fn escape_speeds(body: &Body, p_body_m: &Point3<f64>, normal: &Unit<Vector3<f64>>) -> (f64, f64) {
+    let (u, _) = body.gravity.potential_acceleration(p_body_m);
+    let wxr = body.omega_body_rad_s().cross(&p_body_m.coords);
+    let b = normal.dot(&wxr);
+    let disc = b * b - wxr.norm_squared() + 2.0 * u;
+    let v_normal = if disc >= 0.0 { (-b + disc.sqrt()).max(0.0) } else { 0.0 };
+    let v_min = ((2.0 * u).sqrt() - wxr.norm()).max(0.0);
+    (v_normal, v_min)
+}
+
+/// A quantity of the surface map, for colouring.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum SurfaceField {
+    /// Slope, deg.
+    Slope,
+    /// Geopotential `-(U + |w x r|^2/2)`, m^2/s^2.
+    Geopotential,
+    /// Magnitude of the effective acceleration, m/s^2.
+    EffectiveGravity,
+    /// Escape speed along the surface normal, m/s.
+    EscapeSpeedNormal,
+    /// Minimum escape speed over all directions, m/s.
+    EscapeSpeedMin,
+    /// Sign of the outward effective acceleration (+1 lift-off, -1 held down).
+    RadialSign,
+}
+
+impl SurfaceField {
+    /// Every field, in display order.
+    pub const ALL: [SurfaceField; 6] = [
+        SurfaceField::Slope,
+        SurfaceField::Geopotential,
+        SurfaceField::EffectiveGravity,
+        SurfaceField::EscapeSpeedNormal,
+        SurfaceField::EscapeSpeedMin,
+        SurfaceField::RadialSign,
+    ];
+    /// Human-readable name.
+    pub fn name(self) -> &'static str {
+        match self {
+            SurfaceField::Slope => "Slope",
+            SurfaceField::Geopotential => "Geopotential",
+            SurfaceField::EffectiveGravity => "Effective gravity",
+            SurfaceField::EscapeSpeedNormal => "Escape speed (normal)",
+            SurfaceField::EscapeSpeedMin => "Escape speed (minimum)",
+            SurfaceField::RadialSign => "Lift-off sign",
+        }
+    }
+    /// Unit string.
+    pub fn unit(self) -> &'static str {
+        match self {
+            SurfaceField::Slope => "deg",
+            SurfaceField::Geopotential => "m^2/s^2",
+            SurfaceField::EffectiveGravity => "m/s^2",
+            SurfaceField::EscapeSpeedNormal | SurfaceField::EscapeSpeedMin => "m/s",
+            SurfaceField::RadialSign => "1",
+        }
+    }
+    /// Column name with unit for CSV headers.
+    pub fn column(self) -> &'static str {
+        match self {
+            SurfaceField::Slope => "slope_deg",
+            SurfaceField::Geopotential => "geopotential_m2_s2",
+            SurfaceField::EffectiveGravity => "effective_gravity_m_s2",
+            SurfaceField::EscapeSpeedNormal => "escape_speed_normal_m_s",
+            SurfaceField::EscapeSpeedMin => "escape_speed_min_m_s",
+            SurfaceField::RadialSign => "radial_sign",
+        }
+    }
+}
+
+/// Per-face surface quantities (structure of arrays, one entry per face).
+#[derive(Debug, Clone, PartialEq, Default, Serialize, Deserialize)]
+pub struct SurfaceMap {
+    /// Effective acceleration (gravity + centrifugal) at each centroid, body frame, m/s^2.
+    pub effective_acceleration_m_s2: Vec<[f64; 3]>,
+    /// Slope, deg.
+    pub slope_deg: Vec<f64>,
+    /// Geopotential, m^2/s^2.
+    pub geopotential_m2_s2: Vec<f64>,
+    /// |effective acceleration|, m/s^2.
+    pub effective_gravity_m_s2: Vec<f64>,
+    /// Escape speed along the normal, m/s.
+    pub escape_speed_normal_m_s: Vec<f64>,
+    /// Minimum escape speed, m/s.
+    pub escape_speed_min_m_s: Vec<f64>,
+    /// +1 where the effective acceleration points outward, else -1.
+    pub radial_sign: Vec<f64>,
+}
+
+impl SurfaceMap {
+    /// Values of one field.
+    pub fn values(&self, field: SurfaceField) -> &[f64] {
+        match field {
+            SurfaceField::Slope => &self.slope_deg,
+            SurfaceField::Geopotential => &self.geopotential_m2_s2,
+            SurfaceField::EffectiveGravity => &self.effective_gravity_m_s2,
+            SurfaceField::EscapeSpeedNormal => &self.escape_speed_normal_m_s,
+            SurfaceField::EscapeSpeedMin => &self.escape_speed_min_m_s,
+            SurfaceField::RadialSign => &self.radial_sign,
+        }
+    }
+
+    /// (min, max) of one field, `None` for an empty map.
+    pub fn range(&self, field: SurfaceField) -> Option<(f64, f64)> {
+        let v = self.values(field);
+        if v.is_empty() {
+            return None;
+        }
+        Some(v.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), &x| (lo.min(x), hi.max(x))))
+    }
+
+    /// Number of faces.
+    pub fn len(&self) -> usize {
+        self.slope_deg.len()
+    }
+
+    /// True for a map of no faces.
+    pub fn is_empty(&self) -> bool {
+        self.slope_deg.is_empty()
+    }
+}
+
+struct FaceValues {
+    acc: [f64; 3],
+    slope: f64,
+    geo: f64,
+    g: f64,
+    esc_n: f64,
+    esc_min: f64,
+    sign: f64,
+}
+
+/// Computes the map over every face in parallel. `progress(done, total)` is called from worker
+/// threads now and then; setting `cancel` stops the work with [`DynamicsError::Cancelled`].
+pub fn surface_map(body: &Body, progress: &(dyn Fn(usize, usize) + Sync), cancel: &AtomicBool) -> Result<SurfaceMap> {
+    let n = body.shape.face_count();
+    let w = body.omega_body_rad_s();
+    let done = AtomicUsize::new(0);
+    let step = (n / 100).max(1);
+    let values: Vec<Option<FaceValues>> = (0..n)
+        .into_par_iter()
+        .map(|f| {
+            if cancel.load(Ordering::Relaxed) {
+                return None;
+            }
+            let r = body.shape.face_centroid(f);
+            let nrm = body.shape.face_normal(f);
+            let (u, grav) = body.gravity.potential_acceleration(&r);
+            let wxr = w.cross(&r.coords);
+            let centrifugal = -w.cross(&wxr);
+            let acc = grav + centrifugal;
+            let g = acc.norm();
+            let slope = if g > 0.0 {
+                (-nrm.dot(&acc) / g).clamp(-1.0, 1.0).acos().to_degrees()
+            } else {
+                0.0
+            };
+            let (esc_n, esc_min) = escape_speeds(body, &r, &nrm);
+            let k = done.fetch_add(1, Ordering::Relaxed) + 1;
+            if k % step == 0 || k == n {
+                progress(k, n);
+            }
+            Some(FaceValues {
+                acc: [acc.x, acc.y, acc.z],
+                slope,
+                geo: -(u + 0.5 * wxr.norm_squared()),
+                g,
+                esc_n,
+                esc_min,
+                sign: if acc.dot(&nrm) > 0.0 { 1.0 } else { -1.0 },
+            })
+        })
+        .collect();
+    if cancel.load(Ordering::Relaxed) {
+        return Err(DynamicsError::Cancelled);
+    }
+    let mut map = SurfaceMap::default();
+    for v in values {
+        let v = v.ok_or(DynamicsError::Cancelled)?;
+        map.effective_acceleration_m_s2.push(v.acc);
+        map.slope_deg.push(v.slope);
+        map.geopotential_m2_s2.push(v.geo);
+        map.effective_gravity_m_s2.push(v.g);
+        map.escape_speed_normal_m_s.push(v.esc_n);
+        map.escape_speed_min_m_s.push(v.esc_min);
+        map.radial_sign.push(v.sign);
+    }
+    Ok(map)
+}

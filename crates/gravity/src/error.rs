@@ -1,0 +1,33 @@
+//! Errors of the gravity core.
+
+/// Result with [`GravityError`].
+pub type Result<T> = std::result::Result<T, GravityError>;
+
+/// Everything that can go wrong loading a shape model or building its gravity field.
+///
+/// Each message names the problem and one place where it occurs.
+#[derive(Debug, thiserror::Error)]
+pub enum GravityError {
+    /// The reader failed.
+    #[error("could not read the shape model: {0}")]
+    Io(#[from] std::io::Error),
+    /// Malformed OBJ text.
+    #[error("malformed OBJ at line {line}: {message}")]
+    Parse {
+        /// 1-based line number.
+        line: usize,
+        /// What is wrong there.
+        message: String,
+    },
+    /// The mesh cannot be used for a polyhedron gravity model.
+    #[error("unusable mesh: {0}")]
+    InvalidMesh(String),
+    /// A physical parameter is out of range (negative density, NaN, ...).
+    #[error("invalid {name}: {message}")]
+    InvalidParameter {
+        /// Parameter name with its unit, e.g. `density_kg_m3`.
+        name: &'static str,
+        /// What is wrong with it.
+        message: String,
+    },
+}

@@ -1,0 +1,326 @@
+//! The exact gravity field of a constant-density polyhedron (Werner & Scheeres 1997).
+//!
+//! [`PolyhedronGravity`] precomputes, once per shape, the face dyads `F_f = n_f n_f^T` and the
+//! edge dyads `E_e = n_A n_A12^T + n_B n_B21^T`, then evaluates for a field point `p`
+//! (with `r = vertex - p`, `omega_f` the signed solid angle of face `f`, `L_e` the edge log):
+//!
+//! - potential (positive, `U -> GM/r` far away):
+//!   `U = G rho / 2 [ sum_e r_e.E_e.r_e L_e - sum_f r_f.F_f.r_f omega_f ]`
+//! - acceleration `grad U = -G rho [ sum_e E_e r_e L_e - sum_f F_f r_f omega_f ]`
+//! - gradient tensor `G rho [ sum_e E_e L_e - sum_f F_f omega_f ]`
+//! - Laplacian `-G rho sum_f omega_f`: `-4 pi G rho` inside, `0` outside, `-2 pi G rho` on a
+//!   face (and the interior solid-angle fraction on edges and corners).
+//!
+//! Points exactly on a face, an edge or a vertex give finite values equal to the limits from
+//! nearby points (see the `direct` module notes); only the gradient tensor, which really
+//! diverges logarithmically on an edge, is returned as a large finite number there.
+//!
+//! # Far field
+//! Far away the face and edge sums are each of size `~r^2` per term while their total is
+//! `~GM/r`, so the direct sum loses about `(r/R)^2`-ish digits to cancellation. Beyond
+//! [`PolyhedronGravity::switch_radius_m`] (a fixed multiple of the Brillouin radius about the
+//! centre of mass) the field is evaluated instead from an exterior spherical-harmonic expansion
+//! whose moments are integrated exactly from the polyhedron at construction. The measured
+//! accuracies are in [`exterior`]'s documentation.
+//!
+//! # Speed
+//! Per-vertex vectors `r_i` and `|r_i|` are computed once per field point and gathered by faces
+//! and edges. The hot path [`PolyhedronGravity::potential_acceleration`] runs over
+//! structure-of-arrays tables, four faces or edges at a time with the `wide` crate, compiled for
+//! several CPU feature sets and chosen at run time (`multiversion`); a portable scalar version is
+//! kept as the reference. Batches run in parallel over points with rayon.
+//!
+//! Spinfall is for research and planning, not flight-certified.
+
+mod direct;
+pub mod exterior;
+mod mass_spec;
+mod simd;
+mod tables;
+
+use nalgebra::{Matrix3, Point3, Vector3};
+use rayon::prelude::*;
+use serde::{Deserialize, Serialize};
+
+use crate::error::Result;
+use crate::mesh::Mesh;
+pub use exterior::Exterior;
+pub use mass_spec::MassSpec;
+use tables::Tables;
+
+/// Newtonian constant of gravitation, m^3 kg^-1 s^-2 (CODATA 2018).
+pub const G_SI: f64 = 6.674_30e-11;
+
+/// Everything the field gives at one point.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct FieldSample {
+    /// Gravitational potential, m^2/s^2, positive (`GM/r` far away).
+    pub potential_m2_s2: f64,
+    /// Gravitational acceleration (gradient of the potential), m/s^2.
+    pub acceleration_m_s2: Vector3<f64>,
+    /// Gravity-gradient tensor (second derivatives of the potential), 1/s^2.
+    pub gradient_s2: Matrix3<f64>,
+    /// Laplacian of the potential, 1/s^2: `-4 pi G rho` inside, 0 outside.
+    pub laplacian_s2: f64,
+    /// Whether the point is strictly inside the body (see [`PolyhedronGravity::is_inside`]).
+    pub inside: bool,
+}
+
+/// Which way a field point is evaluated.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+pub enum FieldMethod {
+    /// The exact face/edge sums.
+    Direct,
+    /// The exterior spherical-harmonic expansion (far from the body).
+    Exterior,
+}
+
+/// Multiple of the Brillouin radius beyond which the exterior expansion replaces the direct sum.
+///
+/// Chosen from the measurements in [`exterior`]'s documentation.
+pub const SWITCH_BRILLOUIN_MULTIPLE: f64 = 16.0;
+
+/// The gravity field of a homogeneous polyhedron.
+#[derive(Debug, Clone)]
+pub struct PolyhedronGravity {
+    tables: Tables,
+    density_kg_m3: f64,
+    volume_m3: f64,
+    center_of_mass_m: Point3<f64>,
+    brillouin_radius_m: f64,
+    switch_radius_m: f64,
+    exterior: Exterior,
+}
+
+impl PolyhedronGravity {
+    /// Builds the field straight from a closed, outward-oriented mesh in metres.
+    ///
+    /// Checks what the field needs (indices in range, no degenerate face, every edge shared by
+    /// two faces in opposite directions, positive volume) and computes the volume, centre of
+    /// mass and exterior moments itself.
+    pub fn from_mesh(mesh: &Mesh, mass: MassSpec) -> Result<Self> {
+        let (tables, bulk) = Tables::build(mesh)?;
+        let density_kg_m3 = mass.density_kg_m3(bulk.volume_m3)?;
+        let com = bulk.center_of_mass_m;
+        let brillouin_radius_m = mesh
+            .vertices_m
+            .iter()
+            .map(|v| (v - com).norm())
+            .fold(0.0, f64::max);
+        let exterior = Exterior::from_mesh(mesh, com, exterior::DEFAULT_DEGREE);
+        Ok(Self {
+            tables,
+            density_kg_m3,
+            volume_m3: bulk.volume_m3,
+            center_of_mass_m: com,
+            brillouin_radius_m,
+            switch_radius_m: SWITCH_BRILLOUIN_MULTIPLE * brillouin_radius_m,
+            exterior,
+        })
+    }
+
+    /// Bulk density, kg/m^3.
+    pub fn density_kg_m3(&self) -> f64 {
+        self.density_kg_m3
+    }
+
+    /// Volume of the polyhedron, m^3.
+    pub fn volume_m3(&self) -> f64 {
+        self.volume_m3
+    }
+
+    /// Total mass, kg.
+    pub fn mass_kg(&self) -> f64 {
+        self.density_kg_m3 * self.volume_m3
+    }
+
+    /// Gravitational parameter G*M, m^3/s^2.
+    pub fn gm_m3_s2(&self) -> f64 {
+        G_SI * self.mass_kg()
+    }
+
+    /// Centre of mass of the homogeneous polyhedron, metres.
+    pub fn center_of_mass_m(&self) -> Point3<f64> {
+        self.center_of_mass_m
+    }
+
+    /// Largest vertex distance from the centre of mass, metres.
+    pub fn brillouin_radius_m(&self) -> f64 {
+        self.brillouin_radius_m
+    }
+
+    /// Distance from the centre of mass beyond which the exterior expansion is used, metres.
+    pub fn switch_radius_m(&self) -> f64 {
+        self.switch_radius_m
+    }
+
+    /// The exterior expansion used far away.
+    pub fn exterior(&self) -> &Exterior {
+        &self.exterior
+    }
+
+    /// Number of faces.
+    pub fn face_count(&self) -> usize {
+        self.tables.face_count
+    }
+
+    /// Number of undirected edges.
+    pub fn edge_count(&self) -> usize {
+        self.tables.edge_count
+    }
+
+    /// Approximate heap use of the precomputed tables and expansion, bytes.
+    pub fn memory_bytes(&self) -> usize {
+        self.tables.heap_bytes() + self.exterior.heap_bytes()
+    }
+
+    /// The method used at `p`.
+    pub fn method_at(&self, p: &Point3<f64>) -> FieldMethod {
+        if (p - self.center_of_mass_m).norm() > self.switch_radius_m {
+            FieldMethod::Exterior
+        } else {
+            FieldMethod::Direct
+        }
+    }
+
+    fn g_rho(&self) -> f64 {
+        G_SI * self.density_kg_m3
+    }
+
+    /// Potential (m^2/s^2) and acceleration (m/s^2) at `p` (metres, body frame): the hot path.
+    pub fn potential_acceleration(&self, p: &Point3<f64>) -> (f64, Vector3<f64>) {
+        let mut scratch = Vec::new();
+        self.potential_acceleration_with(p, &mut scratch)
+    }
+
+    fn potential_acceleration_with(
+        &self,
+        p: &Point3<f64>,
+        scratch: &mut Vec<[f64; 4]>,
+    ) -> (f64, Vector3<f64>) {
+        match self.method_at(p) {
+            FieldMethod::Exterior => self.exterior_potential_acceleration(p),
+            FieldMethod::Direct => self.direct_simd(p, scratch),
+        }
+    }
+
+    fn exterior_potential_acceleration(&self, p: &Point3<f64>) -> (f64, Vector3<f64>) {
+        let (u, a) = self
+            .exterior
+            .potential_acceleration(&(p - self.center_of_mass_m));
+        (self.g_rho() * u, self.g_rho() * a)
+    }
+
+    fn direct_simd(&self, p: &Point3<f64>, scratch: &mut Vec<[f64; 4]>) -> (f64, Vector3<f64>) {
+        direct::fill_vertices(&self.tables, [p.x, p.y, p.z], scratch);
+        let s = simd::sums(&self.tables, scratch);
+        self.combine(&s)
+    }
+
+    fn combine(&self, s: &direct::Sums) -> (f64, Vector3<f64>) {
+        let g = self.g_rho();
+        let u = 0.5 * g * (s.edge_u - s.face_u);
+        let a = Vector3::new(
+            s.edge_a[0] - s.face_a[0],
+            s.edge_a[1] - s.face_a[1],
+            s.edge_a[2] - s.face_a[2],
+        ) * -g;
+        (u, a)
+    }
+
+    /// Potential and acceleration from the direct face/edge sums at any distance, using the
+    /// vectorised kernel (for verification and accuracy studies; [`Self::potential_acceleration`]
+    /// picks the better method).
+    pub fn potential_acceleration_direct(&self, p: &Point3<f64>) -> (f64, Vector3<f64>) {
+        let mut scratch = Vec::new();
+        self.direct_simd(p, &mut scratch)
+    }
+
+    /// As [`Self::potential_acceleration_direct`] with the portable scalar kernel.
+    pub fn potential_acceleration_scalar(&self, p: &Point3<f64>) -> (f64, Vector3<f64>) {
+        let mut scratch = Vec::new();
+        direct::fill_vertices(&self.tables, [p.x, p.y, p.z], &mut scratch);
+        let s = direct::sums_scalar::<false>(&self.tables, &scratch);
+        self.combine(&s)
+    }
+
+    /// Potential and acceleration from the exterior expansion at any distance (for
+    /// verification; meaningless inside the Brillouin sphere).
+    pub fn potential_acceleration_exterior(&self, p: &Point3<f64>) -> (f64, Vector3<f64>) {
+        self.exterior_potential_acceleration(p)
+    }
+
+    /// Potential, acceleration, gradient tensor, Laplacian and inside flag at `p`.
+    ///
+    /// Beyond [`Self::switch_radius_m`] all of them come from the exterior expansion except the
+    /// gradient tensor, which is taken from the direct sum (it does not suffer from the same
+    /// cancellation at the distances of interest, see [`exterior`]).
+    pub fn evaluate(&self, p: &Point3<f64>) -> FieldSample {
+        let mut scratch = Vec::new();
+        self.evaluate_with(p, &mut scratch)
+    }
+
+    fn evaluate_with(&self, p: &Point3<f64>, scratch: &mut Vec<[f64; 4]>) -> FieldSample {
+        direct::fill_vertices(&self.tables, [p.x, p.y, p.z], scratch);
+        let s = direct::sums_scalar::<true>(&self.tables, scratch);
+        let g = self.g_rho();
+        let (u, a) = match self.method_at(p) {
+            FieldMethod::Exterior => self.exterior_potential_acceleration(p),
+            FieldMethod::Direct => self.combine(&s),
+        };
+        let d: [f64; 6] = std::array::from_fn(|k| g * (s.edge_grad[k] - s.face_grad[k]));
+        let gradient_s2 = Matrix3::new(d[0], d[1], d[2], d[1], d[3], d[4], d[2], d[4], d[5]);
+        FieldSample {
+            potential_m2_s2: u,
+            acceleration_m_s2: a,
+            gradient_s2,
+            laplacian_s2: -g * s.omega,
+            inside: is_inside_omega(s.omega),
+        }
+    }
+
+    /// Whether `p` is strictly inside the body: the face solid angles sum to `4 pi` inside and
+    /// 0 outside; the test is `sum > 2 pi + 1e-9`. Points on flat parts of the surface (sum `2
+    /// pi`) and on convex edges and corners count as outside; on concave edges or corners, where
+    /// the body fills more than half the view, as inside.
+    pub fn is_inside(&self, p: &Point3<f64>) -> bool {
+        if self.method_at(p) == FieldMethod::Exterior {
+            return false;
+        }
+        let mut scratch = Vec::new();
+        direct::fill_vertices(&self.tables, [p.x, p.y, p.z], &mut scratch);
+        is_inside_omega(direct::omega_sum(&self.tables, &scratch))
+    }
+
+    /// [`Self::potential_acceleration`] for many points, in parallel over points.
+    pub fn potential_acceleration_batch(&self, points: &[Point3<f64>]) -> Vec<(f64, Vector3<f64>)> {
+        points
+            .par_iter()
+            .with_min_len(batch_min_len(self.face_count()))
+            .map_init(Vec::new, |scratch, p| {
+                self.potential_acceleration_with(p, scratch)
+            })
+            .collect()
+    }
+
+    /// [`Self::evaluate`] for many points, in parallel over points.
+    pub fn evaluate_batch(&self, points: &[Point3<f64>]) -> Vec<FieldSample> {
+        points
+            .par_iter()
+            .with_min_len(batch_min_len(self.face_count()))
+            .map_init(Vec::new, |scratch, p| self.evaluate_with(p, scratch))
+            .collect()
+    }
+}
+
+/// The inside rule shared by [`PolyhedronGravity::evaluate`] and
+/// [`PolyhedronGravity::is_inside`].
+fn is_inside_omega(omega_sum_sr: f64) -> bool {
+    omega_sum_sr > 2.0 * std::f64::consts::PI + 1e-9
+}
+
+/// Smallest number of points per rayon task: enough work (~50k face evaluations) to pay for
+/// the task.
+fn batch_min_len(face_count: usize) -> usize {
+    (50_000 / face_count.max(1)).clamp(1, 1024)
+}

@@ -1,0 +1,270 @@
+//! Precomputed per-face and per-edge quantities of the polyhedron, stored as structure of arrays.
+//!
+//! Face dyads `F_f = n_f n_f^T` and edge dyads `E_e = n_A n_A12^T + n_B n_B21^T` (Werner &
+//! Scheeres 1997, eqs. 8 and 9) are symmetric, so six components are kept for each. All arrays
+//! are padded to a multiple of [`LANES`] with inert entries (zero dyads, vertex index 0) so the
+//! vector kernels need no remainder loop.
+
+use std::collections::HashMap;
+
+use nalgebra::{Matrix3, Point3, Vector3};
+
+use crate::error::{GravityError, Result};
+use crate::mesh::Mesh;
+
+/// Width of the vector kernels (f64 lanes).
+pub(crate) const LANES: usize = 4;
+
+/// Six components of a symmetric 3x3 matrix, one `Vec` each: xx, xy, xz, yy, yz, zz.
+#[derive(Debug, Clone, Default)]
+pub(crate) struct SymSoa {
+    pub xx: Vec<f64>,
+    pub xy: Vec<f64>,
+    pub xz: Vec<f64>,
+    pub yy: Vec<f64>,
+    pub yz: Vec<f64>,
+    pub zz: Vec<f64>,
+}
+
+impl SymSoa {
+    fn push(&mut self, m: &Matrix3<f64>) {
+        // Average the off-diagonal pairs: the dyads are symmetric up to rounding.
+        self.xx.push(m[(0, 0)]);
+        self.xy.push(0.5 * (m[(0, 1)] + m[(1, 0)]));
+        self.xz.push(0.5 * (m[(0, 2)] + m[(2, 0)]));
+        self.yy.push(m[(1, 1)]);
+        self.yz.push(0.5 * (m[(1, 2)] + m[(2, 1)]));
+        self.zz.push(m[(2, 2)]);
+    }
+
+    fn len(&self) -> usize {
+        self.xx.len()
+    }
+
+    fn heap_bytes(&self) -> usize {
+        6 * self.xx.capacity() * std::mem::size_of::<f64>()
+    }
+
+    /// The matrix at `i`.
+    pub fn get(&self, i: usize) -> [f64; 6] {
+        [
+            self.xx[i], self.xy[i], self.xz[i], self.yy[i], self.yz[i], self.zz[i],
+        ]
+    }
+}
+
+/// Everything the field kernels read.
+#[derive(Debug, Clone)]
+pub(crate) struct Tables {
+    /// Vertex coordinates, metres (one `Vec` per axis, not padded).
+    pub vx: Vec<f64>,
+    pub vy: Vec<f64>,
+    pub vz: Vec<f64>,
+    /// Real number of faces (before padding).
+    pub face_count: usize,
+    /// Face corner indices (padded with 0).
+    pub f0: Vec<u32>,
+    pub f1: Vec<u32>,
+    pub f2: Vec<u32>,
+    /// Face dyads (padded with zeros).
+    pub face_dyad: SymSoa,
+    /// Real number of undirected edges.
+    pub edge_count: usize,
+    /// Edge end indices (padded with 0).
+    pub e0: Vec<u32>,
+    pub e1: Vec<u32>,
+    /// Edge lengths, metres (padded with 1).
+    pub edge_len_m: Vec<f64>,
+    /// Edge dyads (padded with zeros).
+    pub edge_dyad: SymSoa,
+}
+
+/// Volume and centre of mass of the homogeneous polyhedron (signed tetrahedra from the origin).
+#[derive(Debug, Clone, Copy)]
+pub(crate) struct Bulk {
+    pub volume_m3: f64,
+    pub center_of_mass_m: Point3<f64>,
+}
+
+fn padded(n: usize) -> usize {
+    n.div_ceil(LANES) * LANES
+}
+
+impl Tables {
+    /// Checks the mesh (indices in range, non-degenerate faces, every undirected edge shared by
+    /// exactly two faces traversing it in opposite directions) and precomputes the tables.
+    pub fn build(mesh: &Mesh) -> Result<(Tables, Bulk)> {
+        let nv = mesh.vertices_m.len();
+        let nf = mesh.faces.len();
+        if nf < 4 {
+            return Err(GravityError::InvalidMesh(format!(
+                "a closed polyhedron needs at least 4 faces, the mesh has {nf}"
+            )));
+        }
+        if let Some((i, v)) = mesh
+            .vertices_m
+            .iter()
+            .enumerate()
+            .find(|(_, v)| !(v.x.is_finite() && v.y.is_finite() && v.z.is_finite()))
+        {
+            return Err(GravityError::InvalidMesh(format!(
+                "vertex {i} has a non-finite coordinate ({}, {}, {})",
+                v.x, v.y, v.z
+            )));
+        }
+        for (f, face) in mesh.faces.iter().enumerate() {
+            for &k in face {
+                if k as usize >= nv {
+                    return Err(GravityError::InvalidMesh(format!(
+                        "face {f} references vertex {k} but the mesh has {nv} vertices"
+                    )));
+                }
+            }
+        }
+
+        let mut normals = Vec::with_capacity(nf);
+        let mut volume6 = 0.0;
+        let mut com_acc = Vector3::zeros();
+        // Reference point inside the bounding box keeps the signed-volume sums well conditioned.
+        let origin = mesh.vertices_m[mesh.faces[0][0] as usize].coords;
+        for (f, _) in mesh.faces.iter().enumerate() {
+            let [a, b, c] = mesh.triangle(f);
+            let cross = (b - a).cross(&(c - a));
+            let norm = cross.norm();
+            let scale = (b - a).norm().max((c - a).norm()).max((c - b).norm());
+            if !(norm > 1e-14 * scale * scale) {
+                return Err(GravityError::InvalidMesh(format!(
+                    "face {f} is degenerate (zero area)"
+                )));
+            }
+            normals.push(cross / norm);
+            let (a, b, c) = (a.coords - origin, b.coords - origin, c.coords - origin);
+            let v6 = a.dot(&b.cross(&c));
+            volume6 += v6;
+            com_acc += v6 * (a + b + c);
+        }
+        let volume_m3 = volume6 / 6.0;
+        if !(volume_m3 > 0.0) {
+            return Err(GravityError::InvalidMesh(format!(
+                "the enclosed volume is {volume_m3} m^3; faces must be ordered counter-clockwise \
+                 seen from outside (check face 0)"
+            )));
+        }
+        let center_of_mass_m = Point3::from(origin + com_acc / (4.0 * volume6));
+
+        // Directed edge (from, to) -> face. Each undirected edge needs (i, j) in one face and
+        // (j, i) in another.
+        let mut directed: HashMap<(u32, u32), u32> = HashMap::with_capacity(3 * nf);
+        for (f, face) in mesh.faces.iter().enumerate() {
+            for k in 0..3 {
+                let (i, j) = (face[k], face[(k + 1) % 3]);
+                if directed.insert((i, j), f as u32).is_some() {
+                    return Err(GravityError::InvalidMesh(format!(
+                        "edge {i}-{j} is traversed in the same direction by two faces \
+                         (one is face {f}); the mesh is not consistently oriented or not manifold"
+                    )));
+                }
+            }
+        }
+
+        let np = padded(nf);
+        let mut t = Tables {
+            vx: mesh.vertices_m.iter().map(|v| v.x).collect(),
+            vy: mesh.vertices_m.iter().map(|v| v.y).collect(),
+            vz: mesh.vertices_m.iter().map(|v| v.z).collect(),
+            face_count: nf,
+            f0: Vec::with_capacity(np),
+            f1: Vec::with_capacity(np),
+            f2: Vec::with_capacity(np),
+            face_dyad: SymSoa::default(),
+            edge_count: 0,
+            e0: Vec::new(),
+            e1: Vec::new(),
+            edge_len_m: Vec::new(),
+            edge_dyad: SymSoa::default(),
+        };
+        for (f, face) in mesh.faces.iter().enumerate() {
+            t.f0.push(face[0]);
+            t.f1.push(face[1]);
+            t.f2.push(face[2]);
+            let n = normals[f];
+            t.face_dyad.push(&(n * n.transpose()));
+        }
+        while t.f0.len() < np {
+            t.f0.push(0);
+            t.f1.push(0);
+            t.f2.push(0);
+            t.face_dyad.push(&Matrix3::zeros());
+        }
+
+        let ne = 3 * nf / 2;
+        let npe = padded(ne);
+        t.e0.reserve(npe);
+        t.e1.reserve(npe);
+        t.edge_len_m.reserve(npe);
+        let vert = |k: u32| mesh.vertices_m[k as usize];
+        for (f, face) in mesh.faces.iter().enumerate() {
+            for k in 0..3 {
+                let (i, j) = (face[k], face[(k + 1) % 3]);
+                let Some(&g) = directed.get(&(j, i)) else {
+                    return Err(GravityError::InvalidMesh(format!(
+                        "edge {i}-{j} of face {f} has no neighbouring face traversing it as \
+                         {j}-{i}; the mesh must be closed and consistently oriented"
+                    )));
+                };
+                if i > j {
+                    continue; // each undirected edge once, from the face that has it as i < j
+                }
+                let (pi, pj) = (vert(i), vert(j));
+                let edge = pj - pi;
+                let len = edge.norm();
+                let dir = edge / len;
+                let n_a = normals[f];
+                let n_b = normals[g as usize];
+                // Edge normals lie in each face's plane and point out of that face. Face A
+                // traverses the edge as i->j, so its outward edge normal is dir x n_A; face B
+                // traverses it as j->i, so its edge normal is -dir x n_B.
+                let n_a12 = dir.cross(&n_a);
+                let n_b21 = -dir.cross(&n_b);
+                let e = n_a * n_a12.transpose() + n_b * n_b21.transpose();
+                t.e0.push(i);
+                t.e1.push(j);
+                t.edge_len_m.push(len);
+                t.edge_dyad.push(&e);
+            }
+        }
+        t.edge_count = t.e0.len();
+        if t.edge_count != ne {
+            return Err(GravityError::InvalidMesh(format!(
+                "expected {ne} edges for {nf} closed triangles, found {}",
+                t.edge_count
+            )));
+        }
+        while t.e0.len() < npe {
+            t.e0.push(0);
+            t.e1.push(0);
+            t.edge_len_m.push(1.0);
+            t.edge_dyad.push(&Matrix3::zeros());
+        }
+        debug_assert_eq!(t.face_dyad.len(), np);
+        Ok((
+            t,
+            Bulk {
+                volume_m3,
+                center_of_mass_m,
+            },
+        ))
+    }
+
+    /// Approximate heap use, bytes.
+    pub fn heap_bytes(&self) -> usize {
+        let f64s = std::mem::size_of::<f64>();
+        let u32s = std::mem::size_of::<u32>();
+        3 * self.vx.capacity() * f64s
+            + 3 * self.f0.capacity() * u32s
+            + self.face_dyad.heap_bytes()
+            + 2 * self.e0.capacity() * u32s
+            + self.edge_len_m.capacity() * f64s
+            + self.edge_dyad.heap_bytes()
+    }
+}

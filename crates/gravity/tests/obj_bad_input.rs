@@ -1,0 +1,222 @@
+//! Every bad-input case is refused (or repaired with a warning) with a message naming the
+//! problem and one location.
+
+mod shape_support;
+
+use shape_support::{CUBE_QUADS, check_refused, from_obj};
+use spinfall_gravity::{LengthUnit, Mesh, ShapeModel, Warning, generate};
+
+#[test]
+fn empty_text_is_refused() {
+    check_refused("", &["0 vertices", "0 faces"]);
+    check_refused("# only a comment\nv 0 0 0\n", &["1 vertices", "0 faces"]);
+}
+
+#[test]
+fn non_finite_coordinate_names_its_line() {
+    check_refused(
+        "v 0 0 0\nv 1 nan 0\n",
+        &["line 2", "vertex 2", "non-finite"],
+    );
+    check_refused("v 0 0 0\nv 1 0 0\nv 0 inf 0\n", &["line 3", "non-finite"]);
+    check_refused("v 0 0 abc\n", &["line 1", "not a number"]);
+    check_refused("v 0 0\n", &["line 1", "3 coordinates"]);
+}
+
+#[test]
+fn out_of_range_index_names_face_vertex_count_and_line() {
+    let text = format!("{CUBE_QUADS}f 1 2 9001\n");
+    check_refused(
+        &text,
+        &["line 15", "face 7 references vertex 9001", "has 8 vertices"],
+    );
+    check_refused("v 0 0 0\nf -2 1 1\n", &["line 2", "relative vertex -2"]);
+    check_refused("v 0 0 0\nf 0 1 1\n", &["line 2", "index 0"]);
+    check_refused("v 0 0 0\nf 1 2\n", &["line 2", "at least 3"]);
+}
+
+#[test]
+fn open_mesh_names_the_boundary_edge() {
+    // The cube without its top face: 4 boundary edges.
+    let text = CUBE_QUADS.replace("f 5 6 7 8\n", "");
+    check_refused(&text, &["open mesh", "4 boundary edges", "edge "]);
+}
+
+#[test]
+fn non_manifold_edge_is_refused() {
+    // An extra triangle hanging on cube edge 1-2 (0-based 0-1).
+    let text = format!("{CUBE_QUADS}v 0.5 -1 0.5\nf 1 2 9\n");
+    check_refused(&text, &["non-manifold", "edge 0-1", "3 faces"]);
+}
+
+#[test]
+fn inconsistent_orientation_names_the_faces_and_edge() {
+    // Top face reversed: it traverses its edges the same way as its neighbours.
+    let text = CUBE_QUADS.replace("f 5 6 7 8", "f 5 8 7 6");
+    check_refused(
+        &text,
+        &["inconsistent orientation", "same direction", "edge "],
+    );
+}
+
+#[test]
+fn inward_mesh_is_flipped_with_a_warning() {
+    let mut mesh = generate::icosphere(10.0, 2);
+    for f in &mut mesh.faces {
+        f.swap(1, 2);
+    }
+    let (shape, warnings) = ShapeModel::new(mesh).unwrap();
+    assert!(
+        matches!(warnings.as_slice(), [Warning::OrientationFlipped { signed_volume_m3 }] if *signed_volume_m3 < 0.0)
+    );
+    assert!(warnings[0].to_string().contains("inward"));
+    assert!(shape.mass_properties().volume_m3 > 0.0);
+    // Normals point away from the centre after the flip.
+    assert!(shape.face_normal(0).dot(&shape.face_centroid(0).coords) > 0.0);
+    // Neighbour slots follow the flip: face across edge k shares that edge's two vertices.
+    for f in 0..shape.face_count() {
+        let face = shape.mesh().faces[f];
+        for (k, &g) in shape.face_neighbours(f).iter().enumerate() {
+            let (a, b) = (face[k], face[(k + 1) % 3]);
+            let other = shape.mesh().faces[g];
+            assert!(other.contains(&a) && other.contains(&b) && g != f);
+        }
+    }
+}
+
+#[test]
+fn duplicate_vertices_are_merged_with_a_warning() {
+    // Each quad of the cube written with its own copies of the corners: 24 vertices, closed
+    // only after merging.
+    let mut text = String::new();
+    let corners = [
+        [0.0, 0.0, 0.0],
+        [1.0, 0.0, 0.0],
+        [1.0, 1.0, 0.0],
+        [0.0, 1.0, 0.0],
+        [0.0, 0.0, 1.0],
+        [1.0, 0.0, 1.0],
+        [1.0, 1.0, 1.0],
+        [0.0, 1.0, 1.0],
+    ];
+    let quads = [
+        [1, 4, 3, 2],
+        [5, 6, 7, 8],
+        [1, 2, 6, 5],
+        [2, 3, 7, 6],
+        [3, 4, 8, 7],
+        [4, 1, 5, 8],
+    ];
+    for (q, quad) in quads.iter().enumerate() {
+        for &c in quad {
+            let [x, y, z] = corners[c - 1];
+            text.push_str(&format!("v {x} {y} {z}\n"));
+        }
+        let b = 4 * q + 1;
+        text.push_str(&format!("f {} {} {} {}\n", b, b + 1, b + 2, b + 3));
+    }
+    let (shape, warnings) = from_obj(&text, LengthUnit::Metre).unwrap();
+    assert_eq!(shape.vertex_count(), 8);
+    assert!(matches!(
+        warnings.as_slice(),
+        [Warning::DuplicateVerticesMerged { count: 16, .. }]
+    ));
+    assert!((shape.mass_properties().volume_m3 - 1.0).abs() < 1e-12);
+}
+
+#[test]
+fn unused_vertices_are_reported() {
+    // A stray vertex first, every face index shifted by one: vertex 0 is used by no face.
+    let shifted: String = CUBE_QUADS
+        .lines()
+        .map(|l| {
+            if let Some(rest) = l.strip_prefix("f ") {
+                let ix: Vec<String> = rest
+                    .split(' ')
+                    .map(|i| (i.parse::<u32>().unwrap() + 1).to_string())
+                    .collect();
+                format!("f {}\n", ix.join(" "))
+            } else {
+                format!("{l}\n")
+            }
+        })
+        .collect();
+    let text = format!("v 5 5 5\n{shifted}");
+    let (shape, warnings) = from_obj(&text, LengthUnit::Metre).unwrap();
+    assert_eq!(shape.vertex_count(), 8);
+    assert!(matches!(
+        warnings.as_slice(),
+        [Warning::UnusedVerticesRemoved {
+            count: 1,
+            example_vertex: 0
+        }]
+    ));
+    assert!(warnings[0].to_string().contains("vertex 0"));
+}
+
+#[test]
+fn degenerate_face_is_dropped_when_the_rest_stays_closed() {
+    // A face with a repeated vertex adds edges a-a and a-b, b-a that cancel: dropping it leaves
+    // the cube closed.
+    let text = format!("{CUBE_QUADS}f 1 1 2\n");
+    let (shape, warnings) = from_obj(&text, LengthUnit::Metre).unwrap();
+    assert_eq!(shape.face_count(), 12);
+    assert!(matches!(
+        warnings.as_slice(),
+        [Warning::DegenerateFacesDropped {
+            count: 1,
+            example_face: 12
+        }]
+    ));
+    assert!(warnings[0].to_string().contains("face 12"));
+}
+
+#[test]
+fn degenerate_face_that_opens_the_mesh_is_an_error() {
+    // Split cube edge 1-2 with a midpoint vertex used by a zero-area sliver: dropping it opens the mesh.
+    let mut mesh = generate::box_mesh(1.0, 1.0, 1.0);
+    let f = mesh.faces[0];
+    let (a, b) = (f[0] as usize, f[1] as usize);
+    let mid = nalgebra::center(&mesh.vertices_m[a], &mesh.vertices_m[b]);
+    mesh.vertices_m.push(mid);
+    let m = (mesh.vertices_m.len() - 1) as u32;
+    let c = f[2];
+    mesh.faces[0] = [f[0], m, c];
+    mesh.faces.push([m, f[1], c]);
+    // The sliver on the other side of edge a-b: (b, m, a) is zero-area.
+    mesh.faces.push([f[1], m, f[0]]);
+    let err = ShapeModel::new(mesh).unwrap_err().to_string();
+    assert!(
+        err.contains("open mesh") && err.contains("zero-area"),
+        "{err}"
+    );
+}
+
+#[test]
+fn hand_built_mesh_errors_name_the_vertex_or_face() {
+    let mut mesh = generate::box_mesh(1.0, 1.0, 1.0);
+    mesh.vertices_m[3].y = f64::NAN;
+    let err = ShapeModel::new(mesh).unwrap_err().to_string();
+    assert!(
+        err.contains("vertex 3") && err.contains("non-finite"),
+        "{err}"
+    );
+    let mut mesh = generate::box_mesh(1.0, 1.0, 1.0);
+    mesh.faces[5][1] = 77;
+    let err = ShapeModel::new(mesh).unwrap_err().to_string();
+    assert!(
+        err.contains("face 5") && err.contains("vertex 77") && err.contains("8 vertices"),
+        "{err}"
+    );
+    let err = ShapeModel::new(Mesh::default()).unwrap_err().to_string();
+    assert!(err.contains("empty"), "{err}");
+}
+
+#[test]
+fn warnings_serialise_for_the_command_line() {
+    let w = Warning::OrientationFlipped {
+        signed_volume_m3: -3.0,
+    };
+    let json = serde_json::to_string(&w).unwrap();
+    assert!(json.contains("\"kind\":\"orientation_flipped\""), "{json}");
+}

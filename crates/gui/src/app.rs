@@ -1,0 +1,1074 @@
+//! [`SpinfallApp`]: state, the frame function, job polling and the one place commands are
+//! handled.
+
+use std::path::{Path, PathBuf};
+use std::sync::Arc;
+use std::sync::mpsc::{Receiver, Sender, channel};
+use std::time::{Duration, Instant};
+
+use egui::{Context, Key, KeyboardShortcut, Modifiers};
+use spinfall_dynamics::{FlightReport, FlightSettings, SurfaceMap};
+use spinfall_gravity::{LengthUnit, ShapeModel};
+use spinfall_scene::BodyView;
+
+use crate::GuiOptions;
+use crate::command::Command;
+use crate::jobs::{Job, JobContext, Poll};
+use crate::session::{BodyParams, ShapeSource, SiteEntry};
+use crate::state::{PersistedState, RecentFile, RecentKind};
+use crate::views::ViewPane;
+
+/// Shortcut: open a shape model.
+pub const SHORTCUT_OPEN: KeyboardShortcut = KeyboardShortcut::new(Modifiers::COMMAND, Key::O);
+/// Shortcut: save the scenario.
+pub const SHORTCUT_SAVE: KeyboardShortcut = KeyboardShortcut::new(Modifiers::COMMAND, Key::S);
+/// Shortcut: run.
+pub const SHORTCUT_RUN: KeyboardShortcut = KeyboardShortcut::new(Modifiers::COMMAND, Key::R);
+/// Shortcut: run (alternative).
+pub const SHORTCUT_RUN_F5: KeyboardShortcut = KeyboardShortcut::new(Modifiers::NONE, Key::F5);
+/// Shortcut: export.
+pub const SHORTCUT_EXPORT: KeyboardShortcut = KeyboardShortcut::new(Modifiers::COMMAND, Key::E);
+
+/// A shape model in use.
+#[derive(Clone)]
+pub struct LoadedShape {
+    /// Display name (file stem or the demo name).
+    pub name: String,
+    /// Where it came from.
+    pub source: ShapeSource,
+    /// The shape with its queries.
+    pub shape: Arc<ShapeModel>,
+    /// Validation warnings, as text.
+    pub warnings: Vec<String>,
+}
+
+/// The result of a load job.
+pub(crate) struct Loaded {
+    pub shape: LoadedShape,
+    pub view: Arc<BodyView>,
+    pub params: BodyParams,
+    /// Sites and settings when a scenario was loaded.
+    pub scenario: Option<(Vec<SiteEntry>, FlightSettings, PathBuf)>,
+}
+
+/// The result of a run job.
+pub(crate) struct RunOutput {
+    pub reports: Vec<FlightReport>,
+    pub cancelled: bool,
+    pub elapsed: Duration,
+    pub launches: usize,
+}
+
+/// State of the last run, for the status line.
+#[derive(Debug, Clone, PartialEq)]
+pub enum RunState {
+    /// Nothing run yet (or the body changed since).
+    NotRun,
+    /// Finished.
+    Done {
+        /// Launches flown.
+        launches: usize,
+        /// Wall-clock time.
+        elapsed_s: f64,
+    },
+    /// Cancelled; `launches` finished before.
+    Cancelled {
+        /// Launches finished.
+        launches: usize,
+    },
+    /// Failed with a message.
+    Failed(String),
+}
+
+/// Severity of a notice.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum NoticeKind {
+    /// Something went wrong.
+    Error,
+    /// Worth knowing (validation warnings, finished exports).
+    Info,
+}
+
+/// A message shown until dismissed.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Notice {
+    /// Severity.
+    pub kind: NoticeKind,
+    /// Text.
+    pub text: String,
+}
+
+/// What a file dialog was opened for.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) enum DialogPurpose {
+    OpenShape,
+    OpenScenario,
+    SaveScenario,
+    ExportFolder,
+}
+
+/// The Spinfall app.
+pub struct SpinfallApp {
+    /// Remembered between runs.
+    pub(crate) state: PersistedState,
+    pub(crate) test_mode: bool,
+    pub(crate) repaint: Arc<dyn Fn() + Send + Sync>,
+
+    // Session.
+    pub(crate) shape: Option<LoadedShape>,
+    pub(crate) params: BodyParams,
+    /// The parameters the current body was built with.
+    pub(crate) built_params: Option<BodyParams>,
+    pub(crate) sites: Vec<SiteEntry>,
+    pub(crate) selected_site: Option<usize>,
+    pub(crate) settings: FlightSettings,
+    pub(crate) view: Option<Arc<BodyView>>,
+    pub(crate) map: Option<Arc<SurfaceMap>>,
+    pub(crate) reports: Arc<Vec<FlightReport>>,
+    pub(crate) run_state: RunState,
+    /// Bumped whenever what the views show changes (body, map, reports).
+    pub(crate) data_generation: u64,
+
+    // Time.
+    pub(crate) t_s: f64,
+    pub(crate) playing: bool,
+    pub(crate) last_frame: Option<Instant>,
+
+    // Views.
+    pub(crate) panes: [ViewPane; 2],
+    pub(crate) click_to_place: bool,
+    pub(crate) hover: Option<crate::views::HoverInfo>,
+    pub(crate) frame_ms: f32,
+
+    // Jobs.
+    pub(crate) load_job: Option<Job<Loaded>>,
+    pub(crate) body_job: Option<Job<Arc<BodyView>>>,
+    pub(crate) map_job: Option<Job<SurfaceMap>>,
+    pub(crate) run_job: Option<Job<RunOutput>>,
+    pub(crate) export_job: Option<Job<Vec<PathBuf>>>,
+    pub(crate) plot_cache: Option<crate::results::PlotSeries>,
+
+    // UI state.
+    pub(crate) commands: Vec<Command>,
+    pub(crate) notices: Vec<Notice>,
+    pub(crate) shape_path_field: String,
+    pub(crate) scenario_path_field: String,
+    pub(crate) lat_field_deg: f64,
+    pub(crate) lon_field_deg: f64,
+    pub(crate) show_export: bool,
+    pub(crate) export_form: crate::export::ExportForm,
+    pub(crate) table: crate::results::TableState,
+    pub(crate) last_exported: Vec<PathBuf>,
+    dialog_tx: Sender<(DialogPurpose, Option<PathBuf>)>,
+    dialog_rx: Receiver<(DialogPurpose, Option<PathBuf>)>,
+}
+
+impl SpinfallApp {
+    /// The app as eframe creates it: restores persisted state and starts loading the shape
+    /// model given on the command line, or the demo body.
+    pub fn new(cc: &eframe::CreationContext<'_>, options: GuiOptions) -> Self {
+        let state: PersistedState = cc
+            .storage
+            .and_then(|s| eframe::get_value(s, eframe::APP_KEY))
+            .unwrap_or_default();
+        let ctx = cc.egui_ctx.clone();
+        let mut app = Self::with_state(state, Arc::new(move || ctx.request_repaint()), false);
+        app.start(options);
+        app
+    }
+
+    /// The app for tests: no persistence, no file dialogs. Starts loading `options` (the demo
+    /// body when `shape_path` is `None`); use [`SpinfallApp::wait_for_jobs`] to await it.
+    pub fn new_for_test(options: GuiOptions) -> Self {
+        let mut app = Self::with_state(PersistedState::default(), Arc::new(|| {}), true);
+        app.start(options);
+        app.handle_commands();
+        app
+    }
+
+    fn with_state(
+        state: PersistedState,
+        repaint: Arc<dyn Fn() + Send + Sync>,
+        test_mode: bool,
+    ) -> Self {
+        let (dialog_tx, dialog_rx) = channel();
+        let export_form = crate::export::ExportForm::from_state(&state);
+        Self {
+            state,
+            test_mode,
+            repaint,
+            shape: None,
+            params: BodyParams::default(),
+            built_params: None,
+            sites: Vec::new(),
+            selected_site: None,
+            settings: FlightSettings::default(),
+            view: None,
+            map: None,
+            reports: Arc::new(Vec::new()),
+            run_state: RunState::NotRun,
+            data_generation: 0,
+            t_s: 0.0,
+            playing: false,
+            last_frame: None,
+            panes: [
+                ViewPane::new(spinfall_scene::Frame::BodyFixed),
+                ViewPane::new(spinfall_scene::Frame::Inertial),
+            ],
+            click_to_place: true,
+            hover: None,
+            frame_ms: 0.0,
+            load_job: None,
+            body_job: None,
+            map_job: None,
+            run_job: None,
+            export_job: None,
+            plot_cache: None,
+            commands: Vec::new(),
+            notices: Vec::new(),
+            shape_path_field: String::new(),
+            scenario_path_field: String::new(),
+            lat_field_deg: 0.0,
+            lon_field_deg: 0.0,
+            show_export: false,
+            export_form,
+            table: Default::default(),
+            last_exported: Vec::new(),
+            dialog_tx,
+            dialog_rx,
+        }
+    }
+
+    fn start(&mut self, options: GuiOptions) {
+        match options.shape_path {
+            Some(path) => {
+                self.state.unit = options.unit;
+                self.shape_path_field = path.display().to_string();
+                self.commands.push(Command::LoadShape(path, options.unit));
+            }
+            None => self.commands.push(Command::LoadDemo),
+        }
+    }
+
+    /// Queue a command (handled at the end of the next frame, or by
+    /// [`SpinfallApp::handle_commands`]).
+    pub fn push_command(&mut self, command: Command) {
+        self.commands.push(command);
+    }
+
+    /// Whether any background job is running.
+    pub fn busy(&self) -> bool {
+        self.load_job.is_some()
+            || self.body_job.is_some()
+            || self.map_job.is_some()
+            || self.run_job.is_some()
+            || self.export_job.is_some()
+    }
+
+    /// Poll jobs and handle commands until nothing is running or `timeout` passes (tests).
+    /// Returns whether everything finished.
+    pub fn wait_for_jobs(&mut self, timeout: Duration) -> bool {
+        let start = Instant::now();
+        loop {
+            self.handle_commands();
+            self.poll_jobs();
+            self.handle_commands();
+            if !self.busy() && self.commands.is_empty() {
+                return true;
+            }
+            if start.elapsed() > timeout {
+                return false;
+            }
+            std::thread::sleep(Duration::from_millis(5));
+        }
+    }
+
+    // ----- read access for tests and the status line -----
+
+    /// The loaded shape model.
+    pub fn shape(&self) -> Option<&LoadedShape> {
+        self.shape.as_ref()
+    }
+
+    /// Launch sites.
+    pub fn sites(&self) -> &[SiteEntry] {
+        &self.sites
+    }
+
+    /// Mutable launch sites (tests and scripted use).
+    pub fn sites_mut(&mut self) -> &mut Vec<SiteEntry> {
+        &mut self.sites
+    }
+
+    /// Reports of the last run.
+    pub fn reports(&self) -> &[FlightReport] {
+        &self.reports
+    }
+
+    /// State of the last run.
+    pub fn run_state(&self) -> &RunState {
+        &self.run_state
+    }
+
+    /// Messages shown to the user (errors, warnings, finished exports).
+    pub fn notices(&self) -> &[Notice] {
+        &self.notices
+    }
+
+    /// Body settings.
+    pub fn params_mut(&mut self) -> &mut BodyParams {
+        &mut self.params
+    }
+
+    /// Flight settings.
+    pub fn settings_mut(&mut self) -> &mut FlightSettings {
+        &mut self.settings
+    }
+
+    /// Files written by the last export.
+    pub fn last_exported(&self) -> &[PathBuf] {
+        &self.last_exported
+    }
+
+    /// The current simulation time shown, s.
+    pub fn time_s(&self) -> f64 {
+        self.t_s
+    }
+
+    /// The body view (body, mesh buffers, map).
+    pub fn body_view(&self) -> Option<&Arc<BodyView>> {
+        self.view.as_ref()
+    }
+
+    /// The persisted state.
+    pub fn persisted(&self) -> &PersistedState {
+        &self.state
+    }
+
+    pub(crate) fn error(&mut self, text: impl Into<String>) {
+        self.notices.push(Notice {
+            kind: NoticeKind::Error,
+            text: text.into(),
+        });
+    }
+
+    pub(crate) fn info(&mut self, text: impl Into<String>) {
+        self.notices.push(Notice {
+            kind: NoticeKind::Info,
+            text: text.into(),
+        });
+    }
+
+    // ----- the frame -----
+
+    /// Draw one frame (eframe's `App::ui` calls this; tests call it through the harness).
+    pub fn ui(&mut self, ui: &mut egui::Ui) {
+        let ctx = ui.ctx().clone();
+        let frame_start = Instant::now();
+        self.poll_jobs();
+        self.poll_dialogs();
+        self.shortcuts(&ctx);
+        self.dropped_files(&ctx);
+        self.advance_time(&ctx);
+
+        self.menu_bar_ui(ui);
+        self.status_bar_ui(ui);
+        egui::Panel::left("controls")
+            .resizable(true)
+            .default_size(340.0)
+            .min_size(260.0)
+            .show(ui, |ui| {
+                egui::ScrollArea::vertical().show(ui, |ui| {
+                    self.notices_ui(ui);
+                    self.shape_ui(ui);
+                    ui.separator();
+                    self.body_ui(ui);
+                    ui.separator();
+                    self.map_ui(ui);
+                    ui.separator();
+                    self.sites_ui(ui);
+                    ui.separator();
+                    self.run_ui(ui);
+                });
+            });
+        if self.state.show_results {
+            egui::Panel::bottom("results")
+                .resizable(true)
+                .default_size(260.0)
+                .min_size(120.0)
+                .show(ui, |ui| self.results_ui(ui));
+        }
+        egui::CentralPanel::default().show(ui, |ui| self.views_ui(ui));
+        self.export_window(&ctx);
+
+        self.handle_commands();
+        if self.busy() {
+            ctx.request_repaint_after(Duration::from_millis(50));
+        }
+        let ms = frame_start.elapsed().as_secs_f32() * 1000.0;
+        self.frame_ms = if self.frame_ms == 0.0 {
+            ms
+        } else {
+            0.9 * self.frame_ms + 0.1 * ms
+        };
+    }
+
+    fn shortcuts(&mut self, ctx: &Context) {
+        let typing = ctx.egui_wants_keyboard_input();
+        ctx.input_mut(|i| {
+            if i.consume_shortcut(&SHORTCUT_OPEN) {
+                self.commands.push(Command::BrowseShape);
+            }
+            if i.consume_shortcut(&SHORTCUT_SAVE) {
+                self.commands.push(Command::BrowseSaveScenario);
+            }
+            if i.consume_shortcut(&SHORTCUT_RUN) || i.consume_shortcut(&SHORTCUT_RUN_F5) {
+                self.commands.push(Command::Run);
+            }
+            if i.consume_shortcut(&SHORTCUT_EXPORT) {
+                self.commands.push(Command::ShowExport);
+            }
+            if !typing && i.consume_key(Modifiers::NONE, Key::Space) {
+                self.commands.push(Command::TogglePlay);
+            }
+        });
+    }
+
+    fn dropped_files(&mut self, ctx: &Context) {
+        let dropped: Vec<PathBuf> =
+            ctx.input(|i| i.raw.dropped_files.iter().filter_map(|f| f.path.clone()).collect());
+        for path in dropped {
+            let ext = path
+                .extension()
+                .map(|e| e.to_string_lossy().to_ascii_lowercase())
+                .unwrap_or_default();
+            match ext.as_str() {
+                "obj" => {
+                    self.shape_path_field = path.display().to_string();
+                    self.commands.push(Command::LoadShape(path, self.state.unit));
+                }
+                "json" => self.commands.push(Command::LoadScenario(path)),
+                _ => self.error(format!(
+                    "{}: drop a Wavefront .obj shape model or a .json scenario",
+                    path.display()
+                )),
+            }
+        }
+    }
+
+    fn advance_time(&mut self, ctx: &Context) {
+        let now = Instant::now();
+        let dt = self
+            .last_frame
+            .map(|l| now.duration_since(l).as_secs_f64())
+            .unwrap_or(0.0)
+            .min(0.25);
+        self.last_frame = Some(now);
+        if self.playing {
+            let end = self.end_time_s();
+            self.t_s += dt * self.state.playback_speed;
+            if self.t_s > end {
+                self.t_s = 0.0;
+            }
+            ctx.request_repaint();
+        }
+    }
+
+    /// End of the time slider: the last sample of the last run, or one spin period.
+    pub(crate) fn end_time_s(&self) -> f64 {
+        let end = spinfall_scene::end_time_s(&self.reports);
+        if end > 0.0 {
+            end
+        } else {
+            self.view
+                .as_ref()
+                .map(|v| v.body().spin.period_s)
+                .unwrap_or(3600.0)
+        }
+    }
+
+    // ----- dialogs -----
+
+    fn open_dialog(&mut self, purpose: DialogPurpose) {
+        if self.test_mode {
+            return;
+        }
+        let tx = self.dialog_tx.clone();
+        let repaint = self.repaint.clone();
+        let spawned = std::thread::Builder::new()
+            .name("spinfall file dialog".into())
+            .spawn(move || {
+                let d = rfd::FileDialog::new();
+                let path = match purpose {
+                    DialogPurpose::OpenShape => d
+                        .add_filter("Wavefront OBJ shape model", &["obj", "OBJ"])
+                        .set_title("Open a shape model")
+                        .pick_file(),
+                    DialogPurpose::OpenScenario => d
+                        .add_filter("Scenario (JSON)", &["json"])
+                        .set_title("Load a scenario")
+                        .pick_file(),
+                    DialogPurpose::SaveScenario => d
+                        .add_filter("Scenario (JSON)", &["json"])
+                        .set_file_name("scenario.json")
+                        .set_title("Save the scenario")
+                        .save_file(),
+                    DialogPurpose::ExportFolder => d.set_title("Export folder").pick_folder(),
+                };
+                let _ = tx.send((purpose, path));
+                repaint();
+            });
+        if let Err(e) = spawned {
+            self.error(format!("could not open a file dialog: {e}; type the path instead"));
+        }
+    }
+
+    fn poll_dialogs(&mut self) {
+        while let Ok((purpose, path)) = self.dialog_rx.try_recv() {
+            let Some(path) = path else {
+                continue;
+            };
+            match purpose {
+                DialogPurpose::OpenShape => {
+                    self.shape_path_field = path.display().to_string();
+                    self.commands.push(Command::LoadShape(path, self.state.unit));
+                }
+                DialogPurpose::OpenScenario => {
+                    self.scenario_path_field = path.display().to_string();
+                    self.commands.push(Command::LoadScenario(path));
+                }
+                DialogPurpose::SaveScenario => {
+                    self.scenario_path_field = path.display().to_string();
+                    self.commands.push(Command::SaveScenario(path));
+                }
+                DialogPurpose::ExportFolder => {
+                    self.export_form.folder = path.display().to_string();
+                }
+            }
+        }
+    }
+
+    // ----- commands -----
+
+    /// Handle every queued command (the one place UI requests become actions).
+    pub fn handle_commands(&mut self) {
+        let commands = std::mem::take(&mut self.commands);
+        for command in commands {
+            self.handle(command);
+        }
+    }
+
+    fn handle(&mut self, command: Command) {
+        match command {
+            Command::BrowseShape => self.open_dialog(DialogPurpose::OpenShape),
+            Command::BrowseScenario => self.open_dialog(DialogPurpose::OpenScenario),
+            Command::BrowseSaveScenario => self.open_dialog(DialogPurpose::SaveScenario),
+            Command::BrowseExportFolder => self.open_dialog(DialogPurpose::ExportFolder),
+            Command::LoadDemo => self.start_load(None),
+            Command::LoadShape(path, unit) => {
+                self.state.unit = unit;
+                self.start_load(Some((path, unit)));
+            }
+            Command::LoadScenario(path) => self.start_load_scenario(path),
+            Command::SaveScenario(path) => self.save_scenario(&path),
+            Command::RebuildBody => self.start_rebuild_body(),
+            Command::ComputeMap => self.start_map(),
+            Command::AddSiteAtPoint { point_body_m, face } => {
+                self.add_site_at_point(point_body_m, face)
+            }
+            Command::AddSiteLatLon { lat_deg, lon_deg } => self.add_site_lat_lon(lat_deg, lon_deg),
+            Command::RemoveSite(i) => {
+                if i < self.sites.len() {
+                    self.sites.remove(i);
+                    self.selected_site = match self.selected_site {
+                        Some(s) if s == i => None,
+                        Some(s) if s > i => Some(s - 1),
+                        other => other,
+                    };
+                }
+            }
+            Command::Run => self.start_run(),
+            Command::CancelJobs => {
+                for job in [
+                    self.load_job.as_ref().map(|j| j as &dyn Cancel),
+                    self.body_job.as_ref().map(|j| j as &dyn Cancel),
+                    self.map_job.as_ref().map(|j| j as &dyn Cancel),
+                    self.run_job.as_ref().map(|j| j as &dyn Cancel),
+                    self.export_job.as_ref().map(|j| j as &dyn Cancel),
+                ]
+                .into_iter()
+                .flatten()
+                {
+                    job.cancel_job();
+                }
+            }
+            Command::SelectLaunch(i) => {
+                self.state.view.selected_launch = i;
+                self.plot_cache = None;
+            }
+            Command::TogglePlay => {
+                self.playing = !self.playing;
+                if self.playing && self.t_s >= self.end_time_s() {
+                    self.t_s = 0.0;
+                }
+            }
+            Command::ResetCameras => {
+                for pane in &mut self.panes {
+                    pane.reset_camera = true;
+                }
+            }
+            Command::ShowExport => self.show_export = true,
+            Command::Export(req) => self.start_export(req),
+        }
+    }
+
+    fn start_load(&mut self, file: Option<(PathBuf, LengthUnit)>) {
+        if self.load_job.is_some() {
+            self.error("a shape model is already loading; wait or cancel it first");
+            return;
+        }
+        let params = self.params.clone();
+        let label = match &file {
+            Some((p, _)) => format!("Loading {}", p.display()),
+            None => format!("Loading the demo body {}", spinfall_gravity::demo::NAME),
+        };
+        self.load_job = Some(Job::spawn(label, self.repaint.clone(), move |ctx| {
+            load_shape(ctx, file, params).map(|(shape, view, params)| Loaded {
+                shape,
+                view,
+                params,
+                scenario: None,
+            })
+        }));
+    }
+
+    fn start_load_scenario(&mut self, path: PathBuf) {
+        if self.load_job.is_some() {
+            self.error("a shape model is already loading; wait or cancel it first");
+            return;
+        }
+        let label = format!("Loading scenario {}", path.display());
+        let current = self.shape.clone();
+        self.load_job = Some(Job::spawn(label, self.repaint.clone(), move |ctx| {
+            crate::export::load_scenario_job(ctx, &path, current)
+        }));
+    }
+
+    fn start_rebuild_body(&mut self) {
+        let (Some(shape), Some(old)) = (self.shape.clone(), self.view.clone()) else {
+            return;
+        };
+        if let Some(job) = &self.body_job {
+            job.cancel();
+        }
+        let params = self.params.clone();
+        self.body_job = Some(Job::spawn(
+            "Preparing the body",
+            self.repaint.clone(),
+            move |ctx| {
+                ctx.progress.set_stage("preparing the gravity field");
+                let body = params.build_body(&shape.name, shape.shape.clone())?;
+                Ok(Arc::new(old.with_body(Arc::new(body))))
+            },
+        ));
+        self.built_params = Some(self.params.clone());
+    }
+
+    pub(crate) fn start_map(&mut self) {
+        let Some(view) = self.view.clone() else {
+            return;
+        };
+        if let Some(job) = &self.map_job {
+            job.cancel();
+        }
+        self.map_job = Some(Job::spawn(
+            "Computing the surface map",
+            self.repaint.clone(),
+            move |ctx| {
+                ctx.progress.set_stage("surface map");
+                let progress = |done: usize, total: usize| {
+                    ctx.progress.set(done, total);
+                    ctx.request_repaint();
+                };
+                spinfall_dynamics::surface_map(view.body(), &progress, &ctx.cancel)
+                    .map_err(|e| e.to_string())
+            },
+        ));
+    }
+
+    fn start_run(&mut self) {
+        if self.run_job.is_some() {
+            self.error("a run is in progress; cancel it first");
+            return;
+        }
+        let Some(view) = self.view.clone() else {
+            self.error("no body loaded yet");
+            return;
+        };
+        if self.sites.is_empty() {
+            self.error("no launch sites: click on the body or add one by latitude/longitude");
+            return;
+        }
+        if self.built_params.as_ref() != Some(&self.params) {
+            // Body settings were edited but not applied: apply them first, then run.
+            self.commands.push(Command::RebuildBody);
+            self.commands.push(Command::Run);
+            return;
+        }
+        let sites = self.sites.clone();
+        let settings = self.settings.clone();
+        let launches: usize = sites.iter().map(|s| s.launch_count()).sum();
+        self.run_job = Some(Job::spawn(
+            format!("Flying {launches} launches"),
+            self.repaint.clone(),
+            move |ctx| run_flights(ctx, &view, &sites, &settings),
+        ));
+    }
+
+    pub(crate) fn poll_jobs(&mut self) {
+        if let Some(job) = &self.load_job
+            && let Poll::Done(result) = job.poll()
+        {
+            self.load_job = None;
+            match result {
+                Ok(loaded) => self.install_loaded(loaded),
+                Err(e) => {
+                    let keep = if self.shape.is_some() {
+                        " (the previous body stays loaded)"
+                    } else {
+                        ""
+                    };
+                    self.error(format!("{e}{keep}"));
+                }
+            }
+        }
+        if let Some(job) = &self.body_job
+            && let Poll::Done(result) = job.poll()
+        {
+            let cancelled = job.is_cancelled();
+            self.body_job = None;
+            match result {
+                Ok(view) if !cancelled => self.install_view(view),
+                Ok(_) => {}
+                Err(e) => {
+                    self.built_params = None;
+                    self.error(format!("body settings not applied: {e}"));
+                }
+            }
+        }
+        if let Some(job) = &self.map_job
+            && let Poll::Done(result) = job.poll()
+        {
+            self.map_job = None;
+            match result {
+                Ok(map) => {
+                    let map = Arc::new(map);
+                    if let Some(view) = &self.view
+                        && map.len() == view.triangles().len()
+                    {
+                        let mut v = view.with_body(view.body().clone());
+                        v.set_map(Some(map.clone()));
+                        self.view = Some(Arc::new(v));
+                        self.map = Some(map);
+                        self.data_generation += 1;
+                    }
+                }
+                Err(e) if e.contains("cancel") => {}
+                Err(e) => self.error(format!("surface map: {e}")),
+            }
+        }
+        if let Some(job) = &self.run_job
+            && let Poll::Done(result) = job.poll()
+        {
+            self.run_job = None;
+            match result {
+                Ok(out) => {
+                    let n = out.reports.len();
+                    self.run_state = if out.cancelled {
+                        RunState::Cancelled { launches: n }
+                    } else {
+                        RunState::Done {
+                            launches: out.launches,
+                            elapsed_s: out.elapsed.as_secs_f64(),
+                        }
+                    };
+                    self.reports = Arc::new(out.reports);
+                    self.state.view.selected_launch = (n > 0).then_some(0);
+                    self.plot_cache = None;
+                    self.t_s = 0.0;
+                    self.data_generation += 1;
+                }
+                Err(e) => {
+                    self.run_state = RunState::Failed(e.clone());
+                    self.error(format!("run failed: {e}"));
+                }
+            }
+        }
+        if let Some(job) = &self.export_job
+            && let Poll::Done(result) = job.poll()
+        {
+            self.export_job = None;
+            match result {
+                Ok(paths) => {
+                    let list: Vec<String> = paths.iter().map(|p| p.display().to_string()).collect();
+                    self.info(format!("exported {} file(s): {}", paths.len(), list.join(", ")));
+                    self.last_exported = paths;
+                }
+                Err(e) => self.error(format!("export failed: {e}")),
+            }
+        }
+    }
+
+    fn install_loaded(&mut self, loaded: Loaded) {
+        let Loaded {
+            shape,
+            view,
+            params,
+            scenario,
+        } = loaded;
+        for w in &shape.warnings {
+            self.notices.push(Notice {
+                kind: NoticeKind::Info,
+                text: format!("{}: {w}", shape.name),
+            });
+        }
+        if let ShapeSource::File { path, unit } = &shape.source {
+            self.state.remember(RecentFile {
+                path: path.clone(),
+                kind: RecentKind::Shape,
+                unit: *unit,
+            });
+        }
+        self.params = params;
+        match scenario {
+            Some((sites, settings, path)) => {
+                self.sites = sites;
+                self.settings = settings;
+                self.state.remember(RecentFile {
+                    path,
+                    kind: RecentKind::Scenario,
+                    unit: self.state.unit,
+                });
+            }
+            None => {
+                // Sites picked on another shape mean nothing here.
+                let same_shape = self.shape.as_ref().map(|s| &s.source) == Some(&shape.source);
+                if !same_shape {
+                    self.sites.clear();
+                }
+            }
+        }
+        self.selected_site = (!self.sites.is_empty()).then_some(0);
+        self.shape = Some(shape);
+        self.built_params = Some(self.params.clone());
+        for pane in &mut self.panes {
+            pane.reset_camera = true;
+        }
+        self.install_view(view);
+    }
+
+    fn install_view(&mut self, view: Arc<BodyView>) {
+        self.view = Some(view);
+        self.map = None;
+        if let Some(v) = &self.view {
+            let volume = v.body().shape.mass_properties().volume_m3;
+            self.params.sync_derived(volume);
+        }
+        self.reports = Arc::new(Vec::new());
+        self.plot_cache = None;
+        self.state.view.selected_launch = None;
+        self.run_state = RunState::NotRun;
+        self.t_s = 0.0;
+        self.data_generation += 1;
+        if self.state.view.map.is_some() {
+            self.start_map();
+        }
+    }
+
+    fn add_site_at_point(&mut self, point_body_m: nalgebra::Point3<f64>, face: usize) {
+        let n = self.sites.len() + 1;
+        let launch = self.selected_launch_params();
+        self.sites.push(SiteEntry {
+            name: format!("Site {n}"),
+            location: crate::session::SiteLocation::Point {
+                point_body_m: point_body_m.into(),
+                face,
+            },
+            launch,
+        });
+        self.selected_site = Some(self.sites.len() - 1);
+    }
+
+    fn add_site_lat_lon(&mut self, lat_deg: f64, lon_deg: f64) {
+        if let Some(view) = &self.view {
+            let entry = SiteEntry {
+                name: format!("Site {}", self.sites.len() + 1),
+                location: crate::session::SiteLocation::LatLon { lat_deg, lon_deg },
+                launch: self.selected_launch_params(),
+            };
+            if let Err(e) = entry.site(view.body()) {
+                self.error(e);
+                return;
+            }
+            self.sites.push(entry);
+            self.selected_site = Some(self.sites.len() - 1);
+        }
+    }
+
+    /// New sites copy the launch settings of the selected site.
+    fn selected_launch_params(&self) -> crate::session::LaunchParams {
+        self.selected_site
+            .and_then(|i| self.sites.get(i))
+            .map(|s| s.launch)
+            .unwrap_or_default()
+    }
+
+    fn save_scenario(&mut self, path: &Path) {
+        match crate::export::scenario_json(self) {
+            Ok(text) => {
+                let r = crate::atomic::write_atomic(path, |w| {
+                    w.write_all(text.as_bytes()).map_err(|e| e.to_string())
+                });
+                match r {
+                    Ok(()) => {
+                        self.info(format!("scenario saved to {}", path.display()));
+                        self.state.remember(RecentFile {
+                            path: path.to_path_buf(),
+                            kind: RecentKind::Scenario,
+                            unit: self.state.unit,
+                        });
+                    }
+                    Err(e) => self.error(format!("scenario not saved: {e}")),
+                }
+            }
+            Err(e) => self.error(format!("scenario not saved: {e}")),
+        }
+    }
+}
+
+/// Cancel any kind of job.
+trait Cancel {
+    fn cancel_job(&self);
+}
+
+impl<T: Send + 'static> Cancel for Job<T> {
+    fn cancel_job(&self) {
+        self.cancel();
+    }
+}
+
+/// Read, check and prepare a shape model (or the demo body) and its body.
+pub(crate) fn load_shape(
+    ctx: &JobContext,
+    file: Option<(PathBuf, LengthUnit)>,
+    mut params: BodyParams,
+) -> Result<(LoadedShape, Arc<BodyView>, BodyParams), String> {
+    ctx.progress.set_stage("reading the file");
+    let (name, source, text) = match &file {
+        Some((path, unit)) => {
+            let text = std::fs::read_to_string(path)
+                .map_err(|e| format!("cannot read {}: {e}", path.display()))?;
+            let name = path
+                .file_stem()
+                .map(|s| s.to_string_lossy().into_owned())
+                .unwrap_or_else(|| "shape".into());
+            (
+                name,
+                ShapeSource::File {
+                    path: path.clone(),
+                    unit: *unit,
+                },
+                text,
+            )
+        }
+        None => (
+            spinfall_gravity::demo::NAME.to_string(),
+            ShapeSource::Demo,
+            spinfall_gravity::demo::OBJ_KM.to_string(),
+        ),
+    };
+    let unit = match &file {
+        Some((_, unit)) => *unit,
+        None => LengthUnit::Kilometre,
+    };
+    if ctx.cancelled() {
+        return Err("loading cancelled".into());
+    }
+    ctx.progress.set_stage("parsing and checking the mesh");
+    ctx.request_repaint();
+    let where_ = match &file {
+        Some((p, _)) => p.display().to_string(),
+        None => name.clone(),
+    };
+    let (mesh, mut warnings) = spinfall_gravity::parse_obj(text.as_bytes(), unit)
+        .map_err(|e| format!("{where_}: {e}"))?;
+    ctx.progress.set_stage("building the BVH and mass properties");
+    ctx.request_repaint();
+    let (shape, more) = ShapeModel::new(mesh).map_err(|e| format!("{where_}: {e}"))?;
+    warnings.extend(more);
+    let shape = shape.recentered();
+    if ctx.cancelled() {
+        return Err("loading cancelled".into());
+    }
+    if file.is_none() {
+        params = BodyParams::default();
+    }
+    params.sync_derived(shape.mass_properties().volume_m3);
+    ctx.progress.set_stage("preparing the gravity field");
+    ctx.request_repaint();
+    let shape = Arc::new(shape);
+    let body = params
+        .build_body(&name, shape.clone())
+        .map_err(|e| format!("{where_}: {e}"))?;
+    let view = Arc::new(BodyView::new(Arc::new(body)));
+    Ok((
+        LoadedShape {
+            name,
+            source,
+            shape,
+            warnings: warnings.iter().map(|w| w.to_string()).collect(),
+        },
+        view,
+        params,
+    ))
+}
+
+/// Expand the sites and fly them.
+fn run_flights(
+    ctx: &JobContext,
+    view: &BodyView,
+    sites: &[SiteEntry],
+    settings: &FlightSettings,
+) -> Result<RunOutput, String> {
+    let start = Instant::now();
+    ctx.progress.set_stage("placing launches");
+    let body = view.body();
+    let mut launches = Vec::new();
+    for site in sites {
+        launches.extend(site.launch_states(body)?);
+    }
+    ctx.progress.set_stage("flying");
+    let progress = |done: usize, total: usize| {
+        ctx.progress.set(done, total);
+        ctx.request_repaint();
+    };
+    let reports =
+        spinfall_dynamics::fly_all(body, &launches, settings, &progress, &ctx.cancel);
+    Ok(RunOutput {
+        cancelled: ctx.cancelled(),
+        launches: launches.len(),
+        reports,
+        elapsed: start.elapsed(),
+    })
+}
+
+impl eframe::App for SpinfallApp {
+    fn ui(&mut self, ui: &mut egui::Ui, _frame: &mut eframe::Frame) {
+        SpinfallApp::ui(self, ui);
+    }
+
+    fn save(&mut self, storage: &mut dyn eframe::Storage) {
+        self.state.export_folder = self.export_form.folder.clone();
+        eframe::set_value(storage, eframe::APP_KEY, &self.state);
+    }
+}

@@ -1,0 +1,354 @@
+//! The results table (sortable, selects the trace in the views) and the plots of the selected
+//! launch.
+
+use egui::Ui;
+use egui_extras::{Column, TableBuilder};
+use egui_plot::{Legend, Line, Plot, PlotPoints};
+use nalgebra::{Point3, Vector3};
+use spinfall_dynamics::{Body, FlightReport, Outcome};
+
+use crate::app::SpinfallApp;
+use crate::command::Command;
+use crate::jobs::{Job, Poll};
+
+/// Table columns.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum ResultColumn {
+    /// Launch identifier.
+    Id,
+    /// Outcome.
+    Outcome,
+    /// Time to first contact.
+    FlightTime,
+    /// Time to rest.
+    RestTime,
+    /// Landing latitude.
+    Lat,
+    /// Landing longitude.
+    Lon,
+    /// Downrange distance.
+    Downrange,
+    /// Max altitude.
+    MaxAltitude,
+    /// First impact speed.
+    ImpactSpeed,
+    /// First impact angle.
+    ImpactAngle,
+    /// Number of contacts.
+    Bounces,
+    /// Jacobi drift.
+    Jacobi,
+    /// Frame agreement.
+    Agreement,
+}
+
+const COLUMNS: [(ResultColumn, &str); 13] = [
+    (ResultColumn::Id, "Launch"),
+    (ResultColumn::Outcome, "Outcome"),
+    (ResultColumn::FlightTime, "Flight time (s)"),
+    (ResultColumn::RestTime, "Rest at (s)"),
+    (ResultColumn::Lat, "Land lat (°)"),
+    (ResultColumn::Lon, "Land lon (°)"),
+    (ResultColumn::Downrange, "Downrange (m)"),
+    (ResultColumn::MaxAltitude, "Max alt (m)"),
+    (ResultColumn::ImpactSpeed, "Impact (m/s)"),
+    (ResultColumn::ImpactAngle, "Impact angle (°)"),
+    (ResultColumn::Bounces, "Contacts"),
+    (ResultColumn::Jacobi, "Jacobi drift"),
+    (ResultColumn::Agreement, "Frame agree (m)"),
+];
+
+/// Sorting of the table.
+#[derive(Default)]
+pub struct TableState {
+    /// Column and ascending flag.
+    pub sort: Option<(ResultColumn, bool)>,
+    /// Plot job for the selected launch.
+    pub(crate) plot_job: Option<Job<PlotSeries>>,
+}
+
+/// Outcome as short text.
+pub fn outcome_text(o: &Outcome) -> String {
+    match o {
+        Outcome::Landed => "landed".into(),
+        Outcome::Escaped => "escaped".into(),
+        Outcome::StillFlying => "still flying".into(),
+        Outcome::Failed { reason } => format!("failed: {reason}"),
+    }
+}
+
+/// Numeric value of a column for sorting (NaN when absent).
+fn sort_value(r: &FlightReport, c: ResultColumn) -> f64 {
+    let first = r.contacts.first();
+    match c {
+        ResultColumn::Id | ResultColumn::Outcome => f64::NAN,
+        ResultColumn::FlightTime => r.first_contact_time_s.unwrap_or(f64::NAN),
+        ResultColumn::RestTime => r.rest_time_s.unwrap_or(f64::NAN),
+        ResultColumn::Lat => r.landing.as_ref().map(|l| l.lat_deg).unwrap_or(f64::NAN),
+        ResultColumn::Lon => r.landing.as_ref().map(|l| l.lon_deg).unwrap_or(f64::NAN),
+        ResultColumn::Downrange => r.downrange_m.unwrap_or(f64::NAN),
+        ResultColumn::MaxAltitude => r.max_altitude_m,
+        ResultColumn::ImpactSpeed => first.map(|c| c.impact_speed_m_s).unwrap_or(f64::NAN),
+        ResultColumn::ImpactAngle => first.map(|c| c.impact_angle_deg).unwrap_or(f64::NAN),
+        ResultColumn::Bounces => r.contacts.len() as f64,
+        ResultColumn::Jacobi => r.jacobi_rel_drift,
+        ResultColumn::Agreement => r.frame_agreement_m,
+    }
+}
+
+/// Row order for a sort (stable; missing values last).
+pub fn sorted_order(reports: &[FlightReport], sort: Option<(ResultColumn, bool)>) -> Vec<usize> {
+    let mut order: Vec<usize> = (0..reports.len()).collect();
+    let Some((col, asc)) = sort else {
+        return order;
+    };
+    order.sort_by(|&a, &b| {
+        let (ra, rb) = (&reports[a], &reports[b]);
+        let ord = match col {
+            ResultColumn::Id => ra.id.cmp(&rb.id),
+            ResultColumn::Outcome => outcome_text(&ra.outcome).cmp(&outcome_text(&rb.outcome)),
+            _ => {
+                let (va, vb) = (sort_value(ra, col), sort_value(rb, col));
+                match (va.is_nan(), vb.is_nan()) {
+                    (true, true) => std::cmp::Ordering::Equal,
+                    (true, false) => return std::cmp::Ordering::Greater,
+                    (false, true) => return std::cmp::Ordering::Less,
+                    _ => va.total_cmp(&vb),
+                }
+            }
+        };
+        if asc { ord } else { ord.reverse() }
+    });
+    order
+}
+
+fn opt(v: Option<f64>, decimals: usize) -> String {
+    match v {
+        Some(v) if v.is_finite() => format!("{v:.decimals$}"),
+        _ => "—".into(),
+    }
+}
+
+/// Time series of the selected launch for the plots.
+#[derive(Debug, Clone, Default)]
+pub struct PlotSeries {
+    /// Index of the launch.
+    pub launch: usize,
+    /// `[t_s, altitude_m]`.
+    pub altitude_m: Vec<[f64; 2]>,
+    /// `[t_s, speed relative to the surface m/s]`.
+    pub speed_body_m_s: Vec<[f64; 2]>,
+    /// `[t_s, inertial speed m/s]`.
+    pub speed_inertial_m_s: Vec<[f64; 2]>,
+    /// `[t_s, (C - C0)/|C0|]` of the Jacobi constant in the body frame.
+    pub jacobi_rel: Vec<[f64; 2]>,
+}
+
+/// Most samples used for the plots (the trace is thinned evenly beyond that).
+const MAX_PLOT_SAMPLES: usize = 600;
+
+/// Compute the plot series (altitude needs ray casts, the Jacobi constant needs the potential:
+/// this runs on a worker thread).
+pub fn plot_series(body: &Body, report: &FlightReport, launch: usize) -> PlotSeries {
+    let samples = &report.trajectory_body;
+    let step = samples.len().div_ceil(MAX_PLOT_SAMPLES).max(1);
+    let omega = body.omega_body_rad_s();
+    let far = body.brillouin_radius_m() * 3.0 + 1.0;
+    let mut out = PlotSeries {
+        launch,
+        ..Default::default()
+    };
+    let mut c0 = None;
+    for s in samples.iter().step_by(step).chain(samples.last()) {
+        let p = Point3::from(s.pos_m);
+        let v = Vector3::from(s.vel_m_s);
+        let r = p.coords.norm();
+        if r > 0.0 {
+            let dir = p.coords / r;
+            let origin = Point3::from(dir * far);
+            if let Some(hit) = body.shape.ray_first_hit(&origin, &(-dir), far) {
+                out.altitude_m.push([s.t_s, r - (far - hit.t)]);
+            }
+        }
+        out.speed_body_m_s.push([s.t_s, v.norm()]);
+        out.speed_inertial_m_s
+            .push([s.t_s, (v + omega.cross(&p.coords)).norm()]);
+        let (u, _) = body.gravity.potential_acceleration(&p);
+        let c = 0.5 * v.norm_squared() - 0.5 * omega.cross(&p.coords).norm_squared() - u;
+        let c0v = *c0.get_or_insert(c);
+        if c0v != 0.0 {
+            out.jacobi_rel.push([s.t_s, (c - c0v) / c0v.abs()]);
+        }
+    }
+    out
+}
+
+impl SpinfallApp {
+    pub(crate) fn results_ui(&mut self, ui: &mut Ui) {
+        ui.horizontal(|ui| {
+            ui.heading("Results");
+            ui.weak(format!("{} launch(es)", self.reports.len()));
+            if ui.button("Export…").clicked() {
+                self.commands.push(Command::ShowExport);
+            }
+        });
+        if self.reports.is_empty() {
+            ui.weak("Run to fill this table (Ctrl+R).");
+            return;
+        }
+        let width = ui.available_width();
+        ui.horizontal_top(|ui| {
+            ui.vertical(|ui| {
+                ui.set_width((width * 0.62).max(300.0));
+                self.table_ui(ui);
+            });
+            ui.separator();
+            ui.vertical(|ui| self.plots_ui(ui));
+        });
+    }
+
+    fn table_ui(&mut self, ui: &mut Ui) {
+        let reports = self.reports.clone();
+        let order = sorted_order(&reports, self.table.sort);
+        let selected = self.state.view.selected_launch;
+        let mut clicked_row = None;
+        let mut clicked_header = None;
+        egui::ScrollArea::horizontal().show(ui, |ui| {
+            let mut table = TableBuilder::new(ui)
+                .striped(true)
+                .resizable(true)
+                .sense(egui::Sense::click())
+                .cell_layout(egui::Layout::left_to_right(egui::Align::Center))
+                .min_scrolled_height(60.0)
+                .max_scroll_height(ui.available_height() - 24.0);
+            for (i, _) in COLUMNS.iter().enumerate() {
+                table = table.column(if i == 1 {
+                    Column::auto().at_least(70.0)
+                } else {
+                    Column::auto().at_least(50.0)
+                });
+            }
+            table
+                .header(22.0, |mut header| {
+                    for (col, name) in COLUMNS {
+                        header.col(|ui| {
+                            let arrow = match self.table.sort {
+                                Some((c, true)) if c == col => " ⏶",
+                                Some((c, false)) if c == col => " ⏷",
+                                _ => "",
+                            };
+                            if ui
+                                .add(egui::Button::new(egui::RichText::new(format!("{name}{arrow}")).strong()).frame(false))
+                                .on_hover_text("Sort by this column")
+                                .clicked()
+                            {
+                                clicked_header = Some(col);
+                            }
+                        });
+                    }
+                })
+                .body(|body| {
+                    body.rows(20.0, order.len(), |mut row| {
+                        let i = order[row.index()];
+                        let r = &reports[i];
+                        row.set_selected(selected == Some(i));
+                        let first = r.contacts.first();
+                        let cells = [
+                            r.id.clone(),
+                            outcome_text(&r.outcome),
+                            opt(r.first_contact_time_s, 1),
+                            opt(r.rest_time_s, 1),
+                            opt(r.landing.as_ref().map(|l| l.lat_deg), 2),
+                            opt(r.landing.as_ref().map(|l| l.lon_deg), 2),
+                            opt(r.downrange_m, 1),
+                            opt(Some(r.max_altitude_m), 1),
+                            opt(first.map(|c| c.impact_speed_m_s), 4),
+                            opt(first.map(|c| c.impact_angle_deg), 1),
+                            r.contacts.len().to_string(),
+                            format!("{:.1e}", r.jacobi_rel_drift),
+                            format!("{:.1e}", r.frame_agreement_m),
+                        ];
+                        for (k, text) in cells.into_iter().enumerate() {
+                            row.col(|ui| {
+                                if k == 0 {
+                                    let c = spinfall_scene::launch_color(i);
+                                    ui.colored_label(egui::Color32::from_rgb(c.r, c.g, c.b), "■");
+                                }
+                                ui.label(text);
+                            });
+                        }
+                        if row.response().clicked() {
+                            clicked_row = Some(i);
+                        }
+                    });
+                });
+        });
+        if let Some(col) = clicked_header {
+            self.table.sort = match self.table.sort {
+                Some((c, asc)) if c == col => Some((col, !asc)),
+                _ => Some((col, true)),
+            };
+        }
+        if let Some(i) = clicked_row {
+            self.commands.push(Command::SelectLaunch(Some(i)));
+        }
+    }
+
+    fn plots_ui(&mut self, ui: &mut Ui) {
+        let Some(i) = self.state.view.selected_launch.filter(|&i| i < self.reports.len()) else {
+            ui.weak("Select a launch to plot it.");
+            return;
+        };
+        // Start or collect the plot job for the selected launch.
+        if let Some(job) = &self.table.plot_job
+            && let Poll::Done(result) = job.poll()
+        {
+            self.table.plot_job = None;
+            if let Ok(series) = result {
+                self.plot_cache = Some(series);
+            }
+        }
+        let have = self.plot_cache.as_ref().map(|p| p.launch) == Some(i);
+        if !have && self.table.plot_job.is_none()
+            && let Some(view) = &self.view
+        {
+            let body = view.body().clone();
+            let reports = self.reports.clone();
+            self.table.plot_job = Some(Job::spawn("Plot", self.repaint.clone(), move |_| {
+                Ok(plot_series(&body, &reports[i], i))
+            }));
+        }
+        let Some(series) = self.plot_cache.as_ref().filter(|p| p.launch == i) else {
+            ui.spinner();
+            return;
+        };
+        ui.strong(format!("Launch {}", self.reports[i].id));
+        let h = ((ui.available_height() - 60.0) / 3.0).max(50.0);
+        let t_now = self.t_s;
+        let plot = |ui: &mut Ui, id: &str, y_label: &str, lines: Vec<(&str, &Vec<[f64; 2]>)>| {
+            Plot::new(id)
+                .height(h)
+                .legend(Legend::default())
+                .x_axis_label("t (s)")
+                .y_axis_label(y_label)
+                .allow_scroll(false)
+                .show(ui, |plot_ui| {
+                    for (name, pts) in lines {
+                        plot_ui.line(Line::new(name, PlotPoints::from(pts.clone())));
+                    }
+                    plot_ui.vline(egui_plot::VLine::new("now", t_now));
+                });
+        };
+        plot(ui, "alt", "altitude (m)", vec![("altitude (m)", &series.altitude_m)]);
+        plot(
+            ui,
+            "speed",
+            "speed (m/s)",
+            vec![
+                ("rel. to surface (m/s)", &series.speed_body_m_s),
+                ("inertial (m/s)", &series.speed_inertial_m_s),
+            ],
+        );
+        plot(ui, "jacobi", "ΔC/|C₀|", vec![("Jacobi drift (relative)", &series.jacobi_rel)]);
+    }
+}

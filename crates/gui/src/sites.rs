@@ -1,0 +1,287 @@
+//! Launch sites: list, rename, remove, add by latitude/longitude, launch parameters of the
+//! selected site with an escape-speed gauge; and the flight settings.
+
+use egui::{Color32, RichText, Ui};
+use spinfall_dynamics::{FanQuantity, FlightSettings};
+
+use crate::app::SpinfallApp;
+use crate::command::Command;
+use crate::session::Spread;
+
+impl SpinfallApp {
+    pub(crate) fn sites_ui(&mut self, ui: &mut Ui) {
+        ui.heading("Launch sites");
+        ui.checkbox(&mut self.click_to_place, "Click on the body to place a site");
+        ui.horizontal(|ui| {
+            ui.label("lat");
+            ui.add(
+                egui::DragValue::new(&mut self.lat_field_deg)
+                    .range(-90.0..=90.0)
+                    .speed(0.5)
+                    .suffix(" °"),
+            );
+            ui.label("lon");
+            ui.add(
+                egui::DragValue::new(&mut self.lon_field_deg)
+                    .range(-180.0..=180.0)
+                    .speed(0.5)
+                    .suffix(" °"),
+            );
+            if ui
+                .add_enabled(self.view.is_some(), egui::Button::new("Add site"))
+                .on_hover_text("Planetocentric latitude/longitude about the spin axis")
+                .clicked()
+            {
+                self.commands.push(Command::AddSiteLatLon {
+                    lat_deg: self.lat_field_deg,
+                    lon_deg: self.lon_field_deg,
+                });
+            }
+        });
+        if self.sites.is_empty() {
+            ui.weak("No sites yet.");
+        }
+        let mut remove = None;
+        for i in 0..self.sites.len() {
+            ui.horizontal(|ui| {
+                let selected = self.selected_site == Some(i);
+                if ui.radio(selected, "").clicked() {
+                    self.selected_site = Some(i);
+                }
+                ui.add(egui::TextEdit::singleline(&mut self.sites[i].name).desired_width(110.0));
+                let n = self.sites[i].launch_count();
+                ui.weak(format!("{n} launch{}", if n == 1 { "" } else { "es" }));
+                if ui.small_button("🗑").on_hover_text("Remove this site").clicked() {
+                    remove = Some(i);
+                }
+            });
+        }
+        if let Some(i) = remove {
+            self.commands.push(Command::RemoveSite(i));
+        }
+        let Some(i) = self.selected_site.filter(|&i| i < self.sites.len()) else {
+            return;
+        };
+        // Where the selected site is and what it takes to leave.
+        let site_info = self.view.as_ref().map(|v| self.sites[i].site(v.body()));
+        ui.separator();
+        ui.label(RichText::new(format!("Selected: {}", self.sites[i].name)).strong());
+        let mut escape_normal = None;
+        match &site_info {
+            Some(Ok(site)) => {
+                ui.label(format!(
+                    "lat {:.2}°, lon {:.2}°, face {}",
+                    site.lat_deg, site.lon_deg, site.face
+                ));
+                escape_normal = Some((site.escape_speed_normal_m_s, site.escape_speed_min_m_s));
+            }
+            Some(Err(e)) => {
+                ui.colored_label(Color32::from_rgb(255, 110, 100), e);
+            }
+            None => {}
+        }
+        let launch = &mut self.sites[i].launch;
+        egui::Grid::new("launch").num_columns(2).show(ui, |ui| {
+            ui.label("Speed:");
+            ui.add(
+                egui::DragValue::new(&mut launch.speed_m_s)
+                    .range(0.0..=1000.0)
+                    .speed(0.005)
+                    .max_decimals(4)
+                    .suffix(" m/s"),
+            );
+            ui.end_row();
+            ui.label("Azimuth (from north, east +):");
+            ui.add(
+                egui::DragValue::new(&mut launch.azimuth_deg)
+                    .range(-360.0..=360.0)
+                    .speed(1.0)
+                    .suffix(" °"),
+            );
+            ui.end_row();
+            ui.label("Elevation:");
+            ui.add(
+                egui::DragValue::new(&mut launch.elevation_deg)
+                    .range(-90.0..=90.0)
+                    .speed(1.0)
+                    .suffix(" °"),
+            );
+            ui.end_row();
+        });
+        if let Some((v_normal, v_min)) = escape_normal {
+            escape_gauge_ui(ui, launch.speed_m_s, v_normal, v_min);
+        }
+        ui.horizontal(|ui| {
+            ui.label("Spread:");
+            let single = matches!(launch.spread, Spread::Single);
+            let fan = matches!(launch.spread, Spread::Fan { .. });
+            let disp = matches!(launch.spread, Spread::Dispersion { .. });
+            if ui.radio(single, "single").clicked() {
+                launch.spread = Spread::Single;
+            }
+            if ui.radio(fan, "fan").clicked() && !fan {
+                launch.spread = Spread::Fan {
+                    vary: FanQuantity::AzimuthDeg,
+                    to: launch.azimuth_deg + 315.0,
+                    count: 8,
+                };
+            }
+            if ui.radio(disp, "dispersion").clicked() && !disp {
+                launch.spread = Spread::Dispersion {
+                    count: 20,
+                    speed_sigma_percent: 10.0,
+                    direction_sigma_deg: 5.0,
+                    seed: 1,
+                };
+            }
+        });
+        match &mut launch.spread {
+            Spread::Single => {}
+            Spread::Fan { vary, to, count } => {
+                egui::Grid::new("fan").num_columns(2).show(ui, |ui| {
+                    ui.label("Sweep:");
+                    egui::ComboBox::from_id_salt("fan_vary")
+                        .selected_text(fan_name(*vary))
+                        .show_ui(ui, |ui| {
+                            for q in [
+                                FanQuantity::AzimuthDeg,
+                                FanQuantity::ElevationDeg,
+                                FanQuantity::SpeedMS,
+                            ] {
+                                ui.selectable_value(vary, q, fan_name(q));
+                            }
+                        });
+                    ui.end_row();
+                    ui.label("Up to:");
+                    let unit = if *vary == FanQuantity::SpeedMS { " m/s" } else { " °" };
+                    ui.add(egui::DragValue::new(to).speed(0.5).suffix(unit));
+                    ui.end_row();
+                    ui.label("Launches:");
+                    ui.add(egui::DragValue::new(count).range(1..=500));
+                    ui.end_row();
+                });
+            }
+            Spread::Dispersion {
+                count,
+                speed_sigma_percent,
+                direction_sigma_deg,
+                seed,
+            } => {
+                egui::Grid::new("disp").num_columns(2).show(ui, |ui| {
+                    ui.label("Launches:");
+                    ui.add(egui::DragValue::new(count).range(1..=1000));
+                    ui.end_row();
+                    ui.label("Speed error (1σ):");
+                    ui.add(
+                        egui::DragValue::new(speed_sigma_percent)
+                            .range(0.0..=100.0)
+                            .speed(0.5)
+                            .suffix(" %"),
+                    );
+                    ui.end_row();
+                    ui.label("Direction error (1σ):");
+                    ui.add(
+                        egui::DragValue::new(direction_sigma_deg)
+                            .range(0.0..=45.0)
+                            .speed(0.2)
+                            .suffix(" °"),
+                    );
+                    ui.end_row();
+                    ui.label("Seed:");
+                    ui.add(egui::DragValue::new(seed));
+                    ui.end_row();
+                });
+            }
+        }
+    }
+}
+
+fn fan_name(q: FanQuantity) -> &'static str {
+    match q {
+        FanQuantity::AzimuthDeg => "azimuth (°)",
+        FanQuantity::ElevationDeg => "elevation (°)",
+        FanQuantity::SpeedMS => "speed (m/s)",
+    }
+}
+
+/// A bar showing the launch speed against the local escape speeds.
+fn escape_gauge_ui(ui: &mut Ui, speed_m_s: f64, v_normal_m_s: f64, v_min_m_s: f64) {
+    let full = (v_normal_m_s.max(v_min_m_s) * 1.5).max(speed_m_s * 1.05).max(1e-9);
+    let (rect, _) = ui.allocate_exact_size(egui::vec2(ui.available_width().min(300.0), 18.0), egui::Sense::hover());
+    let painter = ui.painter_at(rect);
+    painter.rect_filled(rect, 3.0, Color32::from_gray(40));
+    let x = |v: f64| rect.left() + rect.width() * (v / full).clamp(0.0, 1.0) as f32;
+    let regime_color = if speed_m_s >= v_normal_m_s {
+        Color32::from_rgb(230, 80, 70)
+    } else if speed_m_s >= v_min_m_s {
+        Color32::from_rgb(230, 180, 60)
+    } else {
+        Color32::from_rgb(90, 190, 110)
+    };
+    painter.rect_filled(
+        egui::Rect::from_min_max(rect.min, egui::pos2(x(speed_m_s), rect.max.y)),
+        3.0,
+        regime_color,
+    );
+    for (v, c) in [(v_min_m_s, Color32::LIGHT_BLUE), (v_normal_m_s, Color32::WHITE)] {
+        painter.line_segment(
+            [egui::pos2(x(v), rect.top()), egui::pos2(x(v), rect.bottom())],
+            egui::Stroke::new(2.0, c),
+        );
+    }
+    let regime = if speed_m_s >= v_normal_m_s {
+        "above the escape speed along the normal"
+    } else if speed_m_s >= v_min_m_s {
+        "between the minimum and normal escape speeds"
+    } else {
+        "below escape: it comes back down"
+    };
+    ui.label(format!(
+        "Escape speed here: {v_normal_m_s:.3} m/s along the normal (white), {v_min_m_s:.3} m/s minimum (blue). Launch is {regime}."
+    ));
+}
+
+/// Flight settings (time limit, contacts).
+pub(crate) fn flight_settings_ui(settings: &mut FlightSettings, ui: &mut Ui) {
+    egui::CollapsingHeader::new("Flight settings")
+        .default_open(false)
+        .show(ui, |ui| {
+            egui::Grid::new("flight").num_columns(2).show(ui, |ui| {
+                let mut hours = settings.integrator.max_time_s / 3600.0;
+                ui.label("Time limit:");
+                if ui
+                    .add(egui::DragValue::new(&mut hours).range(0.01..=1000.0).speed(0.1).suffix(" h"))
+                    .changed()
+                {
+                    settings.integrator.max_time_s = hours * 3600.0;
+                }
+                ui.end_row();
+                ui.label("Relative tolerance:");
+                ui.add(
+                    egui::DragValue::new(&mut settings.integrator.rel_tol)
+                        .range(1e-14..=1e-4)
+                        .speed(1e-11)
+                        .custom_formatter(|v, _| format!("{v:.1e}")),
+                );
+                ui.end_row();
+                let b = &mut settings.bounce;
+                ui.label("Normal restitution:");
+                ui.add(egui::DragValue::new(&mut b.normal_restitution).range(0.0..=1.0).speed(0.01));
+                ui.end_row();
+                ui.label("Tangential restitution:");
+                ui.add(egui::DragValue::new(&mut b.tangential_restitution).range(0.0..=1.0).speed(0.01));
+                ui.end_row();
+                ui.label("Max bounces:");
+                ui.add(egui::DragValue::new(&mut b.max_bounces).range(0..=1000));
+                ui.end_row();
+                ui.label("Rest below:");
+                ui.add(
+                    egui::DragValue::new(&mut b.rest_speed_m_s)
+                        .range(0.0..=10.0)
+                        .speed(0.001)
+                        .suffix(" m/s"),
+                );
+                ui.end_row();
+            });
+        });
+}

@@ -1,0 +1,76 @@
+//! What the app remembers between runs (eframe persistence).
+
+use std::path::PathBuf;
+
+use serde::{Deserialize, Serialize};
+use spinfall_gravity::LengthUnit;
+use spinfall_scene::ViewOptions;
+
+/// How many recent files the File menu keeps.
+pub const MAX_RECENT: usize = 8;
+
+/// Persisted app state: plain data only, every field defaulted so old files still load.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(default)]
+pub struct PersistedState {
+    /// Recently opened shape models and scenarios, newest first.
+    pub recent_files: Vec<RecentFile>,
+    /// Length unit last chosen for shape files.
+    pub unit: LengthUnit,
+    /// View toggles shared by both 3D views.
+    pub view: ViewOptions,
+    /// Orbit/zoom the two views together.
+    pub link_cameras: bool,
+    /// Folder exports go to (typed or chosen).
+    pub export_folder: String,
+    /// Image export size, pixels.
+    pub export_size_px: [u32; 2],
+    /// Show the results panel at the bottom.
+    pub show_results: bool,
+    /// Animation speed: simulated seconds per wall-clock second.
+    pub playback_speed: f64,
+}
+
+impl Default for PersistedState {
+    fn default() -> Self {
+        Self {
+            recent_files: Vec::new(),
+            unit: LengthUnit::Kilometre,
+            view: ViewOptions::default(),
+            link_cameras: false,
+            export_folder: String::new(),
+            export_size_px: [1920, 1080],
+            show_results: true,
+            playback_speed: 600.0,
+        }
+    }
+}
+
+/// A file in the recent list.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct RecentFile {
+    /// Where it is.
+    pub path: PathBuf,
+    /// What it is.
+    pub kind: RecentKind,
+    /// Length unit used when it was a shape model.
+    pub unit: LengthUnit,
+}
+
+/// Kind of a recent file.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+pub enum RecentKind {
+    /// A Wavefront OBJ shape model.
+    Shape,
+    /// A scenario JSON file.
+    Scenario,
+}
+
+impl PersistedState {
+    /// Put `file` at the top of the recent list.
+    pub fn remember(&mut self, file: RecentFile) {
+        self.recent_files.retain(|f| f.path != file.path);
+        self.recent_files.insert(0, file);
+        self.recent_files.truncate(MAX_RECENT);
+    }
+}

@@ -1,0 +1,384 @@
+//! The two 3D views: CPU-rendered images uploaded as textures, with orbit/pan/zoom, picking
+//! and hover read-out, and the time bar that animates them.
+
+use egui::{Color32, ColorImage, PointerButton, Rect, Sense, TextureHandle, TextureOptions, Ui};
+use nalgebra::{Point3, Vector3};
+use spinfall_render::{Camera, RenderOptions, Renderer};
+use spinfall_scene::{BodyView, Frame, ViewOptions, default_camera, frame_scene, time_stamp};
+
+use crate::app::SpinfallApp;
+use crate::body_panel::fmt_duration;
+use crate::command::Command;
+
+/// What is under the pointer.
+#[derive(Debug, Clone, PartialEq)]
+pub struct HoverInfo {
+    /// Face index.
+    pub face: usize,
+    /// Planetocentric latitude, degrees.
+    pub lat_deg: f64,
+    /// Longitude, degrees east.
+    pub lon_deg: f64,
+    /// `(field name, value with unit)` of the surface map there.
+    pub values: Vec<(String, String)>,
+}
+
+/// Everything that changes the picture; a new render happens only when this changes.
+#[derive(Debug, Clone, PartialEq)]
+struct RenderKey {
+    eye: [f64; 3],
+    target: [f64; 3],
+    up: [f64; 3],
+    size_px: [u32; 2],
+    t_s: f64,
+    data_generation: u64,
+    options: ViewOptions,
+}
+
+/// One view: its camera, renderer buffers and texture.
+pub struct ViewPane {
+    /// Which frame it shows.
+    pub frame: Frame,
+    /// Its camera (created when the body arrives).
+    pub camera: Option<Camera>,
+    /// Fit the camera to the body at the next frame.
+    pub reset_camera: bool,
+    renderer: Renderer,
+    texture: Option<TextureHandle>,
+    last_key: Option<RenderKey>,
+    /// Screen rectangle of the image in the last frame (points).
+    pub rect: Option<Rect>,
+    /// Renders done (for tests and the frame counter).
+    pub renders: u64,
+}
+
+impl ViewPane {
+    /// A view of `frame` with no camera yet.
+    pub fn new(frame: Frame) -> Self {
+        Self {
+            frame,
+            camera: None,
+            reset_camera: true,
+            renderer: Renderer::new(),
+            texture: None,
+            last_key: None,
+            rect: None,
+            renders: 0,
+        }
+    }
+
+    /// Re-render into the texture if anything changed.
+    #[allow(clippy::too_many_arguments)]
+    fn update_texture(
+        &mut self,
+        ctx: &egui::Context,
+        view: &BodyView,
+        reports: &[spinfall_dynamics::FlightReport],
+        t_s: f64,
+        options: &ViewOptions,
+        size_px: [u32; 2],
+        data_generation: u64,
+    ) {
+        let Some(camera) = &mut self.camera else {
+            return;
+        };
+        if camera.width_px() != size_px[0] || camera.height_px() != size_px[1] {
+            camera.set_viewport(size_px[0], size_px[1]);
+        }
+        let key = RenderKey {
+            eye: camera.eye().into(),
+            target: camera.target().into(),
+            up: camera.up().into(),
+            size_px,
+            // The body-fixed view without trails or particles does not change with time, but
+            // markers at t do: keep t in the key for both.
+            t_s,
+            data_generation,
+            options: options.clone(),
+        };
+        if self.last_key.as_ref() == Some(&key) && self.texture.is_some() {
+            return;
+        }
+        let scene = frame_scene(view, reports, t_s, options, size_px, self.frame);
+        let image = self
+            .renderer
+            .render(&scene, camera, &RenderOptions::new(size_px[0], size_px[1]));
+        let color_image = ColorImage::from_rgba_unmultiplied(
+            [image.width as usize, image.height as usize],
+            &image.as_rgba_bytes(),
+        );
+        match &mut self.texture {
+            Some(t) => t.set(color_image, TextureOptions::LINEAR),
+            None => {
+                self.texture = Some(ctx.load_texture(
+                    format!("view-{:?}", self.frame),
+                    color_image,
+                    TextureOptions::LINEAR,
+                ))
+            }
+        }
+        self.renders += 1;
+        self.last_key = Some(key);
+    }
+}
+
+/// Camera moves from one frame's input, applied to one or both panes.
+#[derive(Debug, Clone, Copy, Default)]
+struct CameraInput {
+    orbit: [f64; 2],
+    pan: [f64; 2],
+    zoom: f64,
+}
+
+impl CameraInput {
+    fn any(&self) -> bool {
+        self.orbit != [0.0; 2] || self.pan != [0.0; 2] || self.zoom != 1.0
+    }
+
+    fn apply(&self, camera: &mut Camera) {
+        if self.orbit != [0.0; 2] {
+            camera.orbit(self.orbit[0], self.orbit[1]);
+        }
+        if self.pan != [0.0; 2] {
+            camera.pan(self.pan[0], self.pan[1]);
+        }
+        if self.zoom != 1.0 {
+            camera.zoom(self.zoom);
+        }
+    }
+}
+
+impl SpinfallApp {
+    pub(crate) fn views_ui(&mut self, ui: &mut Ui) {
+        self.time_bar_ui(ui);
+        let Some(view) = self.view.clone() else {
+            ui.centered_and_justified(|ui| {
+                if self.load_job.is_some() {
+                    ui.spinner();
+                } else {
+                    ui.label("No body loaded. Open a shape model (Ctrl+O) or drop an .obj here.");
+                }
+            });
+            return;
+        };
+        let ppp = ui.ctx().pixels_per_point();
+        let avail = ui.available_size();
+        let gap = 6.0;
+        let title_h = 18.0;
+        let pane_w = ((avail.x - gap) / 2.0).max(32.0);
+        let pane_h = (avail.y - title_h).max(32.0);
+        let size_px = [
+            (pane_w * ppp).round().max(16.0) as u32,
+            (pane_h * ppp).round().max(16.0) as u32,
+        ];
+        let mut inputs = [CameraInput::default(), CameraInput::default()];
+        let mut hover = None;
+        let mut click = None;
+        ui.horizontal_top(|ui| {
+            ui.spacing_mut().item_spacing.x = gap;
+            for (k, pane) in self.panes.iter_mut().enumerate() {
+                ui.vertical(|ui| {
+                    ui.set_width(pane_w);
+                    ui.horizontal(|ui| {
+                        ui.strong(pane.frame.title());
+                        if pane.frame == Frame::Inertial {
+                            ui.weak("(the body turns)");
+                        } else {
+                            ui.weak("(turns with the body)");
+                        }
+                    });
+                    if pane.reset_camera || pane.camera.is_none() {
+                        pane.camera = Some(default_camera(&view.body().shape, size_px[0], size_px[1]));
+                        pane.reset_camera = false;
+                        pane.last_key = None;
+                    }
+                    let (rect, response) =
+                        ui.allocate_exact_size(egui::vec2(pane_w, pane_h), Sense::click_and_drag());
+                    pane.rect = Some(rect);
+                    // Camera input.
+                    let delta = response.drag_delta() * ppp;
+                    let (dx, dy) = (delta.x as f64, delta.y as f64);
+                    let input = &mut inputs[k];
+                    input.zoom = 1.0;
+                    if response.dragged_by(PointerButton::Primary) {
+                        input.orbit = [dx, dy];
+                    } else if response.dragged_by(PointerButton::Secondary)
+                        || response.dragged_by(PointerButton::Middle)
+                    {
+                        input.pan = [dx, dy];
+                    }
+                    if response.hovered() {
+                        let scroll = ui.ctx().input(|i| i.smooth_scroll_delta.y);
+                        if scroll != 0.0 {
+                            input.zoom = (scroll as f64 * 0.0025).exp();
+                        }
+                    }
+                    // Picking.
+                    let to_px = |p: egui::Pos2| {
+                        (((p.x - rect.min.x) * ppp) as f64, ((p.y - rect.min.y) * ppp) as f64)
+                    };
+                    if let Some(camera) = &pane.camera {
+                        if response.clicked_by(PointerButton::Primary)
+                            && let Some(p) = response.interact_pointer_pos()
+                        {
+                            let (x, y) = to_px(p);
+                            click = pick(&view, camera, pane.frame, self.t_s, x, y);
+                        }
+                        if let Some(p) = response.hover_pos()
+                            && !response.dragged()
+                        {
+                            let (x, y) = to_px(p);
+                            hover = pick(&view, camera, pane.frame, self.t_s, x, y);
+                        }
+                    }
+                    pane.update_texture(
+                        ui.ctx(),
+                        &view,
+                        &self.reports,
+                        self.t_s,
+                        &self.state.view,
+                        size_px,
+                        self.data_generation,
+                    );
+                    if let Some(tex) = &pane.texture {
+                        ui.painter().image(
+                            tex.id(),
+                            rect,
+                            Rect::from_min_max(egui::pos2(0.0, 0.0), egui::pos2(1.0, 1.0)),
+                            Color32::WHITE,
+                        );
+                    }
+                    if response.hovered() && self.click_to_place {
+                        ui.ctx().set_cursor_icon(egui::CursorIcon::Crosshair);
+                    }
+                });
+            }
+        });
+        // Apply camera moves (to both panes when linked).
+        let linked = self.state.link_cameras;
+        for k in 0..2 {
+            if !inputs[k].any() {
+                continue;
+            }
+            for (j, pane) in self.panes.iter_mut().enumerate() {
+                if (j == k || linked)
+                    && let Some(c) = &mut pane.camera
+                {
+                    inputs[k].apply(c);
+                }
+            }
+        }
+        if let Some((point_body_m, face)) = click
+            && self.click_to_place
+        {
+            self.commands.push(Command::AddSiteAtPoint { point_body_m, face });
+        }
+        self.hover = hover.map(|(p, face)| hover_info(&view, face, &p));
+    }
+
+    fn time_bar_ui(&mut self, ui: &mut Ui) {
+        let end = self.end_time_s();
+        ui.horizontal(|ui| {
+            let label = if self.playing { "⏸ Pause" } else { "▶ Play" };
+            if ui.button(label).on_hover_text("Space").clicked() {
+                self.commands.push(Command::TogglePlay);
+            }
+            if ui.button("⏮").on_hover_text("Back to t = 0").clicked() {
+                self.t_s = 0.0;
+            }
+            ui.label("t");
+            let w = (ui.available_width() - 380.0).max(120.0);
+            ui.spacing_mut().slider_width = w;
+            ui.add(
+                egui::Slider::new(&mut self.t_s, 0.0..=end)
+                    .show_value(false)
+                    .clamping(egui::SliderClamping::Always),
+            );
+            let period = self.view.as_ref().map(|v| v.body().spin.period_s).unwrap_or(0.0);
+            ui.label(time_stamp(self.t_s, period));
+            ui.label("speed");
+            ui.add(
+                egui::DragValue::new(&mut self.state.playback_speed)
+                    .range(1.0..=1e6)
+                    .speed(10.0)
+                    .suffix(" s/s"),
+            )
+            .on_hover_text("Simulated seconds per second of animation");
+            ui.weak(format!("of {}", fmt_duration(end)));
+        });
+    }
+}
+
+/// The picking ray of pixel `(x_px, y_px)` in the body frame.
+fn body_ray(
+    view: &BodyView,
+    camera: &Camera,
+    frame: Frame,
+    t_s: f64,
+    x_px: f64,
+    y_px: f64,
+) -> (Point3<f64>, Vector3<f64>) {
+    let (origin, dir) = camera.ray_at_pixel(x_px, y_px);
+    match frame {
+        Frame::BodyFixed => (origin, dir),
+        // The inertial view shows the body turned by inertial_from_body(t): undo it.
+        Frame::Inertial => {
+            let r = view.body().body_from_inertial(t_s);
+            (r * origin, r * dir)
+        }
+    }
+}
+
+/// The body-frame surface point and face under pixel `(x_px, y_px)`, if the body is there.
+pub(crate) fn pick(
+    view: &BodyView,
+    camera: &Camera,
+    frame: Frame,
+    t_s: f64,
+    x_px: f64,
+    y_px: f64,
+) -> Option<(Point3<f64>, usize)> {
+    let (origin, dir) = body_ray(view, camera, frame, t_s, x_px, y_px);
+    let max_t = (origin.coords.norm() + view.body().brillouin_radius_m()) * 2.0 + 1.0;
+    view.body()
+        .shape
+        .ray_first_hit(&origin, &dir, max_t)
+        .map(|hit| (hit.point_m, hit.face))
+}
+
+fn hover_info(view: &BodyView, face: usize, p: &Point3<f64>) -> HoverInfo {
+    let (lat_deg, lon_deg) = spinfall_dynamics::site::lat_lon_deg(view.body(), p);
+    let mut values = Vec::new();
+    if let Some(map) = view.map() {
+        for field in spinfall_dynamics::SurfaceField::ALL {
+            if let Some(v) = map.values(field).get(face) {
+                values.push((field.name().to_string(), format!("{} {}", spinfall_render::format_value(*v), field.unit())));
+            }
+        }
+    }
+    HoverInfo {
+        face,
+        lat_deg,
+        lon_deg,
+        values,
+    }
+}
+
+/// Test hook: the number of renders each pane has done.
+impl SpinfallApp {
+    /// Renders done by the body-fixed and inertial panes (each render happens only when
+    /// something changed).
+    pub fn render_counts(&self) -> [u64; 2] {
+        [self.panes[0].renders, self.panes[1].renders]
+    }
+
+    /// Screen rectangle (points) of the body-fixed (0) or inertial (1) view in the last frame.
+    pub fn view_rect(&self, pane: usize) -> Option<Rect> {
+        self.panes.get(pane).and_then(|p| p.rect)
+    }
+
+    /// Camera of a pane (0 body-fixed, 1 inertial).
+    pub fn camera(&self, pane: usize) -> Option<&Camera> {
+        self.panes.get(pane).and_then(|p| p.camera.as_ref())
+    }
+}

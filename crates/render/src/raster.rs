@@ -1,0 +1,358 @@
+//! The triangle and line rasterizer working on horizontal bands of the framebuffer.
+//!
+//! Depth keys: smaller is closer. Perspective cameras store `-1/d` (affine in screen space, so
+//! linear interpolation over a triangle is perspective-correct), orthographic cameras store the
+//! view depth `d` itself (already affine). `d` is the distance along the view direction, metres.
+
+use crate::color::Color;
+
+/// Rows per band; each band is owned by one rayon task.
+pub(crate) const BAND_H: usize = 16;
+/// Sub-pixel precision of triangle vertices (1/16 px).
+const SUB: f32 = 16.0;
+/// Largest accepted |coordinate| of a triangle vertex, pixels (keeps edge functions exact in i64).
+pub(crate) const MAX_COORD_PX: f32 = 4.0e6;
+
+/// A set-up triangle, screen space (shading and wireframe are per job, see the pipeline).
+#[derive(Clone, Copy, Debug)]
+pub(crate) struct TriRec {
+    pub x: [f32; 3],
+    pub y: [f32; 3],
+    pub key: [f32; 3],
+    /// Final colour (flat) or base colour (smooth).
+    pub color: Color,
+    /// Face index (for the id buffer).
+    pub face: u32,
+}
+
+/// A triangle small enough to be resolved at set-up: one covered pixel.
+#[derive(Clone, Copy, Debug)]
+pub(crate) struct PointRec {
+    /// Pixel index in the whole frame.
+    pub idx: u32,
+    pub key: f32,
+    pub color: Color,
+    pub face: u32,
+}
+
+/// Pixel-centre bounding box of a triangle, clipped to the frame: x0, x1, y0, y1 inclusive.
+#[inline]
+pub(crate) fn pixel_bbox(t: &TriRec, w: f32, h: f32) -> Option<[u32; 4]> {
+    let xmin = t.x[0].min(t.x[1]).min(t.x[2]);
+    let xmax = t.x[0].max(t.x[1]).max(t.x[2]);
+    let ymin = t.y[0].min(t.y[1]).min(t.y[2]);
+    let ymax = t.y[0].max(t.y[1]).max(t.y[2]);
+    let x0 = (xmin - 0.5).ceil().max(0.0);
+    let x1 = (xmax - 0.5).floor().min(w - 1.0);
+    let y0 = (ymin - 0.5).ceil().max(0.0);
+    let y1 = (ymax - 0.5).floor().min(h - 1.0);
+    (x0 <= x1 && y0 <= y1).then_some([x0 as u32, x1 as u32, y0 as u32, y1 as u32])
+}
+
+/// Edge functions and attribute planes of a triangle, evaluated from pixel centre (x_lo, y_lo).
+pub(crate) struct Setup {
+    /// Edge values at the start pixel (fixed point, exact), non-negative inside.
+    pub e: [i64; 3],
+    pub ex: [i64; 3],
+    pub ey: [i64; 3],
+    /// Depth key at the start pixel and its steps.
+    pub z: f32,
+    pub zx: f32,
+    pub zy: f32,
+    /// Inverse edge lengths for wireframe distances (pixels per edge unit).
+    pub inv_len: [f32; 3],
+}
+
+/// Gradient of an attribute over the triangle and its value at pixel centre (x_lo, y_lo).
+#[inline]
+pub(crate) fn plane(t: &TriRec, f: [f32; 3], x_lo: u32, y_lo: u32) -> Option<(f32, f32, f32)> {
+    let (x0, y0) = (t.x[0], t.y[0]);
+    let (dx1, dy1) = (t.x[1] - x0, t.y[1] - y0);
+    let (dx2, dy2) = (t.x[2] - x0, t.y[2] - y0);
+    let det = dx1 * dy2 - dx2 * dy1;
+    if det == 0.0 || !det.is_finite() {
+        return None;
+    }
+    let inv = 1.0 / det;
+    let (f1, f2) = (f[1] - f[0], f[2] - f[0]);
+    let gx = (f1 * dy2 - f2 * dy1) * inv;
+    let gy = (f2 * dx1 - f1 * dx2) * inv;
+    let start = f[0] + gx * (x_lo as f32 + 0.5 - x0) + gy * (y_lo as f32 + 0.5 - y0);
+    Some((gx, gy, start))
+}
+
+/// Sets up the fixed-point edge functions (exact, so shared edges leave no cracks) and the depth
+/// plane of `t`, starting at pixel centre `(x_lo, y_lo)`.
+#[inline]
+pub(crate) fn setup_edges(t: &TriRec, x_lo: u32, y_lo: u32, want_len: bool) -> Option<Setup> {
+    let (ax, ay) = (fx(t.x[0]), fx(t.y[0]));
+    let (bx, by) = (fx(t.x[1]), fx(t.y[1]));
+    let (cx, cy) = (fx(t.x[2]), fx(t.y[2]));
+    let area = (bx - ax) * (cy - ay) - (by - ay) * (cx - ax);
+    if area == 0 {
+        return None;
+    }
+    let sign: i64 = if area < 0 { -1 } else { 1 };
+    let pxc = x_lo as i64 * 16 + 8;
+    let pyc = y_lo as i64 * 16 + 8;
+    // E_ab(p) = (b - a) x (p - a); edge k is opposite vertex k.
+    let edge = |px0: i64, py0: i64, px1: i64, py1: i64| {
+        let e = ((px1 - px0) * (pyc - py0) - (py1 - py0) * (pxc - px0)) * sign;
+        (e, -(py1 - py0) * sign * 16, (px1 - px0) * sign * 16)
+    };
+    let (e0, e0x, e0y) = edge(bx, by, cx, cy);
+    let (e1, e1x, e1y) = edge(cx, cy, ax, ay);
+    let (e2, e2x, e2y) = edge(ax, ay, bx, by);
+    let (zx, zy, z) = plane(t, t.key, x_lo, y_lo)?;
+    let inv_len = if want_len {
+        let len = |x0: i64, y0: i64, x1: i64, y1: i64| {
+            let (dx, dy) = ((x1 - x0) as f32, (y1 - y0) as f32);
+            // E is in (1/16 px)^2; distance in px = E / (16 * |edge in 1/16 px|).
+            1.0 / (16.0 * (dx * dx + dy * dy).sqrt().max(1e-6))
+        };
+        [len(bx, by, cx, cy), len(cx, cy, ax, ay), len(ax, ay, bx, by)]
+    } else {
+        [0.0; 3]
+    };
+    Some(Setup {
+        e: [e0, e1, e2],
+        ex: [e0x, e1x, e2x],
+        ey: [e0y, e1y, e2y],
+        z,
+        zx,
+        zy,
+        inv_len,
+    })
+}
+
+/// A set-up line segment, screen space.
+#[derive(Clone, Copy, Debug)]
+pub(crate) struct SegRec {
+    pub x0: f32,
+    pub y0: f32,
+    pub x1: f32,
+    pub y1: f32,
+    pub k0: f32,
+    pub k1: f32,
+    pub c0: Color,
+    pub c1: Color,
+    /// Half width, pixels.
+    pub hw: f32,
+    /// Screen length of the polyline before this segment, pixels (for dashes).
+    pub s0: f32,
+    /// `(on, off)` pixels, or `(0, 0)` for solid.
+    pub dash: (f32, f32),
+    /// Opacity of hidden parts (0 = not drawn).
+    pub hidden_alpha: f32,
+}
+
+/// One band of the framebuffer.
+pub(crate) struct Band<'a> {
+    pub color: &'a mut [Color],
+    pub depth: &'a mut [f32],
+    /// Face id + 1 per pixel and mesh index, or empty when ids are not wanted.
+    pub ids: &'a mut [(u32, u32)],
+    pub width: usize,
+    pub y0: usize,
+    pub rows: usize,
+}
+
+/// Depth test tolerance for lines and markers against the meshes, in key space.
+#[derive(Clone, Copy, Debug)]
+pub(crate) struct DepthBias {
+    /// Perspective: visible iff `k <= stored * factor` (keys are `-1/d`, factor = 1/(1+rel)).
+    /// Orthographic: visible iff `k <= stored + absolute + rel * |stored|`.
+    pub perspective: bool,
+    pub factor: f32,
+    pub rel: f32,
+    pub absolute: f32,
+}
+
+impl DepthBias {
+    /// Whether a point at key `k` is visible against the stored key `stored`.
+    #[inline]
+    pub fn visible(&self, k: f32, stored: f32) -> bool {
+        if self.perspective {
+            k <= stored * self.factor
+        } else {
+            k <= stored + self.absolute + self.rel * stored.abs()
+        }
+    }
+}
+
+/// Fixed-point vertex.
+#[inline]
+fn fx(v: f32) -> i64 {
+    (v * SUB).round() as i64
+}
+
+impl Band<'_> {
+    /// Writes a set-up pixel (z-buffered).
+    #[inline]
+    pub fn point(&mut self, p: &PointRec, mesh: u32) {
+        let i = p.idx as usize - self.y0 * self.width;
+        if let Some(d) = self.depth.get_mut(i)
+            && p.key < *d
+        {
+            *d = p.key;
+            self.color[i] = p.color;
+            if let Some(id) = self.ids.get_mut(i) {
+                *id = (p.face + 1, mesh);
+            }
+        }
+    }
+
+    /// Rasterizes one triangle into this band (z-buffered, opaque). `shade` holds per-vertex
+    /// brightness for smooth shading.
+    #[inline]
+    pub fn triangle(
+        &mut self,
+        t: &TriRec,
+        shade: Option<[f32; 3]>,
+        wire: Option<Color>,
+        mesh: u32,
+        frame_h: usize,
+    ) {
+        let Some(bb) = pixel_bbox(t, self.width as f32, frame_h as f32) else {
+            return;
+        };
+        let y_lo = (bb[2] as usize).max(self.y0);
+        let y_hi = (bb[3] as usize).min(self.y0 + self.rows - 1);
+        if y_lo > y_hi {
+            return;
+        }
+        let (x_lo, x_hi) = (bb[0] as usize, bb[1] as usize);
+        let Some(st) = setup_edges(t, x_lo as u32, y_lo as u32, wire.is_some()) else {
+            return;
+        };
+        let (sx, sy, mut sr) = match shade.and_then(|s| plane(t, s, x_lo as u32, y_lo as u32)) {
+            Some(p) => p,
+            None => (0.0, 0.0, 1.0),
+        };
+        let smooth = shade.is_some();
+        let [mut e0r, mut e1r, mut e2r] = st.e;
+        let mut zr = st.z;
+        let w = self.width;
+        let want_ids = !self.ids.is_empty();
+        for y in y_lo..=y_hi {
+            let row = (y - self.y0) * w;
+            let (mut e0, mut e1, mut e2) = (e0r, e1r, e2r);
+            let (mut z, mut s) = (zr, sr);
+            for x in x_lo..=x_hi {
+                if (e0 | e1 | e2) >= 0 {
+                    let i = row + x;
+                    if z < self.depth[i] {
+                        self.depth[i] = z;
+                        let mut c = if smooth { t.color.scaled(s) } else { t.color };
+                        if let Some(wc) = wire {
+                            let d = (e0 as f32 * st.inv_len[0])
+                                .min(e1 as f32 * st.inv_len[1])
+                                .min(e2 as f32 * st.inv_len[2]);
+                            if d < 0.75 {
+                                c = wc.over(c, 1.0);
+                            }
+                        }
+                        self.color[i] = c;
+                        if want_ids {
+                            self.ids[i] = (t.face + 1, mesh);
+                        }
+                    }
+                }
+                e0 += st.ex[0];
+                e1 += st.ex[1];
+                e2 += st.ex[2];
+                z += st.zx;
+                s += sx;
+            }
+            e0r += st.ey[0];
+            e1r += st.ey[1];
+            e2r += st.ey[2];
+            zr += st.zy;
+            sr += sy;
+        }
+    }
+
+    /// Draws one line segment into this band (depth-tested, not depth-writing, alpha blended).
+    pub fn segment(&mut self, s: &SegRec, bias: &DepthBias) {
+        let (dx, dy) = (s.x1 - s.x0, s.y1 - s.y0);
+        let len = (dx * dx + dy * dy).sqrt();
+        let hw = s.hw;
+        let (ux, uy) = if len > 1e-6 {
+            (dx / len, dy / len)
+        } else {
+            (1.0, 0.0)
+        };
+        let (nx, ny) = (-uy, ux);
+        let dashed = s.dash.0 > 0.0;
+        let cap = if dashed { 0.0 } else { 0.5 * hw };
+        let y_min = (s.y0.min(s.y1) - hw - cap - 1.0).floor().max(self.y0 as f32);
+        let y_max = (s.y0.max(s.y1) + hw + cap + 1.0)
+            .ceil()
+            .min((self.y0 + self.rows - 1) as f32);
+        if y_min > y_max {
+            return;
+        }
+        let w = self.width;
+        let period = s.dash.0 + s.dash.1;
+        let inv_len = if len > 1e-6 { 1.0 / len } else { 0.0 };
+        let dk = s.k1 - s.k0;
+        let solid = s.c0 == s.c1;
+        let a_vis = (s.c0.a as u32 * 256 + 127) / 255; // 0..=256
+        let a_hid = ((s.hidden_alpha * a_vis as f32) + 0.5) as u32;
+        let blend = |dst: Color, src: Color, a: u32| -> Color {
+            let m = |s: u8, d: u8| ((d as u32 * (256 - a) + s as u32 * a + 128) >> 8) as u8;
+            Color::rgba(m(src.r, dst.r), m(src.g, dst.g), m(src.b, dst.b), dst.a)
+        };
+        for y in (y_min as usize)..=(y_max as usize) {
+            let py = y as f32 + 0.5 - s.y0;
+            // |n.x * px + n.y * py| <= hw  and  -cap <= u.x * px + u.y * py <= len + cap,
+            // with px relative to x0.
+            let mut lo = f32::NEG_INFINITY;
+            let mut hi = f32::INFINITY;
+            let mut slab = |k: f32, c: f32, a: f32, b: f32| {
+                // a <= k * px + c <= b
+                if k.abs() < 1e-9 {
+                    if c < a || c > b {
+                        lo = f32::INFINITY;
+                    }
+                } else {
+                    let (p, q) = ((a - c) / k, (b - c) / k);
+                    lo = lo.max(p.min(q));
+                    hi = hi.min(p.max(q));
+                }
+            };
+            slab(nx, ny * py, -hw, hw);
+            slab(ux, uy * py, -cap, len + cap);
+            if lo > hi {
+                continue;
+            }
+            let xa = ((lo + s.x0 - 0.5).ceil()).max(0.0);
+            let xb = ((hi + s.x0 - 0.5).floor()).min(w as f32 - 1.0);
+            if xa > xb {
+                continue;
+            }
+            let row = (y - self.y0) * w;
+            let px0 = xa + 0.5 - s.x0;
+            let mut along = ux * px0 + uy * py;
+            for x in (xa as usize)..=(xb as usize) {
+                let t = (along * inv_len).clamp(0.0, 1.0);
+                along += ux;
+                if dashed && (s.s0 + t * len).rem_euclid(period) >= s.dash.0 {
+                    continue;
+                }
+                let i = row + x;
+                let k = s.k0 + dk * t;
+                let a = if bias.visible(k, self.depth[i]) {
+                    a_vis
+                } else {
+                    a_hid
+                };
+                if a == 0 {
+                    continue;
+                }
+                let c = if solid { s.c0 } else { s.c0.lerp(s.c1, t) };
+                self.color[i] = blend(self.color[i], c, a);
+            }
+        }
+    }
+}

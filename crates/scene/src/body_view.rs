@@ -1,0 +1,165 @@
+//! [`BodyView`]: a body with its render buffers and per-map face colours, built once.
+
+use std::sync::{Arc, Mutex};
+
+use spinfall_dynamics::Body;
+use spinfall_dynamics::surface_map::{SurfaceField, SurfaceMap};
+use spinfall_render::{Color, Colormap, face_colors};
+
+/// Colour of the body when no map is shown.
+pub const BODY_GREY: Color = Color::rgb(176, 170, 160);
+
+/// Face colours of one map, with the value range they span.
+#[derive(Debug, Clone)]
+pub struct MapColors {
+    /// The field.
+    pub field: SurfaceField,
+    /// The colour map.
+    pub colormap: Colormap,
+    /// One colour per face.
+    pub colors: Arc<Vec<Color>>,
+    /// Value at the low end of the colour map (field unit).
+    pub min: f64,
+    /// Value at the high end of the colour map (field unit).
+    pub max: f64,
+}
+
+/// A body ready to draw: the `f32` mesh (shared, built once), the body (frames, spin) and the
+/// optional surface map, with the per-face colours cached per field and colour map.
+#[derive(Debug)]
+pub struct BodyView {
+    body: Arc<Body>,
+    positions: Arc<Vec<[f32; 3]>>,
+    triangles: Arc<Vec<[u32; 3]>>,
+    map: Option<Arc<SurfaceMap>>,
+    colors: Mutex<Vec<MapColors>>,
+}
+
+impl BodyView {
+    /// Builds the render buffers of `body`'s shape.
+    pub fn new(body: Arc<Body>) -> Self {
+        let mesh = body.shape.mesh();
+        let positions = mesh
+            .vertices_m
+            .iter()
+            .map(|p| [p.x as f32, p.y as f32, p.z as f32])
+            .collect();
+        let triangles = mesh.faces.clone();
+        Self {
+            body,
+            positions: Arc::new(positions),
+            triangles: Arc::new(triangles),
+            map: None,
+            colors: Mutex::new(Vec::new()),
+        }
+    }
+
+    /// The same shape buffers with another body (new mass or spin): no mesh rebuild. The map
+    /// is dropped (it depends on mass and spin).
+    pub fn with_body(&self, body: Arc<Body>) -> Self {
+        let same_shape = Arc::ptr_eq(&self.body.shape, &body.shape);
+        if !same_shape {
+            return Self::new(body);
+        }
+        Self {
+            body,
+            positions: self.positions.clone(),
+            triangles: self.triangles.clone(),
+            map: None,
+            colors: Mutex::new(Vec::new()),
+        }
+    }
+
+    /// Attaches (or removes) the surface map; cached colours are dropped.
+    pub fn set_map(&mut self, map: Option<Arc<SurfaceMap>>) {
+        self.map = map;
+        if let Ok(mut c) = self.colors.lock() {
+            c.clear();
+        }
+    }
+
+    /// The body.
+    pub fn body(&self) -> &Arc<Body> {
+        &self.body
+    }
+
+    /// The surface map, when computed.
+    pub fn map(&self) -> Option<&Arc<SurfaceMap>> {
+        self.map.as_ref()
+    }
+
+    /// Vertex positions, body frame, metres (as `f32`).
+    pub fn positions(&self) -> &Arc<Vec<[f32; 3]>> {
+        &self.positions
+    }
+
+    /// Triangles.
+    pub fn triangles(&self) -> &Arc<Vec<[u32; 3]>> {
+        &self.triangles
+    }
+
+    /// Per-face values of `field`, when a map is attached.
+    pub fn field_values(&self, field: SurfaceField) -> Option<&[f64]> {
+        self.map.as_deref().map(|m| m.values(field))
+    }
+
+    /// Face colours for `field` through `colormap` (cached), or `None` without a map.
+    pub fn map_colors(&self, field: SurfaceField, colormap: Colormap) -> Option<MapColors> {
+        let values = self.field_values(field)?;
+        if let Ok(cache) = self.colors.lock()
+            && let Some(hit) = cache
+                .iter()
+                .find(|c| c.field == field && c.colormap == colormap)
+        {
+            return Some(hit.clone());
+        }
+        let (min, max) = value_range(values, colormap.is_diverging());
+        let colors = MapColors {
+            field,
+            colormap,
+            colors: Arc::new(face_colors(values, min, max, colormap)),
+            min,
+            max,
+        };
+        if let Ok(mut cache) = self.colors.lock() {
+            cache.push(colors.clone());
+        }
+        Some(colors)
+    }
+}
+
+/// Range of the finite values (symmetric about zero for a diverging map). A constant field gets
+/// a small range around its value so the colour bar stays readable.
+pub fn value_range(values: &[f64], symmetric: bool) -> (f64, f64) {
+    let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
+    for &v in values.iter().filter(|v| v.is_finite()) {
+        lo = lo.min(v);
+        hi = hi.max(v);
+    }
+    if !lo.is_finite() || !hi.is_finite() {
+        return (0.0, 1.0);
+    }
+    if symmetric {
+        let m = lo.abs().max(hi.abs());
+        (lo, hi) = (-m, m);
+    }
+    if hi - lo <= f64::EPSILON * hi.abs().max(1.0) {
+        let pad = (hi.abs() * 1e-3).max(1e-9);
+        (lo, hi) = (lo - pad, hi + pad);
+    }
+    (lo, hi)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn value_range_skips_nan_and_pads_constants() {
+        assert_eq!(value_range(&[f64::NAN, 2.0, -1.0, 5.0], false), (-1.0, 5.0));
+        assert_eq!(value_range(&[-1.0, 3.0], true), (-3.0, 3.0));
+        let (lo, hi) = value_range(&[4.0, 4.0], false);
+        assert!(lo < 4.0 && hi > 4.0);
+        assert_eq!(value_range(&[], false), (0.0, 1.0));
+    }
+}

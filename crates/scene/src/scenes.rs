@@ -1,0 +1,331 @@
+//! The two views as render scenes: body-fixed and inertial.
+
+use nalgebra::{Point3, Rotation3};
+use spinfall_dynamics::{FlightReport, Outcome};
+use spinfall_render::{
+    Arrow, Color, Corner, FaceColors, LineColor, Marker, MarkerShape, Occluded, Overlay,
+    Polyline, Rect, Scene, SceneMesh, Shading,
+};
+
+use crate::body_view::{BODY_GREY, BodyView};
+use crate::options::ViewOptions;
+use crate::trace::{self, FrameChange};
+
+/// Which frame a view shows.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum Frame {
+    /// The frame turning with the body: the body stands still.
+    BodyFixed,
+    /// The non-rotating frame: the body turns.
+    Inertial,
+}
+
+impl Frame {
+    /// Title shown over the view.
+    pub fn title(self) -> &'static str {
+        match self {
+            Frame::BodyFixed => "Body-fixed frame",
+            Frame::Inertial => "Inertial frame",
+        }
+    }
+}
+
+/// Colours of the launches (cycled), chosen to stand out on grey and on the colour maps.
+pub const LAUNCH_COLORS: [Color; 8] = [
+    Color::rgb(255, 120, 60),
+    Color::rgb(80, 200, 255),
+    Color::rgb(255, 220, 60),
+    Color::rgb(240, 90, 200),
+    Color::rgb(120, 240, 120),
+    Color::rgb(255, 255, 255),
+    Color::rgb(160, 130, 255),
+    Color::rgb(255, 160, 160),
+];
+
+/// Colour of the overlaid other-frame trace.
+pub const OVERLAY_COLOR: Color = Color::rgb(20, 20, 20);
+/// Colour of contact markers.
+pub const CONTACT_COLOR: Color = Color::rgb(255, 235, 80);
+/// Colour of launch-site markers.
+pub const SITE_COLOR: Color = Color::rgb(255, 255, 255);
+/// Colour of rest-point markers.
+pub const REST_COLOR: Color = Color::rgb(60, 230, 120);
+/// Colour of escape markers (last computed point).
+pub const ESCAPE_COLOR: Color = Color::rgb(255, 70, 70);
+/// Colour of the spin axis arrow.
+pub const SPIN_AXIS_COLOR: Color = Color::rgb(120, 200, 255);
+
+/// Colour of launch `index`.
+pub fn launch_color(index: usize) -> Color {
+    LAUNCH_COLORS[index % LAUNCH_COLORS.len()]
+}
+
+/// The body-fixed view at time `t_s` for an image of `size_px` (width, height): the body at rest, traces as seen on the rotating body,
+/// markers for launch sites, contacts, rest points and particles, the spin axis and a colour bar
+/// when a map is shown.
+pub fn body_fixed_scene(
+    view: &BodyView,
+    reports: &[FlightReport],
+    t_s: f64,
+    opts: &ViewOptions,
+    size_px: [u32; 2],
+) -> Scene {
+    build(view, reports, t_s, opts, size_px, Frame::BodyFixed)
+}
+
+/// The inertial view at time `t_s` for an image of `size_px`: the body turned to its spin phase at `t_s`, traces as seen
+/// from space, particle positions at `t_s`.
+pub fn inertial_scene(
+    view: &BodyView,
+    reports: &[FlightReport],
+    t_s: f64,
+    opts: &ViewOptions,
+    size_px: [u32; 2],
+) -> Scene {
+    build(view, reports, t_s, opts, size_px, Frame::Inertial)
+}
+
+/// The view of `frame` at time `t_s`.
+pub fn frame_scene(
+    view: &BodyView,
+    reports: &[FlightReport],
+    t_s: f64,
+    opts: &ViewOptions,
+    size_px: [u32; 2],
+    frame: Frame,
+) -> Scene {
+    build(view, reports, t_s, opts, size_px, frame)
+}
+
+fn build(
+    view: &BodyView,
+    reports: &[FlightReport],
+    t_s: f64,
+    opts: &ViewOptions,
+    size_px: [u32; 2],
+    frame: Frame,
+) -> Scene {
+    let body = view.body();
+    let t_s = if t_s.is_finite() { t_s } else { 0.0 };
+    // World-from-body rotation of this view at t.
+    let world_from_body: Rotation3<f64> = match frame {
+        Frame::BodyFixed => Rotation3::identity(),
+        Frame::Inertial => body.inertial_from_body(t_s),
+    };
+    let mut scene = Scene::default();
+
+    // The body.
+    let mut mesh = SceneMesh::new(
+        view.positions().clone(),
+        view.triangles().clone(),
+        BODY_GREY,
+    );
+    mesh.model = world_from_body.to_homogeneous();
+    mesh.shading = if opts.smooth_shading {
+        Shading::Smooth
+    } else {
+        Shading::Flat
+    };
+    mesh.wireframe = opts.show_wireframe.then_some(Color::rgba(30, 30, 30, 110));
+    let map_colors = opts
+        .map
+        .and_then(|field| view.map_colors(field, opts.colormap));
+    if let Some(mc) = &map_colors {
+        mesh.colors = FaceColors::PerFace(mc.colors.clone());
+    }
+    scene.meshes.push(mesh);
+
+    let radius_m = body.brillouin_radius_m();
+    if opts.show_spin_axis {
+        let axis = world_from_body * body.spin.axis_body.into_inner();
+        scene.arrows.push(Arrow {
+            from: (-axis * radius_m * 1.25).into(),
+            to: (axis * radius_m * 1.6).into(),
+            color: SPIN_AXIS_COLOR,
+            width_px: 2.5,
+        });
+    }
+
+    let occluded = opts.hidden_trace_style.occluded();
+    let cut = opts.trail_to_time.then_some(t_s);
+    for (i, report) in reports.iter().enumerate() {
+        let selected = opts.selected_launch == Some(i);
+        let dim = opts.selected_launch.is_some() && !selected;
+        let base = launch_color(i);
+        let color = if dim { base.with_alpha(110) } else { base };
+        let width_px = if selected { 3.0 } else { 1.8 };
+        let (own, other) = match frame {
+            Frame::BodyFixed => (&report.trajectory_body, &report.trajectory_inertial),
+            Frame::Inertial => (&report.trajectory_inertial, &report.trajectory_body),
+        };
+        scene.polylines.push(Polyline {
+            points: trace::points_until(own, cut),
+            color: LineColor::Uniform(color),
+            width_px,
+            dash: None,
+            occluded,
+        });
+        if opts.overlay_other_frame && (!dim || reports.len() <= 8) {
+            let change = match frame {
+                Frame::BodyFixed => FrameChange::InertialToBody,
+                Frame::Inertial => FrameChange::BodyToInertial,
+            };
+            let moved = trace::change_frame(body, other, change);
+            scene.polylines.push(Polyline {
+                points: trace::points_until(&moved, cut),
+                color: LineColor::Uniform(OVERLAY_COLOR.with_alpha(if dim { 90 } else { 220 })),
+                width_px: (width_px * 0.6).max(1.0),
+                dash: Some((6.0, 5.0)),
+                occluded,
+            });
+        }
+        add_markers(&mut scene, view, report, t_s, frame, color, selected);
+    }
+
+    // 2D overlays.
+    if let Some(mc) = &map_colors {
+        let field = mc.field;
+        scene.overlays.push(Overlay::ColorBar {
+            colormap: mc.colormap,
+            min: mc.min,
+            max: mc.max,
+            label: format!("{} ({})", field.name(), field.unit()),
+            ticks: 5,
+            rect: color_bar_rect(size_px),
+        });
+    }
+    if opts.show_triad {
+        scene.overlays.push(Overlay::AxisTriad {
+            corner: Corner::BottomLeft,
+            size_px: 28.0,
+        });
+    }
+    if opts.show_scale_bar {
+        scene.overlays.push(Overlay::ScaleBar {
+            unit_label: String::new(),
+            corner: Corner::BottomRight,
+        });
+    }
+    if opts.show_legend && !reports.is_empty() {
+        let mut entries = vec![
+            (launch_color(0), "trace, this frame".to_string(), false),
+        ];
+        if opts.overlay_other_frame {
+            entries.push((Color::rgb(200, 200, 200), "trace, other frame".to_string(), true));
+        }
+        entries.push((SITE_COLOR, "launch site (ring)".to_string(), false));
+        entries.push((CONTACT_COLOR, "contact (cross)".to_string(), false));
+        entries.push((REST_COLOR, "at rest (square)".to_string(), false));
+        entries.push((ESCAPE_COLOR, "escaped (diamond)".to_string(), false));
+        scene.overlays.push(Overlay::Legend {
+            entries,
+            corner: Corner::TopLeft,
+        });
+    }
+    scene
+}
+
+fn add_markers(
+    scene: &mut Scene,
+    view: &BodyView,
+    report: &FlightReport,
+    t_s: f64,
+    frame: Frame,
+    color: Color,
+    selected: bool,
+) {
+    let body = view.body();
+    let Some(first) = report.trajectory_body.first() else {
+        return;
+    };
+    let site_body = trace::pos(first);
+    // A point fixed on the body, where it is at time `at_s` in this view.
+    let on_body = |p: &Point3<f64>, at_s: f64| -> [f64; 3] {
+        match frame {
+            Frame::BodyFixed => (*p).into(),
+            Frame::Inertial => body.pos_inertial_from_body(at_s, p).into(),
+        }
+    };
+    let scale = if selected { 1.3 } else { 1.0 };
+    scene.markers.push(Marker {
+        position: on_body(&site_body, t_s),
+        shape: MarkerShape::Ring,
+        size_px: 11.0 * scale,
+        color: SITE_COLOR,
+        occluded: Occluded::Faint(0.35),
+    });
+    // Contacts happen at a body point at a time; once passed they stay with the body.
+    for c in &report.contacts {
+        if c.t_s > t_s {
+            continue;
+        }
+        let p = Point3::from(c.pos_body_m);
+        scene.markers.push(Marker {
+            position: on_body(&p, t_s),
+            shape: MarkerShape::Cross,
+            size_px: 9.0 * scale,
+            color: CONTACT_COLOR,
+            occluded: Occluded::Faint(0.35),
+        });
+    }
+    let own = match frame {
+        Frame::BodyFixed => &report.trajectory_body,
+        Frame::Inertial => &report.trajectory_inertial,
+    };
+    let Some(last) = own.last() else {
+        return;
+    };
+    let end_t = last.t_s;
+    if t_s >= end_t {
+        let (shape, marker_color) = match &report.outcome {
+            Outcome::Escaped => (MarkerShape::Diamond, ESCAPE_COLOR),
+            Outcome::Landed => (MarkerShape::Square, REST_COLOR),
+            _ => (MarkerShape::Square, Color::LIGHT_GREY),
+        };
+        let position = match (frame, report.trajectory_body.last()) {
+            // A particle at rest rides on the body.
+            (Frame::Inertial, Some(b)) if report.landed() => {
+                on_body(&trace::pos(b), t_s)
+            }
+            _ => trace::pos(last).into(),
+        };
+        scene.markers.push(Marker {
+            position,
+            shape,
+            size_px: 10.0 * scale,
+            color: marker_color,
+            occluded: Occluded::Faint(0.35),
+        });
+    } else if let Some(p) = trace::position_at(own, t_s) {
+        scene.markers.push(Marker {
+            position: p.into(),
+            shape: MarkerShape::Dot,
+            size_px: 8.0 * scale,
+            color: color.with_alpha(255),
+            occluded: Occluded::Faint(0.5),
+        });
+    }
+}
+
+/// Where the colour bar goes in an image of `size_px`: right edge, middle height (labels are
+/// drawn to its right, the title above).
+pub fn color_bar_rect(size_px: [u32; 2]) -> Rect {
+    let (w, h) = (size_px[0] as f32, size_px[1] as f32);
+    let bar_h = (h * 0.45).clamp(40.0, 600.0);
+    Rect::new(w - 78.0, (h - bar_h) * 0.5, 16.0, bar_h)
+}
+
+/// Latest time in any report, s (0 without reports).
+pub fn end_time_s(reports: &[FlightReport]) -> f64 {
+    reports
+        .iter()
+        .flat_map(|r| {
+            [
+                r.trajectory_body.last().map(|s| s.t_s),
+                r.trajectory_inertial.last().map(|s| s.t_s),
+            ]
+        })
+        .flatten()
+        .filter(|t| t.is_finite())
+        .fold(0.0, f64::max)
+}

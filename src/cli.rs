@@ -1,0 +1,153 @@
+//! Command-line definition.
+
+use std::path::PathBuf;
+
+use clap::{Args, Parser, Subcommand, ValueEnum};
+use spinfall_gravity::LengthUnit;
+
+/// Where things go on spinning small bodies: polyhedron gravity, surface maps, particle flights.
+///
+/// Run with no subcommand to open the desktop app on the built-in demo body (or on SHAPE).
+/// Research and planning tool: not flight-certified.
+#[derive(Debug, Parser)]
+#[command(name = "spinfall", version, args_conflicts_with_subcommands = true)]
+pub struct Cli {
+    #[command(subcommand)]
+    pub command: Option<Command>,
+    /// Shape model (Wavefront OBJ) to open in the app instead of the demo body.
+    pub shape: Option<PathBuf>,
+    /// Length unit of the shape file's coordinates.
+    #[arg(long, value_enum, default_value_t = UnitArg::Km)]
+    pub unit: UnitArg,
+}
+
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Mass properties and validation of a shape model, as JSON.
+    Info(InfoArgs),
+    /// Gravity field (potential, acceleration, gradient, Laplacian) at points, as JSON lines or CSV.
+    Gravity(GravityArgs),
+    /// Fly every launch of a scenario; write results.json and trajectories.csv.
+    Fly(FlyArgs),
+    /// Per-face surface map of a scenario's body (slope, geopotential, ...), as CSV.
+    Map(MapArgs),
+    /// Fly a scenario and render the body-fixed and/or inertial view to a PNG.
+    Render(RenderArgs),
+}
+
+/// A shape model: a path to an OBJ file, or `builtin:quillon` for the demo body.
+#[derive(Debug, Args)]
+pub struct ShapeArgs {
+    /// Wavefront OBJ file, or `builtin:quillon` for the built-in demo body.
+    pub shape: String,
+    /// Length unit of the file's coordinates.
+    #[arg(long, value_enum, default_value_t = UnitArg::Km)]
+    pub unit: UnitArg,
+    /// Translate the model so its centre of mass is at the origin.
+    #[arg(long)]
+    pub recenter: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct InfoArgs {
+    #[command(flatten)]
+    pub shape: ShapeArgs,
+    /// Bulk density for the inertia tensor in kg m^2 (also reported per unit density).
+    #[arg(long, value_name = "KG_M3")]
+    pub density: Option<f64>,
+}
+
+#[derive(Debug, Args)]
+#[command(group(clap::ArgGroup::new("mass").required(true).args(["density", "mass", "gm"])))]
+#[command(group(clap::ArgGroup::new("where").required(true).args(["at", "points"])))]
+pub struct GravityArgs {
+    #[command(flatten)]
+    pub shape: ShapeArgs,
+    /// Bulk density, kg/m^3.
+    #[arg(long, value_name = "KG_M3")]
+    pub density: Option<f64>,
+    /// Total mass, kg.
+    #[arg(long, value_name = "KG")]
+    pub mass: Option<f64>,
+    /// Gravitational parameter GM, m^3/s^2.
+    #[arg(long, value_name = "M3_S2")]
+    pub gm: Option<f64>,
+    /// A field point `X,Y,Z` in metres in the shape's frame (repeatable).
+    #[arg(long, value_name = "X,Y,Z", allow_hyphen_values = true)]
+    pub at: Vec<String>,
+    /// CSV file of field points with the header `x_m,y_m,z_m`.
+    #[arg(long, value_name = "FILE.csv")]
+    pub points: Option<PathBuf>,
+    /// Write CSV instead of one JSON object per line.
+    #[arg(long)]
+    pub csv: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct FlyArgs {
+    /// Scenario file (JSON), or `builtin:example` for the demo scenario.
+    pub scenario: String,
+    /// Output folder for results.json and trajectories.csv (created if missing).
+    #[arg(long, value_name = "DIR")]
+    pub out: PathBuf,
+}
+
+#[derive(Debug, Args)]
+pub struct MapArgs {
+    /// Scenario file (JSON), or `builtin:example` for the demo scenario.
+    pub scenario: String,
+    /// Output CSV file.
+    #[arg(long, value_name = "FILE.csv")]
+    pub out: PathBuf,
+}
+
+#[derive(Debug, Args)]
+pub struct RenderArgs {
+    /// Scenario file (JSON), or `builtin:example` for the demo scenario.
+    pub scenario: String,
+    /// Output PNG file.
+    #[arg(long, value_name = "FILE.png")]
+    pub out: PathBuf,
+    /// Image size `WxH` in pixels.
+    #[arg(long, default_value = "1920x1080", value_name = "WxH")]
+    pub size: String,
+    /// Time after launch to show, seconds (default: the end of the longest flight).
+    #[arg(long, value_name = "T_S")]
+    pub time: Option<f64>,
+    /// Which view to draw.
+    #[arg(long, value_enum, default_value_t = ViewArg::Both)]
+    pub view: ViewArg,
+    /// Colour the surface by a map.
+    #[arg(long, value_enum)]
+    pub map: Option<MapArg>,
+}
+
+#[derive(Debug, Clone, Copy, ValueEnum)]
+pub enum UnitArg {
+    Km,
+    M,
+}
+
+impl From<UnitArg> for LengthUnit {
+    fn from(u: UnitArg) -> Self {
+        match u {
+            UnitArg::Km => LengthUnit::Kilometre,
+            UnitArg::M => LengthUnit::Metre,
+        }
+    }
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum ViewArg {
+    Body,
+    Inertial,
+    Both,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum MapArg {
+    Slope,
+    Geopotential,
+    EffectiveG,
+    EscapeSpeed,
+}
