@@ -39,7 +39,7 @@ pub fn load_shape(spec: &str, unit: LengthUnit, recenter: bool) -> CmdResult<Loa
 /// relative shape paths are resolved against.
 pub fn read_scenario_text(spec: &str) -> CmdResult<(String, PathBuf)> {
     if spec == BUILTIN_SCENARIO {
-        let text = spinfall_dynamics::Scenario::builtin_example()
+        let text = spinfall_dynamics::scenario::Scenario::builtin_example()
             .to_json_string_pretty()
             .map_err(CliError::output)?;
         return Ok((text, PathBuf::from(".")));

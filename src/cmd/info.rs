@@ -21,6 +21,8 @@ pub fn run(args: &InfoArgs) -> CmdResult<ExitCode> {
     let shape = &loaded.shape;
     let mp = shape.mass_properties();
     let axes = mp.principal_axes;
+    // One row per principal axis (the columns of the rotation matrix).
+    let principal_axes = [0, 1, 2].map(|i| [axes[(0, i)], axes[(1, i)], axes[(2, i)]]);
     let mut out = json!({
         "source": loaded.source,
         "unit": spinfall_gravity::LengthUnit::from(args.shape.unit).to_string(),
@@ -33,7 +35,7 @@ pub fn run(args: &InfoArgs) -> CmdResult<ExitCode> {
         "center_of_mass_m": [mp.center_of_mass_m.x, mp.center_of_mass_m.y, mp.center_of_mass_m.z],
         "inertia_per_unit_density_m5": rows(&mp.inertia_per_density_m5),
         "principal_moments_per_unit_density_m5": mp.principal_moments_per_density_m5.as_slice(),
-        "principal_axes": [0, 1, 2].map(|i| [axes[(0, i)], axes[(1, i)], axes[(2, i)]]),
+        "principal_axes": principal_axes,
         "equivalent_radius_m": mp.equivalent_radius_m,
         "brillouin_radius_m": mp.brillouin_radius_m,
     });

@@ -34,7 +34,10 @@ impl SpinAxis {
                 if !n.is_finite() || n < 1e-12 {
                     return Err(DynamicsError::param(
                         "spin axis",
-                        format!("must be a finite, non-zero vector, got {:?}", [v.x, v.y, v.z]),
+                        format!(
+                            "must be a finite, non-zero vector, got {:?}",
+                            [v.x, v.y, v.z]
+                        ),
                     ));
                 }
                 Ok(Unit::new_normalize(v))
@@ -68,7 +71,11 @@ pub struct Spin {
 
 impl Spin {
     /// A spin with the period in hours, checked.
-    pub fn from_hours(period_h: f64, axis_body: Unit<Vector3<f64>>, phase_rad: f64) -> Result<Spin> {
+    pub fn from_hours(
+        period_h: f64,
+        axis_body: Unit<Vector3<f64>>,
+        phase_rad: f64,
+    ) -> Result<Spin> {
         positive("spin period_h", period_h)?;
         if !phase_rad.is_finite() {
             return Err(DynamicsError::param("spin phase", "must be finite"));
@@ -149,7 +156,12 @@ pub struct BodyFigures {
 
 impl Body {
     /// A body with the exact polyhedron gravity of `shape`.
-    pub fn new(name: impl Into<String>, shape: Arc<ShapeModel>, mass: MassSpec, spin: Spin) -> Result<Body> {
+    pub fn new(
+        name: impl Into<String>,
+        shape: Arc<ShapeModel>,
+        mass: MassSpec,
+        spin: Spin,
+    ) -> Result<Body> {
         let gravity = PolyhedronGravity::from_mesh(shape.mesh(), mass)?;
         Body::with_gravity(name, shape, Arc::new(gravity), spin)
     }
@@ -239,15 +251,71 @@ impl Body {
 
     /// Inertial velocity of a particle at `pos_body_m` moving at `vel_body_m_s` relative to the
     /// rotating body: `R (v_body + w x r_body)`.
-    pub fn vel_inertial_from_body(&self, t_s: f64, pos_body_m: &Point3<f64>, vel_body_m_s: &Vector3<f64>) -> Vector3<f64> {
-        self.inertial_from_body(t_s) * (vel_body_m_s + self.omega_body_rad_s().cross(&pos_body_m.coords))
+    pub fn vel_inertial_from_body(
+        &self,
+        t_s: f64,
+        pos_body_m: &Point3<f64>,
+        vel_body_m_s: &Vector3<f64>,
+    ) -> Vector3<f64> {
+        self.inertial_from_body(t_s)
+            * (vel_body_m_s + self.omega_body_rad_s().cross(&pos_body_m.coords))
     }
 
     /// Velocity relative to the rotating body (body coordinates) of a particle with inertial
     /// position and velocity: `R^T v_inertial - w x r_body`.
-    pub fn vel_body_from_inertial(&self, t_s: f64, pos_inertial_m: &Point3<f64>, vel_inertial_m_s: &Vector3<f64>) -> Vector3<f64> {
+    pub fn vel_body_from_inertial(
+        &self,
+        t_s: f64,
+        pos_inertial_m: &Point3<f64>,
+        vel_inertial_m_s: &Vector3<f64>,
+    ) -> Vector3<f64> {
         let r = self.body_from_inertial(t_s);
         let pos_body = r * pos_inertial_m;
         r * vel_inertial_m_s - self.omega_body_rad_s().cross(&pos_body.coords)
+    }
+}
+
+impl Serialize for SpinAxis {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> std::result::Result<S::Ok, S::Error> {
+        match self {
+            SpinAxis::MaxMoment => s.serialize_str("max-moment"),
+            SpinAxis::PlusZ => s.serialize_str("+z"),
+            SpinAxis::Vector(v) => v.serialize(s),
+        }
+    }
+}
+
+impl<'de> Deserialize<'de> for SpinAxis {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> std::result::Result<Self, D::Error> {
+        struct AxisVisitor;
+        impl<'de> serde::de::Visitor<'de> for AxisVisitor {
+            type Value = SpinAxis;
+            fn expecting(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+                f.write_str("\"max-moment\", \"+z\" or a vector [x, y, z]")
+            }
+            fn visit_str<E: serde::de::Error>(self, v: &str) -> std::result::Result<SpinAxis, E> {
+                match v {
+                    "max-moment" => Ok(SpinAxis::MaxMoment),
+                    "+z" => Ok(SpinAxis::PlusZ),
+                    other => Err(E::invalid_value(serde::de::Unexpected::Str(other), &self)),
+                }
+            }
+            fn visit_seq<A: serde::de::SeqAccess<'de>>(
+                self,
+                mut seq: A,
+            ) -> std::result::Result<SpinAxis, A::Error> {
+                let mut v = [0.0; 3];
+                for (i, c) in v.iter_mut().enumerate() {
+                    *c = seq
+                        .next_element()?
+                        .ok_or_else(|| serde::de::Error::invalid_length(i, &self))?;
+                }
+                if seq.next_element::<serde::de::IgnoredAny>()?.is_some() {
+                    return Err(serde::de::Error::invalid_length(4, &self));
+                }
+                Ok(SpinAxis::Vector(v))
+            }
+        }
+        d.deserialize_any(AxisVisitor)
     }
 }

@@ -7,6 +7,14 @@
 //! costs three more evaluations (computed only when asked for, see [`Dop853::prepare_dense`]).
 //! The step after an accepted step reuses the derivative at the new point (FSAL), so a step
 //! costs 12 evaluations (11 after the first).
+#![allow(
+    clippy::excessive_precision,
+    reason = "coefficients copied with all the digits published by Hairer et al."
+)]
+#![allow(
+    clippy::needless_range_loop,
+    reason = "component loops over several parallel arrays read clearer with an index"
+)]
 
 /// A first-order system `y' = f(t, y)` of fixed dimension `N`.
 pub trait OdeSystem<const N: usize> {
@@ -277,7 +285,12 @@ pub struct Dop853<const N: usize> {
     pub rejected: u64,
 }
 
-fn combine<const N: usize>(y: &[f64; N], h: f64, k: &[[f64; N]; 16], row: &[(usize, f64)]) -> [f64; N] {
+fn combine<const N: usize>(
+    y: &[f64; N],
+    h: f64,
+    k: &[[f64; N]; 16],
+    row: &[(usize, f64)],
+) -> [f64; N] {
     let mut out = *y;
     for (i, o) in out.iter_mut().enumerate() {
         let mut s = 0.0;
@@ -292,7 +305,13 @@ fn combine<const N: usize>(y: &[f64; N], h: f64, k: &[[f64; N]; 16], row: &[(usi
 impl<const N: usize> Dop853<N> {
     /// Starts at `(t0, y0)`; evaluates the derivative there and chooses an initial step
     /// (Hairer's starting-step heuristic), never longer than `h_max`.
-    pub fn new<S: OdeSystem<N>>(sys: &mut S, t0: f64, y0: [f64; N], tol: Tolerances<N>, h_max: f64) -> Self {
+    pub fn new<S: OdeSystem<N>>(
+        sys: &mut S,
+        t0: f64,
+        y0: [f64; N],
+        tol: Tolerances<N>,
+        h_max: f64,
+    ) -> Self {
         let f0 = sys.derivative(t0, &y0);
         let mut me = Dop853 {
             tol,
@@ -390,11 +409,12 @@ impl<const N: usize> Dop853<N> {
             if h >= remaining * 0.999_999 {
                 h = remaining;
             }
-            if !(h > 1e-14 * self.t.abs().max(1e-3)) || !h.is_finite() {
+            if h.is_nan() || h <= 1e-14 * self.t.abs().max(1e-3) || !h.is_finite() {
                 return Err(StepError::StepSizeUnderflow { t: self.t });
             }
             self.k[0] = self.f;
-            let rows: [&[(usize, f64)]; 11] = [&A2, &A3, &A4, &A5, &A6, &A7, &A8, &A9, &A10, &A11, &A12];
+            let rows: [&[(usize, f64)]; 11] =
+                [&A2, &A3, &A4, &A5, &A6, &A7, &A8, &A9, &A10, &A11, &A12];
             for (s, row) in rows.iter().enumerate() {
                 let ys = combine(&self.y, h, &self.k, row);
                 self.k[s + 1] = sys.derivative(self.t + C[s + 1] * h, &ys);
@@ -446,7 +466,11 @@ impl<const N: usize> Dop853<N> {
                 self.y = y_new;
                 self.f = f_new;
                 self.dense = None;
-                self.h_next = if self.last_rejected { h * scale.min(1.0) } else { h * scale };
+                self.h_next = if self.last_rejected {
+                    h * scale.min(1.0)
+                } else {
+                    h * scale
+                };
                 self.last_rejected = false;
                 self.steps += 1;
                 return Ok(());
@@ -503,7 +527,8 @@ impl<const N: usize> Dop853<N> {
             *o = r[0][i]
                 + s * (r[1][i]
                     + s1 * (r[2][i]
-                        + s * (r[3][i] + s1 * (r[4][i] + s * (r[5][i] + s1 * (r[6][i] + s * r[7][i]))))));
+                        + s * (r[3][i]
+                            + s1 * (r[4][i] + s * (r[5][i] + s1 * (r[6][i] + s * r[7][i]))))));
         }
         Some(out)
     }
@@ -518,7 +543,14 @@ impl<const N: usize> Dop853<N> {
 /// Quintic Hermite interpolation of a second-order system stored as `[pos(3), vel(3)]` with
 /// derivative `[vel(3), acc(3)]`: position and velocity at fraction `s` of a step of length `h`
 /// from the states and derivatives at both ends. Costs no evaluations; error O(h^6) in position.
-pub fn hermite_pos_vel(h: f64, y0: &[f64; 6], f0: &[f64; 6], y1: &[f64; 6], f1: &[f64; 6], s: f64) -> [f64; 6] {
+pub fn hermite_pos_vel(
+    h: f64,
+    y0: &[f64; 6],
+    f0: &[f64; 6],
+    y1: &[f64; 6],
+    f1: &[f64; 6],
+    s: f64,
+) -> [f64; 6] {
     let s2 = s * s;
     let s3 = s2 * s;
     let s4 = s3 * s;
@@ -542,7 +574,8 @@ pub fn hermite_pos_vel(h: f64, y0: &[f64; 6], f0: &[f64; 6], y1: &[f64; 6], f1: 
         let (p0, v0, a0) = (y0[i], f0[i], f0[i + 3]);
         let (p1, v1, a1) = (y1[i], f1[i], f1[i + 3]);
         out[i] = h0 * p0 + h * h1 * v0 + h * h * h2 * a0 + h * h * h3 * a1 + h * h4 * v1 + h5 * p1;
-        out[i + 3] = (d0 * p0 + h * d1 * v0 + h * h * d2 * a0 + h * h * d3 * a1 + h * d4 * v1 + d5 * p1) / h;
+        out[i + 3] =
+            (d0 * p0 + h * d1 * v0 + h * h * d2 * a0 + h * h * d3 * a1 + h * d4 * v1 + d5 * p1) / h;
     }
     out
 }

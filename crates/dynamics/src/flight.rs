@@ -215,6 +215,8 @@ pub struct FlightReport {
     pub gravity_evaluations: u64,
     /// Accepted integrator steps, both frames.
     pub steps: u64,
+    /// Rejected step attempts, both frames.
+    pub rejected_steps: u64,
     /// Final body-frame position, m.
     pub final_pos_body_m: [f64; 3],
     /// Final velocity relative to the body, m/s.
@@ -295,7 +297,7 @@ impl Guard<'_> {
         if self.steps > self.max_steps {
             return Some(format!("step limit of {} steps reached", self.max_steps));
         }
-        if self.steps % 64 == 0 && self.start.elapsed().as_secs_f64() > self.max_wall_s {
+        if self.steps.is_multiple_of(64) && self.start.elapsed().as_secs_f64() > self.max_wall_s {
             return Some(format!("wall-clock limit of {} s reached", self.max_wall_s));
         }
         None
@@ -330,18 +332,33 @@ impl Recorder {
     }
 
     /// Samples the step from `(t0, y0, f0)` to `(t0 + h, y1, f1)` up to fraction `s_end`.
-    fn record_step(&mut self, t0: f64, h: f64, y0: &[f64; 6], f0: &[f64; 6], y1: &[f64; 6], f1: &[f64; 6], s_end: f64) {
+    fn record_step(&mut self, ode: &Dop853<6>, s_end: f64) {
         if self.cap == 0 {
             return;
         }
+        let (t0, h) = (ode.t_old(), ode.h_done());
+        let (y0, f0, y1, f1) = (ode.y_old(), ode.f_old(), ode.y(), ode.f());
         let v0 = vel_of(y0);
         let v1 = vel_of(y1);
-        let turn = if v0.norm() > 0.0 && v1.norm() > 0.0 { v0.angle(&v1) } else { 0.0 };
+        let turn = if v0.norm() > 0.0 && v1.norm() > 0.0 {
+            v0.angle(&v1)
+        } else {
+            0.0
+        };
         let dist = (pos_of(y1) - pos_of(y0)).norm() * s_end;
-        let n = ((turn * s_end / self.max_turn_rad).max(dist / self.max_spacing_m).ceil() as usize).clamp(1, 64);
-        for k in 1..=n {
+        let n = ((turn * s_end / self.max_turn_rad)
+            .max(dist / self.max_spacing_m)
+            .ceil() as usize)
+            .clamp(1, 64);
+        // A partial step (ending at an impact) leaves its end point to the caller.
+        let last = if s_end < 1.0 { n - 1 } else { n };
+        for k in 1..=last {
             let s = s_end * k as f64 / n as f64;
-            let y = if s == 1.0 { *y1 } else { hermite_pos_vel(h, y0, f0, y1, f1, s) };
+            let y = if s == 1.0 {
+                *y1
+            } else {
+                hermite_pos_vel(h, y0, f0, y1, f1, s)
+            };
             self.push(sample(t0 + s * h, &y));
         }
     }
@@ -373,7 +390,12 @@ enum ArcEnd {
 }
 
 /// Flies one launch; never panics or hangs (limits in [`IntegratorSettings`], `cancel`).
-pub fn fly(body: &Body, launch: &LaunchState, settings: &FlightSettings, cancel: &Cancel) -> FlightReport {
+pub fn fly(
+    body: &Body,
+    launch: &LaunchState,
+    settings: &FlightSettings,
+    cancel: &Cancel,
+) -> FlightReport {
     let mut report = FlightReport {
         id: launch.id.clone(),
         outcome: Outcome::StillFlying,
@@ -390,6 +412,7 @@ pub fn fly(body: &Body, launch: &LaunchState, settings: &FlightSettings, cancel:
         frame_agreement_m: 0.0,
         gravity_evaluations: 0,
         steps: 0,
+        rejected_steps: 0,
         final_pos_body_m: launch.pos_body_m.coords.into(),
         final_vel_body_m_s: launch.vel_body_m_s.into(),
         trajectory_body: Vec::new(),
@@ -436,11 +459,13 @@ fn check_settings(launch: &LaunchState, s: &FlightSettings) -> Result<(), String
     if !(i.max_time_s > 0.0 && i.max_time_s.is_finite()) {
         return Err(format!("max_time_s {} must be > 0", i.max_time_s));
     }
-    if !(i.max_wall_s > 0.0) {
+    if i.max_wall_s.is_nan() || i.max_wall_s <= 0.0 {
         return Err(format!("max_wall_s {} must be > 0", i.max_wall_s));
     }
     let b = &s.bounce;
-    if !(0.0..=1.0).contains(&b.normal_restitution) || !(0.0..=1.0).contains(&b.tangential_restitution) {
+    if !(0.0..=1.0).contains(&b.normal_restitution)
+        || !(0.0..=1.0).contains(&b.tangential_restitution)
+    {
         return Err("restitution coefficients must be in [0, 1]".into());
     }
     if !(b.rest_speed_m_s >= 0.0 && b.rest_speed_m_s.is_finite()) {
@@ -457,12 +482,12 @@ struct Flight<'a> {
     h_max: f64,
     w: Vector3<f64>,
     r_escape_m: f64,
-    r_eq_m: f64,
     nudge_m: f64,
     body_rec: Recorder,
     inertial_rec: Recorder,
     evals: u64,
     steps: u64,
+    rejected: u64,
 }
 
 impl<'a> Flight<'a> {
@@ -496,12 +521,12 @@ impl<'a> Flight<'a> {
             h_max: body.spin.period_s / 8.0,
             w: body.omega_body_rad_s(),
             r_escape_m: 3.0 * body.brillouin_radius_m(),
-            r_eq_m,
             nudge_m: (1e-9 * r_eq_m).max(1e-6),
             body_rec: rec(settings.sampling.max_samples_per_frame),
             inertial_rec: rec(settings.sampling.max_samples_per_frame),
             evals: 0,
             steps: 0,
+            rejected: 0,
         }
     }
 
@@ -543,7 +568,11 @@ impl<'a> Flight<'a> {
                 ArcEnd::Escaped => break Outcome::Escaped,
                 ArcEnd::TimeLimit => break Outcome::StillFlying,
                 ArcEnd::Failed(reason) => break Outcome::Failed { reason },
-                ArcEnd::Impact { t: t_hit, y: y_hit, face } => {
+                ArcEnd::Impact {
+                    t: t_hit,
+                    y: y_hit,
+                    face,
+                } => {
                     let n = self.body.shape.face_normal(face).into_inner();
                     let p = pos_of(&y_hit);
                     let v = vel_of(&y_hit);
@@ -551,7 +580,8 @@ impl<'a> Flight<'a> {
                     let v_t = v - n * v_n;
                     let speed = v.norm();
                     let b = &self.settings.bounce;
-                    let rebound = n * (b.normal_restitution * v_n.abs()) + v_t * b.tangential_restitution;
+                    let rebound =
+                        n * (b.normal_restitution * v_n.abs()) + v_t * b.tangential_restitution;
                     let bounces_so_far = report.contacts.len() as u32;
                     let rest = bounces_so_far >= b.max_bounces || rebound.norm() < b.rest_speed_m_s;
                     let (lat_deg, lon_deg) = lat_lon_deg(self.body, &p);
@@ -583,7 +613,8 @@ impl<'a> Flight<'a> {
                         let r0 = launch.pos_body_m.coords;
                         let r1 = p.coords;
                         if r0.norm() > 0.0 && r1.norm() > 0.0 {
-                            report.downrange_m = Some(0.5 * (r0.norm() + r1.norm()) * r0.angle(&r1));
+                            report.downrange_m =
+                                Some(0.5 * (r0.norm() + r1.norm()) * r0.angle(&r1));
                         }
                         break Outcome::Landed;
                     }
@@ -595,6 +626,7 @@ impl<'a> Flight<'a> {
         report.outcome = outcome;
         report.gravity_evaluations = self.evals;
         report.steps = self.steps;
+        report.rejected_steps = self.rejected;
         report.trajectory_body = self.body_rec.finish();
         report.trajectory_inertial = self.inertial_rec.finish();
         report
@@ -619,7 +651,8 @@ impl<'a> Flight<'a> {
             last_u: 0.0,
         };
         let mut ode = Dop853::new(&mut sys, t0, y0, self.tol, self.h_max);
-        let c0 = self.jacobi(&y0, sys.last_u);
+        let (u0, _) = self.body.gravity.potential_acceleration(&pos_of(&y0));
+        let c0 = self.jacobi(&y0, u0);
         let c_scale = c0.abs().max(f64::MIN_POSITIVE);
         let mut drift: f64 = 0.0;
         let mut max_alt: f64 = 0.0;
@@ -634,11 +667,15 @@ impl<'a> Flight<'a> {
             let y = *ode.y();
             drift = drift.max((self.jacobi(&y, sys.last_u) - c0).abs() / c_scale);
             if let Some((t_hit, y_hit, face, s_hit)) = self.find_impact(&mut ode, &mut sys) {
-                self.body_rec.record_step(ode.t_old(), ode.h_done(), ode.y_old(), ode.f_old(), ode.y(), ode.f(), s_hit);
+                self.body_rec.record_step(&ode, s_hit);
                 self.body_rec.push(sample(t_hit, &y_hit));
-                break ArcEnd::Impact { t: t_hit, y: y_hit, face };
+                break ArcEnd::Impact {
+                    t: t_hit,
+                    y: y_hit,
+                    face,
+                };
             }
-            self.body_rec.record_step(ode.t_old(), ode.h_done(), ode.y_old(), ode.f_old(), ode.y(), ode.f(), 1.0);
+            self.body_rec.record_step(&ode, 1.0);
             let p = pos_of(&y);
             let r = p.coords.norm();
             max_alt = max_alt.max(if r > 2.0 * self.r_escape_m {
@@ -647,7 +684,10 @@ impl<'a> Flight<'a> {
                 self.body.shape.nearest_surface_point(&p).t
             });
             let v_in = vel_of(&y) + self.w.cross(&p.coords);
-            if r > self.r_escape_m && p.coords.dot(&v_in) > 0.0 && 0.5 * v_in.norm_squared() - gm / r > 0.0 {
+            if r > self.r_escape_m
+                && p.coords.dot(&v_in) > 0.0
+                && 0.5 * v_in.norm_squared() - gm / r > 0.0
+            {
                 break ArcEnd::Escaped;
             }
             if ode.t() >= t_max {
@@ -656,6 +696,7 @@ impl<'a> Flight<'a> {
         };
         self.evals += sys.evals;
         self.steps += ode.steps;
+        self.rejected += ode.rejected;
         match end {
             ArcEnd::Impact { t, y, .. } => (end, t, y, drift, max_alt),
             _ => (end, ode.t(), *ode.y(), drift, max_alt),
@@ -664,7 +705,11 @@ impl<'a> Flight<'a> {
 
     /// Looks for a surface crossing in the last accepted step; returns the impact time, state,
     /// face and step fraction.
-    fn find_impact(&self, ode: &mut Dop853<6>, sys: &mut BodyFrameSystem<'_>) -> Option<(f64, [f64; 6], usize, f64)> {
+    fn find_impact(
+        &self,
+        ode: &mut Dop853<6>,
+        sys: &mut BodyFrameSystem<'_>,
+    ) -> Option<(f64, [f64; 6], usize, f64)> {
         let h = ode.h_done();
         let (y0, f0, y1, f1) = (*ode.y_old(), *ode.f_old(), *ode.y(), *ode.f());
         // Sub-segments so the chords stay within ~1 cm of the curved path: the sagitta of a step
@@ -674,7 +719,11 @@ impl<'a> Flight<'a> {
         let mut pa = pos_of(&y0);
         for k in 0..n {
             let sb = (k + 1) as f64 / n as f64;
-            let pb = if k + 1 == n { pos_of(&y1) } else { pos_of(&hermite_pos_vel(h, &y0, &f0, &y1, &f1, sb)) };
+            let pb = if k + 1 == n {
+                pos_of(&y1)
+            } else {
+                pos_of(&hermite_pos_vel(h, &y0, &f0, &y1, &f1, sb))
+            };
             if let Some(hit) = self.body.shape.segment_first_hit(&pa, &pb) {
                 let sa = k as f64 / n as f64;
                 let t_a = ode.t_old() + sa * h;
@@ -688,9 +737,9 @@ impl<'a> Flight<'a> {
                 };
                 let t_lin = t_a + hit.t.clamp(0.0, 1.0) * (t_b - t_a);
                 let t_hit = illinois(plane, t_a, t_b, 1e-9).unwrap_or(t_lin);
-                let y_hit = ode
-                    .dense_output(t_hit)
-                    .unwrap_or_else(|| hermite_pos_vel(h, &y0, &f0, &y1, &f1, (t_hit - ode.t_old()) / h));
+                let y_hit = ode.dense_output(t_hit).unwrap_or_else(|| {
+                    hermite_pos_vel(h, &y0, &f0, &y1, &f1, (t_hit - ode.t_old()) / h)
+                });
                 return Some((t_hit, y_hit, hit.face, (t_hit - ode.t_old()) / h));
             }
             pa = pb;
@@ -700,12 +749,20 @@ impl<'a> Flight<'a> {
 
     /// Integrates the same arc in the inertial frame from the body-frame start state to `t_end`;
     /// returns the inertial end state.
-    fn inertial_arc(&mut self, t0: f64, y0_body: &[f64; 6], t_end: f64) -> Result<[f64; 6], String> {
+    fn inertial_arc(
+        &mut self,
+        t0: f64,
+        y0_body: &[f64; 6],
+        t_end: f64,
+    ) -> Result<[f64; 6], String> {
         let y0 = self.to_inertial(t0, y0_body);
         if t_end <= t0 {
             return Ok(y0);
         }
-        let mut sys = InertialSystem { body: self.body, evals: 0 };
+        let mut sys = InertialSystem {
+            body: self.body,
+            evals: 0,
+        };
         let mut ode = Dop853::new(&mut sys, t0, y0, self.tol, self.h_max);
         let result = loop {
             if ode.t() >= t_end {
@@ -717,10 +774,11 @@ impl<'a> Flight<'a> {
             if let Err(e) = ode.step(&mut sys, t_end) {
                 break Err(e.to_string());
             }
-            self.inertial_rec.record_step(ode.t_old(), ode.h_done(), ode.y_old(), ode.f_old(), ode.y(), ode.f(), 1.0);
+            self.inertial_rec.record_step(&ode, 1.0);
         };
         self.evals += sys.evals;
         self.steps += ode.steps;
+        self.rejected += ode.rejected;
         result
     }
 }
@@ -752,16 +810,5 @@ impl FlightReport {
     /// True if the flight came to rest.
     pub fn landed(&self) -> bool {
         matches!(self.outcome, Outcome::Landed)
-    }
-    /// The equivalent-radius-free time of flight to the first contact, if any.
-    pub fn time_to_first_contact_s(&self) -> Option<f64> {
-        self.first_contact_time_s
-    }
-}
-
-impl Flight<'_> {
-    #[allow(dead_code)]
-    fn equivalent_radius_m(&self) -> f64 {
-        self.r_eq_m
     }
 }

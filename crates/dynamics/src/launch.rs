@@ -102,25 +102,37 @@ impl LaunchSpec {
             if v.is_finite() && good {
                 Ok(())
             } else {
-                Err(DynamicsError::param(format!("launch {:?} {name}", self.id), format!("out of range: {v}")))
+                Err(DynamicsError::param(
+                    format!("launch {:?} {name}", self.id),
+                    format!("out of range: {v}"),
+                ))
             }
         };
         ok("speed_m_s", self.speed_m_s, self.speed_m_s >= 0.0)?;
         ok("azimuth_deg", self.azimuth_deg, true)?;
-        ok("elevation_deg", self.elevation_deg, self.elevation_deg.abs() <= 90.0)?;
-        ok("start_altitude_m", self.start_altitude_m, self.start_altitude_m >= 0.0)
+        ok(
+            "elevation_deg",
+            self.elevation_deg,
+            self.elevation_deg.abs() <= 90.0,
+        )?;
+        ok(
+            "start_altitude_m",
+            self.start_altitude_m,
+            self.start_altitude_m >= 0.0,
+        )
     }
 
     /// The single launch state of this spec.
     pub fn state(&self) -> Result<LaunchState> {
         self.validate()?;
-        let dir = self
-            .site
-            .frame
-            .direction(self.azimuth_deg.to_radians(), self.elevation_deg.to_radians());
+        let dir = self.site.frame.direction(
+            self.azimuth_deg.to_radians(),
+            self.elevation_deg.to_radians(),
+        );
         Ok(LaunchState {
             id: self.id.clone(),
-            pos_body_m: self.site.point_body_m + self.site.frame.up.into_inner() * self.start_altitude_m,
+            pos_body_m: self.site.point_body_m
+                + self.site.frame.up.into_inner() * self.start_altitude_m,
             vel_body_m_s: dir * self.speed_m_s,
             site: Some(self.site.clone()),
         })
@@ -141,7 +153,11 @@ impl LaunchSpec {
         };
         (0..fan.count)
             .map(|k| {
-                let f = if fan.count == 1 { 0.0 } else { k as f64 / (fan.count - 1) as f64 };
+                let f = if fan.count == 1 {
+                    0.0
+                } else {
+                    k as f64 / (fan.count - 1) as f64
+                };
                 let v = from + (fan.to - from) * f;
                 let mut s = self.clone();
                 s.id = format!("{}/{k}", self.id);
@@ -170,12 +186,16 @@ impl LaunchSpec {
         }
         let base = self.state()?;
         let up = self.site.frame.up.into_inner();
-        let nominal = self
-            .site
-            .frame
-            .direction(self.azimuth_deg.to_radians(), self.elevation_deg.to_radians());
+        let nominal = self.site.frame.direction(
+            self.azimuth_deg.to_radians(),
+            self.elevation_deg.to_radians(),
+        );
         let p1 = nominal.cross(&up);
-        let p1 = if p1.norm() < 1e-9 { self.site.frame.east.into_inner() } else { p1.normalize() };
+        let p1 = if p1.norm() < 1e-9 {
+            self.site.frame.east.into_inner()
+        } else {
+            p1.normalize()
+        };
         let p2 = nominal.cross(&p1);
         let sigma_speed = match d.speed_sigma {
             SpeedSigma::MS(s) => s,
@@ -186,7 +206,10 @@ impl LaunchSpec {
         let mut out = Vec::with_capacity(d.count);
         for k in 0..d.count {
             let speed = (self.speed_m_s + sigma_speed * gaussian(&mut rng)).abs();
-            let (dx, dy) = (sigma_dir * gaussian(&mut rng), sigma_dir * gaussian(&mut rng));
+            let (dx, dy) = (
+                sigma_dir * gaussian(&mut rng),
+                sigma_dir * gaussian(&mut rng),
+            );
             let angle = (dx * dx + dy * dy).sqrt();
             let mut dir = if angle > 0.0 {
                 nominal * angle.cos() + (p1 * dx + p2 * dy) * (angle.sin() / angle)
@@ -216,10 +239,22 @@ fn gaussian(rng: &mut ChaCha8Rng) -> f64 {
 
 impl LaunchState {
     /// A launch from an explicit body-fixed state, used exactly as given.
-    pub fn from_state(id: impl Into<String>, pos_body_m: Point3<f64>, vel_body_m_s: Vector3<f64>) -> Result<LaunchState> {
+    pub fn from_state(
+        id: impl Into<String>,
+        pos_body_m: Point3<f64>,
+        vel_body_m_s: Vector3<f64>,
+    ) -> Result<LaunchState> {
         let id = id.into();
-        if !pos_body_m.coords.iter().chain(vel_body_m_s.iter()).all(|v| v.is_finite()) {
-            return Err(DynamicsError::param(format!("launch {id:?} state"), "position and velocity must be finite"));
+        if !pos_body_m
+            .coords
+            .iter()
+            .chain(vel_body_m_s.iter())
+            .all(|v| v.is_finite())
+        {
+            return Err(DynamicsError::param(
+                format!("launch {id:?} state"),
+                "position and velocity must be finite",
+            ));
         }
         Ok(LaunchState {
             id,

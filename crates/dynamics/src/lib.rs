@@ -1,15 +1,60 @@
-//! placeholder
+//! Flights of particles over a spinning small body: the dynamics core of Spinfall.
+//!
+//! What it is: a [`Body`] (shape + homogeneous polyhedron gravity + uniform [`Spin`]) with the
+//! transforms between its body-fixed and inertial frames; launch [`site::Site`]s with their
+//! east-north-up frames and planetocentric coordinates; launches ([`launch::LaunchSpec`], fans,
+//! seeded dispersion sets, explicit states) expanding to [`launch::LaunchState`]s; an adaptive
+//! Dormand–Prince 8(5,3) integrator with dense output ([`dop853`]); flights integrated in both
+//! frames with impact location, bouncing, escape and Jacobi-integral monitoring ([`fly`],
+//! [`fly_all`] → [`FlightReport`]); per-face surface maps ([`surface_map::surface_map`]); the
+//! versioned JSON scenario format ([`scenario::Scenario`], documented in `SCENARIO.md`); and
+//! JSON/CSV exporters ([`export`]).
+//!
+//! What it is not: no GUI, no rendering, no file I/O — scenarios parse from `&str`, shape paths
+//! are returned to the caller, exporters take `impl Write`. Long work takes a progress callback
+//! and a cancel flag. Spinfall is a research and planning tool, **not flight-certified**.
+//!
+//! ```
+//! use std::sync::{Arc, atomic::AtomicBool};
+//! use nalgebra::Vector3;
+//! use spinfall_dynamics::{fly, Body, FlightSettings, Outcome, Spin};
+//! use spinfall_dynamics::launch::LaunchSpec;
+//! use spinfall_dynamics::site::{NormalMode, Site};
+//! use spinfall_gravity::{generate, MassSpec, ShapeModel};
+//!
+//! let shape = Arc::new(ShapeModel::new(generate::icosphere(1000.0, 2)).unwrap().0);
+//! let spin = Spin::from_hours(6.0, Vector3::z_axis(), 0.0).unwrap();
+//! let body = Body::new("Pebble", shape, MassSpec::DensityKgM3(2000.0), spin).unwrap();
+//! let site = Site::from_lat_lon(&body, 10.0, 40.0, NormalMode::Face).unwrap();
+//! let launch = LaunchSpec {
+//!     id: "hop".into(), site, speed_m_s: 0.2, azimuth_deg: 90.0, elevation_deg: 45.0,
+//!     start_altitude_m: 0.05,
+//! }
+//! .state()
+//! .unwrap();
+//! let report = fly(&body, &launch, &FlightSettings::default(), &AtomicBool::new(false));
+//! assert_eq!(report.outcome, Outcome::Landed);
+//! assert!(report.frame_agreement_m < 0.01);
+//! ```
 #![warn(missing_docs)]
-mod error;
-pub mod dop853;
-mod gravity_model;
+
 mod body;
-pub mod site;
+pub mod dop853;
+mod error;
+pub mod export;
+mod flight;
+mod gravity_model;
+mod json_path;
 pub mod launch;
-pub mod surface_map;
-pub mod flight;
 mod roots;
-pub use error::{DynamicsError, Result};
-pub use gravity_model::{GravityModel, PointMass};
+pub mod scenario;
+pub mod site;
+pub mod surface_map;
+
 pub use body::{Body, BodyFigures, Spin, SpinAxis};
-pub use flight::*;
+pub use error::{DynamicsError, Result};
+pub use flight::{
+    BounceModel, Cancel, Contact, FlightReport, FlightSettings, IntegratorSettings, LandingPoint,
+    Outcome, SamplingSettings, TrajectorySample, fly, fly_all,
+};
+pub use gravity_model::{GravityModel, PointMass};

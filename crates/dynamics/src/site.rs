@@ -63,7 +63,8 @@ impl LocalFrame {
     pub fn direction(&self, azimuth_rad: f64, elevation_rad: f64) -> Vector3<f64> {
         let (sa, ca) = azimuth_rad.sin_cos();
         let (se, ce) = elevation_rad.sin_cos();
-        (self.north.into_inner() * ca + self.east.into_inner() * sa) * ce + self.up.into_inner() * se
+        (self.north.into_inner() * ca + self.east.into_inner() * sa) * ce
+            + self.up.into_inner() * se
     }
 }
 
@@ -130,7 +131,12 @@ impl Site {
     }
 
     /// The site at `point_body_m` on `face` (e.g. from a picked ray's [`spinfall_gravity::SurfaceHit`]).
-    pub fn from_surface_point(body: &Body, point_body_m: Point3<f64>, face: usize, normal: NormalMode) -> Result<Site> {
+    pub fn from_surface_point(
+        body: &Body,
+        point_body_m: Point3<f64>,
+        face: usize,
+        normal: NormalMode,
+    ) -> Result<Site> {
         check_face(body, face)?;
         if !point_body_m.coords.iter().all(|c| c.is_finite()) {
             return Err(DynamicsError::Site(format!(
@@ -141,7 +147,8 @@ impl Site {
         let up = match normal {
             NormalMode::Face => body.shape.face_normal(face),
             NormalMode::Smoothed => {
-                let mut n = body.shape.face_normal(face).into_inner() * body.shape.face_area_m2(face);
+                let mut n =
+                    body.shape.face_normal(face).into_inner() * body.shape.face_area_m2(face);
                 for nb in body.shape.face_neighbours(face) {
                     if nb < body.shape.face_count() {
                         n += body.shape.face_normal(nb).into_inner() * body.shape.face_area_m2(nb);
@@ -168,12 +175,21 @@ impl Site {
 
     /// The site at planetocentric `lat_deg`, `lon_deg`: the first surface crossed coming in from
     /// outside along the radial line, so on a non-convex body it is the outermost surface.
-    pub fn from_lat_lon(body: &Body, lat_deg: f64, lon_deg: f64, normal: NormalMode) -> Result<Site> {
+    pub fn from_lat_lon(
+        body: &Body,
+        lat_deg: f64,
+        lon_deg: f64,
+        normal: NormalMode,
+    ) -> Result<Site> {
         if !lat_deg.is_finite() || !(-90.0..=90.0).contains(&lat_deg) {
-            return Err(DynamicsError::Site(format!("latitude {lat_deg} deg is outside [-90, 90]")));
+            return Err(DynamicsError::Site(format!(
+                "latitude {lat_deg} deg is outside [-90, 90]"
+            )));
         }
         if !lon_deg.is_finite() {
-            return Err(DynamicsError::Site(format!("longitude {lon_deg} deg is not finite")));
+            return Err(DynamicsError::Site(format!(
+                "longitude {lon_deg} deg is not finite"
+            )));
         }
         let d = direction_from_lat_lon(body, lat_deg, lon_deg);
         let far = 2.0 * body.brillouin_radius_m() + 1.0;

@@ -26,12 +26,20 @@ use crate::body::Body;
 use crate::error::{DynamicsError, Result};
 
 /// Escape speeds (along `normal`, minimum over directions) at `p_body_m`, m/s; see module docs.
-pub fn escape_speeds(body: &Body, p_body_m: &Point3<f64>, normal: &Unit<Vector3<f64>>) -> (f64, f64) {
+pub fn escape_speeds(
+    body: &Body,
+    p_body_m: &Point3<f64>,
+    normal: &Unit<Vector3<f64>>,
+) -> (f64, f64) {
     let (u, _) = body.gravity.potential_acceleration(p_body_m);
     let wxr = body.omega_body_rad_s().cross(&p_body_m.coords);
     let b = normal.dot(&wxr);
     let disc = b * b - wxr.norm_squared() + 2.0 * u;
-    let v_normal = if disc >= 0.0 { (-b + disc.sqrt()).max(0.0) } else { 0.0 };
+    let v_normal = if disc >= 0.0 {
+        (-b + disc.sqrt()).max(0.0)
+    } else {
+        0.0
+    };
     let v_min = ((2.0 * u).sqrt() - wxr.norm()).max(0.0);
     (v_normal, v_min)
 }
@@ -136,7 +144,12 @@ impl SurfaceMap {
         if v.is_empty() {
             return None;
         }
-        Some(v.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), &x| (lo.min(x), hi.max(x))))
+        Some(
+            v.iter()
+                .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), &x| {
+                    (lo.min(x), hi.max(x))
+                }),
+        )
     }
 
     /// Number of faces.
@@ -162,7 +175,11 @@ struct FaceValues {
 
 /// Computes the map over every face in parallel. `progress(done, total)` is called from worker
 /// threads now and then; setting `cancel` stops the work with [`DynamicsError::Cancelled`].
-pub fn surface_map(body: &Body, progress: &(dyn Fn(usize, usize) + Sync), cancel: &AtomicBool) -> Result<SurfaceMap> {
+pub fn surface_map(
+    body: &Body,
+    progress: &(dyn Fn(usize, usize) + Sync),
+    cancel: &AtomicBool,
+) -> Result<SurfaceMap> {
     let n = body.shape.face_count();
     let w = body.omega_body_rad_s();
     let done = AtomicUsize::new(0);
@@ -187,7 +204,7 @@ pub fn surface_map(body: &Body, progress: &(dyn Fn(usize, usize) + Sync), cancel
             };
             let (esc_n, esc_min) = escape_speeds(body, &r, &nrm);
             let k = done.fetch_add(1, Ordering::Relaxed) + 1;
-            if k % step == 0 || k == n {
+            if k.is_multiple_of(step) || k == n {
                 progress(k, n);
             }
             Some(FaceValues {

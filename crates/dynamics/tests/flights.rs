@@ -1,4 +1,5 @@
 //! Flights against closed-form solutions and physical laws.
+#![allow(clippy::unwrap_used, reason = "tests unwrap freely")]
 
 mod common;
 
@@ -37,21 +38,50 @@ fn stick() -> BounceModel {
 /// "Fundamentals of Astrodynamics and Applications", 4th ed., sec. 2.2–2.3).
 fn time_since_periapsis(nu: f64, e: f64, a: f64, mu: f64) -> f64 {
     let ecc_anom = 2.0 * (((1.0 - e) / (1.0 + e)).sqrt() * (nu / 2.0).tan()).atan();
-    let ecc_anom = if ecc_anom < 0.0 { ecc_anom + 2.0 * PI } else { ecc_anom };
+    let ecc_anom = if ecc_anom < 0.0 {
+        ecc_anom + 2.0 * PI
+    } else {
+        ecc_anom
+    };
     (ecc_anom - e * ecc_anom.sin()) / (mu / a.powi(3)).sqrt()
 }
 
 #[test]
 fn ballistic_arc_on_non_rotating_sphere_matches_kepler() {
-    let (r, gm): (f64, f64) = (1000.0, 0.5);
-    let body = point_mass_sphere(r, 3, gm, no_spin());
+    let body = point_mass_sphere(1000.0, 3, 0.5, no_spin());
+    kepler_arc(&body, 1e-5, 1e-7);
+}
+
+#[test]
+fn ballistic_arc_in_polyhedron_field_of_refined_sphere_matches_kepler_loosely() {
+    // Outside a homogeneous sphere the field is that of a point mass (Newton's shell theorem);
+    // the faceted icosphere departs from it by its small faceting, hence the looser tolerance.
+    let shape = common::shape(spinfall_gravity::generate::icosphere(1000.0, 3));
+    let body = spinfall_dynamics::Body::new(
+        "ball",
+        shape,
+        spinfall_gravity::MassSpec::DensityKgM3(2000.0),
+        no_spin(),
+    )
+    .unwrap();
+    kepler_arc(&body, 2e-3, 2e-3);
+}
+
+fn kepler_arc(body: &spinfall_dynamics::Body, tof_rel_tol: f64, angle_tol: f64) {
+    let gm = body.gm_m3_s2();
+    let body = body.clone();
     // Launch from just above a face centroid, 45 deg elevation, 60 % of the escape speed.
     let site = spinfall_dynamics::site::Site::from_face(&body, 7, Default::default()).unwrap();
     let p0 = site.point_body_m + site.frame.up.into_inner() * 0.05;
     let v_esc = (2.0 * gm / p0.coords.norm()).sqrt();
     let dir = site.frame.direction(0.3, 45f64.to_radians());
     let launch = LaunchState::from_state("k", p0, dir * 0.6 * v_esc).unwrap();
-    let rep = fly(&body, &launch, &settings(1e-12, 1e6, stick()), &AtomicBool::new(false));
+    let rep = fly(
+        &body,
+        &launch,
+        &settings(1e-12, 1e6, stick()),
+        &AtomicBool::new(false),
+    );
     assert_eq!(rep.outcome, Outcome::Landed, "{:?}", rep.outcome);
     let hit = Point3::from(Vector3::from(rep.landing.as_ref().unwrap().pos_body_m));
     // Two-body conic from the launch state (Vallado sec. 2.2): angular momentum, energy,
@@ -66,11 +96,22 @@ fn ballistic_arc_on_non_rotating_sphere_matches_kepler() {
     let nu1 = 2.0 * PI - ((p / hit.coords.norm() - 1.0) / e).clamp(-1.0, 1.0).acos(); // descending
     let tof = time_since_periapsis(nu1, e, a, gm) - time_since_periapsis(nu0, e, a, gm);
     let t = rep.first_contact_time_s.unwrap();
-    assert!((t - tof).abs() < 1e-5 * tof, "time of flight {t} s vs Kepler {tof} s");
+    assert!(
+        (t - tof).abs() < tof_rel_tol * tof,
+        "time of flight {t} s vs Kepler {tof} s"
+    );
     // Range: the central angle swept equals nu1 - nu0.
     let swept = rv.angle(&hit.coords);
-    assert!((swept - (nu1 - nu0)).abs() < 1e-7, "swept {swept} vs {}", nu1 - nu0);
-    assert!(rep.frame_agreement_m < 1e-3, "frame agreement {}", rep.frame_agreement_m);
+    assert!(
+        (swept - (nu1 - nu0)).abs() < angle_tol,
+        "swept {swept} vs {}",
+        nu1 - nu0
+    );
+    assert!(
+        rep.frame_agreement_m < 1e-3,
+        "frame agreement {}",
+        rep.frame_agreement_m
+    );
 }
 
 #[test]
@@ -83,8 +124,18 @@ fn launch_just_below_escape_speed_lands_and_just_above_escapes() {
     let v_esc = (2.0 * gm / p0.coords.norm()).sqrt();
     let radial = p0.coords.normalize();
     let s = settings(1e-11, 1e9, stick());
-    let low = fly(&body, &LaunchState::from_state("lo", p0, radial * 0.98 * v_esc).unwrap(), &s, &AtomicBool::new(false));
-    let high = fly(&body, &LaunchState::from_state("hi", p0, radial * 1.02 * v_esc).unwrap(), &s, &AtomicBool::new(false));
+    let low = fly(
+        &body,
+        &LaunchState::from_state("lo", p0, radial * 0.98 * v_esc).unwrap(),
+        &s,
+        &AtomicBool::new(false),
+    );
+    let high = fly(
+        &body,
+        &LaunchState::from_state("hi", p0, radial * 1.02 * v_esc).unwrap(),
+        &s,
+        &AtomicBool::new(false),
+    );
     assert_eq!(low.outcome, Outcome::Landed, "{:?}", low.outcome);
     assert_eq!(high.outcome, Outcome::Escaped, "{:?}", high.outcome);
 }
@@ -104,18 +155,31 @@ fn circular_orbit_returns(period_spin_s: f64) {
     let v_in = plane_normal.cross(&p_in.coords).normalize() * (gm / a).sqrt();
     let v_body = body.vel_body_from_inertial(0.0, &p_in, &v_in);
     let launch = LaunchState::from_state("orbit", p_body, v_body).unwrap();
-    let rep = fly(&body, &launch, &settings(1e-12, period, stick()), &AtomicBool::new(false));
+    let rep = fly(
+        &body,
+        &launch,
+        &settings(1e-12, period, stick()),
+        &AtomicBool::new(false),
+    );
     assert_eq!(rep.outcome, Outcome::StillFlying);
     assert!((rep.end_time_s - period).abs() < 1e-6);
     // Body-frame integration, mapped to inertial, is back at its start after one period.
     let end_body = Point3::from(Vector3::from(rep.final_pos_body_m));
     let end_in = body.pos_inertial_from_body(period, &end_body);
-    assert!((end_in - p_in).norm() < 1e-6 * a, "body frame: off by {} m", (end_in - p_in).norm());
+    assert!(
+        (end_in - p_in).norm() < 1e-6 * a,
+        "body frame: off by {} m",
+        (end_in - p_in).norm()
+    );
     // The inertial integration too.
     let last = rep.trajectory_inertial.last().unwrap();
     assert!((last.t_s - period).abs() < 1e-6);
     let end_in2 = Point3::from(Vector3::from(last.pos_m));
-    assert!((end_in2 - p_in).norm() < 1e-6 * a, "inertial: off by {} m", (end_in2 - p_in).norm());
+    assert!(
+        (end_in2 - p_in).norm() < 1e-6 * a,
+        "inertial: off by {} m",
+        (end_in2 - p_in).norm()
+    );
 }
 
 #[test]
@@ -145,26 +209,48 @@ fn impact_time_of_radial_free_fall_within_a_microsecond() {
         .unwrap()
     };
     let r0 = 10.0;
-    let launch = LaunchState::from_state("drop", Point3::new(0.0, 0.0, r0), Vector3::zeros()).unwrap();
-    let rep = fly(&box_body, &launch, &settings(1e-13, 1e6, stick()), &AtomicBool::new(false));
+    let launch =
+        LaunchState::from_state("drop", Point3::new(0.0, 0.0, r0), Vector3::zeros()).unwrap();
+    let rep = fly(
+        &box_body,
+        &launch,
+        &settings(1e-13, 1e6, stick()),
+        &AtomicBool::new(false),
+    );
     assert_eq!(rep.outcome, Outcome::Landed);
     let x: f64 = 1.0 / r0;
     let t_exact = (r0.powi(3) / (2.0 * gm)).sqrt() * ((x * (1.0 - x)).sqrt() + x.sqrt().acos());
     let t = rep.first_contact_time_s.unwrap();
-    assert!((t - t_exact).abs() < 1e-6, "impact at {t} s, exact {t_exact} s");
+    assert!(
+        (t - t_exact).abs() < 1e-6,
+        "impact at {t} s, exact {t_exact} s"
+    );
 }
 
 #[test]
 fn straight_line_impact_on_box_face_is_located_exactly() {
     // Constant velocity, no gravity: the top face z = 1 m is reached at t = (z0 - 1) / |vz|.
     let body = gravity_free_box();
-    let launch = LaunchState::from_state("line", Point3::new(-0.2, 0.1, 10.0), Vector3::new(0.03, 0.01, -0.5)).unwrap();
-    let rep = fly(&body, &launch, &settings(1e-10, 1e3, stick()), &AtomicBool::new(false));
+    let launch = LaunchState::from_state(
+        "line",
+        Point3::new(-0.2, 0.1, 10.0),
+        Vector3::new(0.03, 0.01, -0.5),
+    )
+    .unwrap();
+    let rep = fly(
+        &body,
+        &launch,
+        &settings(1e-10, 1e3, stick()),
+        &AtomicBool::new(false),
+    );
     assert_eq!(rep.outcome, Outcome::Landed);
     let t = rep.first_contact_time_s.unwrap();
     assert!((t - 18.0).abs() < 1e-6, "{t}");
     let p = rep.landing.unwrap().pos_body_m;
-    assert!((p[0] - 0.34).abs() < 1e-6 && (p[1] - 0.28).abs() < 1e-6 && (p[2] - 1.0).abs() < 1e-9, "{p:?}");
+    assert!(
+        (p[0] - 0.34).abs() < 1e-6 && (p[1] - 0.28).abs() < 1e-6 && (p[2] - 1.0).abs() < 1e-9,
+        "{p:?}"
+    );
 }
 
 #[test]
@@ -180,7 +266,12 @@ fn rebound_follows_restitution_coefficients_on_flat_face() {
     };
     let v: Vector3<f64> = Vector3::new(0.3, -0.1, -0.4);
     let launch = LaunchState::from_state("b", Point3::new(-0.5, 0.2, 2.0), v).unwrap();
-    let rep = fly(&body, &launch, &settings(1e-10, 100.0, bounce), &AtomicBool::new(false));
+    let rep = fly(
+        &body,
+        &launch,
+        &settings(1e-10, 100.0, bounce),
+        &AtomicBool::new(false),
+    );
     // With no gravity the rebound leaves for good.
     assert_eq!(rep.outcome, Outcome::Escaped, "{:?}", rep.outcome);
     assert_eq!(rep.contacts.len(), 1);
@@ -193,8 +284,16 @@ fn rebound_follows_restitution_coefficients_on_flat_face() {
     let vf = Vector3::from(rep.final_vel_body_m_s);
     assert!((vf - expected).norm() < 1e-12, "{vf:?}");
     // With max_bounces = 0 the first contact is a rest.
-    let bounce2 = BounceModel { max_bounces: 0, ..bounce };
-    let rep2 = fly(&body, &launch, &settings(1e-10, 100.0, bounce2), &AtomicBool::new(false));
+    let bounce2 = BounceModel {
+        max_bounces: 0,
+        ..bounce
+    };
+    let rep2 = fly(
+        &body,
+        &launch,
+        &settings(1e-10, 100.0, bounce2),
+        &AtomicBool::new(false),
+    );
     assert_eq!(rep2.outcome, Outcome::Landed);
     assert!(rep2.contacts[0].rest);
 }
@@ -203,7 +302,12 @@ fn rebound_follows_restitution_coefficients_on_flat_face() {
 fn launch_inside_the_body_fails_with_a_reason() {
     let body = gravity_free_box();
     let launch = LaunchState::from_state("in", Point3::new(0.1, 0.0, 0.0), Vector3::x()).unwrap();
-    let rep = fly(&body, &launch, &FlightSettings::default(), &AtomicBool::new(false));
+    let rep = fly(
+        &body,
+        &launch,
+        &FlightSettings::default(),
+        &AtomicBool::new(false),
+    );
     match rep.outcome {
         Outcome::Failed { reason } => assert!(reason.contains("inside"), "{reason}"),
         o => panic!("{o:?}"),
@@ -213,15 +317,34 @@ fn launch_inside_the_body_fails_with_a_reason() {
 #[test]
 fn cancel_flag_stops_a_flight() {
     let body = point_mass_sphere(1000.0, 2, 0.5, no_spin());
-    let launch = LaunchState::from_state("c", Point3::new(3000.0, 0.0, 0.0), Vector3::new(0.0, 0.0129, 0.0)).unwrap();
-    let rep = fly(&body, &launch, &FlightSettings::default(), &AtomicBool::new(true));
-    assert!(matches!(rep.outcome, Outcome::Failed { .. }), "{:?}", rep.outcome);
+    let launch = LaunchState::from_state(
+        "c",
+        Point3::new(3000.0, 0.0, 0.0),
+        Vector3::new(0.0, 0.0129, 0.0),
+    )
+    .unwrap();
+    let rep = fly(
+        &body,
+        &launch,
+        &FlightSettings::default(),
+        &AtomicBool::new(true),
+    );
+    assert!(
+        matches!(rep.outcome, Outcome::Failed { .. }),
+        "{:?}",
+        rep.outcome
+    );
 }
 
 #[test]
 fn step_limit_gives_failed_not_a_hang() {
     let body = point_mass_sphere(1000.0, 2, 0.5, no_spin());
-    let launch = LaunchState::from_state("c", Point3::new(3000.0, 0.0, 0.0), Vector3::new(0.0, 0.0129, 0.0)).unwrap();
+    let launch = LaunchState::from_state(
+        "c",
+        Point3::new(3000.0, 0.0, 0.0),
+        Vector3::new(0.0, 0.0129, 0.0),
+    )
+    .unwrap();
     let mut s = FlightSettings::default();
     s.integrator.max_steps = 5;
     let rep = fly(&body, &launch, &s, &AtomicBool::new(false));

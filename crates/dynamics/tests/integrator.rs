@@ -1,4 +1,5 @@
 //! The DOP853 integrator against closed-form solutions.
+#![allow(clippy::unwrap_used, reason = "tests unwrap freely")]
 
 use spinfall_dynamics::dop853::{Dop853, OdeSystem, Tolerances, hermite_pos_vel};
 
@@ -19,7 +20,10 @@ impl OdeSystem<6> for Oscillator {
 
 fn fixed_step_error(h: f64) -> f64 {
     // Loose tolerances so every step of length h is accepted; stepping to t + h forces the size.
-    let tol = Tolerances { rel: 1e3, abs: [1e3] };
+    let tol = Tolerances {
+        rel: 1e3,
+        abs: [1e3],
+    };
     let mut sys = Exp;
     let mut ode = Dop853::new(&mut sys, 0.0, [1.0], tol, h);
     let n = (1.0 / h).round() as usize;
@@ -37,20 +41,30 @@ fn order_of_convergence_is_eight_on_exponential_growth() {
     let e1 = fixed_step_error(0.25);
     let e2 = fixed_step_error(0.125);
     let order = (e1 / e2).log2();
-    assert!(order > 7.5 && order < 9.0, "observed order {order} (errors {e1:e}, {e2:e})");
+    assert!(
+        order > 7.5 && order < 9.0,
+        "observed order {order} (errors {e1:e}, {e2:e})"
+    );
 }
 
 #[test]
 fn adaptive_run_meets_tolerance_on_harmonic_oscillator() {
     // Closed form: x = cos t, v = -sin t.
-    let tol = Tolerances { rel: 1e-12, abs: [1e-12; 6] };
+    let tol = Tolerances {
+        rel: 1e-12,
+        abs: [1e-12; 6],
+    };
     let mut sys = Oscillator;
     let mut ode = Dop853::new(&mut sys, 0.0, [1.0, 0.0, 0.0, 0.0, 1.0, 0.0], tol, 1.0);
     while ode.t() < 20.0 {
         ode.step(&mut sys, 20.0).unwrap();
     }
     let y = ode.y();
-    assert!((y[0] - 20f64.cos()).abs() < 1e-9, "x error {}", y[0] - 20f64.cos());
+    assert!(
+        (y[0] - 20f64.cos()).abs() < 1e-9,
+        "x error {}",
+        y[0] - 20f64.cos()
+    );
     assert!((y[3] + 20f64.sin()).abs() < 1e-9);
     assert!((y[1] - 20f64.sin()).abs() < 1e-9);
     assert!(ode.steps < 400, "{} steps", ode.steps);
@@ -62,7 +76,10 @@ fn dense_output_is_seventh_order_accurate_inside_steps() {
     // inside a step of length h its error scales like h^8 locally. Check both its absolute
     // accuracy and its scaling against the closed form x = cos t.
     let err_for = |h: f64| {
-        let tol = Tolerances { rel: 1e3, abs: [1e3; 6] };
+        let tol = Tolerances {
+            rel: 1e3,
+            abs: [1e3; 6],
+        };
         let mut sys = Oscillator;
         let mut ode = Dop853::new(&mut sys, 0.0, [1.0, 0.0, 0.0, 0.0, 0.0, 0.0], tol, h);
         ode.step(&mut sys, h).unwrap();
@@ -71,7 +88,9 @@ fn dense_output_is_seventh_order_accurate_inside_steps() {
         for k in 1..10 {
             let t = h * k as f64 / 10.0;
             let y = ode.dense_output(t).unwrap();
-            worst = worst.max((y[0] - t.cos()).abs()).max((y[3] + t.sin()).abs());
+            worst = worst
+                .max((y[0] - t.cos()).abs())
+                .max((y[3] + t.sin()).abs());
         }
         worst
     };
@@ -96,7 +115,9 @@ fn quintic_hermite_matches_closed_form_to_sixth_order() {
             let s = k as f64 / 10.0;
             let y = hermite_pos_vel(h, &y0, &f0, &y1, &f1, s);
             let t = s * h;
-            worst = worst.max((y[0] - t.cos()).abs()).max((y[3] + t.sin()).abs() * h);
+            worst = worst
+                .max((y[0] - t.cos()).abs())
+                .max((y[3] + t.sin()).abs() * h);
         }
         worst
     };

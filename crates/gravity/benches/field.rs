@@ -8,6 +8,7 @@ use std::time::{Duration, Instant};
 
 use criterion::{Criterion, Throughput, criterion_group, criterion_main};
 use nalgebra::{Point3, Vector3};
+use spinfall_gravity::field::DirectKernel;
 use spinfall_gravity::{MassSpec, PolyhedronGravity, generate};
 
 /// `n` points on a spiral shell between 1.1 and 3 body radii (deterministic).
@@ -22,6 +23,34 @@ fn points_around(radius_m: f64, n: usize) -> Vec<Point3<f64>> {
             Point3::from(Vector3::new(s * phi.cos(), s * phi.sin(), z) * r)
         })
         .collect()
+}
+
+/// CPU time this thread has run, ns (Linux `/proc/thread-self/schedstat`), so figures stay
+/// meaningful on a machine shared with other work; `None` elsewhere.
+fn thread_cpu_ns() -> Option<u64> {
+    let text = std::fs::read_to_string("/proc/thread-self/schedstat").ok()?;
+    text.split_whitespace().next()?.parse().ok()
+}
+
+/// Prints CPU ns per facet per point of each kernel for one point, single thread.
+fn cpu_time_per_facet(field: &PolyhedronGravity, p: &Point3<f64>) {
+    let faces = field.face_count() as f64;
+    let reps = (20_000_000.0 / faces).ceil() as usize;
+    for kernel in [
+        DirectKernel::Scalar,
+        DirectKernel::Wide,
+        DirectKernel::Compiled,
+    ] {
+        let Some(t0) = thread_cpu_ns() else { return };
+        for _ in 0..reps {
+            black_box(field.potential_acceleration_with_kernel(black_box(p), kernel));
+        }
+        let Some(t1) = thread_cpu_ns() else { return };
+        eprintln!(
+            "  {kernel:?}: {:.2} ns CPU per facet per point (single thread)",
+            (t1 - t0) as f64 / (reps as f64 * faces)
+        );
+    }
 }
 
 fn bench_field(c: &mut Criterion) {
@@ -40,6 +69,7 @@ fn bench_field(c: &mut Criterion) {
             field.memory_bytes() as f64 / faces as f64
         );
         let points = points_around(radius_m, 256);
+        cpu_time_per_facet(&field, &points[17]);
         let big = faces > 100_000;
         let mut group = c.benchmark_group(format!("field_{faces}_faces"));
         group.sample_size(10);
@@ -55,9 +85,17 @@ fn bench_field(c: &mut Criterion) {
             b.iter(|| black_box(field.potential_acceleration(black_box(&p))))
         });
         if !big {
-            group.bench_function("single_point_scalar_kernel", |b| {
-                b.iter(|| black_box(field.potential_acceleration_scalar(black_box(&p))))
-            });
+            for kernel in [
+                DirectKernel::Scalar,
+                DirectKernel::Wide,
+                DirectKernel::Compiled,
+            ] {
+                group.bench_function(format!("single_point_kernel_{kernel:?}"), |b| {
+                    b.iter(|| {
+                        black_box(field.potential_acceleration_with_kernel(black_box(&p), kernel))
+                    })
+                });
+            }
             group.bench_function("single_point_evaluate_with_gradient", |b| {
                 b.iter(|| black_box(field.evaluate(black_box(&p))))
             });

@@ -1,22 +1,31 @@
 //! Shape models of small bodies and the exact gravity of the constant-density polyhedron.
 //!
 //! What it is: the numeric core of Spinfall. It parses and validates Wavefront OBJ shape models
-//! ([`parse_obj`]), computes the mass properties of the homogeneous polyhedron
+//! ([`parse_obj`], [`ShapeModel::new`]: closed, manifold, consistently and outward oriented;
+//! repairs come back as [`Warning`]s), computes the mass properties of the homogeneous polyhedron
 //! ([`MassProperties`]), answers geometry queries through a BVH ([`ShapeModel`]: ray and segment
-//! first hit, nearest surface point, inside test) and evaluates the Werner & Scheeres (1997)
-//! gravity field ([`PolyhedronGravity`]): potential, acceleration, gravity-gradient tensor and
-//! Laplacian, with an exterior expansion far from the body.
+//! first hit as a [`SurfaceHit`], nearest surface point, inside test), generates test bodies
+//! ([`generate`]: icosphere, ellipsoid, box, the invented demo body "Quillon") and evaluates the
+//! Werner & Scheeres (1997) gravity field ([`PolyhedronGravity`]): potential, acceleration,
+//! gravity-gradient tensor and Laplacian, with an exterior expansion far from the body.
 //!
 //! What it is not: no GUI, no rendering, no file system access, no logging set-up. Parsers take
-//! readers; the caller opens files. SI units inside (m, kg, s).
+//! readers; the caller opens files. SI units inside (m, kg, s). Spinfall is for research and
+//! planning; it is not flight-certified.
 //!
 //! ```
 //! use spinfall_gravity::{generate, MassSpec, PolyhedronGravity, ShapeModel};
-//! use nalgebra::Point3;
+//! use nalgebra::{Point3, Vector3};
 //! let (shape, _warnings) = ShapeModel::new(generate::icosphere(1000.0, 3)).unwrap();
 //! let gravity = PolyhedronGravity::new(&shape, MassSpec::DensityKgM3(2000.0)).unwrap();
 //! let (u_m2_s2, a_m_s2) = gravity.potential_acceleration(&Point3::new(5000.0, 0.0, 0.0));
 //! assert!(u_m2_s2 > 0.0 && a_m_s2.x < 0.0);
+//! // Geometry: where does a ray from outside meet the surface?
+//! let hit = shape
+//!     .ray_first_hit(&Point3::new(5000.0, 0.0, 0.0), &Vector3::new(-1.0, 0.0, 0.0), 1e4)
+//!     .unwrap();
+//! assert!(hit.front_face && (hit.point_m.x - 1000.0).abs() < 1.0);
+//! assert!(shape.contains(&Point3::origin()));
 //! ```
 #![warn(missing_docs)]
 
@@ -31,7 +40,7 @@ mod shape;
 mod validate;
 
 pub use error::{GravityError, Result};
-pub use field::{FieldSample, MassSpec, PolyhedronGravity, G_SI};
+pub use field::{FieldSample, G_SI, MassSpec, PolyhedronGravity};
 pub use mass::MassProperties;
 pub use mesh::{LengthUnit, Mesh};
 pub use obj::parse_obj;
@@ -48,5 +57,5 @@ pub mod demo {
     /// Suggested bulk density of the demo body, kg/m^3 (invented).
     pub const DENSITY_KG_M3: f64 = 2100.0;
     /// Suggested spin period of the demo body, hours (invented).
-    pub const PERIOD_H: f64 = 3.1;
+    pub const PERIOD_H: f64 = 5.0;
 }

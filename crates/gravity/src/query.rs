@@ -53,10 +53,49 @@ impl BHShape<f64, 3> for FaceBox {
     }
 }
 
-/// The BVH over the faces of a mesh (leaf shape index = face index).
+/// Marks a child slot that holds a face index instead of a node index.
+const LEAF_BIT: u32 = 1 << 31;
+
+/// An inner node of the flattened hierarchy: the boxes of both children (f32, rounded outward,
+/// so they still contain their faces) and the children (node index, or face index | LEAF_BIT).
+#[derive(Debug, Clone, Copy)]
+struct FlatNode {
+    lo: [[f32; 3]; 2],
+    hi: [[f32; 3]; 2],
+    child: [u32; 2],
+}
+
+/// The BVH over the faces of a mesh, built by the `bvh` crate (SAH, in f64) and flattened into
+/// compact nodes (56 bytes instead of about 128) with faces stored directly in the child slots.
 #[derive(Debug, Clone)]
 pub(crate) struct FaceBvh {
-    nodes: Vec<BvhNode<f64, 3>>,
+    nodes: Vec<FlatNode>,
+    /// Set when the mesh has a single face (the tree is one leaf).
+    single_face: Option<u32>,
+}
+
+/// Largest f32 not above `x`.
+fn f32_down(x: f64) -> f32 {
+    let f = x as f32;
+    if f64::from(f) > x { f.next_down() } else { f }
+}
+
+/// Smallest f32 not below `x`.
+fn f32_up(x: f64) -> f32 {
+    let f = x as f32;
+    if f64::from(f) < x { f.next_up() } else { f }
+}
+
+/// Squared distance from `p` to the box `lo..hi`.
+fn box_distance_squared(p: &Point3<f64>, lo: &[f32; 3], hi: &[f32; 3]) -> f64 {
+    let mut d2 = 0.0;
+    for i in 0..3 {
+        let below = f64::from(lo[i]) - p[i];
+        let above = p[i] - f64::from(hi[i]);
+        let d = below.max(above).max(0.0);
+        d2 += d * d;
+    }
+    d2
 }
 
 /// A ray prepared for slab tests.
@@ -75,19 +114,20 @@ impl SlabRay {
         }
     }
 
-    /// Entry parameter of the ray into `aabb` within [0, t_max], or None if it misses.
-    fn enter(&self, aabb: &Aabb<f64, 3>, t_max: f64) -> Option<f64> {
+    /// Entry parameter of the ray into the box `min..max` within [0, t_max], or None.
+    fn enter(&self, min: &[f32; 3], max: &[f32; 3], t_max: f64) -> Option<f64> {
         let mut lo = 0.0_f64;
         let mut hi = t_max;
         for i in 0..3 {
+            let (b0, b1) = (f64::from(min[i]), f64::from(max[i]));
             if self.zero[i] {
-                if self.origin[i] < aabb.min[i] || self.origin[i] > aabb.max[i] {
+                if self.origin[i] < b0 || self.origin[i] > b1 {
                     return None;
                 }
                 continue;
             }
-            let t1 = (aabb.min[i] - self.origin[i]) * self.inv_dir[i];
-            let t2 = (aabb.max[i] - self.origin[i]) * self.inv_dir[i];
+            let t1 = (b0 - self.origin[i]) * self.inv_dir[i];
+            let t2 = (b1 - self.origin[i]) * self.inv_dir[i];
             lo = lo.max(t1.min(t2));
             hi = hi.min(t1.max(t2));
             if lo > hi {
@@ -186,7 +226,113 @@ impl FaceBvh {
             })
             .collect();
         let bvh = Bvh::build_with_executor(&mut boxes, bvh::bvh::rayon_executor);
-        FaceBvh { nodes: bvh.nodes }
+        FaceBvh::flatten(&bvh.nodes)
+    }
+
+    /// Converts the `bvh` crate's nodes (root at 0) to [`FlatNode`]s (root at 0).
+    fn flatten(nodes: &[BvhNode<f64, 3>]) -> FaceBvh {
+        match nodes.first() {
+            None => {
+                return FaceBvh {
+                    nodes: Vec::new(),
+                    single_face: None,
+                };
+            }
+            Some(BvhNode::Leaf { shape_index, .. }) => {
+                return FaceBvh {
+                    nodes: Vec::new(),
+                    single_face: Some(*shape_index as u32),
+                };
+            }
+            Some(BvhNode::Node { .. }) => {}
+        }
+        let mut flat: Vec<FlatNode> = Vec::with_capacity(nodes.len() / 2 + 1);
+        // (source node, slot in the parent to patch).
+        let mut todo: Vec<(usize, Option<(usize, usize)>)> = vec![(0, None)];
+        while let Some((source, parent)) = todo.pop() {
+            let BvhNode::Node {
+                child_l_index,
+                child_l_aabb,
+                child_r_index,
+                child_r_aabb,
+                ..
+            } = &nodes[source]
+            else {
+                continue;
+            };
+            let here = flat.len();
+            if let Some((p, slot)) = parent {
+                flat[p].child[slot] = here as u32;
+            }
+            let mut node = FlatNode {
+                lo: [[0.0; 3]; 2],
+                hi: [[0.0; 3]; 2],
+                child: [0; 2],
+            };
+            for (slot, (index, aabb)) in
+                [(child_l_index, child_l_aabb), (child_r_index, child_r_aabb)]
+                    .into_iter()
+                    .enumerate()
+            {
+                node.lo[slot] = [0, 1, 2].map(|k| f32_down(aabb.min[k]));
+                node.hi[slot] = [0, 1, 2].map(|k| f32_up(aabb.max[k]));
+                match &nodes[*index] {
+                    BvhNode::Leaf { shape_index, .. } => {
+                        node.child[slot] = *shape_index as u32 | LEAF_BIT;
+                    }
+                    BvhNode::Node { .. } => todo.push((*index, Some((here, slot)))),
+                }
+            }
+            flat.push(node);
+        }
+        FaceBvh {
+            nodes: flat,
+            single_face: None,
+        }
+    }
+
+    /// Calls `visit` on the faces whose boxes the ray meets within [0, t_max()], front to back
+    /// by box entry; `t_max` is re-read after every face so hits can shrink it.
+    fn walk_ray(
+        &self,
+        ray: &SlabRay,
+        mut t_max: impl FnMut() -> f64,
+        mut visit: impl FnMut(usize),
+    ) {
+        if let Some(face) = self.single_face {
+            visit(face as usize);
+            return;
+        }
+        if self.nodes.is_empty() {
+            return;
+        }
+        let mut stack: Vec<u32> = Vec::with_capacity(64);
+        stack.push(0);
+        while let Some(index) = stack.pop() {
+            if index & LEAF_BIT != 0 {
+                visit((index & !LEAF_BIT) as usize);
+                continue;
+            }
+            let node = &self.nodes[index as usize];
+            let limit = t_max();
+            let l = ray.enter(&node.lo[0], &node.hi[0], limit);
+            let r = ray.enter(&node.lo[1], &node.hi[1], limit);
+            match (l, r) {
+                (Some(tl), Some(tr)) => {
+                    // Push the far child first so the near one is visited first.
+                    if tl <= tr {
+                        stack.push(node.child[1]);
+                        stack.push(node.child[0]);
+                    } else {
+                        stack.push(node.child[0]);
+                        stack.push(node.child[1]);
+                    }
+                }
+                (Some(_), None) => stack.push(node.child[0]),
+                (None, Some(_)) => stack.push(node.child[1]),
+                (None, None) => {}
+            }
+        }
     }
 
     /// First hit of `origin + t dir` for t in [0, max_t].
@@ -198,8 +344,7 @@ impl FaceBvh {
         dir: &Vector3<f64>,
         max_t: f64,
     ) -> Option<SurfaceHit> {
-        if self.nodes.is_empty()
-            || !(dir.iter().all(|d| d.is_finite()) && origin.iter().all(|x| x.is_finite()))
+        if !(dir.iter().all(|d| d.is_finite()) && origin.iter().all(|x| x.is_finite()))
             || dir.norm_squared() == 0.0
             || max_t.is_nan()
             || max_t < 0.0
@@ -207,53 +352,24 @@ impl FaceBvh {
             return None;
         }
         let ray = SlabRay::new(origin, dir);
-        let mut best_t = max_t;
-        let mut best_face = None;
-        let mut stack: Vec<usize> = Vec::with_capacity(64);
-        stack.push(0);
-        while let Some(node) = stack.pop() {
-            match &self.nodes[node] {
-                BvhNode::Leaf { shape_index, .. } => {
-                    let tri = mesh.triangle(*shape_index);
-                    if let Some(t) = ray_triangle(origin, dir, &tri, EDGE_SLACK) {
-                        if t >= 0.0 && t <= best_t {
-                            best_t = t;
-                            best_face = Some(*shape_index);
-                        }
-                    }
+        let best = std::cell::Cell::new((max_t, None::<usize>));
+        self.walk_ray(
+            &ray,
+            || best.get().0,
+            |face| {
+                let tri = mesh.triangle(face);
+                if let Some(t) = ray_triangle(origin, dir, &tri, EDGE_SLACK)
+                    && t >= 0.0
+                    && t <= best.get().0
+                {
+                    best.set((t, Some(face)));
                 }
-                BvhNode::Node {
-                    child_l_index,
-                    child_l_aabb,
-                    child_r_index,
-                    child_r_aabb,
-                    ..
-                } => {
-                    let l = ray.enter(child_l_aabb, best_t);
-                    let r = ray.enter(child_r_aabb, best_t);
-                    match (l, r) {
-                        (Some(tl), Some(tr)) => {
-                            // Push the far child first so the near one is visited first.
-                            if tl <= tr {
-                                stack.push(*child_r_index);
-                                stack.push(*child_l_index);
-                            } else {
-                                stack.push(*child_l_index);
-                                stack.push(*child_r_index);
-                            }
-                        }
-                        (Some(_), None) => stack.push(*child_l_index),
-                        (None, Some(_)) => stack.push(*child_r_index),
-                        (None, None) => {}
-                    }
-                }
-            }
-        }
-        // The root of a one-face tree is a leaf, handled above; a root node's own box is the
-        // union of its children's, so it needs no test of its own.
-        best_face.map(|face| SurfaceHit {
-            t: best_t,
-            point_m: origin + dir * best_t,
+            },
+        );
+        let (t, face) = best.get();
+        face.map(|face| SurfaceHit {
+            t,
+            point_m: origin + dir * t,
             face,
             front_face: dir.dot(&normals[face]) < 0.0,
         })
@@ -263,46 +379,29 @@ impl FaceBvh {
     fn crossings(&self, mesh: &Mesh, origin: &Point3<f64>, dir: &Vector3<f64>) -> usize {
         let ray = SlabRay::new(origin, dir);
         let mut count = 0;
-        let mut stack: Vec<usize> = Vec::with_capacity(64);
-        stack.push(0);
-        while let Some(node) = stack.pop() {
-            match &self.nodes[node] {
-                BvhNode::Leaf { shape_index, .. } => {
-                    let tri = mesh.triangle(*shape_index);
-                    if let Some(t) = ray_triangle(origin, dir, &tri, 0.0) {
-                        if t > 0.0 {
-                            count += 1;
-                        }
-                    }
+        self.walk_ray(
+            &ray,
+            || f64::INFINITY,
+            |face| {
+                if let Some(t) = ray_triangle(origin, dir, &mesh.triangle(face), 0.0)
+                    && t > 0.0
+                {
+                    count += 1;
                 }
-                BvhNode::Node {
-                    child_l_index,
-                    child_l_aabb,
-                    child_r_index,
-                    child_r_aabb,
-                    ..
-                } => {
-                    if ray.enter(child_l_aabb, f64::INFINITY).is_some() {
-                        stack.push(*child_l_index);
-                    }
-                    if ray.enter(child_r_aabb, f64::INFINITY).is_some() {
-                        stack.push(*child_r_index);
-                    }
-                }
-            }
-        }
+            },
+        );
         count
     }
 
     /// Inside test by the parity of surface crossings along three fixed, unrelated directions,
     /// majority vote (a ray grazing an edge or a vertex can miscount; two rarely do at once).
     pub(crate) fn contains(&self, mesh: &Mesh, p: &Point3<f64>) -> bool {
-        if self.nodes.is_empty() || !p.iter().all(|x| x.is_finite()) {
+        if !p.iter().all(|x| x.is_finite()) {
             return false;
         }
         let dirs = [
             Vector3::new(0.577_215_664_9, 0.618_033_988_7, 0.532_088_886_2),
-            Vector3::new(-0.707_106_781_2, 0.141_421_356_2, -0.692_820_323_0),
+            Vector3::new(-0.683_012_701_9, 0.151_321_245_7, -0.714_285_714_3),
             Vector3::new(0.267_949_192_4, -0.841_470_984_8, 0.469_846_310_4),
         ];
         let votes = dirs
@@ -319,46 +418,45 @@ impl FaceBvh {
         normals: &[nalgebra::Unit<Vector3<f64>>],
         p: &Point3<f64>,
     ) -> Option<SurfaceHit> {
-        if self.nodes.is_empty() || !p.iter().all(|x| x.is_finite()) {
+        if !p.iter().all(|x| x.is_finite()) || mesh.faces.is_empty() {
             return None;
         }
         let mut best_d2 = f64::INFINITY;
         let mut best: Option<(usize, Point3<f64>)> = None;
-        let mut stack: Vec<(usize, f64)> = Vec::with_capacity(64);
-        stack.push((0, 0.0));
-        while let Some((node, box_d2)) = stack.pop() {
-            if box_d2 > best_d2 {
-                continue;
+        let mut consider = |face: usize, best_d2: &mut f64| {
+            let q = closest_on_triangle(p, &mesh.triangle(face));
+            let d2 = (q - p).norm_squared();
+            if d2 < *best_d2 {
+                *best_d2 = d2;
+                best = Some((face, q));
             }
-            match &self.nodes[node] {
-                BvhNode::Leaf { shape_index, .. } => {
-                    let q = closest_on_triangle(p, &mesh.triangle(*shape_index));
-                    let d2 = (q - p).norm_squared();
-                    if d2 < best_d2 {
-                        best_d2 = d2;
-                        best = Some((*shape_index, q));
-                    }
+        };
+        if let Some(face) = self.single_face {
+            consider(face as usize, &mut best_d2);
+        } else if !self.nodes.is_empty() {
+            let mut stack: Vec<(u32, f64)> = Vec::with_capacity(64);
+            stack.push((0, 0.0));
+            while let Some((index, box_d2)) = stack.pop() {
+                if box_d2 > best_d2 {
+                    continue;
                 }
-                BvhNode::Node {
-                    child_l_index,
-                    child_l_aabb,
-                    child_r_index,
-                    child_r_aabb,
-                    ..
-                } => {
-                    let dl = child_l_aabb.min_distance_squared(*p);
-                    let dr = child_r_aabb.min_distance_squared(*p);
-                    let (near, dn, far, df) = if dl <= dr {
-                        (*child_l_index, dl, *child_r_index, dr)
-                    } else {
-                        (*child_r_index, dr, *child_l_index, dl)
-                    };
-                    if df <= best_d2 {
-                        stack.push((far, df));
-                    }
-                    if dn <= best_d2 {
-                        stack.push((near, dn));
-                    }
+                if index & LEAF_BIT != 0 {
+                    consider((index & !LEAF_BIT) as usize, &mut best_d2);
+                    continue;
+                }
+                let node = &self.nodes[index as usize];
+                let dl = box_distance_squared(p, &node.lo[0], &node.hi[0]);
+                let dr = box_distance_squared(p, &node.lo[1], &node.hi[1]);
+                let (near, dn, far, df) = if dl <= dr {
+                    (node.child[0], dl, node.child[1], dr)
+                } else {
+                    (node.child[1], dr, node.child[0], dl)
+                };
+                if df <= best_d2 {
+                    stack.push((far, df));
+                }
+                if dn <= best_d2 {
+                    stack.push((near, dn));
                 }
             }
         }

@@ -46,8 +46,10 @@ impl fmt::Debug for ShapeModel {
 
 impl ShapeModel {
     /// Validates `mesh` (closed, manifold, consistently oriented, non-degenerate), repairs what
-    /// can be repaired (merges duplicate vertices, drops zero-area faces, flips an inward mesh,
-    /// removes unused vertices — each reported as a [`Warning`]) and builds the model.
+    /// can be repaired (merges duplicate vertices, drops zero-area faces, flips faces that
+    /// disagree with their neighbours, flips an inward mesh, removes unused vertices — each
+    /// reported as a [`Warning`]) and builds the model: normals, neighbours, mass properties
+    /// and the BVH.
     ///
     /// # Errors
     /// [`crate::GravityError::InvalidMesh`] naming the problem and one face, edge or vertex.

@@ -1,6 +1,7 @@
 //! Checks that a mesh is a closed, consistently and outward-oriented 2-manifold, repairing what
-//! can be repaired safely (merging duplicate vertices, dropping degenerate faces, flipping an
-//! inward mesh) and refusing the rest with an error naming the problem and one location.
+//! can be repaired safely (merging duplicate vertices, removing unused ones, dropping zero-area
+//! faces, flipping faces that disagree with their neighbours, flipping an inward mesh) and
+//! refusing the rest with an error naming the problem and one location.
 //!
 //! Not checked: self-intersections and nested shells (too costly for every load; the gravity of
 //! such a mesh is not that of a solid body).
@@ -44,6 +45,14 @@ pub enum Warning {
         /// One of them.
         example_face: usize,
     },
+    /// Some faces ran against their neighbours; they were flipped to match (each connected
+    /// part then turned outward).
+    OrientationRepaired {
+        /// How many faces were flipped.
+        flipped_faces: usize,
+        /// One of them.
+        example_face: usize,
+    },
     /// The faces were oriented inward (negative signed volume); all were flipped.
     OrientationFlipped {
         /// The signed volume before flipping, m^3 (negative).
@@ -77,6 +86,14 @@ impl fmt::Display for Warning {
                 f,
                 "dropped {count} zero-area faces (e.g. face {example_face}; 0-based); the rest of \
                  the mesh is closed"
+            ),
+            Warning::OrientationRepaired {
+                flipped_faces,
+                example_face,
+            } => write!(
+                f,
+                "flipped {flipped_faces} faces whose orientation disagreed with their neighbours \
+                 (e.g. face {example_face}; 0-based)"
             ),
             Warning::OrientationFlipped { signed_volume_m3 } => write!(
                 f,
@@ -244,7 +261,28 @@ pub(crate) fn validate(mesh: Mesh) -> Result<Validated> {
         vertex: vertex_original,
         face: kept_original,
     };
-    let neighbours = edge_adjacency(&faces, &labels)?;
+    let mut adjacency = edge_adjacency(&faces, &labels)?;
+    if let Some(problem) = adjacency.inconsistent.take() {
+        let flipped = orient_consistently(
+            &mut faces,
+            &adjacency.neighbours,
+            &vertices_m,
+            &labels,
+            &problem,
+        )?;
+        adjacency = edge_adjacency(&faces, &labels)?;
+        if let Some(problem) = adjacency.inconsistent {
+            return Err(invalid(problem));
+        }
+        let count = flipped.iter().filter(|&&x| x).count();
+        if let Some(first) = flipped.iter().position(|&x| x) {
+            warnings.push(Warning::OrientationRepaired {
+                flipped_faces: count,
+                example_face: labels.face[first],
+            });
+        }
+    }
+    let neighbours = adjacency.neighbours;
     if !unused.is_empty() {
         warnings.push(Warning::UnusedVerticesRemoved {
             count: unused.len(),
@@ -301,7 +339,7 @@ struct Labels {
 /// Edge adjacency of a triangle list: for each face, the face across edges a-b, b-c, c-a.
 /// Errors on boundary edges, edges shared by more than two faces, and edges traversed in the
 /// same direction by both of their faces (inconsistent orientation).
-fn edge_adjacency(faces: &[[u32; 3]], labels: &Labels) -> Result<Vec<[usize; 3]>> {
+fn edge_adjacency(faces: &[[u32; 3]], labels: &Labels) -> Result<Adjacency> {
     let note = &labels.note;
     let fl = |f: u32| labels.face[f as usize];
     // (undirected key, face, slot, forward?) sorted by key: the two uses of an edge are adjacent.
@@ -323,6 +361,7 @@ fn edge_adjacency(faces: &[[u32; 3]], labels: &Labels) -> Result<Vec<[usize; 3]>
     let mut neighbours = vec![[usize::MAX; 3]; faces.len()];
     let mut boundary = 0usize;
     let mut boundary_example = None;
+    let mut inconsistent = None;
     let mut i = 0;
     while i < half_edges.len() {
         let key = half_edges[i].0;
@@ -339,13 +378,13 @@ fn edge_adjacency(faces: &[[u32; 3]], labels: &Labels) -> Result<Vec<[usize; 3]>
             2 => {
                 let (_, f0, s0, d0) = half_edges[i];
                 let (_, f1, s1, d1) = half_edges[i + 1];
-                if d0 == d1 {
-                    return Err(invalid(format!(
+                if d0 == d1 && inconsistent.is_none() {
+                    inconsistent = Some(format!(
                         "inconsistent orientation{note}: faces {} and {} (0-based) both \
                          traverse edge {a}-{b} in the same direction",
                         fl(f0),
                         fl(f1)
-                    )));
+                    ));
                 }
                 neighbours[f0 as usize][s0 as usize] = f1 as usize;
                 neighbours[f1 as usize][s1 as usize] = f0 as usize;
@@ -367,7 +406,111 @@ fn edge_adjacency(faces: &[[u32; 3]], labels: &Labels) -> Result<Vec<[usize; 3]>
              (vertices, 0-based) of face {f}; a shape model must be closed"
         )));
     }
-    Ok(neighbours)
+    Ok(Adjacency {
+        neighbours,
+        inconsistent,
+    })
+}
+
+/// Edge adjacency of a closed 2-manifold triangle list.
+struct Adjacency {
+    /// For each face, the faces across edges a-b, b-c, c-a.
+    neighbours: Vec<[usize; 3]>,
+    /// The first edge both of whose faces run the same way, as an error message.
+    inconsistent: Option<String>,
+}
+
+/// Makes the orientation consistent by a breadth-first walk over each connected component
+/// (a neighbour that runs a shared edge the same way as its visited face is flipped), then
+/// turns each component outward by the sign of its volume. Returns, per face, whether it was
+/// flipped; errors if a component cannot be oriented (a one-sided surface).
+fn orient_consistently(
+    faces: &mut [[u32; 3]],
+    neighbours: &[[usize; 3]],
+    vertices_m: &[Point3<f64>],
+    labels: &Labels,
+    first_problem: &str,
+) -> Result<Vec<bool>> {
+    let runs =
+        |face: &[u32; 3], a: u32, b: u32| (0..3).any(|k| face[k] == a && face[(k + 1) % 3] == b);
+    let reference = crate::mass::reference_point(vertices_m);
+    let mut flip: Vec<Option<bool>> = vec![None; faces.len()];
+    let mut queue = std::collections::VecDeque::new();
+    for seed in 0..faces.len() {
+        if flip[seed].is_some() {
+            continue;
+        }
+        flip[seed] = Some(false);
+        queue.push_back(seed);
+        let mut component = vec![seed];
+        while let Some(f) = queue.pop_front() {
+            let mut face = faces[f];
+            if flip[f] == Some(true) {
+                face.swap(1, 2);
+            }
+            for k in 0..3 {
+                let (a, b) = (face[k], face[(k + 1) % 3]);
+                let g = neighbours_across(neighbours, faces, f, a, b);
+                // g must run the shared edge b -> a once oriented.
+                let need = runs(&faces[g], a, b);
+                match flip[g] {
+                    None => {
+                        flip[g] = Some(need);
+                        queue.push_back(g);
+                        component.push(g);
+                    }
+                    Some(current) if current != need => {
+                        return Err(invalid(format!(
+                            "{first_problem}, and the surface cannot be oriented consistently \
+                             (one-sided around face {}, 0-based)",
+                            labels.face[g]
+                        )));
+                    }
+                    Some(_) => {}
+                }
+            }
+        }
+        let volume: f64 = component
+            .iter()
+            .map(|&f| {
+                let mut face = faces[f];
+                if flip[f] == Some(true) {
+                    face.swap(1, 2);
+                }
+                let [a, b, c] = face.map(|v| vertices_m[v as usize] - reference);
+                a.dot(&b.cross(&c))
+            })
+            .sum();
+        if volume < 0.0 {
+            for &f in &component {
+                flip[f] = flip[f].map(|x| !x);
+            }
+        }
+    }
+    let flipped: Vec<bool> = flip.iter().map(|x| *x == Some(true)).collect();
+    for (face, &flipped) in faces.iter_mut().zip(&flipped) {
+        if flipped {
+            face.swap(1, 2);
+        }
+    }
+    Ok(flipped)
+}
+
+/// The face across the edge {a, b} from face `f` (orientation-independent).
+fn neighbours_across(
+    neighbours: &[[usize; 3]],
+    faces: &[[u32; 3]],
+    f: usize,
+    a: u32,
+    b: u32,
+) -> usize {
+    let face = faces[f];
+    (0..3)
+        .find(|&k| {
+            let (x, y) = (face[k], face[(k + 1) % 3]);
+            (x == a && y == b) || (x == b && y == a)
+        })
+        .map_or(f, |k| neighbours[f][k])
 }
 
 /// Signed volume enclosed by the faces (positive when they face outward), m^3.

@@ -53,7 +53,7 @@ fn box_matches_prism_closed_form_outside_on_and_inside() {
     let rho = 2000.0;
     let field =
         PolyhedronGravity::from_mesh(&generate::box_mesh(lx, ly, lz), MassSpec::DensityKgM3(rho))
-            .unwrap();
+            .expect("valid input");
     let lo = [-lx / 2.0, -ly / 2.0, -lz / 2.0];
     let hi = [lx / 2.0, ly / 2.0, lz / 2.0];
     let points = [
@@ -93,7 +93,8 @@ fn icosphere_approaches_homogeneous_sphere() {
         let (vol_unit, _, _) = mass_properties(&unit);
         let scale = (4.0 / 3.0 * std::f64::consts::PI / vol_unit).cbrt() * r_sphere;
         let mesh = generate::icosphere(scale, n);
-        let field = PolyhedronGravity::from_mesh(&mesh, MassSpec::DensityKgM3(rho)).unwrap();
+        let field =
+            PolyhedronGravity::from_mesh(&mesh, MassSpec::DensityKgM3(rho)).expect("valid input");
         let gm = G * rho * 4.0 / 3.0 * std::f64::consts::PI * r_sphere.powi(3);
         let mut err = [0.0f64; 2];
         for dir in [Vector3::new(1.0, 0.3, -0.2), Vector3::new(-0.4, 0.9, 0.6)] {
@@ -137,7 +138,8 @@ fn ellipsoid_mesh_approaches_homogeneous_ellipsoid() {
     let mut last = f64::INFINITY;
     for n in [3, 4, 5] {
         let mesh = generate::ellipsoid(abc[0], abc[1], abc[2], n);
-        let field = PolyhedronGravity::from_mesh(&mesh, MassSpec::DensityKgM3(rho)).unwrap();
+        let field =
+            PolyhedronGravity::from_mesh(&mesh, MassSpec::DensityKgM3(rho)).expect("valid input");
         let mut err = 0.0f64;
         for p in &points {
             let (u_ref, a_ref) = ellipsoid_field(abc, rho, p);

@@ -10,7 +10,8 @@ use spinfall_gravity::{MassSpec, PolyhedronGravity, generate};
 
 fn demo_field(n: u32) -> (spinfall_gravity::Mesh, PolyhedronGravity) {
     let mesh = generate::demo_body(n);
-    let field = PolyhedronGravity::from_mesh(&mesh, MassSpec::DensityKgM3(2100.0)).unwrap();
+    let field =
+        PolyhedronGravity::from_mesh(&mesh, MassSpec::DensityKgM3(2100.0)).expect("demo body");
     (mesh, field)
 }
 

@@ -3,6 +3,7 @@
 use nalgebra::Point3;
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
+use spinfall_gravity::field::DirectKernel;
 use spinfall_gravity::{MassSpec, PolyhedronGravity, generate};
 
 fn random_points(field: &PolyhedronGravity, n: usize, seed: u64) -> Vec<Point3<f64>> {
@@ -26,20 +27,43 @@ fn vector_kernel_matches_scalar_kernel() {
     // relative is what double precision allows for sums of this many terms.
     let field =
         PolyhedronGravity::from_mesh(&generate::demo_body(3), MassSpec::DensityKgM3(2100.0))
-            .unwrap();
+            .expect("valid input");
+    // Acceleration scale: |a|, but not below a tenth of GM/R_B^2 (|a| -> 0 near the centre).
+    let a_floor = 0.1 * field.gm_m3_s2() / field.brillouin_radius_m().powi(2);
+    let mut worst = 0.0f64;
     for p in random_points(&field, 200, 7) {
-        let (us, as_) = field.potential_acceleration_scalar(&p);
-        let (uv, av) = field.potential_acceleration_direct(&p);
-        assert!((us - uv).abs() < 1e-13 * us.abs(), "{p}: {us} vs {uv}");
-        assert!((as_ - av).norm() < 1e-13 * as_.norm(), "{p}: {as_} vs {av}");
+        let (us, as_) = field.potential_acceleration_with_kernel(&p, DirectKernel::Scalar);
+        let a_scale = as_.norm().max(a_floor);
+        for kernel in [
+            DirectKernel::Auto,
+            DirectKernel::Wide,
+            DirectKernel::Compiled,
+        ] {
+            let (uv, av) = field.potential_acceleration_with_kernel(&p, kernel);
+            assert!(
+                (us - uv).abs() < 1e-13 * us.abs(),
+                "{kernel:?} {p}: {us} vs {uv}"
+            );
+            assert!(
+                (as_ - av).norm() < 1e-13 * as_.norm(),
+                "{kernel:?} {p}: {as_} vs {av}"
+            );
+            worst = worst.max((us - uv).abs() / us.abs());
+            worst = worst.max((as_ - av).norm() / a_scale);
+        }
+        assert_eq!(
+            field.potential_acceleration_direct(&p),
+            field.potential_acceleration_with_kernel(&p, DirectKernel::Auto)
+        );
     }
+    eprintln!("worst relative difference vector vs scalar kernel: {worst:e}");
 }
 
 #[test]
 fn batches_equal_single_points() {
     let field =
         PolyhedronGravity::from_mesh(&generate::demo_body(2), MassSpec::DensityKgM3(2100.0))
-            .unwrap();
+            .expect("valid input");
     let mut points = random_points(&field, 300, 11);
     points.push(field.center_of_mass_m() + nalgebra::Vector3::new(1e9, 0.0, 0.0));
     let batch = field.potential_acceleration_batch(&points);

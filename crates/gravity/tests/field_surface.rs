@@ -15,7 +15,7 @@ fn cube_field(n: u32) -> PolyhedronGravity {
         &generate::box_mesh_subdivided(1000.0, 1000.0, 1000.0, n),
         MassSpec::DensityKgM3(2500.0),
     )
-    .unwrap()
+    .expect("cube")
 }
 
 /// Checks that the field at `p` is finite, that its Laplacian is `-G rho * solid_fraction * 4
@@ -84,7 +84,8 @@ fn laplacian_and_inside_test_agree_with_ray_crossing_on_irregular_body() {
     // Gauss's law for the Newtonian potential: Laplacian = -4 pi G rho inside, 0 outside
     // (Poisson's equation); inside/outside checked independently by ray-crossing parity.
     let mesh = generate::demo_body(2);
-    let field = PolyhedronGravity::from_mesh(&mesh, MassSpec::DensityKgM3(2100.0)).unwrap();
+    let field =
+        PolyhedronGravity::from_mesh(&mesh, MassSpec::DensityKgM3(2100.0)).expect("valid input");
     let g_rho = G * 2100.0;
     let (min, max) = mesh.vertices_m.iter().fold(
         (
@@ -121,7 +122,7 @@ fn gradient_tensor_is_the_derivative_of_the_acceleration() {
     // Definition: gradient tensor = d a / d p (central differences, step 1e-3 m).
     let field =
         PolyhedronGravity::from_mesh(&generate::demo_body(2), MassSpec::DensityKgM3(2100.0))
-            .unwrap();
+            .expect("valid input");
     let r = field.brillouin_radius_m();
     for p in [
         Point3::new(0.1 * r, 0.05 * r, -0.1 * r),
@@ -179,15 +180,32 @@ fn bad_mass_parameters_name_the_field() {
 }
 
 #[test]
+fn shape_model_and_mesh_constructors_agree() {
+    let mesh = generate::demo_body(2);
+    let (shape, _warnings) = spinfall_gravity::ShapeModel::new(mesh.clone()).expect("valid input");
+    let a = PolyhedronGravity::new(&shape, MassSpec::DensityKgM3(2100.0)).expect("valid input");
+    let b = PolyhedronGravity::from_mesh(shape.mesh(), MassSpec::DensityKgM3(2100.0))
+        .expect("valid input");
+    let p = Point3::new(3000.0, -1000.0, 500.0);
+    assert_eq!(a.potential_acceleration(&p), b.potential_acceleration(&p));
+    // Volume and centre of mass agree with the shape's own mass properties (independent code).
+    let props = shape.mass_properties();
+    assert!(rel(a.volume_m3(), props.volume_m3, props.volume_m3) < 1e-12);
+    assert!((a.center_of_mass_m() - props.center_of_mass_m).norm() < 1e-9 * a.brillouin_radius_m());
+}
+
+#[test]
 fn mass_spec_variants_agree() {
     // M = rho V and GM = G M by definition.
     let mesh = generate::box_mesh(100.0, 200.0, 300.0);
-    let by_rho = PolyhedronGravity::from_mesh(&mesh, MassSpec::DensityKgM3(2000.0)).unwrap();
+    let by_rho =
+        PolyhedronGravity::from_mesh(&mesh, MassSpec::DensityKgM3(2000.0)).expect("valid input");
     let mass = 2000.0 * 100.0 * 200.0 * 300.0;
     assert!(rel(by_rho.mass_kg(), mass, mass) < 1e-14);
-    let by_mass = PolyhedronGravity::from_mesh(&mesh, MassSpec::MassKg(mass)).unwrap();
+    let by_mass = PolyhedronGravity::from_mesh(&mesh, MassSpec::MassKg(mass)).expect("valid input");
     assert!(rel(by_mass.density_kg_m3(), 2000.0, 2000.0) < 1e-14);
-    let by_gm = PolyhedronGravity::from_mesh(&mesh, MassSpec::GmM3S2(G * mass)).unwrap();
+    let by_gm =
+        PolyhedronGravity::from_mesh(&mesh, MassSpec::GmM3S2(G * mass)).expect("valid input");
     assert!(rel(by_gm.density_kg_m3(), 2000.0, 2000.0) < 1e-14);
     assert!(rel(by_gm.gm_m3_s2(), G * mass, G * mass) < 1e-14);
     assert_eq!(by_rho.face_count(), 12);
@@ -198,14 +216,16 @@ fn mass_spec_variants_agree() {
 fn broken_meshes_are_rejected_with_a_location() {
     let mut open = generate::box_mesh(10.0, 10.0, 10.0);
     open.faces.pop();
-    let err = PolyhedronGravity::from_mesh(&open, MassSpec::DensityKgM3(1.0)).unwrap_err();
+    let err = PolyhedronGravity::from_mesh(&open, MassSpec::DensityKgM3(1.0))
+        .expect_err("must be rejected");
     assert!(
         matches!(err, GravityError::InvalidMesh(ref m) if m.contains("edge")),
         "{err}"
     );
     let mut bad_index = generate::box_mesh(10.0, 10.0, 10.0);
     bad_index.faces[3][1] = 99;
-    let err = PolyhedronGravity::from_mesh(&bad_index, MassSpec::DensityKgM3(1.0)).unwrap_err();
+    let err = PolyhedronGravity::from_mesh(&bad_index, MassSpec::DensityKgM3(1.0))
+        .expect_err("must be rejected");
     assert!(
         matches!(err, GravityError::InvalidMesh(ref m) if m.contains("face 3")),
         "{err}"
@@ -214,14 +234,16 @@ fn broken_meshes_are_rejected_with_a_location() {
     for f in &mut inverted.faces {
         f.swap(1, 2);
     }
-    let err = PolyhedronGravity::from_mesh(&inverted, MassSpec::DensityKgM3(1.0)).unwrap_err();
+    let err = PolyhedronGravity::from_mesh(&inverted, MassSpec::DensityKgM3(1.0))
+        .expect_err("must be rejected");
     assert!(
         matches!(err, GravityError::InvalidMesh(ref m) if m.contains("volume")),
         "{err}"
     );
     let mut nan = generate::box_mesh(10.0, 10.0, 10.0);
     nan.vertices_m[2].y = f64::NAN;
-    let err = PolyhedronGravity::from_mesh(&nan, MassSpec::DensityKgM3(1.0)).unwrap_err();
+    let err = PolyhedronGravity::from_mesh(&nan, MassSpec::DensityKgM3(1.0))
+        .expect_err("must be rejected");
     assert!(
         matches!(err, GravityError::InvalidMesh(ref m) if m.contains("vertex 2")),
         "{err}"

@@ -1,4 +1,5 @@
 //! Mass properties against closed forms and physical laws.
+#![allow(clippy::unwrap_used, reason = "tests unwrap known-good values")]
 
 mod shape_support;
 

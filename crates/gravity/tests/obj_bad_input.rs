@@ -1,5 +1,6 @@
 //! Every bad-input case is refused (or repaired with a warning) with a message naming the
 //! problem and one location.
+#![allow(clippy::unwrap_used, reason = "tests unwrap known-good values")]
 
 mod shape_support;
 
@@ -50,12 +51,74 @@ fn non_manifold_edge_is_refused() {
 }
 
 #[test]
-fn inconsistent_orientation_names_the_faces_and_edge() {
-    // Top face reversed: it traverses its edges the same way as its neighbours.
+fn inconsistent_faces_are_flipped_to_match_their_neighbours() {
+    // Top quad reversed (two triangles): they run their edges the same way as their neighbours.
     let text = CUBE_QUADS.replace("f 5 6 7 8", "f 5 8 7 6");
+    let (shape, warnings) = from_obj(&text, LengthUnit::Metre).unwrap();
+    assert!(
+        matches!(
+            warnings.as_slice(),
+            [Warning::OrientationRepaired {
+                flipped_faces: 2,
+                example_face: 2
+            }]
+        ),
+        "{warnings:?}"
+    );
+    assert!(warnings[0].to_string().contains("flipped 2 faces"));
+    // Volume of the unit cube: exact again once every face points outward.
+    assert!((shape.mass_properties().volume_m3 - 1.0).abs() < 1e-12);
+    // Most faces reversed (all but the first 7 of 320): the walk makes them agree and the
+    // volume sign turns the result outward, so exactly the 313 reversed faces are flipped back.
+    let mut mesh = generate::icosphere(5.0, 2);
+    for f in mesh.faces.iter_mut().skip(7) {
+        f.swap(1, 2);
+    }
+    let (shape, warnings) = ShapeModel::new(mesh).unwrap();
+    assert!(
+        matches!(
+            warnings.as_slice(),
+            [Warning::OrientationRepaired {
+                flipped_faces: 313,
+                example_face: 7
+            }]
+        ),
+        "{warnings:?}"
+    );
+    let reference = model_volume(generate::icosphere(5.0, 2));
+    assert!((shape.mass_properties().volume_m3 - reference).abs() < 1e-12 * reference);
+}
+
+fn model_volume(mesh: spinfall_gravity::Mesh) -> f64 {
+    shape_support::model(mesh).mass_properties().volume_m3
+}
+
+#[test]
+fn one_sided_surface_is_refused() {
+    // The 6-vertex, 10-triangle projective plane (a classical minimal triangulation): closed,
+    // every edge shared by two faces, but no consistent orientation exists.
+    let faces = [
+        [1, 2, 3],
+        [1, 3, 4],
+        [1, 4, 5],
+        [1, 5, 6],
+        [1, 6, 2],
+        [2, 3, 5],
+        [3, 4, 6],
+        [4, 5, 2],
+        [5, 6, 3],
+        [6, 2, 4],
+    ];
+    let mut text = String::from("v 1 0 0\nv 0 1 0\nv 0 0 1\nv 1 1 0.3\nv 0.2 1 1.1\nv 1.3 0.1 1\n");
+    for [a, b, c] in faces {
+        text.push_str(&format!("f {a} {b} {c}\n"));
+    }
     check_refused(
         &text,
-        &["inconsistent orientation", "same direction", "edge "],
+        &[
+            "inconsistent orientation",
+            "cannot be oriented consistently",
+        ],
     );
 }
 

@@ -1,5 +1,6 @@
 //! OBJ reading: polygons, negative indices, comments, ignored attributes, units; cross-checked
 //! against the general-purpose `obj-rs` parser.
+#![allow(clippy::unwrap_used, reason = "tests unwrap known-good values")]
 
 mod shape_support;
 

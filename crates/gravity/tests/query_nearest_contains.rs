@@ -1,4 +1,5 @@
 //! Nearest surface point and inside test against analytic geometry.
+#![allow(clippy::unwrap_used, reason = "tests unwrap known-good values")]
 
 mod shape_support;
 
@@ -85,5 +86,44 @@ fn contains_on_axis_aligned_grid_points_of_a_box() {
             }
             assert_eq!(shape.contains(&p), inside, "{p}");
         }
+    }
+}
+
+/// Distance from `p` to triangle `abc` by an independent route: the plane distance when the
+/// projection falls inside, else the nearest of the three edge segments (textbook geometry).
+fn brute_distance(p: &Point3<f64>, [a, b, c]: [Point3<f64>; 3]) -> f64 {
+    let n = (b - a).cross(&(c - a)).normalize();
+    let q = p - n * n.dot(&(p - a));
+    let inside = (b - a).cross(&(q - a)).dot(&n) >= 0.0
+        && (c - b).cross(&(q - b)).dot(&n) >= 0.0
+        && (a - c).cross(&(q - c)).dot(&n) >= 0.0;
+    if inside {
+        return (p - q).norm();
+    }
+    let segment = |u: Point3<f64>, v: Point3<f64>| {
+        let s = ((p - u).dot(&(v - u)) / (v - u).norm_squared()).clamp(0.0, 1.0);
+        (p - (u + (v - u) * s)).norm()
+    };
+    segment(a, b).min(segment(b, c)).min(segment(c, a))
+}
+
+#[test]
+fn nearest_point_agrees_with_brute_force_on_the_demo_body() {
+    let shape = model(generate::demo_body(3));
+    let mesh = shape.mesh();
+    let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(5);
+    for _ in 0..100 {
+        let p = Point3::new(
+            rng.random_range(-4e3..4e3),
+            rng.random_range(-3e3..3e3),
+            rng.random_range(-3e3..3e3),
+        );
+        let fast = shape.nearest_surface_point(&p);
+        let brute = (0..mesh.faces.len())
+            .map(|f| brute_distance(&p, mesh.triangle(f)))
+            .fold(f64::INFINITY, f64::min);
+        assert!((fast.t - brute).abs() < 1e-6, "{p}: {} vs {brute}", fast.t);
+        assert!(((fast.point_m - p).norm() - fast.t).abs() < 1e-9);
+        assert!((brute_distance(&p, mesh.triangle(fast.face)) - fast.t).abs() < 1e-6);
     }
 }

@@ -1,4 +1,5 @@
 //! Ray and segment first hits against analytic geometry.
+#![allow(clippy::unwrap_used, reason = "tests unwrap known-good values")]
 
 mod shape_support;
 

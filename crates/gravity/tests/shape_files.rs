@@ -1,4 +1,5 @@
 //! The shipped shape files equal the generators' output, and the embedded demo body loads.
+#![allow(clippy::unwrap_used, reason = "tests unwrap known-good values")]
 
 mod shape_support;
 

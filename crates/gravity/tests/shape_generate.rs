@@ -1,4 +1,5 @@
 //! Generators: face counts, closed outward meshes, the demo body's size and asymmetry.
+#![allow(clippy::unwrap_used, reason = "tests unwrap known-good values")]
 
 mod shape_support;
 

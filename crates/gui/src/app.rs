@@ -7,7 +7,8 @@ use std::sync::mpsc::{Receiver, Sender, channel};
 use std::time::{Duration, Instant};
 
 use egui::{Context, Key, KeyboardShortcut, Modifiers};
-use spinfall_dynamics::{FlightReport, FlightSettings, SurfaceMap};
+use spinfall_dynamics::surface_map::SurfaceMap;
+use spinfall_dynamics::{FlightReport, FlightSettings};
 use spinfall_gravity::{LengthUnit, ShapeModel};
 use spinfall_scene::BodyView;
 
@@ -48,7 +49,16 @@ pub(crate) struct Loaded {
     pub view: Arc<BodyView>,
     pub params: BodyParams,
     /// Sites and settings when a scenario was loaded.
-    pub scenario: Option<(Vec<SiteEntry>, FlightSettings, PathBuf)>,
+    pub scenario: Option<ScenarioParts>,
+}
+
+/// The launch part of a loaded scenario.
+pub(crate) struct ScenarioParts {
+    pub sites: Vec<SiteEntry>,
+    pub extra_launches: Vec<spinfall_dynamics::scenario::LaunchEntry>,
+    pub settings: FlightSettings,
+    pub seed: u64,
+    pub path: PathBuf,
 }
 
 /// The result of a run job.
@@ -120,6 +130,10 @@ pub struct SpinfallApp {
     /// The parameters the current body was built with.
     pub(crate) built_params: Option<BodyParams>,
     pub(crate) sites: Vec<SiteEntry>,
+    /// Launch entries from a loaded scenario the app cannot edit (kept and flown as they are).
+    pub(crate) extra_launches: Vec<spinfall_dynamics::scenario::LaunchEntry>,
+    /// Seed of dispersion sets.
+    pub(crate) seed: u64,
     pub(crate) selected_site: Option<usize>,
     pub(crate) settings: FlightSettings,
     pub(crate) view: Option<Arc<BodyView>>,
@@ -146,7 +160,11 @@ pub struct SpinfallApp {
     pub(crate) map_job: Option<Job<SurfaceMap>>,
     pub(crate) run_job: Option<Job<RunOutput>>,
     pub(crate) export_job: Option<Job<Vec<PathBuf>>>,
+    /// Start a run as soon as the body being rebuilt is ready.
+    pub(crate) run_after_body: bool,
     pub(crate) plot_cache: Option<crate::results::PlotSeries>,
+    /// Sites resolved on the current body: `(sites, data generation, resolved)`.
+    site_cache: Option<(Vec<SiteEntry>, u64, Vec<Result<spinfall_dynamics::site::Site, String>>)>,
 
     // UI state.
     pub(crate) commands: Vec<Command>,
@@ -201,6 +219,8 @@ impl SpinfallApp {
             params: BodyParams::default(),
             built_params: None,
             sites: Vec::new(),
+            extra_launches: Vec::new(),
+            seed: 1,
             selected_site: None,
             settings: FlightSettings::default(),
             view: None,
@@ -223,7 +243,9 @@ impl SpinfallApp {
             map_job: None,
             run_job: None,
             export_job: None,
+            run_after_body: false,
             plot_cache: None,
+            site_cache: None,
             commands: Vec::new(),
             notices: Vec::new(),
             shape_path_field: String::new(),
@@ -372,6 +394,7 @@ impl SpinfallApp {
         self.advance_time(&ctx);
 
         self.menu_bar_ui(ui);
+        self.toolbar_ui(ui);
         self.status_bar_ui(ui);
         egui::Panel::left("controls")
             .resizable(true)
@@ -435,8 +458,14 @@ impl SpinfallApp {
     }
 
     fn dropped_files(&mut self, ctx: &Context) {
-        let dropped: Vec<PathBuf> =
-            ctx.input(|i| i.raw.dropped_files.iter().filter_map(|f| f.path.clone()).collect());
+        let dropped: Vec<PathBuf> = ctx.input(|i| {
+            i.raw
+                .dropped_files
+                .iter()
+                .map(|f| f.path().to_path_buf())
+                .filter(|p| !p.as_os_str().is_empty())
+                .collect()
+        });
         for path in dropped {
             let ext = path
                 .extension()
@@ -445,7 +474,8 @@ impl SpinfallApp {
             match ext.as_str() {
                 "obj" => {
                     self.shape_path_field = path.display().to_string();
-                    self.commands.push(Command::LoadShape(path, self.state.unit));
+                    self.commands
+                        .push(Command::LoadShape(path, self.state.unit));
                 }
                 "json" => self.commands.push(Command::LoadScenario(path)),
                 _ => self.error(format!(
@@ -519,7 +549,9 @@ impl SpinfallApp {
                 repaint();
             });
         if let Err(e) = spawned {
-            self.error(format!("could not open a file dialog: {e}; type the path instead"));
+            self.error(format!(
+                "could not open a file dialog: {e}; type the path instead"
+            ));
         }
     }
 
@@ -531,7 +563,8 @@ impl SpinfallApp {
             match purpose {
                 DialogPurpose::OpenShape => {
                     self.shape_path_field = path.display().to_string();
-                    self.commands.push(Command::LoadShape(path, self.state.unit));
+                    self.commands
+                        .push(Command::LoadShape(path, self.state.unit));
                 }
                 DialogPurpose::OpenScenario => {
                     self.scenario_path_field = path.display().to_string();
@@ -627,7 +660,10 @@ impl SpinfallApp {
             self.error("a shape model is already loading; wait or cancel it first");
             return;
         }
-        let params = self.params.clone();
+        let params = match &file {
+            Some(_) => self.params.clone(),
+            None => BodyParams::default(),
+        };
         let label = match &file {
             Some((p, _)) => format!("Loading {}", p.display()),
             None => format!("Loading the demo body {}", spinfall_gravity::demo::NAME),
@@ -690,7 +726,7 @@ impl SpinfallApp {
                     ctx.progress.set(done, total);
                     ctx.request_repaint();
                 };
-                spinfall_dynamics::surface_map(view.body(), &progress, &ctx.cancel)
+                spinfall_dynamics::surface_map::surface_map(view.body(), &progress, &ctx.cancel)
                     .map_err(|e| e.to_string())
             },
         ));
@@ -705,23 +741,33 @@ impl SpinfallApp {
             self.error("no body loaded yet");
             return;
         };
-        if self.sites.is_empty() {
+        if self.sites.is_empty() && self.extra_launches.is_empty() {
             self.error("no launch sites: click on the body or add one by latitude/longitude");
             return;
         }
-        if self.built_params.as_ref() != Some(&self.params) {
+        let Some(shape) = &self.shape else {
+            return;
+        };
+        if self.built_params.as_ref() != Some(&self.params) || self.body_job.is_some() {
             // Body settings were edited but not applied: apply them first, then run.
-            self.commands.push(Command::RebuildBody);
-            self.commands.push(Command::Run);
+            if self.body_job.is_none() {
+                self.start_rebuild_body();
+            }
+            self.run_after_body = true;
             return;
         }
-        let sites = self.sites.clone();
-        let settings = self.settings.clone();
-        let launches: usize = sites.iter().map(|s| s.launch_count()).sum();
+        let scenario = crate::scenario_io::session_scenario(&self.session_parts(shape), None);
+        if let Err(e) = scenario.validate() {
+            self.error(format!("cannot run: {e}"));
+            return;
+        }
+        let settings = self.settings;
+        let launches: usize =
+            self.sites.iter().map(|s| s.launch_count()).sum::<usize>() + self.extra_launches.len();
         self.run_job = Some(Job::spawn(
             format!("Flying {launches} launches"),
             self.repaint.clone(),
-            move |ctx| run_flights(ctx, &view, &sites, &settings),
+            move |ctx| run_flights(ctx, &view, &scenario, &settings),
         ));
     }
 
@@ -748,10 +794,16 @@ impl SpinfallApp {
             let cancelled = job.is_cancelled();
             self.body_job = None;
             match result {
-                Ok(view) if !cancelled => self.install_view(view),
+                Ok(view) if !cancelled => {
+                    self.install_view(view);
+                    if std::mem::take(&mut self.run_after_body) {
+                        self.start_run();
+                    }
+                }
                 Ok(_) => {}
                 Err(e) => {
                     self.built_params = None;
+                    self.run_after_body = false;
                     self.error(format!("body settings not applied: {e}"));
                 }
             }
@@ -811,7 +863,11 @@ impl SpinfallApp {
             match result {
                 Ok(paths) => {
                     let list: Vec<String> = paths.iter().map(|p| p.display().to_string()).collect();
-                    self.info(format!("exported {} file(s): {}", paths.len(), list.join(", ")));
+                    self.info(format!(
+                        "exported {} file(s): {}",
+                        paths.len(),
+                        list.join(", ")
+                    ));
                     self.last_exported = paths;
                 }
                 Err(e) => self.error(format!("export failed: {e}")),
@@ -841,11 +897,20 @@ impl SpinfallApp {
         }
         self.params = params;
         match scenario {
-            Some((sites, settings, path)) => {
-                self.sites = sites;
-                self.settings = settings;
+            Some(parts) => {
+                self.sites = parts.sites;
+                self.extra_launches = parts.extra_launches;
+                self.settings = parts.settings;
+                self.seed = parts.seed;
+                if !self.extra_launches.is_empty() {
+                    self.info(format!(
+                        "{} launch(es) of the scenario use options the app does not edit; they are kept and flown as written",
+                        self.extra_launches.len()
+                    ));
+                }
+                self.scenario_path_field = parts.path.display().to_string();
                 self.state.remember(RecentFile {
-                    path,
+                    path: parts.path,
                     kind: RecentKind::Scenario,
                     unit: self.state.unit,
                 });
@@ -855,6 +920,7 @@ impl SpinfallApp {
                 let same_shape = self.shape.as_ref().map(|s| &s.source) == Some(&shape.source);
                 if !same_shape {
                     self.sites.clear();
+                    self.extra_launches.clear();
                 }
             }
         }
@@ -870,10 +936,6 @@ impl SpinfallApp {
     fn install_view(&mut self, view: Arc<BodyView>) {
         self.view = Some(view);
         self.map = None;
-        if let Some(v) = &self.view {
-            let volume = v.body().shape.mass_properties().volume_m3;
-            self.params.sync_derived(volume);
-        }
         self.reports = Arc::new(Vec::new());
         self.plot_cache = None;
         self.state.view.selected_launch = None;
@@ -923,8 +985,61 @@ impl SpinfallApp {
             .unwrap_or_default()
     }
 
+    /// The sites resolved on the current body (cached until the sites or the body change).
+    pub(crate) fn resolved_sites(&mut self) -> &[Result<spinfall_dynamics::site::Site, String>] {
+        let fresh = matches!(&self.site_cache, Some((s, g, _)) if *s == self.sites && *g == self.data_generation);
+        if !fresh {
+            let resolved = match &self.view {
+                Some(v) => self.sites.iter().map(|s| s.site(v.body())).collect(),
+                None => Vec::new(),
+            };
+            self.site_cache = Some((self.sites.clone(), self.data_generation, resolved));
+        }
+        match &self.site_cache {
+            Some((_, _, r)) => r,
+            None => &[],
+        }
+    }
+
+    /// Markers of the planned sites with their launch directions.
+    pub(crate) fn site_markers(&mut self) -> Vec<spinfall_scene::SiteMarker> {
+        let selected = self.selected_site;
+        let launches: Vec<_> = self.sites.iter().map(|s| s.launch).collect();
+        self.resolved_sites()
+            .iter()
+            .zip(launches)
+            .enumerate()
+            .filter_map(|(i, (r, l))| {
+                let site = r.as_ref().ok()?;
+                let d = site
+                    .frame
+                    .direction(l.azimuth_deg.to_radians(), l.elevation_deg.to_radians());
+                Some(spinfall_scene::SiteMarker {
+                    pos_body_m: [site.point_body_m.x, site.point_body_m.y, site.point_body_m.z],
+                    launch_dir_body: Some([d.x, d.y, d.z]),
+                    selected: selected == Some(i),
+                })
+            })
+            .collect()
+    }
+
+    /// The parts of the session a scenario holds.
+    pub(crate) fn session_parts<'a>(
+        &'a self,
+        shape: &'a LoadedShape,
+    ) -> crate::scenario_io::SessionParts<'a> {
+        crate::scenario_io::SessionParts {
+            shape,
+            params: &self.params,
+            sites: &self.sites,
+            extra_launches: &self.extra_launches,
+            settings: &self.settings,
+            seed: self.seed,
+        }
+    }
+
     fn save_scenario(&mut self, path: &Path) {
-        match crate::export::scenario_json(self) {
+        match crate::scenario_io::to_json_in(self, path.parent()) {
             Ok(text) => {
                 let r = crate::atomic::write_atomic(path, |w| {
                     w.write_all(text.as_bytes()).map_err(|e| e.to_string())
@@ -963,6 +1078,7 @@ pub(crate) fn load_shape(
     file: Option<(PathBuf, LengthUnit)>,
     mut params: BodyParams,
 ) -> Result<(LoadedShape, Arc<BodyView>, BodyParams), String> {
+    // The scenario loader passes its own settings; a plain load keeps the current ones.
     ctx.progress.set_stage("reading the file");
     let (name, source, text) = match &file {
         Some((path, unit)) => {
@@ -1000,18 +1116,16 @@ pub(crate) fn load_shape(
         Some((p, _)) => p.display().to_string(),
         None => name.clone(),
     };
-    let (mesh, mut warnings) = spinfall_gravity::parse_obj(text.as_bytes(), unit)
-        .map_err(|e| format!("{where_}: {e}"))?;
-    ctx.progress.set_stage("building the BVH and mass properties");
+    let (mesh, mut warnings) =
+        spinfall_gravity::parse_obj(text.as_bytes(), unit).map_err(|e| format!("{where_}: {e}"))?;
+    ctx.progress
+        .set_stage("building the BVH and mass properties");
     ctx.request_repaint();
     let (shape, more) = ShapeModel::new(mesh).map_err(|e| format!("{where_}: {e}"))?;
     warnings.extend(more);
     let shape = shape.recentered();
     if ctx.cancelled() {
         return Err("loading cancelled".into());
-    }
-    if file.is_none() {
-        params = BodyParams::default();
     }
     params.sync_derived(shape.mass_properties().volume_m3);
     ctx.progress.set_stage("preparing the gravity field");
@@ -1033,27 +1147,23 @@ pub(crate) fn load_shape(
     ))
 }
 
-/// Expand the sites and fly them.
+/// Expand the scenario's launches on the app's body and fly them.
 fn run_flights(
     ctx: &JobContext,
     view: &BodyView,
-    sites: &[SiteEntry],
+    scenario: &spinfall_dynamics::scenario::Scenario,
     settings: &FlightSettings,
 ) -> Result<RunOutput, String> {
     let start = Instant::now();
     ctx.progress.set_stage("placing launches");
     let body = view.body();
-    let mut launches = Vec::new();
-    for site in sites {
-        launches.extend(site.launch_states(body)?);
-    }
+    let launches = scenario.build_launches(body).map_err(|e| e.to_string())?;
     ctx.progress.set_stage("flying");
     let progress = |done: usize, total: usize| {
         ctx.progress.set(done, total);
         ctx.request_repaint();
     };
-    let reports =
-        spinfall_dynamics::fly_all(body, &launches, settings, &progress, &ctx.cancel);
+    let reports = spinfall_dynamics::fly_all(body, &launches, settings, &progress, &ctx.cancel);
     Ok(RunOutput {
         cancelled: ctx.cancelled(),
         launches: launches.len(),

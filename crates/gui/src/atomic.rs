@@ -30,7 +30,8 @@ pub fn write_atomic(
         std::process::id()
     ));
     let result = (|| {
-        let file = File::create(&tmp).map_err(|e| format!("cannot create {}: {e}", tmp.display()))?;
+        let file =
+            File::create(&tmp).map_err(|e| format!("cannot create {}: {e}", tmp.display()))?;
         let mut w = BufWriter::new(file);
         fill(&mut w)?;
         let file = w

@@ -1,11 +1,13 @@
 //! Menu bar, status line, notices, and the shape / body / map / run sections of the side panel.
 
 use egui::{Color32, RichText, Ui};
-use spinfall_dynamics::SurfaceField;
+use spinfall_dynamics::surface_map::SurfaceField;
 use spinfall_gravity::LengthUnit;
 use spinfall_render::Colormap;
 
-use crate::app::{NoticeKind, RunState, SHORTCUT_EXPORT, SHORTCUT_OPEN, SHORTCUT_RUN, SHORTCUT_SAVE, SpinfallApp};
+use crate::app::{
+    NoticeKind, RunState, SHORTCUT_EXPORT, SHORTCUT_OPEN, SHORTCUT_RUN, SHORTCUT_SAVE, SpinfallApp,
+};
 use crate::command::Command;
 use crate::session::{AxisChoice, MassInput};
 use crate::state::RecentKind;
@@ -54,12 +56,18 @@ impl SpinfallApp {
             egui::MenuBar::new().ui(ui, |ui| {
                 ui.menu_button("File", |ui| {
                     if ui
-                        .add(egui::Button::new("Open shape model…").shortcut_text(ui.ctx().format_shortcut(&SHORTCUT_OPEN)))
+                        .add(
+                            egui::Button::new("Open shape model…")
+                                .shortcut_text(ui.ctx().format_shortcut(&SHORTCUT_OPEN)),
+                        )
                         .clicked()
                     {
                         self.commands.push(Command::BrowseShape);
                     }
-                    if ui.button(format!("Demo body ({})", spinfall_gravity::demo::NAME)).clicked() {
+                    if ui
+                        .button(format!("Demo body ({})", spinfall_gravity::demo::NAME))
+                        .clicked()
+                    {
                         self.commands.push(Command::LoadDemo);
                     }
                     ui.menu_button("Recent files", |ui| {
@@ -84,13 +92,19 @@ impl SpinfallApp {
                         self.commands.push(Command::BrowseScenario);
                     }
                     if ui
-                        .add(egui::Button::new("Save scenario…").shortcut_text(ui.ctx().format_shortcut(&SHORTCUT_SAVE)))
+                        .add(
+                            egui::Button::new("Save scenario…")
+                                .shortcut_text(ui.ctx().format_shortcut(&SHORTCUT_SAVE)),
+                        )
                         .clicked()
                     {
                         self.commands.push(Command::BrowseSaveScenario);
                     }
                     if ui
-                        .add(egui::Button::new("Export…").shortcut_text(ui.ctx().format_shortcut(&SHORTCUT_EXPORT)))
+                        .add(
+                            egui::Button::new("Export…")
+                                .shortcut_text(ui.ctx().format_shortcut(&SHORTCUT_EXPORT)),
+                        )
                         .clicked()
                     {
                         self.commands.push(Command::ShowExport);
@@ -110,15 +124,24 @@ impl SpinfallApp {
                     {
                         self.commands.push(Command::Run);
                     }
-                    if ui.add_enabled(self.busy(), egui::Button::new("Cancel")).clicked() {
+                    if ui
+                        .add_enabled(self.busy(), egui::Button::new("Cancel"))
+                        .clicked()
+                    {
                         self.commands.push(Command::CancelJobs);
                     }
                 });
                 ui.menu_button("View", |ui| {
                     let v = &mut self.state.view;
                     ui.checkbox(&mut self.state.link_cameras, "Link the two cameras");
-                    ui.checkbox(&mut v.overlay_other_frame, "Overlay the other frame's trace (dashed)");
-                    ui.checkbox(&mut v.trail_to_time, "Draw traces up to the current time only");
+                    ui.checkbox(
+                        &mut v.overlay_other_frame,
+                        "Overlay the other frame's trace (dashed)",
+                    );
+                    ui.checkbox(
+                        &mut v.trail_to_time,
+                        "Draw traces up to the current time only",
+                    );
                     ui.checkbox(&mut v.show_wireframe, "Wireframe");
                     ui.checkbox(&mut v.smooth_shading, "Smooth shading");
                     ui.checkbox(&mut v.show_spin_axis, "Spin axis");
@@ -154,12 +177,18 @@ impl SpinfallApp {
                 }
                 if let Some(v) = &self.view {
                     ui.separator();
-                    ui.label(format!("mass {}", fmt_sci(v.body().figures().mass_kg, "kg")));
+                    ui.label(format!(
+                        "mass {}",
+                        fmt_sci(v.body().figures().mass_kg, "kg")
+                    ));
                 }
                 ui.separator();
                 let run = match &self.run_state {
                     RunState::NotRun => "not run yet".to_string(),
-                    RunState::Done { launches, elapsed_s } => {
+                    RunState::Done {
+                        launches,
+                        elapsed_s,
+                    } => {
                         format!("last run: {launches} launches in {elapsed_s:.2} s")
                     }
                     RunState::Cancelled { launches } => {
@@ -173,7 +202,11 @@ impl SpinfallApp {
                     ui.spinner();
                     ui.label(label);
                     if let Some(f) = progress {
-                        ui.add(egui::ProgressBar::new(f).desired_width(120.0).show_percentage());
+                        ui.add(
+                            egui::ProgressBar::new(f)
+                                .desired_width(120.0)
+                                .show_percentage(),
+                        );
                     }
                 }
                 ui.with_layout(egui::Layout::right_to_left(egui::Align::Center), |ui| {
@@ -216,7 +249,7 @@ impl SpinfallApp {
                 NoticeKind::Info => Color32::from_rgb(150, 200, 255),
             };
             ui.horizontal(|ui| {
-                if ui.small_button("✖").on_hover_text("Dismiss").clicked() {
+                if ui.small_button("x").on_hover_text("Dismiss").clicked() {
                     dismiss = Some(i);
                 }
                 ui.add(egui::Label::new(RichText::new(&n.text).color(color)).wrap());
@@ -243,20 +276,24 @@ impl SpinfallApp {
                 s.shape.mesh().vertices_m.len()
             ));
             if !s.warnings.is_empty() {
-                ui.collapsing(format!("{} validation warning(s)", s.warnings.len()), |ui| {
-                    for w in &s.warnings {
-                        ui.label(w);
-                    }
-                });
+                ui.collapsing(
+                    format!("{} validation warning(s)", s.warnings.len()),
+                    |ui| {
+                        for w in &s.warnings {
+                            ui.label(w);
+                        }
+                    },
+                );
             }
         }
         ui.horizontal(|ui| {
-            ui.label("OBJ file:");
+            let l = ui.label("OBJ file:");
             ui.add(
                 egui::TextEdit::singleline(&mut self.shape_path_field)
                     .hint_text("/path/to/shape.obj")
                     .desired_width(180.0),
-            );
+            )
+            .labelled_by(l.id);
         });
         ui.horizontal(|ui| {
             ui.label("Length unit:");
@@ -266,7 +303,10 @@ impl SpinfallApp {
         ui.horizontal(|ui| {
             let loading = self.load_job.is_some();
             if ui
-                .add_enabled(!loading && !self.shape_path_field.trim().is_empty(), egui::Button::new("Open"))
+                .add_enabled(
+                    !loading && !self.shape_path_field.trim().is_empty(),
+                    egui::Button::new("Open"),
+                )
                 .clicked()
             {
                 self.commands.push(Command::LoadShape(
@@ -274,10 +314,16 @@ impl SpinfallApp {
                     self.state.unit,
                 ));
             }
-            if ui.add_enabled(!loading, egui::Button::new("Browse…")).clicked() {
+            if ui
+                .add_enabled(!loading, egui::Button::new("Browse…"))
+                .clicked()
+            {
                 self.commands.push(Command::BrowseShape);
             }
-            if ui.add_enabled(!loading, egui::Button::new("Demo body")).clicked() {
+            if ui
+                .add_enabled(!loading, egui::Button::new("Demo body"))
+                .clicked()
+            {
                 self.commands.push(Command::LoadDemo);
             }
         });
@@ -300,85 +346,100 @@ impl SpinfallApp {
             .map(|v| v.body().shape.mass_properties().volume_m3)
             .unwrap_or(0.0);
         let before = self.params.clone();
-        egui::Grid::new("body_params").num_columns(2).show(ui, |ui| {
-            let p = &mut self.params;
-            ui.label("Mass from:");
-            ui.horizontal(|ui| {
-                ui.radio_value(&mut p.mass_input, MassInput::Density, "density");
-                ui.radio_value(&mut p.mass_input, MassInput::Mass, "mass");
-                ui.radio_value(&mut p.mass_input, MassInput::Gm, "GM");
-            });
-            ui.end_row();
-            ui.label("Bulk density:");
-            ui.add_enabled(
-                p.mass_input == MassInput::Density,
-                egui::DragValue::new(&mut p.density_kg_m3)
-                    .range(1.0..=30_000.0)
-                    .speed(10.0)
-                    .suffix(" kg/m³"),
-            );
-            ui.end_row();
-            ui.label("Mass:");
-            ui.add_enabled(
-                p.mass_input == MassInput::Mass,
-                egui::DragValue::new(&mut p.mass_kg)
-                    .range(1e-3..=1e22)
-                    .speed(p.mass_kg.abs() * 0.005 + 1.0)
-                    .custom_formatter(|v, _| format!("{v:.4e}"))
-                    .suffix(" kg"),
-            );
-            ui.end_row();
-            ui.label("GM:");
-            ui.add_enabled(
-                p.mass_input == MassInput::Gm,
-                egui::DragValue::new(&mut p.gm_m3_s2)
-                    .range(1e-12..=1e12)
-                    .speed(p.gm_m3_s2.abs() * 0.005 + 1e-9)
-                    .custom_formatter(|v, _| format!("{v:.4e}"))
-                    .suffix(" m³/s²"),
-            );
-            ui.end_row();
-            ui.label("Spin period:");
-            ui.add(
-                egui::DragValue::new(&mut p.period_h)
-                    .range(0.01..=10_000.0)
-                    .speed(0.01)
-                    .suffix(" h"),
-            );
-            ui.end_row();
-            ui.label("Spin axis:");
-            ui.horizontal(|ui| {
-                ui.radio_value(&mut p.axis, AxisChoice::MaxMoment, "max moment");
-                ui.radio_value(&mut p.axis, AxisChoice::PlusZ, "+z");
-                ui.radio_value(&mut p.axis, AxisChoice::Custom, "custom");
-            });
-            ui.end_row();
-            if p.axis == AxisChoice::Custom {
-                ui.label("Axis (body x, y, z):");
+        let mass_speed = self.params.mass_kg.abs() * 0.005 + 1.0;
+        let gm_speed = self.params.gm_m3_s2.abs() * 0.005 + 1e-9;
+        egui::Grid::new("body_params")
+            .num_columns(2)
+            .show(ui, |ui| {
+                let p = &mut self.params;
+                ui.label("Mass from:");
                 ui.horizontal(|ui| {
-                    for c in &mut p.custom_axis {
-                        ui.add(egui::DragValue::new(c).range(-1.0..=1.0).speed(0.01));
-                    }
+                    ui.radio_value(&mut p.mass_input, MassInput::Density, "density");
+                    ui.radio_value(&mut p.mass_input, MassInput::Mass, "mass");
+                    ui.radio_value(&mut p.mass_input, MassInput::Gm, "GM");
                 });
                 ui.end_row();
-            }
-            ui.label("Phase at t = 0:");
-            ui.add(
-                egui::DragValue::new(&mut p.phase_deg)
-                    .range(-360.0..=360.0)
-                    .speed(1.0)
-                    .suffix(" °"),
-            );
-            ui.end_row();
-        });
+                let l = ui.label("Bulk density:");
+                ui.add_enabled(
+                    p.mass_input == MassInput::Density,
+                    egui::DragValue::new(&mut p.density_kg_m3)
+                        .range(1.0..=30_000.0)
+                        .speed(10.0)
+                        .suffix(" kg/m³"),
+                )
+                .labelled_by(l.id);
+                ui.end_row();
+                let l = ui.label("Mass:");
+                ui.add_enabled(
+                    p.mass_input == MassInput::Mass,
+                    egui::DragValue::new(&mut p.mass_kg)
+                        .range(1e-3..=1e22)
+                        .speed(mass_speed)
+                        .custom_formatter(|v, _| format!("{v:.4e}"))
+                        .suffix(" kg"),
+                )
+                .labelled_by(l.id);
+                ui.end_row();
+                let l = ui.label("GM:");
+                ui.add_enabled(
+                    p.mass_input == MassInput::Gm,
+                    egui::DragValue::new(&mut p.gm_m3_s2)
+                        .range(1e-12..=1e12)
+                        .speed(gm_speed)
+                        .custom_formatter(|v, _| format!("{v:.4e}"))
+                        .suffix(" m³/s²"),
+                )
+                .labelled_by(l.id);
+                ui.end_row();
+                let l = ui.label("Spin period:");
+                ui.add(
+                    egui::DragValue::new(&mut p.period_h)
+                        .range(0.01..=10_000.0)
+                        .speed(0.01)
+                        .suffix(" h"),
+                )
+                .labelled_by(l.id);
+                ui.end_row();
+                ui.label("Spin axis:");
+                ui.horizontal(|ui| {
+                    ui.radio_value(&mut p.axis, AxisChoice::MaxMoment, "max moment");
+                    ui.radio_value(&mut p.axis, AxisChoice::PlusZ, "+z");
+                    ui.radio_value(&mut p.axis, AxisChoice::Custom, "custom");
+                });
+                ui.end_row();
+                if p.axis == AxisChoice::Custom {
+                    let l = ui.label("Axis (body x, y, z):");
+                    ui.horizontal(|ui| {
+                        for c in &mut p.custom_axis {
+                            ui.add(egui::DragValue::new(c).range(-1.0..=1.0).speed(0.01))
+                                .labelled_by(l.id);
+                        }
+                    });
+                    ui.end_row();
+                }
+                let l = ui.label("Phase at t = 0:");
+                ui.add(
+                    egui::DragValue::new(&mut p.phase_deg)
+                        .range(-360.0..=360.0)
+                        .speed(1.0)
+                        .suffix(" °"),
+                )
+                .labelled_by(l.id);
+                ui.end_row();
+            });
         if self.params != before {
             self.params.sync_derived(volume);
         }
         let pending = self.built_params.as_ref() != Some(&self.params);
         ui.horizontal(|ui| {
             if ui
-                .add_enabled(pending && self.view.is_some(), egui::Button::new("Apply body settings"))
-                .on_hover_text("Rebuild the gravity field and spin with these values (clears results)")
+                .add_enabled(
+                    pending && self.view.is_some(),
+                    egui::Button::new("Apply body settings"),
+                )
+                .on_hover_text(
+                    "Rebuild the gravity field and spin with these values (clears results)",
+                )
                 .clicked()
             {
                 self.commands.push(Command::RebuildBody);
@@ -486,31 +547,68 @@ impl SpinfallApp {
     }
 
     pub(crate) fn run_ui(&mut self, ui: &mut Ui) {
-        ui.heading("Run");
+        ui.heading("Flights");
         crate::sites::flight_settings_ui(&mut self.settings, ui);
         ui.horizontal(|ui| {
-            let launches: usize = self.sites.iter().map(|s| s.launch_count()).sum();
-            let can_run = self.run_job.is_none() && self.view.is_some() && launches > 0;
-            if ui
-                .add_enabled(can_run, egui::Button::new(RichText::new(format!("▶ Run {launches} launch(es)")).strong()))
-                .on_hover_text("Ctrl+R or F5")
-                .clicked()
-            {
-                self.commands.push(Command::Run);
-            }
-            if let Some(job) = &self.run_job {
-                if ui.button("Cancel").clicked() {
-                    job.cancel();
-                }
-            }
+            let l = ui.label("Dispersion seed:");
+            ui.add(egui::DragValue::new(&mut self.seed))
+                .labelled_by(l.id);
         });
-        if let Some(job) = &self.run_job {
-            let (done, total) = job.progress.counts();
-            ui.add(
-                egui::ProgressBar::new(job.progress.fraction().unwrap_or(0.0))
-                    .text(format!("{done} / {total} launches"))
-                    .animate(true),
-            );
+        if !self.extra_launches.is_empty() {
+            ui.label(format!(
+                "+ {} launch(es) from the scenario file, flown as written",
+                self.extra_launches.len()
+            ));
         }
+    }
+
+    /// The row of main actions under the menu: open, run/cancel, export, and job progress.
+    pub(crate) fn toolbar_ui(&mut self, ui: &mut Ui) {
+        egui::Panel::top("toolbar").show(ui, |ui| {
+            ui.horizontal(|ui| {
+                if ui.button("Open shape...").on_hover_text("Ctrl+O").clicked() {
+                    self.commands.push(Command::BrowseShape);
+                }
+                ui.separator();
+                let launches: usize = self.sites.iter().map(|s| s.launch_count()).sum::<usize>()
+                    + self.extra_launches.len();
+                let can_run = self.run_job.is_none() && self.view.is_some() && launches > 0;
+                if ui
+                    .add_enabled(
+                        can_run,
+                        egui::Button::new(
+                            RichText::new(format!("Run {launches} launch(es)")).strong(),
+                        ),
+                    )
+                    .on_hover_text("Fly every launch (Ctrl+R or F5)")
+                    .clicked()
+                {
+                    self.commands.push(Command::Run);
+                }
+                if self.busy() && ui.button("Cancel").clicked() {
+                    self.commands.push(Command::CancelJobs);
+                }
+                if let Some(job) = &self.run_job {
+                    let (done, total) = job.progress.counts();
+                    ui.add(
+                        egui::ProgressBar::new(job.progress.fraction().unwrap_or(0.0))
+                            .desired_width(220.0)
+                            .text(format!("{done} / {total} launches"))
+                            .animate(true),
+                    );
+                }
+                ui.separator();
+                if ui.button("Export...").on_hover_text("Ctrl+E").clicked() {
+                    self.commands.push(Command::ShowExport);
+                }
+                if ui
+                    .button("Save scenario...")
+                    .on_hover_text("Ctrl+S")
+                    .clicked()
+                {
+                    self.commands.push(Command::BrowseSaveScenario);
+                }
+            });
+        });
     }
 }

@@ -6,9 +6,12 @@ use std::path::{Path, PathBuf};
 use std::sync::Arc;
 
 use egui::Context;
-use spinfall_dynamics::{FlightReport, SurfaceMap};
+use spinfall_dynamics::FlightReport;
+use spinfall_dynamics::surface_map::SurfaceMap;
 use spinfall_render::{Camera, Image, RenderOptions, Renderer, encode_png};
-use spinfall_scene::{BodyView, CompositeOptions, Frame, ViewOptions, add_title, composite, frame_scene};
+use spinfall_scene::{
+    BodyView, CompositeOptions, Frame, ViewOptions, add_title, composite, frame_scene,
+};
 
 use crate::app::{Loaded, LoadedShape, SpinfallApp};
 use crate::atomic::write_atomic;
@@ -83,7 +86,11 @@ impl SpinfallApp {
                 egui::Grid::new("export").num_columns(2).show(ui, |ui| {
                     ui.label("Folder:");
                     ui.horizontal(|ui| {
-                        ui.add(egui::TextEdit::singleline(&mut form.folder).desired_width(260.0).hint_text("/path/to/folder"));
+                        ui.add(
+                            egui::TextEdit::singleline(&mut form.folder)
+                                .desired_width(260.0)
+                                .hint_text("/path/to/folder"),
+                        );
                         if ui.button("Browse…").clicked() {
                             self.commands.push(Command::BrowseExportFolder);
                         }
@@ -100,11 +107,21 @@ impl SpinfallApp {
                         ui.checkbox(&mut r.inertial_png, "inertial view");
                     });
                     ui.end_row();
-                    ui.label("Image size:");
+                    let l = ui.label("Image size (width x height):");
                     ui.horizontal(|ui| {
-                        ui.add(egui::DragValue::new(&mut r.size_px[0]).range(64..=8192).suffix(" px"));
-                        ui.label("×");
-                        ui.add(egui::DragValue::new(&mut r.size_px[1]).range(64..=8192).suffix(" px"));
+                        ui.add(
+                            egui::DragValue::new(&mut r.size_px[0])
+                                .range(64..=8192)
+                                .suffix(" px"),
+                        )
+                        .labelled_by(l.id);
+                        ui.label("x");
+                        ui.add(
+                            egui::DragValue::new(&mut r.size_px[1])
+                                .range(64..=8192)
+                                .suffix(" px"),
+                        )
+                        .labelled_by(l.id);
                     });
                     ui.end_row();
                     ui.label("Data:");
@@ -121,7 +138,8 @@ impl SpinfallApp {
                     if ui.add_enabled(!busy, egui::Button::new("Export")).clicked() {
                         self.state.export_size_px = self.export_form.request.size_px;
                         self.state.export_folder = self.export_form.folder.clone();
-                        self.commands.push(Command::Export(self.export_form.to_request()));
+                        self.commands
+                            .push(Command::Export(self.export_form.to_request()));
                     }
                     if let Some(job) = &self.export_job {
                         ui.spinner();
@@ -159,8 +177,12 @@ impl SpinfallApp {
             options: self.state.view.clone(),
             cameras: [self.panes[0].camera.clone(), self.panes[1].camera.clone()],
             t_s: self.t_s,
-            scenario_json: scenario_json(self),
-            body_name: self.shape.as_ref().map(|s| s.name.clone()).unwrap_or_default(),
+            scenario_json: crate::scenario_io::to_json_in(self, Some(&req.folder)),
+            body_name: self
+                .shape
+                .as_ref()
+                .map(|s| s.name.clone())
+                .unwrap_or_default(),
         };
         self.export_job = Some(Job::spawn(
             format!("Exporting to {}", req.folder.display()),
@@ -170,7 +192,11 @@ impl SpinfallApp {
     }
 }
 
-fn run_export(ctx: &JobContext, req: &ExportRequest, s: &ExportSnapshot) -> Result<Vec<PathBuf>, String> {
+fn run_export(
+    ctx: &JobContext,
+    req: &ExportRequest,
+    s: &ExportSnapshot,
+) -> Result<Vec<PathBuf>, String> {
     if !req.folder.is_dir() {
         return Err(format!("folder {} does not exist", req.folder.display()));
     }
@@ -185,7 +211,9 @@ fn run_export(ctx: &JobContext, req: &ExportRequest, s: &ExportSnapshot) -> Resu
         ("Caution", crate::body_panel::CAUTION),
     ];
     let write_png = |p: &Path, image: &Image| {
-        write_atomic(p, |out| encode_png(image, &chunks, out).map_err(|e| e.to_string()))
+        write_atomic(p, |out| {
+            encode_png(image, &chunks, out).map_err(|e| e.to_string())
+        })
     };
     if req.composite_png {
         ctx.progress.set_stage("rendering the side-by-side image");
@@ -210,8 +238,18 @@ fn run_export(ctx: &JobContext, req: &ExportRequest, s: &ExportSnapshot) -> Resu
         written.push(p);
     }
     for (wanted, frame, cam, suffix) in [
-        (req.body_png, Frame::BodyFixed, &s.cameras[0], "body_fixed.png"),
-        (req.inertial_png, Frame::Inertial, &s.cameras[1], "inertial.png"),
+        (
+            req.body_png,
+            Frame::BodyFixed,
+            &s.cameras[0],
+            "body_fixed.png",
+        ),
+        (
+            req.inertial_png,
+            Frame::Inertial,
+            &s.cameras[1],
+            "inertial.png",
+        ),
     ] {
         if !wanted || ctx.cancelled() {
             continue;
@@ -223,10 +261,20 @@ fn run_export(ctx: &JobContext, req: &ExportRequest, s: &ExportSnapshot) -> Resu
             .unwrap_or_else(|| spinfall_scene::default_camera(&s.view.body().shape, w, h));
         camera.set_viewport(w, h);
         let mut scene = frame_scene(&s.view, &s.reports, s.t_s, &s.options, [w, h], frame);
-        add_title(&mut scene, frame, s.t_s, s.view.body().spin.period_s, [w, h]);
+        add_title(
+            &mut scene,
+            frame,
+            s.t_s,
+            s.view.body().spin.period_s,
+            [w, h],
+        );
         let mut renderer = Renderer::new();
         let image = renderer
-            .render(&scene, &camera, &RenderOptions::new(w, h).with_supersample(2))
+            .render(
+                &scene,
+                &camera,
+                &RenderOptions::new(w, h).with_supersample(2),
+            )
             .clone();
         let p = path(suffix);
         write_png(&p, &image)?;
@@ -236,18 +284,22 @@ fn run_export(ctx: &JobContext, req: &ExportRequest, s: &ExportSnapshot) -> Resu
         ctx.progress.set_stage("writing results");
         let p = path("results.json");
         write_atomic(&p, |out| {
-            spinfall_dynamics::write_results_json(out, &s.reports).map_err(|e| e.to_string())
+            spinfall_dynamics::export::write_results_json(out, &s.reports)
+                .map_err(|e| e.to_string())
         })?;
         written.push(p);
         let p = path("results.csv");
-        write_atomic(&p, |out| write_results_csv(out, &s.reports).map_err(|e| e.to_string()))?;
+        write_atomic(&p, |out| {
+            write_results_csv(out, &s.reports).map_err(|e| e.to_string())
+        })?;
         written.push(p);
     }
     if req.trajectories && !s.reports.is_empty() {
         ctx.progress.set_stage("writing trajectories");
         let p = path("trajectories.csv");
         write_atomic(&p, |out| {
-            spinfall_dynamics::write_trajectories_csv(out, &s.reports).map_err(|e| e.to_string())
+            spinfall_dynamics::export::write_trajectories_csv(out, &s.reports)
+                .map_err(|e| e.to_string())
         })?;
         written.push(p);
     }
@@ -257,7 +309,7 @@ fn run_export(ctx: &JobContext, req: &ExportRequest, s: &ExportSnapshot) -> Resu
         ctx.progress.set_stage("writing the surface map");
         let p = path("surface_map.csv");
         write_atomic(&p, |out| {
-            spinfall_dynamics::write_surface_map_csv(out, &s.view.body().shape, map)
+            spinfall_dynamics::export::write_surface_map_csv(out, s.view.body(), map)
                 .map_err(|e| e.to_string())
         })?;
         written.push(p);
@@ -265,7 +317,9 @@ fn run_export(ctx: &JobContext, req: &ExportRequest, s: &ExportSnapshot) -> Resu
     if req.scenario {
         let text = s.scenario_json.clone()?;
         let p = path("scenario.json");
-        write_atomic(&p, |out| out.write_all(text.as_bytes()).map_err(|e| e.to_string()))?;
+        write_atomic(&p, |out| {
+            out.write_all(text.as_bytes()).map_err(|e| e.to_string())
+        })?;
         written.push(p);
     }
     if written.is_empty() {
@@ -310,11 +364,6 @@ fn csv_text(s: &str) -> String {
     } else {
         s.to_string()
     }
-}
-
-/// The session as scenario JSON (the format `spinfall fly` reads).
-pub(crate) fn scenario_json(app: &SpinfallApp) -> Result<String, String> {
-    crate::scenario_io::to_json(app)
 }
 
 /// Load a scenario file and its shape model (worker thread).

@@ -1,12 +1,10 @@
 //! Background jobs: a worker thread, a progress counter, a cancel flag and a result channel.
 //!
-//! The UI polls [`Job::poll`] once per frame; it never waits on a job (tests may, through
-//! [`Job::wait`]).
+//! The UI polls [`Job::poll`] once per frame; it never waits on a job.
 
 use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
 use std::sync::mpsc::{Receiver, TryRecvError, channel};
 use std::sync::{Arc, Mutex};
-use std::time::Duration;
 
 /// Progress shared between a worker and the UI.
 #[derive(Debug, Default)]
@@ -109,9 +107,8 @@ impl<T: Send + 'static> Job<T> {
         let spawned = std::thread::Builder::new()
             .name(format!("spinfall job: {label}"))
             .spawn(move || {
-                let result =
-                    std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| work(&ctx)))
-                        .unwrap_or_else(|_| Err("the background job failed unexpectedly".into()));
+                let result = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| work(&ctx)))
+                    .unwrap_or_else(|_| Err("the background job failed unexpectedly".into()));
                 // The receiver may be gone when the app closed; nothing to do then.
                 let _ = tx.send(result);
                 ctx.request_repaint();
@@ -151,10 +148,5 @@ impl<T: Send + 'static> Job<T> {
                 Poll::Done(Err("the background job ended without a result".into()))
             }
         }
-    }
-
-    /// Block until done or `timeout` passes (tests only; the UI never waits).
-    pub fn wait(&self, timeout: Duration) -> Option<Result<T, String>> {
-        self.rx.recv_timeout(timeout).ok()
     }
 }

@@ -34,7 +34,7 @@ mod sites;
 mod state;
 mod views;
 
-pub use app::SpinfallApp;
+pub use app::{LoadedShape, Notice, NoticeKind, RunState, SpinfallApp};
 pub use command::{Command, ExportRequest};
 pub use state::PersistedState;
 

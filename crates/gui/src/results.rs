@@ -214,13 +214,14 @@ impl SpinfallApp {
         let mut clicked_row = None;
         let mut clicked_header = None;
         egui::ScrollArea::horizontal().show(ui, |ui| {
+            let max_h = ui.available_height() - 24.0;
             let mut table = TableBuilder::new(ui)
                 .striped(true)
                 .resizable(true)
                 .sense(egui::Sense::click())
                 .cell_layout(egui::Layout::left_to_right(egui::Align::Center))
                 .min_scrolled_height(60.0)
-                .max_scroll_height(ui.available_height() - 24.0);
+                .max_scroll_height(max_h);
             for (i, _) in COLUMNS.iter().enumerate() {
                 table = table.column(if i == 1 {
                     Column::auto().at_least(70.0)
@@ -233,12 +234,17 @@ impl SpinfallApp {
                     for (col, name) in COLUMNS {
                         header.col(|ui| {
                             let arrow = match self.table.sort {
-                                Some((c, true)) if c == col => " ⏶",
-                                Some((c, false)) if c == col => " ⏷",
+                                Some((c, true)) if c == col => " (up)",
+                                Some((c, false)) if c == col => " (down)",
                                 _ => "",
                             };
                             if ui
-                                .add(egui::Button::new(egui::RichText::new(format!("{name}{arrow}")).strong()).frame(false))
+                                .add(
+                                    egui::Button::new(
+                                        egui::RichText::new(format!("{name}{arrow}")).strong(),
+                                    )
+                                    .frame(false),
+                                )
                                 .on_hover_text("Sort by this column")
                                 .clicked()
                             {
@@ -272,7 +278,15 @@ impl SpinfallApp {
                             row.col(|ui| {
                                 if k == 0 {
                                     let c = spinfall_scene::launch_color(i);
-                                    ui.colored_label(egui::Color32::from_rgb(c.r, c.g, c.b), "■");
+                                    let (r, _) = ui.allocate_exact_size(
+                                        egui::vec2(10.0, 10.0),
+                                        egui::Sense::hover(),
+                                    );
+                                    ui.painter().rect_filled(
+                                        r,
+                                        2.0,
+                                        egui::Color32::from_rgb(c.r, c.g, c.b),
+                                    );
                                 }
                                 ui.label(text);
                             });
@@ -295,7 +309,12 @@ impl SpinfallApp {
     }
 
     fn plots_ui(&mut self, ui: &mut Ui) {
-        let Some(i) = self.state.view.selected_launch.filter(|&i| i < self.reports.len()) else {
+        let Some(i) = self
+            .state
+            .view
+            .selected_launch
+            .filter(|&i| i < self.reports.len())
+        else {
             ui.weak("Select a launch to plot it.");
             return;
         };
@@ -309,7 +328,8 @@ impl SpinfallApp {
             }
         }
         let have = self.plot_cache.as_ref().map(|p| p.launch) == Some(i);
-        if !have && self.table.plot_job.is_none()
+        if !have
+            && self.table.plot_job.is_none()
             && let Some(view) = &self.view
         {
             let body = view.body().clone();
@@ -339,7 +359,12 @@ impl SpinfallApp {
                     plot_ui.vline(egui_plot::VLine::new("now", t_now));
                 });
         };
-        plot(ui, "alt", "altitude (m)", vec![("altitude (m)", &series.altitude_m)]);
+        plot(
+            ui,
+            "alt",
+            "altitude (m)",
+            vec![("altitude (m)", &series.altitude_m)],
+        );
         plot(
             ui,
             "speed",
@@ -349,6 +374,11 @@ impl SpinfallApp {
                 ("inertial (m/s)", &series.speed_inertial_m_s),
             ],
         );
-        plot(ui, "jacobi", "ΔC/|C₀|", vec![("Jacobi drift (relative)", &series.jacobi_rel)]);
+        plot(
+            ui,
+            "jacobi",
+            "(C - C0)/|C0|",
+            vec![("Jacobi drift (relative)", &series.jacobi_rel)],
+        );
     }
 }

@@ -8,10 +8,9 @@ use std::sync::Arc;
 
 use nalgebra::Point3;
 use serde::{Deserialize, Serialize};
-use spinfall_dynamics::{
-    Body, DEFAULT_START_ALTITUDE_M, Dispersion, Fan, FanQuantity, LaunchSpec, LaunchState,
-    NormalMode, Site, SpeedSigma, Spin, SpinAxis,
-};
+use spinfall_dynamics::launch::FanQuantity;
+use spinfall_dynamics::site::{NormalMode, Site};
+use spinfall_dynamics::{Body, Spin, SpinAxis};
 use spinfall_gravity::{G_SI, LengthUnit, MassSpec, ShapeModel};
 
 /// Which mass figure the user typed (the others are derived).
@@ -113,7 +112,10 @@ impl BodyParams {
 
     /// The body with these settings.
     pub fn build_body(&self, name: &str, shape: Arc<ShapeModel>) -> Result<Body, String> {
-        let axis = self.spin_axis().resolve(&shape).map_err(|e| e.to_string())?;
+        let axis = self
+            .spin_axis()
+            .resolve(&shape)
+            .map_err(|e| e.to_string())?;
         let spin = Spin::from_hours(self.period_h, axis, self.phase_deg.to_radians())
             .map_err(|e| e.to_string())?;
         Body::new(name, shape, self.mass_spec(), spin).map_err(|e| e.to_string())
@@ -135,7 +137,7 @@ pub enum Spread {
         /// Number of launches.
         count: u32,
     },
-    /// `count` launches with Gaussian speed and direction errors (reproducible seed).
+    /// `count` launches with Gaussian speed and direction errors (seeded by the session seed).
     Dispersion {
         /// Number of launches.
         count: u32,
@@ -143,8 +145,6 @@ pub enum Spread {
         speed_sigma_percent: f64,
         /// 1-sigma direction error per axis, degrees.
         direction_sigma_deg: f64,
-        /// Random seed.
-        seed: u64,
     },
 }
 
@@ -207,56 +207,14 @@ impl SiteEntry {
     /// The dynamics site on `body`.
     pub fn site(&self, body: &Body) -> Result<Site, String> {
         match self.location {
-            SiteLocation::Point { point_body_m, face } => Site::from_surface_point(
-                body,
-                Point3::from(point_body_m),
-                face,
-                NormalMode::Face,
-            ),
+            SiteLocation::Point { point_body_m, face } => {
+                Site::from_surface_point(body, Point3::from(point_body_m), face, NormalMode::Face)
+            }
             SiteLocation::LatLon { lat_deg, lon_deg } => {
                 Site::from_lat_lon(body, lat_deg, lon_deg, NormalMode::Face)
             }
         }
         .map_err(|e| format!("site \"{}\": {e}", self.name))
-    }
-
-    /// The launch states of this site on `body` (fans and dispersion sets expanded).
-    pub fn launch_states(&self, body: &Body) -> Result<Vec<LaunchState>, String> {
-        let spec = LaunchSpec {
-            id: self.name.clone(),
-            site: self.site(body)?,
-            speed_m_s: self.launch.speed_m_s,
-            azimuth_deg: self.launch.azimuth_deg,
-            elevation_deg: self.launch.elevation_deg,
-            start_altitude_m: DEFAULT_START_ALTITUDE_M,
-        };
-        let err = |e: spinfall_dynamics::DynamicsError| format!("site \"{}\": {e}", self.name);
-        match self.launch.spread {
-            Spread::Single => Ok(vec![spec.state().map_err(err)?]),
-            Spread::Fan { vary, to, count } => spec
-                .fan(&Fan {
-                    vary,
-                    to,
-                    count: count.max(1) as usize,
-                })
-                .map_err(err)?
-                .iter()
-                .map(|s| s.state().map_err(err))
-                .collect(),
-            Spread::Dispersion {
-                count,
-                speed_sigma_percent,
-                direction_sigma_deg,
-                seed,
-            } => spec
-                .disperse(&Dispersion {
-                    count: count.max(1) as usize,
-                    speed_sigma: SpeedSigma::Percent(speed_sigma_percent),
-                    direction_sigma_deg,
-                    seed,
-                })
-                .map_err(err),
-        }
     }
 
     /// Number of launches this site expands to.

@@ -2,7 +2,8 @@
 //! selected site with an escape-speed gauge; and the flight settings.
 
 use egui::{Color32, RichText, Ui};
-use spinfall_dynamics::{FanQuantity, FlightSettings};
+use spinfall_dynamics::FlightSettings;
+use spinfall_dynamics::launch::FanQuantity;
 
 use crate::app::SpinfallApp;
 use crate::command::Command;
@@ -11,22 +12,27 @@ use crate::session::Spread;
 impl SpinfallApp {
     pub(crate) fn sites_ui(&mut self, ui: &mut Ui) {
         ui.heading("Launch sites");
-        ui.checkbox(&mut self.click_to_place, "Click on the body to place a site");
+        ui.checkbox(
+            &mut self.click_to_place,
+            "Click on the body to place a site",
+        );
         ui.horizontal(|ui| {
-            ui.label("lat");
+            let l = ui.label("lat");
             ui.add(
                 egui::DragValue::new(&mut self.lat_field_deg)
                     .range(-90.0..=90.0)
                     .speed(0.5)
                     .suffix(" °"),
-            );
-            ui.label("lon");
+            )
+            .labelled_by(l.id);
+            let l = ui.label("lon");
             ui.add(
                 egui::DragValue::new(&mut self.lon_field_deg)
                     .range(-180.0..=180.0)
                     .speed(0.5)
                     .suffix(" °"),
-            );
+            )
+            .labelled_by(l.id);
             if ui
                 .add_enabled(self.view.is_some(), egui::Button::new("Add site"))
                 .on_hover_text("Planetocentric latitude/longitude about the spin axis")
@@ -51,7 +57,11 @@ impl SpinfallApp {
                 ui.add(egui::TextEdit::singleline(&mut self.sites[i].name).desired_width(110.0));
                 let n = self.sites[i].launch_count();
                 ui.weak(format!("{n} launch{}", if n == 1 { "" } else { "es" }));
-                if ui.small_button("🗑").on_hover_text("Remove this site").clicked() {
+                if ui
+                    .small_button("Remove")
+                    .on_hover_text("Remove this site")
+                    .clicked()
+                {
                     remove = Some(i);
                 }
             });
@@ -63,7 +73,7 @@ impl SpinfallApp {
             return;
         };
         // Where the selected site is and what it takes to leave.
-        let site_info = self.view.as_ref().map(|v| self.sites[i].site(v.body()));
+        let site_info = self.resolved_sites().get(i).cloned();
         ui.separator();
         ui.label(RichText::new(format!("Selected: {}", self.sites[i].name)).strong());
         let mut escape_normal = None;
@@ -82,30 +92,33 @@ impl SpinfallApp {
         }
         let launch = &mut self.sites[i].launch;
         egui::Grid::new("launch").num_columns(2).show(ui, |ui| {
-            ui.label("Speed:");
+            let l = ui.label("Speed:");
             ui.add(
                 egui::DragValue::new(&mut launch.speed_m_s)
                     .range(0.0..=1000.0)
                     .speed(0.005)
                     .max_decimals(4)
                     .suffix(" m/s"),
-            );
+            )
+            .labelled_by(l.id);
             ui.end_row();
-            ui.label("Azimuth (from north, east +):");
+            let l = ui.label("Azimuth (from north, east +):");
             ui.add(
                 egui::DragValue::new(&mut launch.azimuth_deg)
                     .range(-360.0..=360.0)
                     .speed(1.0)
                     .suffix(" °"),
-            );
+            )
+            .labelled_by(l.id);
             ui.end_row();
-            ui.label("Elevation:");
+            let l = ui.label("Elevation:");
             ui.add(
                 egui::DragValue::new(&mut launch.elevation_deg)
                     .range(-90.0..=90.0)
                     .speed(1.0)
                     .suffix(" °"),
-            );
+            )
+            .labelled_by(l.id);
             ui.end_row();
         });
         if let Some((v_normal, v_min)) = escape_normal {
@@ -131,7 +144,6 @@ impl SpinfallApp {
                     count: 20,
                     speed_sigma_percent: 10.0,
                     direction_sigma_deg: 5.0,
-                    seed: 1,
                 };
             }
         });
@@ -152,12 +164,18 @@ impl SpinfallApp {
                             }
                         });
                     ui.end_row();
-                    ui.label("Up to:");
-                    let unit = if *vary == FanQuantity::SpeedMS { " m/s" } else { " °" };
-                    ui.add(egui::DragValue::new(to).speed(0.5).suffix(unit));
+                    let l = ui.label("Up to:");
+                    let unit = if *vary == FanQuantity::SpeedMS {
+                        " m/s"
+                    } else {
+                        " °"
+                    };
+                    ui.add(egui::DragValue::new(to).speed(0.5).suffix(unit))
+                        .labelled_by(l.id);
                     ui.end_row();
-                    ui.label("Launches:");
-                    ui.add(egui::DragValue::new(count).range(1..=500));
+                    let l = ui.label("Launches:");
+                    ui.add(egui::DragValue::new(count).range(1..=500))
+                        .labelled_by(l.id);
                     ui.end_row();
                 });
             }
@@ -165,30 +183,29 @@ impl SpinfallApp {
                 count,
                 speed_sigma_percent,
                 direction_sigma_deg,
-                seed,
             } => {
                 egui::Grid::new("disp").num_columns(2).show(ui, |ui| {
-                    ui.label("Launches:");
-                    ui.add(egui::DragValue::new(count).range(1..=1000));
+                    let l = ui.label("Launches:");
+                    ui.add(egui::DragValue::new(count).range(1..=1000))
+                        .labelled_by(l.id);
                     ui.end_row();
-                    ui.label("Speed error (1σ):");
+                    let l = ui.label("Speed error (1 sigma):");
                     ui.add(
                         egui::DragValue::new(speed_sigma_percent)
                             .range(0.0..=100.0)
                             .speed(0.5)
                             .suffix(" %"),
-                    );
+                    )
+                    .labelled_by(l.id);
                     ui.end_row();
-                    ui.label("Direction error (1σ):");
+                    let l = ui.label("Direction error (1 sigma):");
                     ui.add(
                         egui::DragValue::new(direction_sigma_deg)
                             .range(0.0..=45.0)
                             .speed(0.2)
                             .suffix(" °"),
-                    );
-                    ui.end_row();
-                    ui.label("Seed:");
-                    ui.add(egui::DragValue::new(seed));
+                    )
+                    .labelled_by(l.id);
                     ui.end_row();
                 });
             }
@@ -206,8 +223,13 @@ fn fan_name(q: FanQuantity) -> &'static str {
 
 /// A bar showing the launch speed against the local escape speeds.
 fn escape_gauge_ui(ui: &mut Ui, speed_m_s: f64, v_normal_m_s: f64, v_min_m_s: f64) {
-    let full = (v_normal_m_s.max(v_min_m_s) * 1.5).max(speed_m_s * 1.05).max(1e-9);
-    let (rect, _) = ui.allocate_exact_size(egui::vec2(ui.available_width().min(300.0), 18.0), egui::Sense::hover());
+    let full = (v_normal_m_s.max(v_min_m_s) * 1.5)
+        .max(speed_m_s * 1.05)
+        .max(1e-9);
+    let (rect, _) = ui.allocate_exact_size(
+        egui::vec2(ui.available_width().min(300.0), 18.0),
+        egui::Sense::hover(),
+    );
     let painter = ui.painter_at(rect);
     painter.rect_filled(rect, 3.0, Color32::from_gray(40));
     let x = |v: f64| rect.left() + rect.width() * (v / full).clamp(0.0, 1.0) as f32;
@@ -223,9 +245,15 @@ fn escape_gauge_ui(ui: &mut Ui, speed_m_s: f64, v_normal_m_s: f64, v_min_m_s: f6
         3.0,
         regime_color,
     );
-    for (v, c) in [(v_min_m_s, Color32::LIGHT_BLUE), (v_normal_m_s, Color32::WHITE)] {
+    for (v, c) in [
+        (v_min_m_s, Color32::LIGHT_BLUE),
+        (v_normal_m_s, Color32::WHITE),
+    ] {
         painter.line_segment(
-            [egui::pos2(x(v), rect.top()), egui::pos2(x(v), rect.bottom())],
+            [
+                egui::pos2(x(v), rect.top()),
+                egui::pos2(x(v), rect.bottom()),
+            ],
             egui::Stroke::new(2.0, c),
         );
     }
@@ -248,39 +276,58 @@ pub(crate) fn flight_settings_ui(settings: &mut FlightSettings, ui: &mut Ui) {
         .show(ui, |ui| {
             egui::Grid::new("flight").num_columns(2).show(ui, |ui| {
                 let mut hours = settings.integrator.max_time_s / 3600.0;
-                ui.label("Time limit:");
+                let l = ui.label("Time limit:");
                 if ui
-                    .add(egui::DragValue::new(&mut hours).range(0.01..=1000.0).speed(0.1).suffix(" h"))
+                    .add(
+                        egui::DragValue::new(&mut hours)
+                            .range(0.01..=1000.0)
+                            .speed(0.1)
+                            .suffix(" h"),
+                    )
+                    .labelled_by(l.id)
                     .changed()
                 {
                     settings.integrator.max_time_s = hours * 3600.0;
                 }
                 ui.end_row();
-                ui.label("Relative tolerance:");
+                let l = ui.label("Relative tolerance:");
                 ui.add(
                     egui::DragValue::new(&mut settings.integrator.rel_tol)
                         .range(1e-14..=1e-4)
                         .speed(1e-11)
                         .custom_formatter(|v, _| format!("{v:.1e}")),
-                );
+                )
+                .labelled_by(l.id);
                 ui.end_row();
                 let b = &mut settings.bounce;
-                ui.label("Normal restitution:");
-                ui.add(egui::DragValue::new(&mut b.normal_restitution).range(0.0..=1.0).speed(0.01));
+                let l = ui.label("Normal restitution:");
+                ui.add(
+                    egui::DragValue::new(&mut b.normal_restitution)
+                        .range(0.0..=1.0)
+                        .speed(0.01),
+                )
+                .labelled_by(l.id);
                 ui.end_row();
-                ui.label("Tangential restitution:");
-                ui.add(egui::DragValue::new(&mut b.tangential_restitution).range(0.0..=1.0).speed(0.01));
+                let l = ui.label("Tangential restitution:");
+                ui.add(
+                    egui::DragValue::new(&mut b.tangential_restitution)
+                        .range(0.0..=1.0)
+                        .speed(0.01),
+                )
+                .labelled_by(l.id);
                 ui.end_row();
-                ui.label("Max bounces:");
-                ui.add(egui::DragValue::new(&mut b.max_bounces).range(0..=1000));
+                let l = ui.label("Max bounces:");
+                ui.add(egui::DragValue::new(&mut b.max_bounces).range(0..=1000))
+                    .labelled_by(l.id);
                 ui.end_row();
-                ui.label("Rest below:");
+                let l = ui.label("Rest below:");
                 ui.add(
                     egui::DragValue::new(&mut b.rest_speed_m_s)
                         .range(0.0..=10.0)
                         .speed(0.001)
                         .suffix(" m/s"),
-                );
+                )
+                .labelled_by(l.id);
                 ui.end_row();
             });
         });

@@ -4,7 +4,10 @@
 use egui::{Color32, ColorImage, PointerButton, Rect, Sense, TextureHandle, TextureOptions, Ui};
 use nalgebra::{Point3, Vector3};
 use spinfall_render::{Camera, RenderOptions, Renderer};
-use spinfall_scene::{BodyView, Frame, ViewOptions, default_camera, frame_scene, time_stamp};
+use spinfall_scene::{
+    BodyView, Frame, SiteMarker, ViewOptions, add_site_markers, default_camera, frame_scene,
+    time_stamp,
+};
 
 use crate::app::SpinfallApp;
 use crate::body_panel::fmt_duration;
@@ -33,6 +36,7 @@ struct RenderKey {
     t_s: f64,
     data_generation: u64,
     options: ViewOptions,
+    sites: Vec<SiteMarker>,
 }
 
 /// One view: its camera, renderer buffers and texture.
@@ -78,6 +82,7 @@ impl ViewPane {
         options: &ViewOptions,
         size_px: [u32; 2],
         data_generation: u64,
+        sites: &[SiteMarker],
     ) {
         let Some(camera) = &mut self.camera else {
             return;
@@ -95,14 +100,16 @@ impl ViewPane {
             t_s,
             data_generation,
             options: options.clone(),
+            sites: sites.to_vec(),
         };
         if self.last_key.as_ref() == Some(&key) && self.texture.is_some() {
             return;
         }
-        let scene = frame_scene(view, reports, t_s, options, size_px, self.frame);
-        let image = self
-            .renderer
-            .render(&scene, camera, &RenderOptions::new(size_px[0], size_px[1]));
+        let mut scene = frame_scene(view, reports, t_s, options, size_px, self.frame);
+        add_site_markers(&mut scene, view, sites, t_s, self.frame);
+        let image =
+            self.renderer
+                .render(&scene, camera, &RenderOptions::new(size_px[0], size_px[1]));
         let color_image = ColorImage::from_rgba_unmultiplied(
             [image.width as usize, image.height as usize],
             &image.as_rgba_bytes(),
@@ -171,6 +178,7 @@ impl SpinfallApp {
             (pane_w * ppp).round().max(16.0) as u32,
             (pane_h * ppp).round().max(16.0) as u32,
         ];
+        let site_markers = self.site_markers();
         let mut inputs = [CameraInput::default(), CameraInput::default()];
         let mut hover = None;
         let mut click = None;
@@ -188,7 +196,8 @@ impl SpinfallApp {
                         }
                     });
                     if pane.reset_camera || pane.camera.is_none() {
-                        pane.camera = Some(default_camera(&view.body().shape, size_px[0], size_px[1]));
+                        pane.camera =
+                            Some(default_camera(&view.body().shape, size_px[0], size_px[1]));
                         pane.reset_camera = false;
                         pane.last_key = None;
                     }
@@ -215,7 +224,10 @@ impl SpinfallApp {
                     }
                     // Picking.
                     let to_px = |p: egui::Pos2| {
-                        (((p.x - rect.min.x) * ppp) as f64, ((p.y - rect.min.y) * ppp) as f64)
+                        (
+                            ((p.x - rect.min.x) * ppp) as f64,
+                            ((p.y - rect.min.y) * ppp) as f64,
+                        )
                     };
                     if let Some(camera) = &pane.camera {
                         if response.clicked_by(PointerButton::Primary)
@@ -239,6 +251,7 @@ impl SpinfallApp {
                         &self.state.view,
                         size_px,
                         self.data_generation,
+                        &site_markers,
                     );
                     if let Some(tex) = &pane.texture {
                         ui.painter().image(
@@ -271,7 +284,8 @@ impl SpinfallApp {
         if let Some((point_body_m, face)) = click
             && self.click_to_place
         {
-            self.commands.push(Command::AddSiteAtPoint { point_body_m, face });
+            self.commands
+                .push(Command::AddSiteAtPoint { point_body_m, face });
         }
         self.hover = hover.map(|(p, face)| hover_info(&view, face, &p));
     }
@@ -279,32 +293,38 @@ impl SpinfallApp {
     fn time_bar_ui(&mut self, ui: &mut Ui) {
         let end = self.end_time_s();
         ui.horizontal(|ui| {
-            let label = if self.playing { "⏸ Pause" } else { "▶ Play" };
+            let label = if self.playing { "Pause" } else { "Play" };
             if ui.button(label).on_hover_text("Space").clicked() {
                 self.commands.push(Command::TogglePlay);
             }
-            if ui.button("⏮").on_hover_text("Back to t = 0").clicked() {
+            if ui.button("|<").on_hover_text("Back to t = 0").clicked() {
                 self.t_s = 0.0;
             }
-            ui.label("t");
-            let w = (ui.available_width() - 380.0).max(120.0);
+            let t_label = ui.label("time");
+            let w = (ui.available_width() - 470.0).max(80.0);
             ui.spacing_mut().slider_width = w;
             ui.add(
                 egui::Slider::new(&mut self.t_s, 0.0..=end)
                     .show_value(false)
                     .clamping(egui::SliderClamping::Always),
-            );
-            let period = self.view.as_ref().map(|v| v.body().spin.period_s).unwrap_or(0.0);
+            )
+            .labelled_by(t_label.id);
+            let period = self
+                .view
+                .as_ref()
+                .map(|v| v.body().spin.period_s)
+                .unwrap_or(0.0);
             ui.label(time_stamp(self.t_s, period));
-            ui.label("speed");
+            let l = ui.label("speed");
             ui.add(
                 egui::DragValue::new(&mut self.state.playback_speed)
                     .range(1.0..=1e6)
                     .speed(10.0)
                     .suffix(" s/s"),
             )
+            .labelled_by(l.id)
             .on_hover_text("Simulated seconds per second of animation");
-            ui.weak(format!("of {}", fmt_duration(end)));
+            ui.weak(format!("/ {}", fmt_duration(end)));
         });
     }
 }
@@ -350,9 +370,12 @@ fn hover_info(view: &BodyView, face: usize, p: &Point3<f64>) -> HoverInfo {
     let (lat_deg, lon_deg) = spinfall_dynamics::site::lat_lon_deg(view.body(), p);
     let mut values = Vec::new();
     if let Some(map) = view.map() {
-        for field in spinfall_dynamics::SurfaceField::ALL {
+        for field in spinfall_dynamics::surface_map::SurfaceField::ALL {
             if let Some(v) = map.values(field).get(face) {
-                values.push((field.name().to_string(), format!("{} {}", spinfall_render::format_value(*v), field.unit())));
+                values.push((
+                    field.name().to_string(),
+                    format!("{} {}", spinfall_render::format_value(*v), field.unit()),
+                ));
             }
         }
     }

@@ -8,6 +8,20 @@ use criterion::{Criterion, criterion_group, criterion_main};
 use nalgebra::{Point3, Vector3};
 use spinfall_render::*;
 
+/// Trace `k` of 100: a hop over the body (radius 1000 m, relief 6 %) from a spread of sites.
+fn trace(k: usize) -> Vec<[f64; 3]> {
+    let k = k as f64;
+    testing::hop_trace(
+        1000,
+        1070.0,
+        (0.61 * k).sin() * 1.2,
+        0.37 * k,
+        1.3 * k,
+        0.4 + 0.9 * ((0.23 * k).cos() * 0.5 + 0.5),
+        150.0 + 500.0 * ((0.71 * k).sin() * 0.5 + 0.5),
+    )
+}
+
 fn scene() -> Scene {
     // Level 7 icosphere: 20 * 4^7 = 327,680 triangles.
     let (positions, triangles) = testing::icosphere(1000.0, 7, 0.06);
@@ -21,14 +35,7 @@ fn scene() -> Scene {
     };
     for k in 0..100 {
         s.polylines.push(Polyline {
-            points: testing::spiral(
-                1000,
-                1150.0 + 8.0 * k as f64,
-                2.0,
-                -1200.0,
-                1200.0,
-                0.37 * k as f64,
-            ),
+            points: trace(k),
             color: LineColor::Uniform(Color::ORANGE),
             width_px: 1.5,
             dash: None,

@@ -8,7 +8,9 @@ use nalgebra::{Point3, Vector3};
 use spinfall_render::*;
 
 fn main() -> std::result::Result<(), Box<dyn std::error::Error>> {
-    let path = std::env::args().nth(1).unwrap_or_else(|| "preview.png".to_string());
+    let path = std::env::args()
+        .nth(1)
+        .unwrap_or_else(|| "preview.png".to_string());
     let (positions, triangles) = testing::icosphere(1000.0, 5, 0.08);
     let values: Vec<f64> = triangles
         .iter()
@@ -87,7 +89,11 @@ fn main() -> std::result::Result<(), Box<dyn std::error::Error>> {
         Vector3::z(),
         35.0,
     );
-    let image = render(&scene, &camera, &RenderOptions::new(1280, 720).with_supersample(2));
+    let image = render(
+        &scene,
+        &camera,
+        &RenderOptions::new(1280, 720).with_supersample(2),
+    );
     let file = std::io::BufWriter::new(std::fs::File::create(&path)?);
     encode_png(&image, &[("body", "Quillon")], file)?;
     println!("wrote {path}");

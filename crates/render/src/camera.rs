@@ -278,26 +278,29 @@ impl Camera {
         self.set_view(eye, target, up);
     }
 
-    /// Rotates the eye about the target by a mouse drag of `(dx_px, dy_px)`, keeping the up
-    /// vector fixed and the distance to the target. A drag across the viewport height turns by
-    /// about 180 degrees.
+    /// Rotates the eye about the target by a mouse drag of `(dx_px, dy_px)` (screen pixels, y
+    /// down), keeping the up vector fixed and the distance to the target: the near side of the
+    /// scene follows the drag (as three-d's orbit control does). A drag across the viewport
+    /// height turns by about 180 degrees; the view never flips over the poles of `up`.
     pub fn orbit(&mut self, dx_px: f64, dy_px: f64) {
         if !(dx_px.is_finite() && dy_px.is_finite()) {
             return;
         }
         let rad_per_px = std::f64::consts::PI / self.height_px as f64;
         let target = self.inner.target();
+        let dist = self.distance_m();
+        let up = self.up();
         self.inner.rotate_around_with_fixed_up(
             target,
-            (-dx_px * rad_per_px) as f32,
+            (dx_px * rad_per_px) as f32,
             (dy_px * rad_per_px) as f32,
         );
         // Re-impose the exact distance (f32 round-off) and the up vector.
         let t = self.target();
-        let dir = (self.eye() - t).normalize();
-        let dist = (to_point(self.inner.position()) - t).norm();
-        let eye = t + dir * dist;
-        self.set_view(eye, t, self.up());
+        let dir = self.eye() - t;
+        if dir.norm() > 0.0 && dir.iter().all(|c| c.is_finite()) {
+            self.set_view(t + dir.normalize() * dist, t, up);
+        }
     }
 
     /// Moves eye and target together so that the scene follows a drag of `(dx_px, dy_px)`.

@@ -64,14 +64,22 @@ impl Color {
 
     /// RGB scaled by `k` (clamped to 0..=1), alpha kept.
     pub fn scaled(self, k: f32) -> Color {
-        let k = if k.is_finite() { k.clamp(0.0, 1.0) } else { 0.0 };
+        let k = if k.is_finite() {
+            k.clamp(0.0, 1.0)
+        } else {
+            0.0
+        };
         let s = |c: u8| (c as f32 * k + 0.5) as u8;
         Color::rgba(s(self.r), s(self.g), s(self.b), self.a)
     }
 
     /// Linear interpolation in 8-bit sRGB space, `t` in 0..=1.
     pub fn lerp(self, other: Color, t: f32) -> Color {
-        let t = if t.is_finite() { t.clamp(0.0, 1.0) } else { 0.0 };
+        let t = if t.is_finite() {
+            t.clamp(0.0, 1.0)
+        } else {
+            0.0
+        };
         let l = |a: u8, b: u8| (a as f32 + (b as f32 - a as f32) * t + 0.5) as u8;
         Color::rgba(
             l(self.r, other.r),

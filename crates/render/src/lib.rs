@@ -73,9 +73,7 @@ pub use error::{RenderError, Result};
 pub use image::{Image, compose_side_by_side};
 pub use overlay::{format_value, round_length_m};
 pub use png_out::encode_png;
-pub use renderer::{
-    FaceHit, FaceIdImage, MAX_INTERNAL_SIDE_PX, RenderOptions, Renderer, render,
-};
+pub use renderer::{FaceHit, FaceIdImage, MAX_INTERNAL_SIDE_PX, RenderOptions, Renderer, render};
 pub use scene::{
     Anchor, Arrow, Corner, FaceColors, Light, LineColor, Marker, MarkerShape, Occluded, Overlay,
     Polyline, Rect, Scene, SceneMesh, Shading,

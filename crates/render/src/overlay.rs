@@ -36,14 +36,18 @@ pub(crate) fn draw_overlays(
                 label,
                 ticks,
                 rect,
-            } => color_bar(img, glyphs, *colormap, *min, *max, label, *ticks, *rect, text_color),
+            } => color_bar(
+                img, glyphs, *colormap, *min, *max, label, *ticks, *rect, text_color,
+            ),
             Overlay::ScaleBar { unit_label, corner } => {
                 scale_bar(img, glyphs, camera, unit_label, *corner, text_color)
             }
             Overlay::AxisTriad { corner, size_px } => {
                 axis_triad(img, glyphs, camera, *corner, *size_px)
             }
-            Overlay::Legend { entries, corner } => legend(img, glyphs, entries, *corner, text_color),
+            Overlay::Legend { entries, corner } => {
+                legend(img, glyphs, entries, *corner, text_color)
+            }
             Overlay::Panel { rect, fill } => img.fill_rect(
                 rect.x_px,
                 rect.y_px,
@@ -57,7 +61,8 @@ pub(crate) fn draw_overlays(
 
 /// A text colour readable on `background` (black or white by luminance).
 pub(crate) fn contrast_text(background: Color) -> Color {
-    let l = 0.2126 * background.r as f32 + 0.7152 * background.g as f32 + 0.0722 * background.b as f32;
+    let l =
+        0.2126 * background.r as f32 + 0.7152 * background.g as f32 + 0.0722 * background.b as f32;
     if l > 140.0 {
         Color::rgb(20, 20, 20)
     } else {
@@ -104,14 +109,21 @@ fn color_bar(
     text_color: Color,
 ) {
     let (x0, y0) = (rect.x_px.round(), rect.y_px.round());
-    let (w, h) = (rect.width_px.round().max(1.0), rect.height_px.round().max(2.0));
+    let (w, h) = (
+        rect.width_px.round().max(1.0),
+        rect.height_px.round().max(2.0),
+    );
     if !(x0.is_finite() && y0.is_finite() && w.is_finite() && h.is_finite()) {
         return;
     }
     let rows = h as i64;
     for r in 0..rows {
         // Top row is max, bottom row is min.
-        let t = if rows > 1 { 1.0 - r as f64 / (rows - 1) as f64 } else { 0.5 };
+        let t = if rows > 1 {
+            1.0 - r as f64 / (rows - 1) as f64
+        } else {
+            0.5
+        };
         let c = bar_color(colormap, t);
         for x in 0..w as i64 {
             img.blend(x0 as i64 + x, y0 as i64 + r, c, 1.0);
@@ -139,7 +151,15 @@ fn color_bar(
             Anchor::CenterLeft,
         );
     }
-    glyphs.draw(img, label, x0, y0 - 8.0, LABEL_PX + 1.0, text_color, Anchor::BottomLeft);
+    glyphs.draw(
+        img,
+        label,
+        x0,
+        y0 - 8.0,
+        LABEL_PX + 1.0,
+        text_color,
+        Anchor::BottomLeft,
+    );
 }
 
 /// The round length (1, 2 or 5 times a power of ten) nearest below `target_m`.
@@ -202,8 +222,22 @@ fn scale_bar(
     let bar_y = y + total_h - 4.0;
     img.fill_rect(x, bar_y, x + len_px, bar_y + 3.0, text_color);
     img.fill_rect(x, bar_y - 6.0, x + 2.0, bar_y + 3.0, text_color);
-    img.fill_rect(x + len_px - 2.0, bar_y - 6.0, x + len_px, bar_y + 3.0, text_color);
-    glyphs.draw(img, &label, x + 0.5 * len_px, bar_y - 8.0, LABEL_PX, text_color, Anchor::BottomCenter);
+    img.fill_rect(
+        x + len_px - 2.0,
+        bar_y - 6.0,
+        x + len_px,
+        bar_y + 3.0,
+        text_color,
+    );
+    glyphs.draw(
+        img,
+        &label,
+        x + 0.5 * len_px,
+        bar_y - 8.0,
+        LABEL_PX,
+        text_color,
+        Anchor::BottomCenter,
+    );
 }
 
 /// Draws a thick anti-aliased-free 2D line (used by the triad and legend).
@@ -211,8 +245,14 @@ pub(crate) fn line_2d(img: &mut Image, x0: f32, y0: f32, x1: f32, y1: f32, width
     let (dx, dy) = (x1 - x0, y1 - y0);
     let len = (dx * dx + dy * dy).sqrt();
     let hw = (0.5 * width).max(0.5);
-    let (xa, xb) = ((x0.min(x1) - hw).floor() as i64, (x0.max(x1) + hw).ceil() as i64);
-    let (ya, yb) = ((y0.min(y1) - hw).floor() as i64, (y0.max(y1) + hw).ceil() as i64);
+    let (xa, xb) = (
+        (x0.min(x1) - hw).floor() as i64,
+        (x0.max(x1) + hw).ceil() as i64,
+    );
+    let (ya, yb) = (
+        (y0.min(y1) - hw).floor() as i64,
+        (y0.max(y1) + hw).ceil() as i64,
+    );
     for y in ya..=yb {
         for x in xa..=xb {
             let (px, py) = (x as f32 + 0.5 - x0, y as f32 + 0.5 - y0);
@@ -232,8 +272,18 @@ pub(crate) fn line_2d(img: &mut Image, x0: f32, y0: f32, x1: f32, y1: f32, width
     }
 }
 
-fn axis_triad(img: &mut Image, glyphs: &mut GlyphCache, camera: &Camera, corner: Corner, size_px: f32) {
-    let size = if size_px.is_finite() { size_px.clamp(8.0, 400.0) } else { 40.0 };
+fn axis_triad(
+    img: &mut Image,
+    glyphs: &mut GlyphCache,
+    camera: &Camera,
+    corner: Corner,
+    size_px: f32,
+) {
+    let size = if size_px.is_finite() {
+        size_px.clamp(8.0, 400.0)
+    } else {
+        40.0
+    };
     let box_px = 2.0 * size + 16.0;
     let (ox, oy) = corner_origin(img, corner, box_px, box_px);
     let (cx, cy) = (ox + 0.5 * box_px, oy + 0.5 * box_px);
@@ -289,7 +339,10 @@ fn legend(
         .iter()
         .map(|(_, t, _)| glyphs.measure(t, LABEL_PX).width)
         .fold(0.0f32, f32::max);
-    let (w, h) = (swatch + 14.0 + text_w + 8.0, row_h * entries.len() as f32 + 8.0);
+    let (w, h) = (
+        swatch + 14.0 + text_w + 8.0,
+        row_h * entries.len() as f32 + 8.0,
+    );
     let (x, y) = corner_origin(img, corner, w, h);
     let panel = if text_color.r > 128 {
         Color::rgba(0, 0, 0, 110)
@@ -308,6 +361,14 @@ fn legend(
         } else {
             line_2d(img, x + 6.0, cy, x + 6.0 + swatch, cy, 2.0, *c);
         }
-        glyphs.draw(img, t, x + swatch + 14.0, cy, LABEL_PX, text_color, Anchor::CenterLeft);
+        glyphs.draw(
+            img,
+            t,
+            x + swatch + 14.0,
+            cy,
+            LABEL_PX,
+            text_color,
+            Anchor::CenterLeft,
+        );
     }
 }

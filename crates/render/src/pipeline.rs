@@ -9,12 +9,14 @@ use rayon::prelude::*;
 use crate::camera::{Camera, Projection};
 use crate::color::Color;
 use crate::raster::{
-    BAND_H, Band, DepthBias, MAX_COORD_PX, PointRec, SegRec, TriRec, pixel_bbox, plane, setup_edges,
+    BAND_H, Band, DepthBias, MAX_COORD_PX, PointRec, SegRec, TriRec, edges, pixel_bbox, plane,
 };
-use crate::scene::{FaceColors, LineColor, Light, MarkerShape, Occluded, Scene, SceneMesh, Shading};
+use crate::scene::{
+    FaceColors, Light, LineColor, MarkerShape, Occluded, Scene, SceneMesh, Shading,
+};
 
 /// Triangles per set-up job.
-const TRI_CHUNK: usize = 8192;
+const TRI_CHUNK: usize = 128 * CLUSTER;
 
 /// Reusable per-frame buffers.
 #[derive(Default)]
@@ -38,8 +40,8 @@ struct TriJob {
     /// Per-vertex brightness of `recs` (smooth shading only).
     shades: Vec<[f32; 3]>,
     bins: Vec<Vec<u32>>,
-    points: Vec<PointRec>,
-    point_bins: Vec<Vec<u32>>,
+    /// Pixels of tiny triangles, per band.
+    point_bins: Vec<Vec<PointRec>>,
 }
 
 #[derive(Default)]
@@ -48,11 +50,132 @@ struct LineJob {
     bins: Vec<Vec<u32>>,
 }
 
-/// Vertex normals of a mesh, kept while the same `Arc`s are rendered.
+/// Derived data of a mesh (vertex normals, clusters), kept while the same `Arc`s are rendered.
 struct NormalCache {
     positions: Arc<Vec<[f32; 3]>>,
     triangles: Arc<Vec<[u32; 3]>>,
-    normals: Vec<[f32; 3]>,
+    normals: Option<Vec<[f32; 3]>>,
+    /// Unit face normals, mesh frame (zero for degenerate faces).
+    face_normals: Option<Arc<Vec<[f32; 3]>>>,
+    clusters: Option<Arc<Vec<Cluster>>>,
+}
+
+fn face_normals(pos: &[[f32; 3]], tris: &[[u32; 3]]) -> Vec<[f32; 3]> {
+    tris.par_iter()
+        .map(|t| {
+            let [a, b, c] = t.map(|i| i as usize);
+            if a >= pos.len() || b >= pos.len() || c >= pos.len() {
+                return [0.0; 3];
+            }
+            let p = |i: usize| Vector3::new(pos[i][0] as f64, pos[i][1] as f64, pos[i][2] as f64);
+            let n = (p(b) - p(a)).cross(&(p(c) - p(a)));
+            let l = n.norm();
+            if l > 0.0 && l.is_finite() {
+                [(n.x / l) as f32, (n.y / l) as f32, (n.z / l) as f32]
+            } else {
+                [0.0; 3]
+            }
+        })
+        .collect()
+}
+
+/// Triangles per cluster (consecutive in the triangle list).
+const CLUSTER: usize = 64;
+
+/// Bounding sphere and normal cone of `CLUSTER` consecutive triangles, mesh frame, for culling
+/// clusters that face away from the camera as a whole.
+#[derive(Clone, Copy, Debug)]
+struct Cluster {
+    center: Vector3<f64>,
+    radius: f64,
+    axis: Vector3<f64>,
+    cos_half: f64,
+    sin_half: f64,
+    /// False when the cone is too wide (half-angle of 90 degrees or more) to ever cull.
+    usable: bool,
+}
+
+fn build_clusters(pos: &[[f32; 3]], tris: &[[u32; 3]]) -> Vec<Cluster> {
+    let p = |i: u32| {
+        let v = pos[i as usize];
+        Vector3::new(v[0] as f64, v[1] as f64, v[2] as f64)
+    };
+    tris.chunks(CLUSTER)
+        .map(|chunk| {
+            let unusable = Cluster {
+                center: Vector3::zeros(),
+                radius: 0.0,
+                axis: Vector3::z(),
+                cos_half: 0.0,
+                sin_half: 1.0,
+                usable: false,
+            };
+            if chunk
+                .iter()
+                .any(|t| t.iter().any(|&i| i as usize >= pos.len()))
+            {
+                return unusable;
+            }
+            let mut lo = Vector3::repeat(f64::INFINITY);
+            let mut hi = Vector3::repeat(f64::NEG_INFINITY);
+            let mut sum = Vector3::zeros();
+            let mut normals = Vec::with_capacity(chunk.len());
+            for t in chunk {
+                let (a, b, c) = (p(t[0]), p(t[1]), p(t[2]));
+                for v in [a, b, c] {
+                    lo = lo.inf(&v);
+                    hi = hi.sup(&v);
+                }
+                let n = (b - a).cross(&(c - a));
+                let l = n.norm();
+                if l > 0.0 && l.is_finite() {
+                    normals.push(n / l);
+                    sum += n / l;
+                }
+            }
+            let center = (lo + hi) * 0.5;
+            let radius = chunk
+                .iter()
+                .flat_map(|t| t.iter())
+                .map(|&i| (p(i) - center).norm())
+                .fold(0.0, f64::max);
+            let sl = sum.norm();
+            if !(sl > 0.0 && center.iter().all(|c| c.is_finite()) && radius.is_finite()) {
+                return unusable;
+            }
+            let axis = sum / sl;
+            let cos_half = normals.iter().map(|n| n.dot(&axis)).fold(1.0, f64::min);
+            // Degenerate faces have no normal but still cannot be seen when the rest is hidden:
+            // they are skipped by the per-triangle test anyway.
+            Cluster {
+                center,
+                radius,
+                axis,
+                cos_half,
+                sin_half: (1.0 - cos_half * cos_half).max(0.0).sqrt(),
+                usable: cos_half > 0.0,
+            }
+        })
+        .collect()
+}
+
+impl Cluster {
+    /// Whether every triangle faces away from an eye at `eye` (perspective, mesh frame) or
+    /// looking along `-towards_eye` (orthographic, `eye` = None).
+    fn faces_away(&self, eye: Option<&Vector3<f64>>, towards_eye: &Vector3<f64>) -> bool {
+        if !self.usable {
+            return false;
+        }
+        // max over normals n in the cone of n.v is |v| cos(max(0, phi - half)), phi = angle(axis, v);
+        // a point p in the sphere adds at most `radius` (n.(c - p) <= r).
+        let (v, r) = match eye {
+            Some(e) => (e - self.center, self.radius),
+            None => (*towards_eye, 0.0),
+        };
+        let av = self.axis.dot(&v);
+        let perp = (v.norm_squared() - av * av).max(0.0).sqrt();
+        av * self.cos_half + perp * self.sin_half < -r
+    }
 }
 
 /// A 3D polyline to draw, borrowed from the scene or made for an arrow shaft.
@@ -76,6 +199,9 @@ pub(crate) struct Frame {
     pub ambient: f32,
     pub bias: DepthBias,
     pub want_ids: bool,
+    /// Eye position and unit view direction, world frame.
+    pub eye: Point3<f64>,
+    pub view_dir: Vector3<f64>,
 }
 
 impl Frame {
@@ -119,6 +245,8 @@ impl Frame {
             ambient: scene.light.ambient(),
             bias,
             want_ids,
+            eye: camera.eye(),
+            view_dir: camera.view_direction(),
         }
     }
 
@@ -196,22 +324,49 @@ fn vertex_normals(pos: &[[f32; 3]], tris: &[[u32; 3]]) -> Vec<[f32; 3]> {
 }
 
 impl Buffers {
-    fn normals_for(&mut self, mesh: &SceneMesh) -> usize {
-        if let Some(i) = self.normals.iter().position(|c| {
+    /// The cache slot of `mesh`, with vertex normals (smooth shading) and clusters (culling)
+    /// computed when first needed.
+    fn cache_for(&mut self, mesh: &SceneMesh, keep: &mut Vec<usize>) -> usize {
+        let found = self.normals.iter().position(|c| {
             Arc::ptr_eq(&c.positions, &mesh.positions) && Arc::ptr_eq(&c.triangles, &mesh.triangles)
-        }) {
-            return i;
-        }
-        // Keep the cache small: it only serves the meshes of recent frames.
-        if self.normals.len() >= 8 {
-            self.normals.remove(0);
-        }
-        self.normals.push(NormalCache {
-            positions: mesh.positions.clone(),
-            triangles: mesh.triangles.clone(),
-            normals: vertex_normals(&mesh.positions, &mesh.triangles),
         });
-        self.normals.len() - 1
+        let i = match found {
+            Some(i) => i,
+            None => {
+                // Keep the cache small: it only serves the meshes of recent frames. Never evict
+                // a slot used by this frame.
+                if self.normals.len() >= 8
+                    && let Some(old) = (0..self.normals.len()).find(|k| !keep.contains(k))
+                {
+                    self.normals.remove(old);
+                    for k in keep.iter_mut() {
+                        if *k > old {
+                            *k -= 1;
+                        }
+                    }
+                }
+                self.normals.push(NormalCache {
+                    positions: mesh.positions.clone(),
+                    triangles: mesh.triangles.clone(),
+                    normals: None,
+                    face_normals: None,
+                    clusters: None,
+                });
+                self.normals.len() - 1
+            }
+        };
+        let c = &mut self.normals[i];
+        if mesh.shading == Shading::Smooth && c.normals.is_none() {
+            c.normals = Some(vertex_normals(&mesh.positions, &mesh.triangles));
+        }
+        if mesh.shading == Shading::Flat && c.face_normals.is_none() {
+            c.face_normals = Some(Arc::new(face_normals(&mesh.positions, &mesh.triangles)));
+        }
+        if mesh.cull_back_faces && c.clusters.is_none() {
+            c.clusters = Some(Arc::new(build_clusters(&mesh.positions, &mesh.triangles)));
+        }
+        keep.push(i);
+        i
     }
 
     /// Rasterizes meshes and lines into `color` (already cleared to the background) and the
@@ -226,28 +381,32 @@ impl Buffers {
             self.ids.resize(n_px, (0, 0));
         }
         let bands = frame.bands();
-
-        let t0 = std::time::Instant::now();
         // 1. Vertices (parallel per mesh).
         self.verts.resize_with(scene.meshes.len(), Vec::new);
-        let mut normal_slots = Vec::with_capacity(scene.meshes.len());
+        let mut slots = Vec::with_capacity(scene.meshes.len());
         for mesh in &scene.meshes {
-            normal_slots.push(match mesh.shading {
-                Shading::Smooth => Some(self.normals_for(mesh)),
-                Shading::Flat => None,
-            });
+            self.cache_for(mesh, &mut slots);
         }
+        let clusters: Vec<Option<Arc<Vec<Cluster>>>> = slots
+            .iter()
+            .map(|&s| self.normals[s].clusters.clone())
+            .collect();
+        let fnormals: Vec<Option<Arc<Vec<[f32; 3]>>>> = slots
+            .iter()
+            .map(|&s| self.normals[s].face_normals.clone())
+            .collect();
         for (mi, mesh) in scene.meshes.iter().enumerate() {
             let rows = frame.screen_rows(&mesh.model);
             let nmat = normal_matrix(&mesh.model);
-            let normals = normal_slots[mi].map(|s| self.normals[s].normals.as_slice());
+            let normals = match mesh.shading {
+                Shading::Smooth => self.normals[slots[mi]].normals.as_deref(),
+                Shading::Flat => None,
+            };
             let out = &mut self.verts[mi];
             out.clear();
             out.resize(mesh.positions.len(), [0.0; 4]);
             transform_vertices(frame, &rows, &nmat, &mesh.positions, normals, out);
         }
-
-        let t1 = std::time::Instant::now();
         // 2. Triangle set-up and binning, in fixed chunks (deterministic order).
         let mut jobs = 0;
         for (mi, mesh) in scene.meshes.iter().enumerate() {
@@ -268,18 +427,19 @@ impl Buffers {
         }
         let verts = &self.verts;
         self.tri_jobs[..jobs].par_iter_mut().for_each(|job| {
-            let mesh = &scene.meshes[job.mesh as usize];
-            setup_triangles(frame, mesh, &verts[job.mesh as usize], job, bands);
+            let mi = job.mesh as usize;
+            let cl = clusters[mi].as_deref().map(|c| c.as_slice());
+            let fnorm = fnormals[mi].as_deref().map(|c| c.as_slice());
+            setup_triangles(frame, &scene.meshes[mi], &verts[mi], cl, fnorm, job, bands);
         });
-
-        let t2 = std::time::Instant::now();
         // 3. Line set-up and binning (polylines, then arrow shafts).
         let arrow_colors: Vec<LineColor> = scene
             .arrows
             .iter()
             .map(|a| LineColor::Uniform(a.color))
             .collect();
-        let arrow_points: Vec<[[f64; 3]; 2]> = scene.arrows.iter().map(|a| [a.from, a.to]).collect();
+        let arrow_points: Vec<[[f64; 3]; 2]> =
+            scene.arrows.iter().map(|a| [a.from, a.to]).collect();
         let mut srcs: Vec<LineSrc> = scene
             .polylines
             .iter()
@@ -307,8 +467,6 @@ impl Buffers {
             .par_iter_mut()
             .zip(srcs.par_iter())
             .for_each(|(job, src)| setup_lines(frame, src, job, bands));
-
-        let t3 = std::time::Instant::now();
         // 4. Bands: triangles then lines, each band owned by one task.
         let tri_jobs = &self.tri_jobs[..jobs];
         let line_jobs = &self.line_jobs[..srcs.len()];
@@ -336,12 +494,16 @@ impl Buffers {
                     rows,
                 };
                 for job in tri_jobs {
-                    for &i in &job.point_bins[b] {
-                        band.point(&job.points[i as usize], job.mesh);
+                    for pt in &job.point_bins[b] {
+                        band.point(pt, job.mesh);
                     }
                     for &i in &job.bins[b] {
                         let i = i as usize;
-                        let shade = if job.smooth { Some(job.shades[i]) } else { None };
+                        let shade = if job.smooth {
+                            Some(job.shades[i])
+                        } else {
+                            None
+                        };
                         band.triangle(&job.recs[i], shade, job.wire, job.mesh, h);
                     }
                 }
@@ -352,8 +514,6 @@ impl Buffers {
                 }
             });
 
-        let t4 = std::time::Instant::now();
-        if std::env::var("TIMING").is_ok() { eprintln!("clear {:?} vert {:?} tri {:?} line {:?} band {:?}", t0.elapsed()-t1.elapsed(), t1-t0, t2-t1, t3-t2, t4-t3); }
         // 5. Markers and arrow heads (few; serial).
         for m in &scene.markers {
             draw_marker(frame, &self.depth, color, m);
@@ -408,13 +568,6 @@ fn transform_vertices(
         });
 }
 
-fn face_color(mesh: &SceneMesh, face: usize) -> Color {
-    match &mesh.colors {
-        FaceColors::Uniform(c) => *c,
-        FaceColors::PerFace(cs) => cs.get(face).copied().unwrap_or(Color::GREY),
-    }
-}
-
 /// Whether the 3x3 part of `m` is a rotation (orthonormal), so normals need no renormalizing.
 fn is_rotation(m: &Matrix3<f64>) -> bool {
     (m.transpose() * m - Matrix3::identity()).abs().max() < 1e-6
@@ -429,18 +582,25 @@ fn clear_bins(bins: &mut Vec<Vec<u32>>, bands: usize) {
     }
 }
 
+#[inline(never)]
 fn setup_triangles(
     frame: &Frame,
     mesh: &SceneMesh,
     verts: &[[f32; 4]],
+    clusters: Option<&[Cluster]>,
+    face_normals: Option<&[[f32; 3]]>,
     job: &mut TriJob,
     bands: usize,
 ) {
     job.recs.clear();
     job.shades.clear();
-    job.points.clear();
     clear_bins(&mut job.bins, bands);
-    clear_bins(&mut job.point_bins, bands);
+    if job.point_bins.len() != bands {
+        job.point_bins.resize_with(bands, Vec::new);
+    }
+    for b in job.point_bins.iter_mut() {
+        b.clear();
+    }
     let nmat = normal_matrix(&mesh.model);
     let rigid = is_rotation(&nmat);
     // Light direction in the mesh frame (exact for rotations; general path otherwise).
@@ -451,115 +611,161 @@ fn setup_triangles(
     let (w, h) = (frame.width as f32, frame.height as f32);
     let wi = frame.width as u32;
     let nv = verts.len();
-    let pos = &mesh.positions;
     let smooth = mesh.shading == Shading::Smooth;
     job.smooth = smooth;
     job.wire = mesh.wireframe;
     let tiny_ok = mesh.wireframe.is_none();
-    for face in job.start..job.end {
-        let [a, b, c] = mesh.triangles[face].map(|i| i as usize);
-        if a >= nv || b >= nv || c >= nv {
-            continue;
-        }
-        let (va, vb, vc) = (verts[a], verts[b], verts[c]);
-        let area = (vb[0] - va[0]) * (vc[1] - va[1]) - (vb[1] - va[1]) * (vc[0] - va[0]);
-        // Counter-clockwise in the world appears clockwise with y down: front faces have area < 0.
-        // NaN keys mark vertices behind the near plane; NaN area fails the test too.
-        if !(area < 0.0 || (!mesh.cull_back_faces && area > 0.0))
-            || va[2].is_nan()
-            || vb[2].is_nan()
-            || vc[2].is_nan()
+    let (per_face, uniform) = match &mesh.colors {
+        FaceColors::Uniform(c) => (None, *c),
+        FaceColors::PerFace(cs) => (Some(cs.as_slice()), Color::GREY),
+    };
+    // Eye (perspective) and direction towards the eye in the mesh frame, for cluster culling.
+    let model_inv = mesh.model.try_inverse();
+    let eye_mesh = match (frame.proj.perspective, model_inv) {
+        (true, Some(mi)) => Some((mi * frame.eye.to_homogeneous()).xyz()),
+        _ => None,
+    };
+    let towards_eye = nmat.transpose() * -frame.view_dir;
+    let clusters = clusters.filter(|_| {
+        mesh.cull_back_faces && rigid && (eye_mesh.is_some() || !frame.proj.perspective)
+    });
+    // Jobs start at multiples of CLUSTER, so clusters never straddle jobs.
+    for c_start in (job.start..job.end).step_by(CLUSTER) {
+        if let Some(c) = clusters.and_then(|c| c.get(c_start / CLUSTER))
+            && c.faces_away(eye_mesh.as_ref(), &towards_eye)
         {
             continue;
         }
-        let rec0 = TriRec {
-            x: [va[0], vb[0], vc[0]],
-            y: [va[1], vb[1], vc[1]],
-            key: [va[2], vb[2], vc[2]],
-            color: Color::BLACK,
-            face: face as u32,
-        };
-        let Some(bb) = pixel_bbox(&rec0, w, h) else {
-            continue;
-        };
-        let xmin = va[0].min(vb[0]).min(vc[0]);
-        let xmax = va[0].max(vb[0]).max(vc[0]);
-        let ymin = va[1].min(vb[1]).min(vc[1]);
-        let ymax = va[1].max(vb[1]).max(vc[1]);
-        if xmin < -MAX_COORD_PX || ymin < -MAX_COORD_PX || xmax > MAX_COORD_PX || ymax > MAX_COORD_PX
-        {
-            continue;
-        }
-        let base = face_color(mesh, face);
-        let (color, shade) = if smooth {
-            (base, [va[3], vb[3], vc[3]])
-        } else {
-            let (pa, pb, pc) = (pos[a], pos[b], pos[c]);
-            let e1 = [pb[0] - pa[0], pb[1] - pa[1], pb[2] - pa[2]];
-            let e2 = [pc[0] - pa[0], pc[1] - pa[1], pc[2] - pa[2]];
-            let n = [
-                e1[1] * e2[2] - e1[2] * e2[1],
-                e1[2] * e2[0] - e1[0] * e2[2],
-                e1[0] * e2[1] - e1[1] * e2[0],
-            ];
-            let s = if rigid {
-                let nn = n[0] * n[0] + n[1] * n[1] + n[2] * n[2];
-                let nl = n[0] * l_mesh[0] + n[1] * l_mesh[1] + n[2] * l_mesh[2];
-                if nn > 0.0 && nl > 0.0 {
-                    amb + (1.0 - amb) * nl / nn.sqrt()
-                } else {
-                    amb
-                }
-            } else {
-                let nw = nmat32 * nalgebra::Vector3::new(n[0], n[1], n[2]);
-                let l = nw.norm();
-                if l > 0.0 {
-                    frame.shade(&(nw / l).map(|v| v as f64))
-                } else {
-                    amb
-                }
+        for face in c_start..(c_start + CLUSTER).min(job.end) {
+            let [a, b, c] = mesh.triangles[face].map(|i| i as usize);
+            if a >= nv || b >= nv || c >= nv {
+                continue;
+            }
+            let (va, vb, vc) = (verts[a], verts[b], verts[c]);
+            let area = (vb[0] - va[0]) * (vc[1] - va[1]) - (vb[1] - va[1]) * (vc[0] - va[0]);
+            // Counter-clockwise in the world appears clockwise with y down: front faces have area < 0.
+            // NaN keys mark vertices behind the near plane; NaN area fails the test too.
+            if !(area < 0.0 || (!mesh.cull_back_faces && area > 0.0))
+                || va[2].is_nan()
+                || vb[2].is_nan()
+                || vc[2].is_nan()
+            {
+                continue;
+            }
+            let rec0 = TriRec {
+                x: [va[0], vb[0], vc[0]],
+                y: [va[1], vb[1], vc[1]],
+                key: [va[2], vb[2], vc[2]],
+                color: Color::BLACK,
+                face: face as u32,
             };
-            (base.scaled(s), [s; 3])
-        };
-        let rec = TriRec { color, ..rec0 };
-        let n_px = (bb[1] - bb[0] + 1) * (bb[3] - bb[2] + 1);
-        if tiny_ok && n_px <= 4 {
-            // Resolve coverage now: a few pixel records instead of a triangle to set up per band.
-            let Some(st) = setup_edges(&rec, bb[0], bb[2], false) else {
+            let Some(bb) = pixel_bbox(&rec0, w, h) else {
                 continue;
             };
-            let sp = if smooth { plane(&rec, shade, bb[0], bb[2]) } else { None };
-            for (yy, y) in (bb[2]..=bb[3]).enumerate() {
-                for (xx, x) in (bb[0]..=bb[1]).enumerate() {
-                    let (xx, yy) = (xx as i64, yy as i64);
-                    let inside = (0..3).all(|k| st.e[k] + st.ex[k] * xx + st.ey[k] * yy >= 0);
-                    if !inside {
-                        continue;
+            let xmin = va[0].min(vb[0]).min(vc[0]);
+            let xmax = va[0].max(vb[0]).max(vc[0]);
+            let ymin = va[1].min(vb[1]).min(vc[1]);
+            let ymax = va[1].max(vb[1]).max(vc[1]);
+            if xmin < -MAX_COORD_PX
+                || ymin < -MAX_COORD_PX
+                || xmax > MAX_COORD_PX
+                || ymax > MAX_COORD_PX
+            {
+                continue;
+            }
+            // Tiny triangles: resolve coverage now, before shading (many cover no pixel centre).
+            let n_px = (bb[1] - bb[0] + 1) * (bb[3] - bb[2] + 1);
+            let mut hits = [(0u32, 0u32); 4];
+            let mut n_hits = 0;
+            let tiny = tiny_ok && n_px <= 4;
+            let mut st_tiny = None;
+            if tiny {
+                let Some((e, ex, ey)) = edges(&rec0, bb[0], bb[2]) else {
+                    continue;
+                };
+                let (nx, ny) = (bb[1] - bb[0] + 1, bb[3] - bb[2] + 1);
+                for yy in 0..ny {
+                    let e_row = [
+                        e[0] + ey[0] * yy as i64,
+                        e[1] + ey[1] * yy as i64,
+                        e[2] + ey[2] * yy as i64,
+                    ];
+                    for xx in 0..nx {
+                        let x = xx as i64;
+                        let e0 = e_row[0] + ex[0] * x;
+                        let e1 = e_row[1] + ex[1] * x;
+                        let e2 = e_row[2] + ex[2] * x;
+                        if (e0 | e1 | e2) >= 0 {
+                            hits[n_hits] = (xx, yy);
+                            n_hits += 1;
+                        }
                     }
-                    let key = st.z + st.zx * xx as f32 + st.zy * yy as f32;
+                }
+                if n_hits == 0 {
+                    continue;
+                }
+                let Some(z_plane) = plane(&rec0, rec0.key, bb[0], bb[2]) else {
+                    continue;
+                };
+                st_tiny = Some(z_plane);
+            }
+            let base = match per_face {
+                Some(cs) => cs.get(face).copied().unwrap_or(Color::GREY),
+                None => uniform,
+            };
+            let (color, shade) = if smooth {
+                (base, [va[3], vb[3], vc[3]])
+            } else {
+                let n = face_normals
+                    .and_then(|f| f.get(face))
+                    .copied()
+                    .unwrap_or([0.0; 3]);
+                let s = if rigid {
+                    let nl = n[0] * l_mesh[0] + n[1] * l_mesh[1] + n[2] * l_mesh[2];
+                    amb + (1.0 - amb) * nl.max(0.0)
+                } else {
+                    let nw = nmat32 * nalgebra::Vector3::new(n[0], n[1], n[2]);
+                    let l = nw.norm();
+                    if l > 0.0 {
+                        frame.shade(&(nw / l).map(|v| v as f64))
+                    } else {
+                        amb
+                    }
+                };
+                (base.scaled(s), [s; 3])
+            };
+            let rec = TriRec { color, ..rec0 };
+            if let Some((zx, zy, z0)) = st_tiny {
+                let sp = if smooth {
+                    plane(&rec, shade, bb[0], bb[2])
+                } else {
+                    None
+                };
+                for &(xx, yy) in &hits[..n_hits] {
+                    let (fx, fy) = (xx as f32, yy as f32);
+                    let key = z0 + zx * fx + zy * fy;
                     let col = match sp {
-                        Some((gx, gy, s0)) => color.scaled(s0 + gx * xx as f32 + gy * yy as f32),
+                        Some((gx, gy, s0)) => color.scaled(s0 + gx * fx + gy * fy),
                         None => color,
                     };
-                    let idx = job.points.len() as u32;
-                    job.points.push(PointRec {
+                    let (x, y) = (bb[0] + xx, bb[2] + yy);
+                    job.point_bins[y as usize / BAND_H].push(PointRec {
                         idx: y * wi + x,
                         key,
                         color: col,
                         face: face as u32,
                     });
-                    job.point_bins[y as usize / BAND_H].push(idx);
                 }
+                continue;
             }
-            continue;
-        }
-        let idx = job.recs.len() as u32;
-        job.recs.push(rec);
-        if smooth {
-            job.shades.push(shade);
-        }
-        for band in (bb[2] as usize / BAND_H)..=(bb[3] as usize / BAND_H) {
-            job.bins[band].push(idx);
+            let idx = job.recs.len() as u32;
+            job.recs.push(rec);
+            if smooth {
+                job.shades.push(shade);
+            }
+            for band in (bb[2] as usize / BAND_H)..=(bb[3] as usize / BAND_H) {
+                job.bins[band].push(idx);
+            }
         }
     }
 }
@@ -575,20 +781,14 @@ fn line_color_at(c: &LineColor, i: usize) -> Color {
     }
 }
 
+#[inline(never)]
 fn setup_lines(frame: &Frame, src: &LineSrc, job: &mut LineJob, bands: usize) {
     job.segs.clear();
-    if job.bins.len() != bands {
-        job.bins.resize_with(bands, Vec::new);
-    }
-    for b in job.bins.iter_mut() {
-        b.clear();
-    }
-    let rows = frame.screen_rows(&Matrix4::identity());
-    let rows64 = rows.map(|r| Vector4::new(r[0] as f64, r[1] as f64, r[2] as f64, r[3] as f64));
+    clear_bins(&mut job.bins, bands);
     let m = frame.proj.clip_from_world;
     let v = frame.proj.view_from_world;
     let (w, h) = (frame.width as f64, frame.height as f64);
-    // Full-precision screen rows (the f32 ones above are for meshes).
+    // Screen rows in f64: x_px = R0.p / R2.p, y_px = R1.p / R2.p, depth = R3.p.
     let mut r = [Vector4::zeros(); 4];
     for c in 0..4 {
         r[0][c] = 0.5 * w * (m[(0, c)] + m[(3, c)]);
@@ -600,8 +800,8 @@ fn setup_lines(frame: &Frame, src: &LineSrc, job: &mut LineJob, bands: usize) {
         };
         r[3][c] = -v[(2, c)];
     }
-    let _ = rows64;
     let near = frame.proj.near_m;
+    let persp = frame.proj.perspective;
     let hw = (0.5 * src.width_px.max(1.0) * frame.scale).max(0.5);
     let dash = match src.dash {
         Some((on, off)) if on > 0.0 && off > 0.0 && on.is_finite() && off.is_finite() => {
@@ -614,54 +814,64 @@ fn setup_lines(frame: &Frame, src: &LineSrc, job: &mut LineJob, bands: usize) {
         Occluded::Faint(a) if a.is_finite() => a.clamp(0.0, 1.0),
         Occluded::Faint(_) => 0.0,
     };
-    let mut s_acc = 0.0f32;
+    let proj = |q: &Vector4<f64>| {
+        let wc = r[2].dot(q);
+        (r[0].dot(q) / wc, r[1].dot(q) / wc, r[3].dot(q))
+    };
     let pts = src.points;
-    for i in 1..pts.len() {
-        let (pa, pb) = (Vector4::new(pts[i - 1][0], pts[i - 1][1], pts[i - 1][2], 1.0),
-            Vector4::new(pts[i][0], pts[i][1], pts[i][2], 1.0));
-        if !(pa.iter().chain(pb.iter()).all(|c| c.is_finite())) {
+    let hom = |p: &[f64; 3]| Vector4::new(p[0], p[1], p[2], 1.0);
+    let finite = |p: &[f64; 3]| p.iter().all(|c| c.is_finite());
+    let mut s_acc = 0.0f32;
+    // Consecutive points closer than this on screen are merged into one segment (the skipped
+    // points are within this distance of the drawn chord).
+    let merge_px = frame.scale as f64;
+    // The start of the next segment: point index, homogeneous point, projection.
+    let mut anchor: Option<(usize, Vector4<f64>, (f64, f64, f64))> = None;
+    let last = pts.len().saturating_sub(1);
+    for (i, b) in pts.iter().enumerate() {
+        if !finite(b) {
+            anchor = None;
             continue;
         }
+        let pb = hom(b);
+        let jb = proj(&pb);
+        let Some((ia, pa, ja)) = anchor else {
+            anchor = Some((i, pb, jb));
+            continue;
+        };
+        let clipped = persp && (ja.2 < near || jb.2 < near);
+        if !clipped
+            && i != last
+            && ((jb.0 - ja.0).powi(2) + (jb.1 - ja.1).powi(2)).sqrt() < merge_px
+        {
+            continue;
+        }
+        anchor = Some((i, pb, jb));
         let (mut ta, mut tb) = (0.0f64, 1.0f64);
-        let (da, db) = (r[3].dot(&pa), r[3].dot(&pb));
-        if frame.proj.perspective {
-            if da <= near && db <= near {
+        let (mut sa, mut sb) = (ja, jb);
+        if clipped {
+            let (da, db) = (ja.2, jb.2);
+            if da < near && db < near {
                 continue;
             }
             if da < near {
                 ta = (near - da) / (db - da);
-            } else if db < near {
+                sa = proj(&(pa + (pb - pa) * ta));
+            } else {
                 tb = (near - da) / (db - da);
+                sb = proj(&(pa + (pb - pa) * tb));
             }
         }
-        let qa = pa + (pb - pa) * ta;
-        let qb = pa + (pb - pa) * tb;
-        let proj = |q: &Vector4<f64>| {
-            let wc = r[2].dot(q);
-            (r[0].dot(q) / wc, r[1].dot(q) / wc, r[3].dot(q))
-        };
-        let (xa, ya, za) = proj(&qa);
-        let (xb, yb, zb) = proj(&qb);
-        if ![xa, ya, xb, yb].iter().all(|c| c.is_finite() && c.abs() < 1e7) {
+        let (xa, ya, za) = sa;
+        let (xb, yb, zb) = sb;
+        if ![xa, ya, xb, yb]
+            .iter()
+            .all(|c| c.is_finite() && c.abs() < 1e7)
+        {
             continue;
         }
         let seg_len = ((xb - xa).powi(2) + (yb - ya).powi(2)).sqrt() as f32;
-        let ca = line_color_at(src.color, i - 1);
-        let cb = line_color_at(src.color, i);
-        let seg = SegRec {
-            x0: xa as f32,
-            y0: ya as f32,
-            x1: xb as f32,
-            y1: yb as f32,
-            k0: frame.key_of_depth(za as f32),
-            k1: frame.key_of_depth(zb as f32),
-            c0: ca.lerp(cb, ta as f32),
-            c1: ca.lerp(cb, tb as f32),
-            hw,
-            s0: s_acc,
-            dash,
-            hidden_alpha,
-        };
+        let s0 = s_acc;
         s_acc += seg_len;
         let pad = hw + 2.0;
         let ymin = (ya.min(yb) as f32 - pad).max(0.0);
@@ -671,8 +881,28 @@ fn setup_lines(frame: &Frame, src: &LineSrc, job: &mut LineJob, bands: usize) {
         if ymin > ymax || xmax < 0.0 || xmin > w as f32 {
             continue;
         }
+        let ca = line_color_at(src.color, ia);
+        let cb = line_color_at(src.color, i);
+        let (c0, c1) = if ca == cb {
+            (ca, ca)
+        } else {
+            (ca.lerp(cb, ta as f32), ca.lerp(cb, tb as f32))
+        };
         let idx = job.segs.len() as u32;
-        job.segs.push(seg);
+        job.segs.push(SegRec {
+            x0: xa as f32,
+            y0: ya as f32,
+            x1: xb as f32,
+            y1: yb as f32,
+            k0: frame.key_of_depth(za as f32),
+            k1: frame.key_of_depth(zb as f32),
+            c0,
+            c1,
+            hw,
+            s0,
+            dash,
+            hidden_alpha,
+        });
         for band in (ymin as usize / BAND_H)..=(ymax as usize / BAND_H).min(bands - 1) {
             job.bins[band].push(idx);
         }
@@ -722,6 +952,10 @@ fn plot(color: &mut [Color], frame: &Frame, x: i64, y: i64, c: Color, a: f32) {
 
 /// Fills pixels whose centres satisfy `inside(dx, dy)` (offsets from the centre, pixels) within
 /// a square of half-size `r`.
+#[allow(
+    clippy::too_many_arguments,
+    reason = "private helper; a struct would only rename the arguments"
+)]
 fn fill_shape(
     color: &mut [Color],
     frame: &Frame,
@@ -751,7 +985,11 @@ fn draw_marker(frame: &Frame, depth: &[f32], color: &mut [Color], m: &crate::sce
     if a <= 0.0 {
         return;
     }
-    let size = if m.size_px.is_finite() { m.size_px.clamp(1.0, 512.0) } else { 6.0 };
+    let size = if m.size_px.is_finite() {
+        m.size_px.clamp(1.0, 512.0)
+    } else {
+        6.0
+    };
     let r = 0.5 * (size * frame.scale) as f64;
     let t = (0.9 * frame.scale as f64).max(1.0); // stroke width, pixels
     match m.shape {
@@ -790,7 +1028,11 @@ fn draw_arrow_head(frame: &Frame, depth: &[f32], color: &mut [Color], a: &crate:
     }
     let alpha = point_alpha(frame, depth, x1, y1, d1, Occluded::Faint(0.35));
     let (ux, uy) = (dx / len, dy / len);
-    let wpx = if a.width_px.is_finite() { a.width_px.clamp(1.0, 64.0) } else { 2.0 };
+    let wpx = if a.width_px.is_finite() {
+        a.width_px.clamp(1.0, 64.0)
+    } else {
+        2.0
+    };
     let head = ((4.0 * wpx + 6.0) * frame.scale) as f64;
     let head = head.min(0.5 * len.max(2.0 * frame.scale as f64));
     let half = 0.5 * head;
@@ -804,4 +1046,36 @@ fn draw_arrow_head(frame: &Frame, depth: &[f32], color: &mut [Color], a: &crate:
         let across = (-qx * uy + qy * ux).abs();
         along >= 0.0 && along <= head && across <= half * (1.0 - along / head)
     });
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn clusters_facing_away_are_culled_and_visible_ones_kept() {
+        // A sphere seen from outside: the far hemisphere faces away. Clusters of 64 consecutive
+        // icosphere faces are compact patches, so a good share must be culled; none of the
+        // clusters holding a face that points at the eye may be.
+        let (pos, tris) = crate::testing::icosphere(1.0, 4, 0.0);
+        let clusters = build_clusters(&pos, &tris);
+        let eye = Vector3::new(0.0, 0.0, 5.0);
+        let mut culled = 0;
+        for (ci, c) in clusters.iter().enumerate() {
+            let away = c.faces_away(Some(&eye), &Vector3::z());
+            culled += away as usize;
+            if away {
+                for t in &tris[ci * CLUSTER..((ci + 1) * CLUSTER).min(tris.len())] {
+                    let p = |i: u32| {
+                        let v = pos[i as usize];
+                        Vector3::new(v[0] as f64, v[1] as f64, v[2] as f64)
+                    };
+                    let n = (p(t[1]) - p(t[0])).cross(&(p(t[2]) - p(t[0])));
+                    assert!(n.dot(&(eye - p(t[0]))) < 0.0, "culled a front face");
+                }
+            }
+        }
+        let frac = culled as f64 / clusters.len() as f64;
+        assert!(frac > 0.3, "culled fraction {frac}");
+    }
 }

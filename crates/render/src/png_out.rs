@@ -18,7 +18,10 @@ fn check_keyword(k: &str) -> Result<()> {
     if k.starts_with(' ') || k.ends_with(' ') || k.contains("  ") {
         return bad("no leading, trailing or double spaces allowed");
     }
-    if !k.chars().all(|c| (' '..='~').contains(&c) || ('\u{a1}'..='\u{ff}').contains(&c)) {
+    if !k
+        .chars()
+        .all(|c| (' '..='~').contains(&c) || ('\u{a1}'..='\u{ff}').contains(&c))
+    {
         return bad("only printable Latin-1 characters are allowed");
     }
     Ok(())

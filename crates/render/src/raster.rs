@@ -42,10 +42,11 @@ pub(crate) fn pixel_bbox(t: &TriRec, w: f32, h: f32) -> Option<[u32; 4]> {
     let xmax = t.x[0].max(t.x[1]).max(t.x[2]);
     let ymin = t.y[0].min(t.y[1]).min(t.y[2]);
     let ymax = t.y[0].max(t.y[1]).max(t.y[2]);
-    let x0 = (xmin - 0.5).ceil().max(0.0);
-    let x1 = (xmax - 0.5).floor().min(w - 1.0);
-    let y0 = (ymin - 0.5).ceil().max(0.0);
-    let y1 = (ymax - 0.5).floor().min(h - 1.0);
+    // Clamp first so the fast floor/ceil stay in range (and NaN fails the final test).
+    let x0 = ceil_f((xmin - 0.5).max(0.0));
+    let x1 = floor_f((xmax - 0.5).min(w - 1.0));
+    let y0 = ceil_f((ymin - 0.5).max(0.0));
+    let y1 = floor_f((ymax - 0.5).min(h - 1.0));
     (x0 <= x1 && y0 <= y1).then_some([x0 as u32, x1 as u32, y0 as u32, y1 as u32])
 }
 
@@ -81,10 +82,11 @@ pub(crate) fn plane(t: &TriRec, f: [f32; 3], x_lo: u32, y_lo: u32) -> Option<(f3
     Some((gx, gy, start))
 }
 
-/// Sets up the fixed-point edge functions (exact, so shared edges leave no cracks) and the depth
-/// plane of `t`, starting at pixel centre `(x_lo, y_lo)`.
+/// Fixed-point edge functions of `t` at pixel centre `(x_lo, y_lo)` and their x and y steps,
+/// oriented so that inside is non-negative; `None` for zero area. Exact integer arithmetic, so
+/// the two triangles sharing an edge leave no crack and no pixel is claimed by neither.
 #[inline]
-pub(crate) fn setup_edges(t: &TriRec, x_lo: u32, y_lo: u32, want_len: bool) -> Option<Setup> {
+pub(crate) fn edges(t: &TriRec, x_lo: u32, y_lo: u32) -> Option<([i64; 3], [i64; 3], [i64; 3])> {
     let (ax, ay) = (fx(t.x[0]), fx(t.y[0]));
     let (bx, by) = (fx(t.x[1]), fx(t.y[1]));
     let (cx, cy) = (fx(t.x[2]), fx(t.y[2]));
@@ -103,21 +105,29 @@ pub(crate) fn setup_edges(t: &TriRec, x_lo: u32, y_lo: u32, want_len: bool) -> O
     let (e0, e0x, e0y) = edge(bx, by, cx, cy);
     let (e1, e1x, e1y) = edge(cx, cy, ax, ay);
     let (e2, e2x, e2y) = edge(ax, ay, bx, by);
+    Some(([e0, e1, e2], [e0x, e1x, e2x], [e0y, e1y, e2y]))
+}
+
+/// Sets up the edge functions and the depth plane of `t`, starting at pixel centre
+/// `(x_lo, y_lo)`; with `want_len`, also the inverse edge lengths for wireframes.
+#[inline]
+pub(crate) fn setup_edges(t: &TriRec, x_lo: u32, y_lo: u32, want_len: bool) -> Option<Setup> {
+    let (e, ex, ey) = edges(t, x_lo, y_lo)?;
     let (zx, zy, z) = plane(t, t.key, x_lo, y_lo)?;
     let inv_len = if want_len {
-        let len = |x0: i64, y0: i64, x1: i64, y1: i64| {
-            let (dx, dy) = ((x1 - x0) as f32, (y1 - y0) as f32);
-            // E is in (1/16 px)^2; distance in px = E / (16 * |edge in 1/16 px|).
-            1.0 / (16.0 * (dx * dx + dy * dy).sqrt().max(1e-6))
+        let len = |i: usize, j: usize| {
+            let (dx, dy) = (t.x[j] - t.x[i], t.y[j] - t.y[i]);
+            // E is in (1/16 px)^2; distance in px = E / (256 * |edge in px|).
+            1.0 / (256.0 * (dx * dx + dy * dy).sqrt().max(1e-6))
         };
-        [len(bx, by, cx, cy), len(cx, cy, ax, ay), len(ax, ay, bx, by)]
+        [len(1, 2), len(2, 0), len(0, 1)]
     } else {
         [0.0; 3]
     };
     Some(Setup {
-        e: [e0, e1, e2],
-        ex: [e0x, e1x, e2x],
-        ey: [e0y, e1y, e2y],
+        e,
+        ex,
+        ey,
         z,
         zx,
         zy,
@@ -180,10 +190,26 @@ impl DepthBias {
     }
 }
 
-/// Fixed-point vertex.
+/// Fixed-point vertex (round half away from zero; `v` is within [`MAX_COORD_PX`]).
 #[inline]
 fn fx(v: f32) -> i64 {
-    (v * SUB).round() as i64
+    let t = v * SUB;
+    (t + 0.5f32.copysign(t)) as i64
+}
+
+/// `floor` without a libm call (the baseline x86-64 target has no rounding instruction).
+/// Valid for |x| < 2^31.
+#[inline]
+pub(crate) fn floor_f(x: f32) -> f32 {
+    let i = x as i32 as f32;
+    if i > x { i - 1.0 } else { i }
+}
+
+/// `ceil` without a libm call. Valid for |x| < 2^31.
+#[inline]
+pub(crate) fn ceil_f(x: f32) -> f32 {
+    let i = x as i32 as f32;
+    if i < x { i + 1.0 } else { i }
 }
 
 impl Band<'_> {
@@ -225,10 +251,9 @@ impl Band<'_> {
         let Some(st) = setup_edges(t, x_lo as u32, y_lo as u32, wire.is_some()) else {
             return;
         };
-        let (sx, sy, mut sr) = match shade.and_then(|s| plane(t, s, x_lo as u32, y_lo as u32)) {
-            Some(p) => p,
-            None => (0.0, 0.0, 1.0),
-        };
+        let (sx, sy, mut sr) = shade
+            .and_then(|s| plane(t, s, x_lo as u32, y_lo as u32))
+            .unwrap_or((0.0, 0.0, 1.0));
         let smooth = shade.is_some();
         let [mut e0r, mut e1r, mut e2r] = st.e;
         let mut zr = st.z;
@@ -285,11 +310,11 @@ impl Band<'_> {
         let (nx, ny) = (-uy, ux);
         let dashed = s.dash.0 > 0.0;
         let cap = if dashed { 0.0 } else { 0.5 * hw };
-        let y_min = (s.y0.min(s.y1) - hw - cap - 1.0).floor().max(self.y0 as f32);
-        let y_max = (s.y0.max(s.y1) + hw + cap + 1.0)
-            .ceil()
-            .min((self.y0 + self.rows - 1) as f32);
-        if y_min > y_max {
+        // Rows whose pixel centres can be within reach of the segment.
+        let reach = hw + cap;
+        let y_min = ceil_f((s.y0.min(s.y1) - reach - 0.5).max(self.y0 as f32));
+        let y_max = floor_f((s.y0.max(s.y1) + reach - 0.5).min((self.y0 + self.rows - 1) as f32));
+        if y_min.is_nan() || y_max.is_nan() || y_min > y_max {
             return;
         }
         let w = self.width;
@@ -303,31 +328,42 @@ impl Band<'_> {
             let m = |s: u8, d: u8| ((d as u32 * (256 - a) + s as u32 * a + 128) >> 8) as u8;
             Color::rgba(m(src.r, dst.r), m(src.g, dst.g), m(src.b, dst.b), dst.a)
         };
+        // Slabs a <= k * px + c <= b with px relative to x0: |n.p| <= hw, -cap <= u.p <= len + cap.
+        let n_flat = nx.abs() < 1e-6;
+        let u_flat = ux.abs() < 1e-6;
+        let inv_nx = if n_flat { 0.0 } else { 1.0 / nx };
+        let inv_ux = if u_flat { 0.0 } else { 1.0 / ux };
+        let x_max = w as f32 - 1.0;
         for y in (y_min as usize)..=(y_max as usize) {
             let py = y as f32 + 0.5 - s.y0;
-            // |n.x * px + n.y * py| <= hw  and  -cap <= u.x * px + u.y * py <= len + cap,
-            // with px relative to x0.
             let mut lo = f32::NEG_INFINITY;
             let mut hi = f32::INFINITY;
-            let mut slab = |k: f32, c: f32, a: f32, b: f32| {
-                // a <= k * px + c <= b
-                if k.abs() < 1e-9 {
-                    if c < a || c > b {
-                        lo = f32::INFINITY;
-                    }
-                } else {
-                    let (p, q) = ((a - c) / k, (b - c) / k);
-                    lo = lo.max(p.min(q));
-                    hi = hi.min(p.max(q));
+            let cn = ny * py;
+            if n_flat {
+                if cn.abs() > hw {
+                    continue;
                 }
-            };
-            slab(nx, ny * py, -hw, hw);
-            slab(ux, uy * py, -cap, len + cap);
-            if lo > hi {
+            } else {
+                let (p, q) = ((-hw - cn) * inv_nx, (hw - cn) * inv_nx);
+                lo = lo.max(p.min(q));
+                hi = hi.min(p.max(q));
+            }
+            let cu = uy * py;
+            if u_flat {
+                if cu < -cap || cu > len + cap {
+                    continue;
+                }
+            } else {
+                let (p, q) = ((-cap - cu) * inv_ux, (len + cap - cu) * inv_ux);
+                lo = lo.max(p.min(q));
+                hi = hi.min(p.max(q));
+            }
+            let xa = (lo + s.x0 - 0.5).max(0.0);
+            let xb = (hi + s.x0 - 0.5).min(x_max);
+            if xa.is_nan() || xb.is_nan() || xa > xb {
                 continue;
             }
-            let xa = ((lo + s.x0 - 0.5).ceil()).max(0.0);
-            let xb = ((hi + s.x0 - 0.5).floor()).min(w as f32 - 1.0);
+            let (xa, xb) = (ceil_f(xa), floor_f(xb));
             if xa > xb {
                 continue;
             }

@@ -80,7 +80,9 @@ impl FaceIdImage {
         if x >= self.width || y >= self.height {
             return None;
         }
-        let (f, m) = *self.ids.get(y as usize * self.width as usize + x as usize)?;
+        let (f, m) = *self
+            .ids
+            .get(y as usize * self.width as usize + x as usize)?;
         (f > 0).then(|| FaceHit {
             mesh: m as usize,
             face: f as usize - 1,

@@ -83,11 +83,7 @@ pub fn icosphere(radius_m: f32, level: u32, bump: f32) -> MeshData {
             let key = (a.min(b), a.max(b));
             *mid.entry(key).or_insert_with(|| {
                 let (pa, pb) = (pos[a as usize], pos[b as usize]);
-                pos.push(norm([
-                    pa[0] + pb[0],
-                    pa[1] + pb[1],
-                    pa[2] + pb[2],
-                ]));
+                pos.push(norm([pa[0] + pb[0], pa[1] + pb[1], pa[2] + pb[2]]));
                 (pos.len() - 1) as u32
             })
         };
@@ -113,12 +109,69 @@ pub fn icosphere(radius_m: f32, level: u32, bump: f32) -> MeshData {
 }
 
 /// A helix-like trace of `n` points around the z axis, radius `radius_m`, for line tests.
-pub fn spiral(n: usize, radius_m: f64, turns: f64, z0_m: f64, z1_m: f64, phase: f64) -> Vec<[f64; 3]> {
+pub fn spiral(
+    n: usize,
+    radius_m: f64,
+    turns: f64,
+    z0_m: f64,
+    z1_m: f64,
+    phase: f64,
+) -> Vec<[f64; 3]> {
     (0..n)
         .map(|i| {
-            let f = if n > 1 { i as f64 / (n - 1) as f64 } else { 0.0 };
+            let f = if n > 1 {
+                i as f64 / (n - 1) as f64
+            } else {
+                0.0
+            };
             let a = phase + f * turns * std::f64::consts::TAU;
-            [radius_m * a.cos(), radius_m * a.sin(), z0_m + (z1_m - z0_m) * f]
+            [
+                radius_m * a.cos(),
+                radius_m * a.sin(),
+                z0_m + (z1_m - z0_m) * f,
+            ]
+        })
+        .collect()
+}
+
+/// A hop-like trace of `n` points over a sphere of `radius_m`: it leaves the surface at
+/// latitude/longitude `(lat0_rad, lon0_rad)`, follows the great circle with heading
+/// `heading_rad` for `range_rad` of arc and rises to `apex_m` above the surface half-way
+/// (altitude `apex_m * sin(pi f)`). A drawing fixture, not a trajectory.
+pub fn hop_trace(
+    n: usize,
+    radius_m: f64,
+    lat0_rad: f64,
+    lon0_rad: f64,
+    heading_rad: f64,
+    range_rad: f64,
+    apex_m: f64,
+) -> Vec<[f64; 3]> {
+    let (sl, cl) = lat0_rad.sin_cos();
+    let (so, co) = lon0_rad.sin_cos();
+    let p0 = [cl * co, cl * so, sl];
+    let east = [-so, co, 0.0];
+    let north = [-sl * co, -sl * so, cl];
+    let (sh, ch) = heading_rad.sin_cos();
+    let dir = [
+        ch * north[0] + sh * east[0],
+        ch * north[1] + sh * east[1],
+        ch * north[2] + sh * east[2],
+    ];
+    (0..n)
+        .map(|i| {
+            let f = if n > 1 {
+                i as f64 / (n - 1) as f64
+            } else {
+                0.0
+            };
+            let (s, c) = (f * range_rad).sin_cos();
+            let r = radius_m + apex_m * (std::f64::consts::PI * f).sin();
+            [
+                r * (c * p0[0] + s * dir[0]),
+                r * (c * p0[1] + s * dir[1]),
+                r * (c * p0[2] + s * dir[2]),
+            ]
         })
         .collect()
 }

@@ -11,8 +11,10 @@ static FONT_BYTES: &[u8] = include_bytes!("../../../assets/fonts/DejaVuSans.ttf"
 
 fn font() -> Option<&'static fontdue::Font> {
     static FONT: OnceLock<Option<fontdue::Font>> = OnceLock::new();
-    FONT.get_or_init(|| fontdue::Font::from_bytes(FONT_BYTES, fontdue::FontSettings::default()).ok())
-        .as_ref()
+    FONT.get_or_init(|| {
+        fontdue::Font::from_bytes(FONT_BYTES, fontdue::FontSettings::default()).ok()
+    })
+    .as_ref()
 }
 
 /// Rasterized glyphs keyed by character and size (in 1/64 px).
@@ -35,7 +37,11 @@ fn size_key(size_px: f32) -> u32 {
 }
 
 fn clamp_size(size_px: f32) -> f32 {
-    if size_px.is_finite() { size_px.clamp(4.0, 400.0) } else { 14.0 }
+    if size_px.is_finite() {
+        size_px.clamp(4.0, 400.0)
+    } else {
+        14.0
+    }
 }
 
 impl GlyphCache {
@@ -76,6 +82,7 @@ impl GlyphCache {
     }
 
     /// Draws `text` with its bounding box placed by `anchor` at `(x, y)`.
+    #[allow(clippy::too_many_arguments, reason = "mirrors the fields of Overlay::Text")]
     pub fn draw(
         &mut self,
         img: &mut Image,

@@ -76,11 +76,22 @@ impl Default for CompositeOptions {
 /// Human-readable time stamp: seconds, hours and spin turns.
 pub fn time_stamp(t_s: f64, period_s: f64) -> String {
     let turns = if period_s > 0.0 { t_s / period_s } else { 0.0 };
-    format!("t = {:.1} s  ({:.3} h, {:.3} turns)", t_s, t_s / 3600.0, turns)
+    format!(
+        "t = {:.1} s  ({:.3} h, {:.3} turns)",
+        t_s,
+        t_s / 3600.0,
+        turns
+    )
 }
 
 /// Title, time stamp (and the research caution) drawn over one view.
-pub fn add_title(scene: &mut spinfall_render::Scene, frame: Frame, t_s: f64, period_s: f64, size_px: [u32; 2]) {
+pub fn add_title(
+    scene: &mut spinfall_render::Scene,
+    frame: Frame,
+    t_s: f64,
+    period_s: f64,
+    size_px: [u32; 2],
+) {
     let w = size_px[0] as f32;
     scene.overlays.push(Overlay::Text {
         text: frame.title().to_string(),

@@ -3,8 +3,8 @@
 use nalgebra::{Point3, Rotation3};
 use spinfall_dynamics::{FlightReport, Outcome};
 use spinfall_render::{
-    Arrow, Color, Corner, FaceColors, LineColor, Marker, MarkerShape, Occluded, Overlay,
-    Polyline, Rect, Scene, SceneMesh, Shading,
+    Arrow, Color, Corner, FaceColors, LineColor, Marker, MarkerShape, Occluded, Overlay, Polyline,
+    Rect, Scene, SceneMesh, Shading,
 };
 
 use crate::body_view::{BODY_GREY, BodyView};
@@ -207,11 +207,13 @@ fn build(
         });
     }
     if opts.show_legend && !reports.is_empty() {
-        let mut entries = vec![
-            (launch_color(0), "trace, this frame".to_string(), false),
-        ];
+        let mut entries = vec![(launch_color(0), "trace, this frame".to_string(), false)];
         if opts.overlay_other_frame {
-            entries.push((Color::rgb(200, 200, 200), "trace, other frame".to_string(), true));
+            entries.push((
+                Color::rgb(200, 200, 200),
+                "trace, other frame".to_string(),
+                true,
+            ));
         }
         entries.push((SITE_COLOR, "launch site (ring)".to_string(), false));
         entries.push((CONTACT_COLOR, "contact (cross)".to_string(), false));
@@ -284,9 +286,7 @@ fn add_markers(
         };
         let position = match (frame, report.trajectory_body.last()) {
             // A particle at rest rides on the body.
-            (Frame::Inertial, Some(b)) if report.landed() => {
-                on_body(&trace::pos(b), t_s)
-            }
+            (Frame::Inertial, Some(b)) if report.landed() => on_body(&trace::pos(b), t_s),
             _ => trace::pos(last).into(),
         };
         scene.markers.push(Marker {
@@ -313,6 +313,57 @@ pub fn color_bar_rect(size_px: [u32; 2]) -> Rect {
     let (w, h) = (size_px[0] as f32, size_px[1] as f32);
     let bar_h = (h * 0.45).clamp(40.0, 600.0);
     Rect::new(w - 78.0, (h - bar_h) * 0.5, 16.0, bar_h)
+}
+
+/// A launch site to mark (before or without a run).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SiteMarker {
+    /// Surface point, body frame, m.
+    pub pos_body_m: [f64; 3],
+    /// Launch direction (unit, body frame) to draw as an arrow, if any.
+    pub launch_dir_body: Option<[f64; 3]>,
+    /// Highlighted (the selected site).
+    pub selected: bool,
+}
+
+/// Colour of planned-site markers and launch arrows.
+pub const PLANNED_SITE_COLOR: Color = Color::rgb(255, 90, 200);
+
+/// Marks planned launch sites (and the launch direction of those that have one) in a view of
+/// `frame` at `t_s`. The arrow is a tenth of the Brillouin radius long.
+pub fn add_site_markers(
+    scene: &mut Scene,
+    view: &BodyView,
+    sites: &[SiteMarker],
+    t_s: f64,
+    frame: Frame,
+) {
+    let body = view.body();
+    let world_from_body: Rotation3<f64> = match frame {
+        Frame::BodyFixed => Rotation3::identity(),
+        Frame::Inertial => body.inertial_from_body(t_s),
+    };
+    let arrow_len_m = body.brillouin_radius_m() * 0.12;
+    for site in sites {
+        let p = world_from_body * Point3::from(site.pos_body_m);
+        scene.markers.push(Marker {
+            position: [p.x, p.y, p.z],
+            shape: MarkerShape::Diamond,
+            size_px: if site.selected { 13.0 } else { 9.0 },
+            color: PLANNED_SITE_COLOR,
+            occluded: Occluded::Faint(0.4),
+        });
+        if let Some(d) = site.launch_dir_body {
+            let d = world_from_body * nalgebra::Vector3::from(d);
+            let q = p + d * arrow_len_m;
+            scene.arrows.push(Arrow {
+                from: [p.x, p.y, p.z],
+                to: [q.x, q.y, q.z],
+                color: PLANNED_SITE_COLOR,
+                width_px: if site.selected { 3.0 } else { 2.0 },
+            });
+        }
+    }
 }
 
 /// Latest time in any report, s (0 without reports).

@@ -31,8 +31,13 @@ pub fn shape(mesh: spinfall_gravity::Mesh) -> Arc<ShapeModel> {
 
 /// Sphere shape (icosphere) of radius `r_m` with an exact point-mass field.
 pub fn point_mass_sphere(r_m: f64, subdiv: u32, gm: f64, spin: Spin) -> Body {
-    Body::with_gravity("test sphere", shape(generate::icosphere(r_m, subdiv)), Arc::new(PointMass { gm_m3_s2: gm }), spin)
-        .unwrap()
+    Body::with_gravity(
+        "test sphere",
+        shape(generate::icosphere(r_m, subdiv)),
+        Arc::new(PointMass { gm_m3_s2: gm }),
+        spin,
+    )
+    .unwrap()
 }
 
 /// A field that is zero everywhere (GM only nominal), for straight-line tests.
@@ -48,5 +53,11 @@ impl GravityModel for NoGravity {
 
 /// A 2 m cube with no gravity and no spin.
 pub fn gravity_free_box() -> Body {
-    Body::with_gravity("box", shape(generate::box_mesh(2.0, 2.0, 2.0)), Arc::new(NoGravity), no_spin()).unwrap()
+    Body::with_gravity(
+        "box",
+        shape(generate::box_mesh(2.0, 2.0, 2.0)),
+        Arc::new(NoGravity),
+        no_spin(),
+    )
+    .unwrap()
 }

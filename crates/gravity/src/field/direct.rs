@@ -95,16 +95,24 @@ pub(crate) fn sums_scalar<const GRAD: bool>(t: &Tables, rv: &[[f64; 4]]) -> Sums
         let r2 = &rv[t.f1[f] as usize];
         let r3 = &rv[t.f2[f] as usize];
         let omega = solid_angle(r1, r2, r3);
-        let m = t.face_dyad.get(f);
-        let fr = sym_mul(&m, r1);
+        let n = [t.nx[f], t.ny[f], t.nz[f]];
+        let h = n[0] * r1[0] + n[1] * r1[1] + n[2] * r1[2];
         s.omega += omega;
-        s.face_u += (r1[0] * fr[0] + r1[1] * fr[1] + r1[2] * fr[2]) * omega;
-        for k in 0..3 {
-            s.face_a[k] += fr[k] * omega;
+        s.face_u += h * h * omega;
+        for (acc, nk) in s.face_a.iter_mut().zip(n) {
+            *acc += nk * h * omega;
         }
         if GRAD {
-            for k in 0..6 {
-                s.face_grad[k] += m[k] * omega;
+            let m = [
+                n[0] * n[0],
+                n[0] * n[1],
+                n[0] * n[2],
+                n[1] * n[1],
+                n[1] * n[2],
+                n[2] * n[2],
+            ];
+            for (acc, mk) in s.face_grad.iter_mut().zip(m) {
+                *acc += mk * omega;
             }
         }
     }
@@ -115,12 +123,12 @@ pub(crate) fn sums_scalar<const GRAD: bool>(t: &Tables, rv: &[[f64; 4]]) -> Sums
         let m = t.edge_dyad.get(e);
         let er = sym_mul(&m, ra);
         s.edge_u += (ra[0] * er[0] + ra[1] * er[1] + ra[2] * er[2]) * l;
-        for k in 0..3 {
-            s.edge_a[k] += er[k] * l;
+        for (acc, ek) in s.edge_a.iter_mut().zip(er) {
+            *acc += ek * l;
         }
         if GRAD {
-            for k in 0..6 {
-                s.edge_grad[k] += m[k] * l;
+            for (acc, mk) in s.edge_grad.iter_mut().zip(m) {
+                *acc += mk * l;
             }
         }
     }

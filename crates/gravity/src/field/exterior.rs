@@ -265,7 +265,7 @@ impl Exterior {
         let big_r = self.ref_radius_m;
         let rho = r_m / big_r;
         let dist = rho.norm();
-        if !(dist > 0.0) {
+        if dist.is_nan() || dist <= 0.0 {
             return (f64::INFINITY, Vector3::zeros());
         }
         let unit = rho / dist;

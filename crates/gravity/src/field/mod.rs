@@ -26,14 +26,18 @@
 //! # Speed
 //! Per-vertex vectors `r_i` and `|r_i|` are computed once per field point and gathered by faces
 //! and edges. The hot path [`PolyhedronGravity::potential_acceleration`] runs over
-//! structure-of-arrays tables, four faces or edges at a time with the `wide` crate, compiled for
-//! several CPU feature sets and chosen at run time (`multiversion`); a portable scalar version is
-//! kept as the reference. Batches run in parallel over points with rayon.
+//! structure-of-arrays tables, four faces or edges at a time: with explicit AVX2+FMA intrinsics
+//! on CPUs that have them (selected at run time with `multiversion`), else with the portable
+//! `wide` crate; a scalar version is kept as the reference. Batches run in parallel over points
+//! with rayon.
 //!
 //! Spinfall is for research and planning, not flight-certified.
 
+#[cfg(target_arch = "x86_64")]
+mod avx2;
 mod direct;
 pub mod exterior;
+mod lanes;
 mod mass_spec;
 mod simd;
 mod tables;
@@ -75,6 +79,20 @@ pub enum FieldMethod {
     Exterior,
 }
 
+/// Implementations of the direct face/edge sums (all give the same field).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+pub enum DirectKernel {
+    /// The fastest for this CPU (what the field uses).
+    Auto,
+    /// Portable scalar loop, the reference.
+    Scalar,
+    /// `wide::f64x4` explicit SIMD as compiled (SSE2 on a default x86-64 build).
+    Wide,
+    /// Chosen at run time by CPU features: explicit AVX2+FMA intrinsics on x86-64 CPUs that
+    /// have them, else `wide`.
+    Compiled,
+}
+
 /// Multiple of the Brillouin radius beyond which the exterior expansion replaces the direct sum.
 ///
 /// Chosen from the measurements in [`exterior`]'s documentation.
@@ -93,6 +111,11 @@ pub struct PolyhedronGravity {
 }
 
 impl PolyhedronGravity {
+    /// Builds the field of a validated shape model (see [`Self::from_mesh`]).
+    pub fn new(shape: &crate::ShapeModel, mass: MassSpec) -> Result<Self> {
+        Self::from_mesh(shape.mesh(), mass)
+    }
+
     /// Builds the field straight from a closed, outward-oriented mesh in metres.
     ///
     /// Checks what the field needs (indices in range, no degenerate face, every edge shared by
@@ -236,11 +259,21 @@ impl PolyhedronGravity {
         self.direct_simd(p, &mut scratch)
     }
 
-    /// As [`Self::potential_acceleration_direct`] with the portable scalar kernel.
-    pub fn potential_acceleration_scalar(&self, p: &Point3<f64>) -> (f64, Vector3<f64>) {
+    /// As [`Self::potential_acceleration_direct`] with a chosen kernel (for tests and
+    /// benchmarks; all kernels agree to ~1e-14 relative).
+    pub fn potential_acceleration_with_kernel(
+        &self,
+        p: &Point3<f64>,
+        kernel: DirectKernel,
+    ) -> (f64, Vector3<f64>) {
         let mut scratch = Vec::new();
         direct::fill_vertices(&self.tables, [p.x, p.y, p.z], &mut scratch);
-        let s = direct::sums_scalar::<false>(&self.tables, &scratch);
+        let s = match kernel {
+            DirectKernel::Auto => simd::sums(&self.tables, &scratch),
+            DirectKernel::Scalar => direct::sums_scalar::<false>(&self.tables, &scratch),
+            DirectKernel::Wide => simd::sums_wide(&self.tables, &scratch),
+            DirectKernel::Compiled => simd::sums_compiled(&self.tables, &scratch),
+        };
         self.combine(&s)
     }
 

@@ -1,33 +1,36 @@
-//! The direct face and edge sums, four faces or edges at a time with `wide::f64x4`.
+//! The direct face and edge sums, four faces or edges at a time.
 //!
-//! Same formulas and surface rules as the scalar kernel in `direct`; the vectorised `atan2`
-//! and `ln` of `wide` are polynomial approximations good to about an ulp, so the two kernels agree
-//! to ~1e-14 relative on non-degenerate points (checked by a test). The function is compiled for
-//! several x86-64 feature sets and picked at run time by `multiversion`.
+//! Same formulas and surface rules as the scalar kernel in `direct`, written over the
+//! [`Lanes`] abstraction and run on `wide::f64x4` (portable explicit SIMD); on x86-64 CPUs with
+//! AVX2+FMA, chosen at run time through `multiversion`, the explicit-intrinsics kernel in
+//! `avx2` runs instead. All agree with the scalar kernel to ~1e-13 relative on non-degenerate
+//! points (tested).
 
 use multiversion::multiversion;
+use multiversion::target::match_target;
 use wide::f64x4;
 
 use super::direct::{EDGE_FLOOR, PLANE_TOL, Sums};
+use super::lanes::Lanes;
 use super::tables::{LANES, SymSoa, Tables};
 
 #[inline(always)]
-fn gather(rv: &[[f64; 4]], idx: &[u32]) -> [f64x4; 4] {
-    f64x4::transpose([
-        f64x4::new(rv[idx[0] as usize]),
-        f64x4::new(rv[idx[1] as usize]),
-        f64x4::new(rv[idx[2] as usize]),
-        f64x4::new(rv[idx[3] as usize]),
+fn gather<L: Lanes>(rv: &[[f64; 4]], idx: &[u32]) -> [L; 4] {
+    L::transpose([
+        L::from_array(rv[idx[0] as usize]),
+        L::from_array(rv[idx[1] as usize]),
+        L::from_array(rv[idx[2] as usize]),
+        L::from_array(rv[idx[3] as usize]),
     ])
 }
 
 #[inline(always)]
-fn load(v: &[f64], i: usize) -> f64x4 {
-    f64x4::new([v[i], v[i + 1], v[i + 2], v[i + 3]])
+fn load<L: Lanes>(v: &[f64], i: usize) -> L {
+    L::from_array([v[i], v[i + 1], v[i + 2], v[i + 3]])
 }
 
 #[inline(always)]
-fn sym_load(m: &SymSoa, i: usize) -> [f64x4; 6] {
+fn sym_load<L: Lanes>(m: &SymSoa, i: usize) -> [L; 6] {
     [
         load(&m.xx, i),
         load(&m.xy, i),
@@ -39,7 +42,7 @@ fn sym_load(m: &SymSoa, i: usize) -> [f64x4; 6] {
 }
 
 #[inline(always)]
-fn sym_mul(m: &[f64x4; 6], r: &[f64x4; 4]) -> [f64x4; 3] {
+fn sym_mul<L: Lanes>(m: &[L; 6], r: &[L; 4]) -> [L; 3] {
     [
         m[0] * r[0] + m[1] * r[1] + m[2] * r[2],
         m[1] * r[0] + m[3] * r[1] + m[4] * r[2],
@@ -48,17 +51,17 @@ fn sym_mul(m: &[f64x4; 6], r: &[f64x4; 4]) -> [f64x4; 3] {
 }
 
 #[inline(always)]
-fn kernel(t: &Tables, rv: &[[f64; 4]]) -> Sums {
-    let zero = f64x4::ZERO;
-    let two = f64x4::splat(2.0);
-    let plane_tol = f64x4::splat(PLANE_TOL);
+fn kernel<L: Lanes>(t: &Tables, rv: &[[f64; 4]]) -> Sums {
+    let zero = L::splat(0.0);
+    let two = L::splat(2.0);
+    let plane_tol = L::splat(PLANE_TOL);
     let mut omega_acc = zero;
     let mut face_u = zero;
     let mut face_a = [zero; 3];
     for i in (0..t.f0.len()).step_by(LANES) {
-        let r1 = gather(rv, &t.f0[i..i + LANES]);
-        let r2 = gather(rv, &t.f1[i..i + LANES]);
-        let r3 = gather(rv, &t.f2[i..i + LANES]);
+        let r1: [L; 4] = gather(rv, &t.f0[i..i + LANES]);
+        let r2: [L; 4] = gather(rv, &t.f1[i..i + LANES]);
+        let r3: [L; 4] = gather(rv, &t.f2[i..i + LANES]);
         let cx = r2[1] * r3[2] - r2[2] * r3[1];
         let cy = r2[2] * r3[0] - r2[0] * r3[2];
         let cz = r2[0] * r3[1] - r2[1] * r3[0];
@@ -69,28 +72,28 @@ fn kernel(t: &Tables, rv: &[[f64; 4]]) -> Sums {
         let prod = r1[3] * r2[3] * r3[3];
         let den = prod + r1[3] * d23 + r2[3] * d31 + r3[3] * d12;
         let tol = plane_tol * prod;
-        let on_plane = num.abs().simd_le(tol) & den.simd_le(tol);
-        let omega = on_plane.bitselect(zero, two * num.atan2(den));
-        let m = sym_load(&t.face_dyad, i);
-        let fr = sym_mul(&m, &r1);
+        let omega = L::zero_where_both_le(num.abs(), tol, den, tol, two * num.atan2(den));
+        let n: [L; 3] = [load(&t.nx, i), load(&t.ny, i), load(&t.nz, i)];
+        let h = n[0] * r1[0] + n[1] * r1[1] + n[2] * r1[2];
+        let h_omega = h * omega;
         omega_acc += omega;
-        face_u += (r1[0] * fr[0] + r1[1] * fr[1] + r1[2] * fr[2]) * omega;
+        face_u += h * h_omega;
         for k in 0..3 {
-            face_a[k] += fr[k] * omega;
+            face_a[k] += n[k] * h_omega;
         }
     }
-    let floor = f64x4::splat(EDGE_FLOOR);
+    let floor = L::splat(EDGE_FLOOR);
     let mut edge_u = zero;
     let mut edge_a = [zero; 3];
     for i in (0..t.e0.len()).step_by(LANES) {
-        let ra = gather(rv, &t.e0[i..i + LANES]);
-        let rb = gather(rv, &t.e1[i..i + LANES]);
-        let e = load(&t.edge_len_m, i);
+        let ra: [L; 4] = gather(rv, &t.e0[i..i + LANES]);
+        let rb: [L; 4] = gather(rv, &t.e1[i..i + LANES]);
+        let e: L = load(&t.edge_len_m, i);
         let sum = ra[3] + rb[3];
         let num = sum + e;
         let den = (sum - e).max(floor * num);
         let l = (num / den).ln();
-        let m = sym_load(&t.edge_dyad, i);
+        let m: [L; 6] = sym_load(&t.edge_dyad, i);
         let er = sym_mul(&m, &ra);
         edge_u += (ra[0] * er[0] + ra[1] * er[1] + ra[2] * er[2]) * l;
         for k in 0..3 {
@@ -107,13 +110,22 @@ fn kernel(t: &Tables, rv: &[[f64; 4]]) -> Sums {
     }
 }
 
-/// Potential and acceleration sums (no gradient) for the vertex vectors `rv`.
-#[multiversion(targets(
-    "x86_64+avx512f+avx512vl+avx2+fma+avx",
-    "x86_64+avx2+fma+avx",
-    "x86_64+avx",
-    "aarch64+neon"
-))]
+/// The kernel on `wide::f64x4` (whatever SIMD the build enables; SSE2 on default x86-64).
+pub(crate) fn sums_wide(t: &Tables, rv: &[[f64; 4]]) -> Sums {
+    kernel::<f64x4>(t, rv)
+}
+
+/// The kernel compiled per CPU feature set and dispatched at run time: explicit AVX2+FMA on
+/// x86-64 CPUs that have them, `wide` elsewhere.
+#[multiversion(targets("x86_64+avx2+fma+avx"))]
+pub(crate) fn sums_compiled(t: &Tables, rv: &[[f64; 4]]) -> Sums {
+    match_target! {
+        "x86_64+avx2+fma" => super::avx2::sums(t, rv),
+        _ => kernel::<f64x4>(t, rv),
+    }
+}
+
+/// The fastest kernel for this CPU.
 pub(crate) fn sums(t: &Tables, rv: &[[f64; 4]]) -> Sums {
-    kernel(t, rv)
+    sums_compiled(t, rv)
 }

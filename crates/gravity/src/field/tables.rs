@@ -1,7 +1,8 @@
 //! Precomputed per-face and per-edge quantities of the polyhedron, stored as structure of arrays.
 //!
-//! Face dyads `F_f = n_f n_f^T` and edge dyads `E_e = n_A n_A12^T + n_B n_B21^T` (Werner &
-//! Scheeres 1997, eqs. 8 and 9) are symmetric, so six components are kept for each. All arrays
+//! Face dyads `F_f = n_f n_f^T` are kept as the unit normals `n_f`; the edge dyads
+//! `E_e = n_A n_A12^T + n_B n_B21^T` (Werner & Scheeres 1997) are symmetric, so six components
+//! are kept for each. All arrays
 //! are padded to a multiple of [`LANES`] with inert entries (zero dyads, vertex index 0) so the
 //! vector kernels need no remainder loop.
 
@@ -37,10 +38,6 @@ impl SymSoa {
         self.zz.push(m[(2, 2)]);
     }
 
-    fn len(&self) -> usize {
-        self.xx.len()
-    }
-
     fn heap_bytes(&self) -> usize {
         6 * self.xx.capacity() * std::mem::size_of::<f64>()
     }
@@ -66,8 +63,11 @@ pub(crate) struct Tables {
     pub f0: Vec<u32>,
     pub f1: Vec<u32>,
     pub f2: Vec<u32>,
-    /// Face dyads (padded with zeros).
-    pub face_dyad: SymSoa,
+    /// Face unit normals (padded with zeros); the face dyad is `F_f = n n^T`, so
+    /// `F_f r = n (n . r)` needs only the normal.
+    pub nx: Vec<f64>,
+    pub ny: Vec<f64>,
+    pub nz: Vec<f64>,
     /// Real number of undirected edges.
     pub edge_count: usize,
     /// Edge end indices (padded with 0).
@@ -132,7 +132,7 @@ impl Tables {
             let cross = (b - a).cross(&(c - a));
             let norm = cross.norm();
             let scale = (b - a).norm().max((c - a).norm()).max((c - b).norm());
-            if !(norm > 1e-14 * scale * scale) {
+            if norm.is_nan() || norm <= 1e-14 * scale * scale {
                 return Err(GravityError::InvalidMesh(format!(
                     "face {f} is degenerate (zero area)"
                 )));
@@ -144,7 +144,7 @@ impl Tables {
             com_acc += v6 * (a + b + c);
         }
         let volume_m3 = volume6 / 6.0;
-        if !(volume_m3 > 0.0) {
+        if volume_m3.is_nan() || volume_m3 <= 0.0 {
             return Err(GravityError::InvalidMesh(format!(
                 "the enclosed volume is {volume_m3} m^3; faces must be ordered counter-clockwise \
                  seen from outside (check face 0)"
@@ -176,7 +176,9 @@ impl Tables {
             f0: Vec::with_capacity(np),
             f1: Vec::with_capacity(np),
             f2: Vec::with_capacity(np),
-            face_dyad: SymSoa::default(),
+            nx: Vec::with_capacity(np),
+            ny: Vec::with_capacity(np),
+            nz: Vec::with_capacity(np),
             edge_count: 0,
             e0: Vec::new(),
             e1: Vec::new(),
@@ -188,13 +190,17 @@ impl Tables {
             t.f1.push(face[1]);
             t.f2.push(face[2]);
             let n = normals[f];
-            t.face_dyad.push(&(n * n.transpose()));
+            t.nx.push(n.x);
+            t.ny.push(n.y);
+            t.nz.push(n.z);
         }
         while t.f0.len() < np {
             t.f0.push(0);
             t.f1.push(0);
             t.f2.push(0);
-            t.face_dyad.push(&Matrix3::zeros());
+            t.nx.push(0.0);
+            t.ny.push(0.0);
+            t.nz.push(0.0);
         }
 
         let ne = 3 * nf / 2;
@@ -246,7 +252,6 @@ impl Tables {
             t.edge_len_m.push(1.0);
             t.edge_dyad.push(&Matrix3::zeros());
         }
-        debug_assert_eq!(t.face_dyad.len(), np);
         Ok((
             t,
             Bulk {
@@ -262,7 +267,7 @@ impl Tables {
         let u32s = std::mem::size_of::<u32>();
         3 * self.vx.capacity() * f64s
             + 3 * self.f0.capacity() * u32s
-            + self.face_dyad.heap_bytes()
+            + 3 * self.nx.capacity() * f64s
             + 2 * self.e0.capacity() * u32s
             + self.edge_len_m.capacity() * f64s
             + self.edge_dyad.heap_bytes()

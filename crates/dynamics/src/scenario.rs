@@ -1,0 +1,843 @@
+//! The versioned JSON scenario document: everything needed to reproduce a run.
+//!
+//! Parsed from `&str` ([`Scenario::from_json_str`]); unknown keys and wrong types are errors
+//! naming the field path, line and column; semantic checks follow ([`Scenario::validate`]).
+//! The shape file is *returned* ([`Scenario::shape_source`]) for the caller to open, relative to
+//! the scenario file. Every key is documented in `crates/dynamics/SCENARIO.md`.
+
+use std::sync::Arc;
+
+use nalgebra::{Point3, Vector3};
+use serde::{Deserialize, Serialize};
+use spinfall_gravity::{LengthUnit, MassSpec, ShapeModel, Warning};
+
+use crate::body::{Body, Spin, SpinAxis};
+use crate::error::{DynamicsError, Result};
+use crate::flight::{BounceModel, FlightSettings, IntegratorSettings, SamplingSettings};
+use crate::json_path::json_path_at;
+use crate::launch::{
+    DEFAULT_START_ALTITUDE_M, Dispersion, Fan, FanQuantity, LaunchSpec, LaunchState, SpeedSigma,
+};
+use crate::site::{NormalMode, Site};
+
+/// Value of the `format` key.
+pub const SCENARIO_FORMAT: &str = "spinfall-scenario";
+/// The scenario version this build reads and writes.
+pub const SCENARIO_VERSION: u32 = 1;
+/// `shape` value of the built-in demo body.
+pub const BUILTIN_QUILLON: &str = "builtin:quillon";
+
+/// A complete scenario.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Scenario {
+    /// Always `"spinfall-scenario"`.
+    pub format: String,
+    /// Always 1 for this build.
+    pub version: u32,
+    /// Optional title.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub name: Option<String>,
+    /// Optional free text.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub notes: Option<String>,
+    /// Seed of the dispersion generator (default 0).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub seed: Option<u64>,
+    /// The body.
+    pub body: BodySpec,
+    /// The launches (at least one).
+    pub launches: Vec<LaunchEntry>,
+    /// Integrator settings.
+    #[serde(default)]
+    pub integrator: IntegratorSpec,
+    /// Contact model.
+    #[serde(default)]
+    pub bounce: BounceSpec,
+}
+
+/// The body of a scenario.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct BodySpec {
+    /// OBJ path relative to the scenario file, or `"builtin:quillon"`.
+    pub shape: String,
+    /// Length unit of the OBJ file (`"km"` default, or `"m"`).
+    #[serde(default)]
+    pub unit: LengthUnit,
+    /// Display name (default: the demo name or the file stem).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub name: Option<String>,
+    /// Bulk density, kg/m^3 (exactly one of the three mass keys).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub density_kg_m3: Option<f64>,
+    /// Total mass, kg.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub mass_kg: Option<f64>,
+    /// Gravitational parameter, m^3/s^2.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub gm_m3_s2: Option<f64>,
+    /// Move the shape so its centre of mass is at the origin (default true).
+    #[serde(default = "yes")]
+    pub recenter: bool,
+    /// The spin.
+    pub spin: SpinSpec,
+}
+
+fn yes() -> bool {
+    true
+}
+
+/// The spin of a scenario body.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct SpinSpec {
+    /// Period, hours (> 0).
+    pub period_h: f64,
+    /// `"max-moment"` (default), `"+z"` or `[x, y, z]` in the body frame.
+    #[serde(default)]
+    pub axis: SpinAxis,
+    /// Rotation angle at t = 0, deg.
+    #[serde(default)]
+    pub phase_deg: f64,
+}
+
+/// One launch entry: an explicit state, or a site with speed and direction (optionally a fan
+/// and/or a dispersion set).
+#[derive(Debug, Clone, PartialEq, Default, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct LaunchEntry {
+    /// Identifier (unique in the scenario).
+    pub id: String,
+    /// Explicit body-fixed state, used exactly as given.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub state: Option<StateSpec>,
+    /// Surface site.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub site: Option<SiteSpec>,
+    /// Speed relative to the surface, m/s (required with `site`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub speed_m_s: Option<f64>,
+    /// Azimuth from local north toward east, deg (default 0).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub azimuth_deg: Option<f64>,
+    /// Elevation above the local horizontal, deg, in [0, 90] (default 90).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub elevation_deg: Option<f64>,
+    /// Start height above the surface, m (default 0.05).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub altitude_m: Option<f64>,
+    /// Local vertical: `"face"` (default) or `"smoothed"`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub normal: Option<NormalMode>,
+    /// Sweep of one quantity.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub fan: Option<FanSpec>,
+    /// Random dispersion set.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub dispersion: Option<DispersionSpec>,
+}
+
+/// Explicit body-frame state.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct StateSpec {
+    /// Position, body frame, m.
+    pub position_m: [f64; 3],
+    /// Velocity relative to the rotating body, body frame, m/s.
+    pub velocity_m_s: [f64; 3],
+}
+
+/// A surface site: exactly one of lat/lon, face, or point.
+#[derive(Debug, Clone, PartialEq, Default, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct SiteSpec {
+    /// Planetocentric latitude, deg (with `lon_deg`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub lat_deg: Option<f64>,
+    /// Planetocentric longitude, deg east (with `lat_deg`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub lon_deg: Option<f64>,
+    /// Face index (site at its centroid).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub face: Option<usize>,
+    /// A body-frame point, m: the site is the nearest surface point.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub point_m: Option<[f64; 3]>,
+}
+
+/// A fan in a scenario.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct FanSpec {
+    /// `"azimuth_deg"`, `"elevation_deg"` or `"speed_m_s"`.
+    pub vary: FanQuantity,
+    /// Final value.
+    pub to: f64,
+    /// Number of members, both ends included.
+    pub count: usize,
+}
+
+/// A dispersion set in a scenario.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct DispersionSpec {
+    /// Number of members.
+    pub count: usize,
+    /// 1-sigma speed error, m/s (or use `speed_sigma_percent`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub speed_sigma_m_s: Option<f64>,
+    /// 1-sigma speed error, percent of the nominal speed.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub speed_sigma_percent: Option<f64>,
+    /// 1-sigma direction error per axis, deg (default 0).
+    #[serde(default)]
+    pub direction_sigma_deg: f64,
+}
+
+/// Integrator keys of a scenario.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields, default)]
+pub struct IntegratorSpec {
+    /// Relative tolerance, in [1e-14, 1e-3].
+    pub rel_tol: f64,
+    /// Absolute position tolerance, m.
+    pub abs_tol_m: f64,
+    /// Absolute velocity tolerance, m/s (default derived from `abs_tol_m`).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub abs_tol_m_s: Option<f64>,
+    /// Flight time limit, s.
+    pub max_time_s: f64,
+    /// Step limit per launch.
+    pub max_steps: u64,
+    /// Wall-clock limit per launch, s.
+    pub max_wall_s: f64,
+}
+
+impl Default for IntegratorSpec {
+    fn default() -> Self {
+        let d = IntegratorSettings::default();
+        IntegratorSpec {
+            rel_tol: d.rel_tol,
+            abs_tol_m: d.abs_tol_m,
+            abs_tol_m_s: d.abs_tol_m_s,
+            max_time_s: d.max_time_s,
+            max_steps: d.max_steps,
+            max_wall_s: d.max_wall_s,
+        }
+    }
+}
+
+/// Contact keys of a scenario.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields, default)]
+pub struct BounceSpec {
+    /// Normal restitution in [0, 1].
+    pub normal_restitution: f64,
+    /// Tangential restitution in [0, 1].
+    pub tangential_restitution: f64,
+    /// Rebounding contacts before the particle is stopped.
+    pub max_bounces: u32,
+    /// Rebounds slower than this rest, m/s.
+    pub rest_speed_m_s: f64,
+}
+
+impl Default for BounceSpec {
+    fn default() -> Self {
+        let d = BounceModel::default();
+        BounceSpec {
+            normal_restitution: d.normal_restitution,
+            tangential_restitution: d.tangential_restitution,
+            max_bounces: d.max_bounces,
+            rest_speed_m_s: d.rest_speed_m_s,
+        }
+    }
+}
+
+/// Where the shape model comes from.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum ShapeSource {
+    /// The built-in demo body (see [`builtin_quillon`]).
+    BuiltinQuillon,
+    /// An OBJ file, path as written (relative to the scenario file); the caller opens it.
+    File {
+        /// Path as written in the scenario.
+        path: String,
+        /// Length unit of its coordinates.
+        unit: LengthUnit,
+    },
+}
+
+/// The built-in demo body's shape, parsed from the embedded OBJ (kilometres).
+pub fn builtin_quillon() -> Result<(ShapeModel, Vec<Warning>)> {
+    Ok(ShapeModel::from_obj(
+        spinfall_gravity::demo::OBJ_KM.as_bytes(),
+        LengthUnit::Kilometre,
+    )?)
+}
+
+#[derive(Deserialize)]
+struct Header {
+    format: Option<serde_json::Value>,
+    version: Option<serde_json::Value>,
+}
+
+fn err(path: impl Into<String>, message: impl Into<String>) -> DynamicsError {
+    let path = path.into();
+    DynamicsError::Scenario {
+        path: if path.is_empty() {
+            "(document)".into()
+        } else {
+            path
+        },
+        message: message.into(),
+    }
+}
+
+fn located(text: &str, e: serde_json::Error) -> DynamicsError {
+    let msg = e.to_string();
+    let container = msg.starts_with("missing field") || msg.starts_with("invalid length");
+    let path = if e.line() == 0 {
+        String::new()
+    } else {
+        json_path_at(text, e.line(), e.column(), container)
+    };
+    err(path, msg)
+}
+
+fn finite(path: &str, v: f64) -> Result<f64> {
+    if v.is_finite() {
+        Ok(v)
+    } else {
+        Err(err(path, format!("must be a finite number, got {v}")))
+    }
+}
+
+fn positive(path: &str, v: f64) -> Result<f64> {
+    if v.is_finite() && v > 0.0 {
+        Ok(v)
+    } else {
+        Err(err(path, format!("must be a finite number > 0, got {v}")))
+    }
+}
+
+fn in_range(path: &str, v: f64, lo: f64, hi: f64) -> Result<f64> {
+    if v.is_finite() && (lo..=hi).contains(&v) {
+        Ok(v)
+    } else {
+        let range = if hi == f64::MAX {
+            format!(">= {lo:?}")
+        } else {
+            format!("in [{lo:?}, {hi:?}]")
+        };
+        Err(err(
+            path,
+            format!("must be a finite number {range}, got {v}"),
+        ))
+    }
+}
+
+impl Scenario {
+    /// Parses and validates a scenario document.
+    ///
+    /// Errors name the field path and, for parse errors, the line and column, e.g.
+    /// `launches[2].speed_m_s: invalid type: string "fast", expected f64 at line 14 column 20`.
+    pub fn from_json_str(text: &str) -> Result<Scenario> {
+        // Format and version first, so a document of another kind or version is named as such.
+        let header: Header = serde_json::from_str(text).map_err(|e| located(text, e))?;
+        match header.format {
+            Some(serde_json::Value::String(s)) if s == SCENARIO_FORMAT => {}
+            Some(other) => {
+                return Err(err(
+                    "format",
+                    format!("expected \"{SCENARIO_FORMAT}\", got {other}"),
+                ));
+            }
+            None => {
+                return Err(err(
+                    "format",
+                    format!("missing: a scenario starts with \"format\": \"{SCENARIO_FORMAT}\""),
+                ));
+            }
+        }
+        match header.version {
+            Some(serde_json::Value::Number(n)) if n.as_u64() == Some(SCENARIO_VERSION as u64) => {}
+            Some(other) => {
+                return Err(err(
+                    "version",
+                    format!(
+                        "unsupported version {other}: this build reads version {SCENARIO_VERSION}"
+                    ),
+                ));
+            }
+            None => return Err(err("version", "missing")),
+        }
+        let scenario: Scenario = serde_json::from_str(text).map_err(|e| located(text, e))?;
+        scenario.validate()?;
+        Ok(scenario)
+    }
+
+    /// Pretty JSON that [`Scenario::from_json_str`] reads back to an equal scenario.
+    pub fn to_json_string_pretty(&self) -> Result<String> {
+        Ok(serde_json::to_string_pretty(self)?)
+    }
+
+    /// Semantic checks, each error naming its field.
+    pub fn validate(&self) -> Result<()> {
+        if self.format != SCENARIO_FORMAT {
+            return Err(err("format", format!("expected \"{SCENARIO_FORMAT}\"")));
+        }
+        if self.version != SCENARIO_VERSION {
+            return Err(err(
+                "version",
+                format!("unsupported version {}", self.version),
+            ));
+        }
+        let b = &self.body;
+        if b.shape.trim().is_empty() {
+            return Err(err(
+                "body.shape",
+                "must name an OBJ file or \"builtin:quillon\"",
+            ));
+        }
+        if b.shape.starts_with("builtin:") && b.shape != BUILTIN_QUILLON {
+            return Err(err(
+                "body.shape",
+                format!(
+                    "unknown built-in shape {:?}: the only one is \"{BUILTIN_QUILLON}\"",
+                    b.shape
+                ),
+            ));
+        }
+        let given: Vec<&str> = [
+            ("density_kg_m3", b.density_kg_m3),
+            ("mass_kg", b.mass_kg),
+            ("gm_m3_s2", b.gm_m3_s2),
+        ]
+        .iter()
+        .filter(|(_, v)| v.is_some())
+        .map(|(k, _)| *k)
+        .collect();
+        if given.len() != 1 {
+            return Err(err(
+                "body",
+                format!(
+                    "give exactly one of density_kg_m3, mass_kg, gm_m3_s2 (found {})",
+                    if given.is_empty() {
+                        "none".to_string()
+                    } else {
+                        given.join(", ")
+                    }
+                ),
+            ));
+        }
+        for (k, v) in [
+            ("body.density_kg_m3", b.density_kg_m3),
+            ("body.mass_kg", b.mass_kg),
+            ("body.gm_m3_s2", b.gm_m3_s2),
+        ] {
+            if let Some(v) = v {
+                positive(k, v)?;
+            }
+        }
+        positive("body.spin.period_h", b.spin.period_h)?;
+        finite("body.spin.phase_deg", b.spin.phase_deg)?;
+        if let SpinAxis::Vector(v) = b.spin.axis {
+            let n = Vector3::from(v).norm();
+            if !n.is_finite() || n < 1e-12 {
+                return Err(err(
+                    "body.spin.axis",
+                    format!("must be a finite non-zero vector, got {v:?}"),
+                ));
+            }
+        }
+        if self.launches.is_empty() {
+            return Err(err("launches", "needs at least one launch"));
+        }
+        let mut ids = std::collections::HashSet::new();
+        for (i, l) in self.launches.iter().enumerate() {
+            let p = format!("launches[{i}]");
+            if l.id.trim().is_empty() {
+                return Err(err(format!("{p}.id"), "must not be empty"));
+            }
+            if !ids.insert(l.id.as_str()) {
+                return Err(err(format!("{p}.id"), format!("duplicate id {:?}", l.id)));
+            }
+            self.validate_launch(&p, l)?;
+        }
+        let it = &self.integrator;
+        in_range("integrator.rel_tol", it.rel_tol, 1e-14, 1e-3)?;
+        positive("integrator.abs_tol_m", it.abs_tol_m)?;
+        if let Some(v) = it.abs_tol_m_s {
+            positive("integrator.abs_tol_m_s", v)?;
+        }
+        positive("integrator.max_time_s", it.max_time_s)?;
+        if it.max_steps == 0 {
+            return Err(err("integrator.max_steps", "must be >= 1"));
+        }
+        positive("integrator.max_wall_s", it.max_wall_s)?;
+        let bo = &self.bounce;
+        in_range("bounce.normal_restitution", bo.normal_restitution, 0.0, 1.0)?;
+        in_range(
+            "bounce.tangential_restitution",
+            bo.tangential_restitution,
+            0.0,
+            1.0,
+        )?;
+        in_range("bounce.rest_speed_m_s", bo.rest_speed_m_s, 0.0, f64::MAX)?;
+        Ok(())
+    }
+
+    fn validate_launch(&self, p: &str, l: &LaunchEntry) -> Result<()> {
+        match (&l.state, &l.site) {
+            (Some(_), Some(_)) => {
+                return Err(err(
+                    p.to_string(),
+                    "give either \"state\" or \"site\", not both",
+                ));
+            }
+            (None, None) => return Err(err(p.to_string(), "needs a \"state\" or a \"site\"")),
+            (Some(s), None) => {
+                for (k, v) in s.position_m.iter().enumerate() {
+                    finite(&format!("{p}.state.position_m[{k}]"), *v)?;
+                }
+                for (k, v) in s.velocity_m_s.iter().enumerate() {
+                    finite(&format!("{p}.state.velocity_m_s[{k}]"), *v)?;
+                }
+                for (k, present) in [
+                    ("speed_m_s", l.speed_m_s.is_some()),
+                    ("azimuth_deg", l.azimuth_deg.is_some()),
+                    ("elevation_deg", l.elevation_deg.is_some()),
+                    ("altitude_m", l.altitude_m.is_some()),
+                    ("normal", l.normal.is_some()),
+                    ("fan", l.fan.is_some()),
+                    ("dispersion", l.dispersion.is_some()),
+                ] {
+                    if present {
+                        return Err(err(
+                            format!("{p}.{k}"),
+                            "only applies to launches from a \"site\", not to an explicit \"state\"",
+                        ));
+                    }
+                }
+            }
+            (None, Some(site)) => {
+                let sp = format!("{p}.site");
+                let forms = [
+                    site.lat_deg.is_some() || site.lon_deg.is_some(),
+                    site.face.is_some(),
+                    site.point_m.is_some(),
+                ];
+                if forms.iter().filter(|f| **f).count() != 1 {
+                    return Err(err(
+                        sp,
+                        "give exactly one of {lat_deg, lon_deg}, {face} or {point_m}",
+                    ));
+                }
+                if forms[0] {
+                    let lat = site.lat_deg.ok_or_else(|| {
+                        err(format!("{sp}.lat_deg"), "missing (lon_deg is given)")
+                    })?;
+                    let lon = site.lon_deg.ok_or_else(|| {
+                        err(format!("{sp}.lon_deg"), "missing (lat_deg is given)")
+                    })?;
+                    in_range(&format!("{sp}.lat_deg"), lat, -90.0, 90.0)?;
+                    finite(&format!("{sp}.lon_deg"), lon)?;
+                }
+                if let Some(pt) = site.point_m {
+                    for (k, v) in pt.iter().enumerate() {
+                        finite(&format!("{sp}.point_m[{k}]"), *v)?;
+                    }
+                }
+                let speed = l.speed_m_s.ok_or_else(|| {
+                    err(
+                        format!("{p}.speed_m_s"),
+                        "missing: a launch from a site needs a speed",
+                    )
+                })?;
+                in_range(&format!("{p}.speed_m_s"), speed, 0.0, f64::MAX)?;
+                if let Some(a) = l.azimuth_deg {
+                    finite(&format!("{p}.azimuth_deg"), a)?;
+                }
+                if let Some(e) = l.elevation_deg {
+                    in_range(&format!("{p}.elevation_deg"), e, 0.0, 90.0)?;
+                }
+                if let Some(h) = l.altitude_m {
+                    in_range(&format!("{p}.altitude_m"), h, 0.0, f64::MAX)?;
+                }
+                if let Some(f) = &l.fan {
+                    if f.count == 0 || f.count > 100_000 {
+                        return Err(err(
+                            format!("{p}.fan.count"),
+                            format!("must be in [1, 100000], got {}", f.count),
+                        ));
+                    }
+                    match f.vary {
+                        FanQuantity::AzimuthDeg => finite(&format!("{p}.fan.to"), f.to)?,
+                        FanQuantity::ElevationDeg => {
+                            in_range(&format!("{p}.fan.to"), f.to, 0.0, 90.0)?
+                        }
+                        FanQuantity::SpeedMS => {
+                            in_range(&format!("{p}.fan.to"), f.to, 0.0, f64::MAX)?
+                        }
+                    };
+                }
+                if let Some(d) = &l.dispersion {
+                    if d.count == 0 || d.count > 1_000_000 {
+                        return Err(err(
+                            format!("{p}.dispersion.count"),
+                            format!("must be in [1, 1000000], got {}", d.count),
+                        ));
+                    }
+                    if d.speed_sigma_m_s.is_some() && d.speed_sigma_percent.is_some() {
+                        return Err(err(
+                            format!("{p}.dispersion"),
+                            "give speed_sigma_m_s or speed_sigma_percent, not both",
+                        ));
+                    }
+                    for (k, v) in [
+                        ("speed_sigma_m_s", d.speed_sigma_m_s),
+                        ("speed_sigma_percent", d.speed_sigma_percent),
+                        ("direction_sigma_deg", Some(d.direction_sigma_deg)),
+                    ] {
+                        if let Some(v) = v {
+                            in_range(&format!("{p}.dispersion.{k}"), v, 0.0, f64::MAX)?;
+                        }
+                    }
+                }
+            }
+        }
+        Ok(())
+    }
+
+    /// Where to get the shape model.
+    pub fn shape_source(&self) -> ShapeSource {
+        if self.body.shape == BUILTIN_QUILLON {
+            ShapeSource::BuiltinQuillon
+        } else {
+            ShapeSource::File {
+                path: self.body.shape.clone(),
+                unit: self.body.unit,
+            }
+        }
+    }
+
+    /// The mass specification given.
+    pub fn mass_spec(&self) -> Result<MassSpec> {
+        let b = &self.body;
+        match (b.density_kg_m3, b.mass_kg, b.gm_m3_s2) {
+            (Some(d), None, None) => Ok(MassSpec::DensityKgM3(d)),
+            (None, Some(m), None) => Ok(MassSpec::MassKg(m)),
+            (None, None, Some(g)) => Ok(MassSpec::GmM3S2(g)),
+            _ => Err(err(
+                "body",
+                "give exactly one of density_kg_m3, mass_kg, gm_m3_s2",
+            )),
+        }
+    }
+
+    /// Builds the body from the loaded shape (recentred on its centre of mass unless
+    /// `recenter` is false).
+    pub fn build_body(&self, shape: ShapeModel) -> Result<Body> {
+        let shape = if self.body.recenter {
+            shape.recentered()
+        } else {
+            shape
+        };
+        let axis = self
+            .body
+            .spin
+            .axis
+            .resolve(&shape)
+            .map_err(|e| err("body.spin.axis", e.to_string()))?;
+        let spin = Spin::from_hours(
+            self.body.spin.period_h,
+            axis,
+            self.body.spin.phase_deg.to_radians(),
+        )
+        .map_err(|e| err("body.spin", e.to_string()))?;
+        let name = self
+            .body
+            .name
+            .clone()
+            .unwrap_or_else(|| match self.shape_source() {
+                ShapeSource::BuiltinQuillon => spinfall_gravity::demo::NAME.to_string(),
+                ShapeSource::File { path, .. } => std::path::Path::new(&path)
+                    .file_stem()
+                    .map(|s| s.to_string_lossy().into_owned())
+                    .unwrap_or(path),
+            });
+        Body::new(name, Arc::new(shape), self.mass_spec()?, spin)
+            .map_err(|e| err("body", e.to_string()))
+    }
+
+    /// Flight settings from the `integrator` and `bounce` sections.
+    pub fn flight_settings(&self) -> FlightSettings {
+        let i = &self.integrator;
+        let b = &self.bounce;
+        FlightSettings {
+            integrator: IntegratorSettings {
+                rel_tol: i.rel_tol,
+                abs_tol_m: i.abs_tol_m,
+                abs_tol_m_s: i.abs_tol_m_s,
+                max_time_s: i.max_time_s,
+                max_steps: i.max_steps,
+                max_wall_s: i.max_wall_s,
+            },
+            bounce: BounceModel {
+                normal_restitution: b.normal_restitution,
+                tangential_restitution: b.tangential_restitution,
+                max_bounces: b.max_bounces,
+                rest_speed_m_s: b.rest_speed_m_s,
+            },
+            sampling: SamplingSettings::default(),
+        }
+    }
+
+    /// Expands every launch entry (fans, dispersion sets) into launch states on `body`.
+    pub fn build_launches(&self, body: &Body) -> Result<Vec<LaunchState>> {
+        let mut out = Vec::new();
+        for (i, l) in self.launches.iter().enumerate() {
+            let p = format!("launches[{i}]");
+            if let Some(s) = &l.state {
+                out.push(
+                    LaunchState::from_state(
+                        l.id.clone(),
+                        Point3::from(s.position_m),
+                        Vector3::from(s.velocity_m_s),
+                    )
+                    .map_err(|e| err(format!("{p}.state"), e.to_string()))?,
+                );
+                continue;
+            }
+            let Some(site) = &l.site else {
+                return Err(err(p, "needs a \"state\" or a \"site\""));
+            };
+            let normal = l.normal.unwrap_or_default();
+            let sp = format!("{p}.site");
+            let site = if let (Some(lat), Some(lon)) = (site.lat_deg, site.lon_deg) {
+                Site::from_lat_lon(body, lat, lon, normal)
+            } else if let Some(face) = site.face {
+                Site::from_face(body, face, normal)
+            } else if let Some(pt) = site.point_m {
+                let hit = body.shape.nearest_surface_point(&Point3::from(pt));
+                Site::from_surface_point(body, hit.point_m, hit.face, normal)
+            } else {
+                return Err(err(
+                    sp,
+                    "give exactly one of {lat_deg, lon_deg}, {face} or {point_m}",
+                ));
+            }
+            .map_err(|e| err(sp.clone(), e.to_string()))?;
+            let spec = LaunchSpec {
+                id: l.id.clone(),
+                site,
+                speed_m_s: l
+                    .speed_m_s
+                    .ok_or_else(|| err(format!("{p}.speed_m_s"), "missing"))?,
+                azimuth_deg: l.azimuth_deg.unwrap_or(0.0),
+                elevation_deg: l.elevation_deg.unwrap_or(90.0),
+                start_altitude_m: l.altitude_m.unwrap_or(DEFAULT_START_ALTITUDE_M),
+            };
+            let members = match &l.fan {
+                Some(f) => spec
+                    .fan(&Fan {
+                        vary: f.vary,
+                        to: f.to,
+                        count: f.count,
+                    })
+                    .map_err(|e| err(format!("{p}.fan"), e.to_string()))?,
+                None => vec![spec],
+            };
+            for m in members {
+                match &l.dispersion {
+                    Some(d) => {
+                        let sigma = match (d.speed_sigma_m_s, d.speed_sigma_percent) {
+                            (_, Some(pct)) => SpeedSigma::Percent(pct),
+                            (Some(s), None) => SpeedSigma::MS(s),
+                            (None, None) => SpeedSigma::MS(0.0),
+                        };
+                        let disp = Dispersion {
+                            count: d.count,
+                            speed_sigma: sigma,
+                            direction_sigma_deg: d.direction_sigma_deg,
+                            seed: self.seed.unwrap_or(0)
+                                ^ (i as u64).wrapping_mul(0x9E37_79B9_7F4A_7C15),
+                        };
+                        out.extend(
+                            m.disperse(&disp)
+                                .map_err(|e| err(format!("{p}.dispersion"), e.to_string()))?,
+                        );
+                    }
+                    None => out.push(m.state().map_err(|e| err(p.clone(), e.to_string()))?),
+                }
+            }
+        }
+        Ok(out)
+    }
+
+    /// A demo scenario on the built-in body Quillon: a fan of eight azimuths from a mid-latitude
+    /// site, a dispersion set, a launch from a face and one from an explicit state.
+    pub fn builtin_example() -> Scenario {
+        Scenario {
+            format: SCENARIO_FORMAT.into(),
+            version: SCENARIO_VERSION,
+            name: Some("Quillon hops".into()),
+            notes: Some("Built-in example: hops from the demo body; for research and planning, not flight-certified.".into()),
+            seed: Some(7),
+            body: BodySpec {
+                shape: BUILTIN_QUILLON.into(),
+                unit: LengthUnit::Kilometre,
+                name: None,
+                density_kg_m3: Some(spinfall_gravity::demo::DENSITY_KG_M3),
+                mass_kg: None,
+                gm_m3_s2: None,
+                recenter: true,
+                spin: SpinSpec {
+                    period_h: spinfall_gravity::demo::PERIOD_H,
+                    axis: SpinAxis::MaxMoment,
+                    phase_deg: 0.0,
+                },
+            },
+            launches: vec![
+                LaunchEntry {
+                    id: "fan".into(),
+                    site: Some(SiteSpec { lat_deg: Some(20.0), lon_deg: Some(45.0), ..SiteSpec::default() }),
+                    speed_m_s: Some(0.8),
+                    azimuth_deg: Some(0.0),
+                    elevation_deg: Some(45.0),
+                    fan: Some(FanSpec { vary: FanQuantity::AzimuthDeg, to: 315.0, count: 8 }),
+                    ..LaunchEntry::default()
+                },
+                LaunchEntry {
+                    id: "scatter".into(),
+                    site: Some(SiteSpec { lat_deg: Some(-10.0), lon_deg: Some(200.0), ..SiteSpec::default() }),
+                    speed_m_s: Some(1.0),
+                    azimuth_deg: Some(90.0),
+                    elevation_deg: Some(60.0),
+                    normal: Some(NormalMode::Smoothed),
+                    dispersion: Some(DispersionSpec {
+                        count: 6,
+                        speed_sigma_m_s: None,
+                        speed_sigma_percent: Some(5.0),
+                        direction_sigma_deg: 3.0,
+                    }),
+                    ..LaunchEntry::default()
+                },
+                LaunchEntry {
+                    id: "face-10".into(),
+                    site: Some(SiteSpec { face: Some(10), ..SiteSpec::default() }),
+                    speed_m_s: Some(0.5),
+                    ..LaunchEntry::default()
+                },
+                LaunchEntry {
+                    id: "orbit".into(),
+                    state: Some(StateSpec { position_m: [6000.0, 0.0, 0.0], velocity_m_s: [0.0, -0.9, 0.3] }),
+                    ..LaunchEntry::default()
+                },
+            ],
+            integrator: IntegratorSpec { max_time_s: 100_000.0, ..IntegratorSpec::default() },
+            bounce: BounceSpec::default(),
+        }
+    }
+}

@@ -1,0 +1,84 @@
+//! Shared by `fly`, `map` and `render`: a scenario file turned into a body and its launches.
+
+use std::fs::File;
+use std::io::BufReader;
+use std::sync::Arc;
+use std::time::{Duration, Instant};
+
+use spinfall_dynamics::scenario::{ShapeSource, builtin_quillon};
+use spinfall_dynamics::launch::LaunchState;
+use spinfall_dynamics::scenario::Scenario;
+use spinfall_dynamics::{Body, FlightReport, Outcome, fly_all};
+use spinfall_gravity::ShapeModel;
+
+use crate::exit::{CmdResult, InputContext};
+use crate::io::read_scenario_text;
+
+/// A scenario with its body built and its launches expanded.
+pub struct Prepared {
+    pub scenario: Scenario,
+    pub body: Arc<Body>,
+    pub launches: Vec<LaunchState>,
+}
+
+/// Reads, validates and builds a scenario (`spec` is a path or `builtin:example`).
+pub fn prepare(spec: &str) -> CmdResult<Prepared> {
+    let (text, dir) = read_scenario_text(spec)?;
+    let scenario =
+        Scenario::from_json_str(&text).input_context(format!("scenario {spec}"))?;
+    let (shape, warnings) = match scenario.shape_source() {
+        ShapeSource::BuiltinQuillon => builtin_quillon().input_context("built-in demo body")?,
+        ShapeSource::File { path, unit } => {
+            let full = dir.join(&path);
+            let file = File::open(&full).input_context(format!(
+                "body.shape: cannot open {} (relative to the scenario file)",
+                full.display()
+            ))?;
+            ShapeModel::from_obj(BufReader::new(file), unit)
+                .input_context(format!("body.shape {}", full.display()))?
+        }
+    };
+    for w in &warnings {
+        eprintln!("warning: shape model: {w}");
+    }
+    let body = Arc::new(scenario.build_body(shape).input_context(format!("scenario {spec}"))?);
+    let launches =
+        scenario.build_launches(&body).input_context(format!("scenario {spec}"))?;
+    Ok(Prepared { scenario, body, launches })
+}
+
+/// Flies every launch with progress on stderr (at most one line a second).
+pub fn fly_with_progress(prepared: &Prepared) -> Vec<FlightReport> {
+    let start = Instant::now();
+    let last = std::sync::Mutex::new(Instant::now());
+    let progress = |done: usize, total: usize| {
+        if let Ok(mut last) = last.lock() {
+            if last.elapsed() >= Duration::from_secs(1) || done == total {
+                *last = Instant::now();
+                eprintln!(
+                    "flying: {done}/{total} launches ({:.1} s)",
+                    start.elapsed().as_secs_f64()
+                );
+            }
+        }
+    };
+    let cancel = spinfall_dynamics::Cancel::new(false);
+    fly_all(
+        &prepared.body,
+        &prepared.launches,
+        &prepared.scenario.flight_settings(),
+        &progress,
+        &cancel,
+    )
+}
+
+/// The ids and reasons of failed launches.
+pub fn failures(reports: &[FlightReport]) -> Vec<String> {
+    reports
+        .iter()
+        .filter_map(|r| match &r.outcome {
+            Outcome::Failed { reason } => Some(format!("{}: {reason}", r.id)),
+            _ => None,
+        })
+        .collect()
+}
