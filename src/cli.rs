@@ -58,8 +58,8 @@ pub struct InfoArgs {
 }
 
 #[derive(Debug, Args)]
-#[command(group(clap::ArgGroup::new("mass").required(true).args(["density", "mass", "gm"])))]
-#[command(group(clap::ArgGroup::new("where").required(true).args(["at", "points"])))]
+#[command(group(clap::ArgGroup::new("mass_source").required(true).args(["density", "mass", "gm"])))]
+#[command(group(clap::ArgGroup::new("field_points").required(true).args(["at", "points"])))]
 pub struct GravityArgs {
     #[command(flatten)]
     pub shape: ShapeArgs,
@@ -150,4 +150,14 @@ pub enum MapArg {
     Geopotential,
     EffectiveG,
     EscapeSpeed,
+}
+
+#[cfg(test)]
+mod tests {
+    use clap::CommandFactory;
+
+    #[test]
+    fn the_command_line_definition_is_consistent() {
+        super::Cli::command().debug_assert();
+    }
 }

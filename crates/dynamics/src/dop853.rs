@@ -255,6 +255,12 @@ const D: [[f64; 12]; 4] = [
     ],
 ];
 
+// Step-size control: safety factor, smallest and largest step ratio, PI memory exponent.
+const SAFETY: f64 = 0.9;
+const FAC_MIN: f64 = 0.333;
+const FAC_MAX: f64 = 6.0;
+const PI_BETA: f64 = 0.0;
+
 /// Error tolerances of the integrator.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Tolerances<const N: usize> {
@@ -279,6 +285,7 @@ pub struct Dop853<const N: usize> {
     k: [[f64; N]; 16],
     dense: Option<[[f64; N]; 8]>,
     last_rejected: bool,
+    err_old: f64,
     /// Accepted steps so far.
     pub steps: u64,
     /// Rejected step attempts so far.
@@ -326,11 +333,42 @@ impl<const N: usize> Dop853<N> {
             k: [[0.0; N]; 16],
             dense: None,
             last_rejected: false,
+            err_old: 1e-4,
             steps: 0,
             rejected: 0,
         };
         me.h_next = me.initial_step(sys, h_max.abs());
         me
+    }
+
+    /// Starts at `(t0, y0)` with a first step size chosen by the caller (e.g. from the time
+    /// scales of the problem) instead of the generic heuristic; one evaluation. A step that is
+    /// too long is simply rejected and shortened.
+    pub fn with_first_step<S: OdeSystem<N>>(
+        sys: &mut S,
+        t0: f64,
+        y0: [f64; N],
+        tol: Tolerances<N>,
+        h_first: f64,
+    ) -> Self {
+        let f0 = sys.derivative(t0, &y0);
+        Dop853 {
+            tol,
+            t: t0,
+            y: y0,
+            f: f0,
+            h_next: if h_first.is_finite() && h_first > 0.0 { h_first } else { 1e-6 },
+            t_old: t0,
+            y_old: y0,
+            f_old: f0,
+            h_done: 0.0,
+            k: [[0.0; N]; 16],
+            dense: None,
+            last_rejected: false,
+            err_old: 1e-4,
+            steps: 0,
+            rejected: 0,
+        }
     }
 
     fn sk(&self, i: usize, a: f64, b: f64) -> f64 {
@@ -451,11 +489,15 @@ impl<const N: usize> Dop853<N> {
                 f64::INFINITY
             };
             if err <= 1.0 && err.is_finite() {
+                // Step-size controller with memory (PI control; Hairer & Wanner, Solving ODEs
+                // II, sec. IV.2, and the `beta` option of DOP853).
                 let scale = if err == 0.0 {
-                    6.0
+                    FAC_MAX
                 } else {
-                    (0.9 * err.powf(-1.0 / 8.0)).clamp(0.333, 6.0)
+                    (SAFETY * err.powf(-(1.0 / 8.0 - 0.2 * PI_BETA)) * self.err_old.powf(PI_BETA))
+                        .clamp(FAC_MIN, FAC_MAX)
                 };
+                self.err_old = err.max(1e-4);
                 let f_new = sys.derivative(self.t + h, &y_new);
                 self.k[12] = f_new;
                 self.t_old = self.t;
@@ -478,7 +520,7 @@ impl<const N: usize> Dop853<N> {
             self.rejected += 1;
             self.last_rejected = true;
             let scale = if err.is_finite() {
-                (0.9 * err.powf(-1.0 / 8.0)).max(0.333)
+                (SAFETY * err.powf(-1.0 / 8.0)).max(FAC_MIN)
             } else {
                 0.25
             };

@@ -530,6 +530,19 @@ impl<'a> Flight<'a> {
         }
     }
 
+    /// First step of an arc from its time scales: an 8th-order step of length `h` errs by about
+    /// `(h / T)^9`, so `h ~ T rel_tol^(1/8)` with `T` the shorter of the time to change the
+    /// velocity (`|v| / |a|`, at least the time to fall 1 % of the body size) and the time to
+    /// fall the body size (`sqrt(R / |a|)`). Cheaper than ramping up from a tiny step.
+    fn first_step(&self, y_body: &[f64; 6], g: &Vector3<f64>) -> f64 {
+        let p = pos_of(y_body);
+        let a = (g - self.w.cross(&self.w.cross(&p.coords))).norm().max(1e-12);
+        let r = self.body.shape.mass_properties().equivalent_radius_m;
+        let t_fall = (r / a).sqrt();
+        let t_vel = (vel_of(y_body).norm() / a).max((0.01 * r / a).sqrt());
+        (0.5 * self.tol.rel.powf(1.0 / 8.0) * t_vel.min(t_fall)).min(self.h_max)
+    }
+
     fn jacobi(&self, y: &[f64; 6], u: f64) -> f64 {
         let wxr = self.w.cross(&pos_of(y).coords);
         0.5 * vel_of(y).norm_squared() - 0.5 * wxr.norm_squared() - u
@@ -650,8 +663,9 @@ impl<'a> Flight<'a> {
             evals: 0,
             last_u: 0.0,
         };
-        let mut ode = Dop853::new(&mut sys, t0, y0, self.tol, self.h_max);
-        let (u0, _) = self.body.gravity.potential_acceleration(&pos_of(&y0));
+        let (u0, g0) = self.body.gravity.potential_acceleration(&pos_of(&y0));
+        let h0 = self.first_step(&y0, &g0);
+        let mut ode = Dop853::with_first_step(&mut sys, t0, y0, self.tol, h0);
         let c0 = self.jacobi(&y0, u0);
         let c_scale = c0.abs().max(f64::MIN_POSITIVE);
         let mut drift: f64 = 0.0;
@@ -763,7 +777,9 @@ impl<'a> Flight<'a> {
             body: self.body,
             evals: 0,
         };
-        let mut ode = Dop853::new(&mut sys, t0, y0, self.tol, self.h_max);
+        let (_, g0) = self.body.gravity.potential_acceleration(&pos_of(y0_body));
+        let h0 = self.first_step(y0_body, &g0);
+        let mut ode = Dop853::with_first_step(&mut sys, t0, y0, self.tol, h0);
         let result = loop {
             if ode.t() >= t_end {
                 break Ok(*ode.y());

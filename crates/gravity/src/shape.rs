@@ -182,6 +182,10 @@ impl ShapeModel {
     /// First point where the ray `origin + t dir`, `0 <= t <= max_t`, meets the surface; `t` is
     /// in units of `dir` (which need not be unit). None for a miss, a zero or non-finite
     /// direction, or a negative `max_t`.
+    ///
+    /// A ray that starts on the surface (a launch site) may report that face at `t ≈ 0`:
+    /// start a hair off the surface, or skip hits with `front_face == false`, when that matters.
+    /// Edges and vertices are hit by at least one of their faces (barycentric slack 1e-10).
     pub fn ray_first_hit(
         &self,
         origin: &Point3<f64>,

@@ -417,7 +417,7 @@ impl SpinfallApp {
         if self.state.show_results {
             egui::Panel::bottom("results")
                 .resizable(true)
-                .default_size(260.0)
+                .default_size(300.0)
                 .min_size(120.0)
                 .show(ui, |ui| self.results_ui(ui));
         }
@@ -847,8 +847,9 @@ impl SpinfallApp {
                     self.reports = Arc::new(out.reports);
                     self.state.view.selected_launch = (n > 0).then_some(0);
                     self.plot_cache = None;
-                    self.t_s = 0.0;
                     self.data_generation += 1;
+                    // Show the whole flights; Play starts over from t = 0.
+                    self.t_s = self.end_time_s();
                 }
                 Err(e) => {
                     self.run_state = RunState::Failed(e.clone());

@@ -63,6 +63,10 @@ const COLUMNS: [(ResultColumn, &str); 13] = [
 pub struct TableState {
     /// Column and ascending flag.
     pub sort: Option<(ResultColumn, bool)>,
+    /// Which plot: 0 altitude, 1 speed, 2 Jacobi drift.
+    pub plot_kind: usize,
+    /// Which plot: 0 altitude, 1 speed, 2 Jacobi drift.
+    pub plot_kind: usize,
     /// Plot job for the selected launch.
     pub(crate) plot_job: Option<Job<PlotSeries>>,
 }
@@ -342,43 +346,46 @@ impl SpinfallApp {
             ui.spinner();
             return;
         };
-        ui.strong(format!("Launch {}", self.reports[i].id));
-        let h = ((ui.available_height() - 60.0) / 3.0).max(50.0);
+        ui.horizontal(|ui| {
+            ui.strong(format!("Launch {}", self.reports[i].id));
+            ui.separator();
+            for (k, name) in ["Altitude", "Speed", "Jacobi drift"].into_iter().enumerate() {
+                ui.selectable_value(&mut self.table.plot_kind, k, name);
+            }
+        });
         let t_now = self.t_s;
-        let plot = |ui: &mut Ui, id: &str, y_label: &str, lines: Vec<(&str, &Vec<[f64; 2]>)>| {
-            Plot::new(id)
-                .height(h)
-                .legend(Legend::default())
-                .x_axis_label("t (s)")
-                .y_axis_label(y_label)
-                .allow_scroll(false)
-                .show(ui, |plot_ui| {
-                    for (name, pts) in lines {
-                        plot_ui.line(Line::new(name, PlotPoints::from(pts.clone())));
-                    }
-                    plot_ui.vline(egui_plot::VLine::new("now", t_now));
-                });
-        };
-        plot(
-            ui,
-            "alt",
-            "altitude (m)",
-            vec![("altitude (m)", &series.altitude_m)],
-        );
-        plot(
-            ui,
-            "speed",
-            "speed (m/s)",
-            vec![
-                ("rel. to surface (m/s)", &series.speed_body_m_s),
-                ("inertial (m/s)", &series.speed_inertial_m_s),
-            ],
-        );
-        plot(
-            ui,
-            "jacobi",
-            "(C - C0)/|C0|",
-            vec![("Jacobi drift (relative)", &series.jacobi_rel)],
-        );
+        let (id, y_label, lines): (&str, &str, Vec<(&str, &Vec<[f64; 2]>)>) =
+            match self.table.plot_kind {
+                0 => (
+                    "alt",
+                    "altitude above the surface (m)",
+                    vec![("altitude (m)", &series.altitude_m)],
+                ),
+                1 => (
+                    "speed",
+                    "speed (m/s)",
+                    vec![
+                        ("relative to the surface (m/s)", &series.speed_body_m_s),
+                        ("inertial (m/s)", &series.speed_inertial_m_s),
+                    ],
+                ),
+                _ => (
+                    "jacobi",
+                    "(C - C0) / |C0|",
+                    vec![("Jacobi constant, relative drift", &series.jacobi_rel)],
+                ),
+            };
+        Plot::new(id)
+            .height(ui.available_height().max(80.0))
+            .legend(Legend::default())
+            .x_axis_label("t (s)")
+            .y_axis_label(y_label)
+            .allow_scroll(false)
+            .show(ui, |plot_ui| {
+                for (name, pts) in lines {
+                    plot_ui.line(Line::new(name, PlotPoints::from(pts.clone())));
+                }
+                plot_ui.vline(egui_plot::VLine::new("", t_now));
+            });
     }
 }

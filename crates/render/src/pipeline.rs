@@ -9,7 +9,7 @@ use rayon::prelude::*;
 use crate::camera::{Camera, Projection};
 use crate::color::Color;
 use crate::raster::{
-    BAND_H, Band, DepthBias, MAX_COORD_PX, PointRec, SegRec, TriRec, edges, pixel_bbox, plane,
+    BAND_H, Band, DepthBias, INVALID, PointRec, SVert, SegRec, TriRec, edges, pixel_bbox, plane,
 };
 use crate::scene::{
     FaceColors, Light, LineColor, MarkerShape, Occluded, Scene, SceneMesh, Shading,
@@ -23,7 +23,7 @@ const TRI_CHUNK: usize = 128 * CLUSTER;
 pub(crate) struct Buffers {
     pub depth: Vec<f32>,
     pub ids: Vec<(u32, u32)>,
-    verts: Vec<Vec<[f32; 4]>>,
+    verts: Vec<Vec<SVert>>,
     tri_jobs: Vec<TriJob>,
     line_jobs: Vec<LineJob>,
     normals: Vec<NormalCache>,
@@ -404,7 +404,7 @@ impl Buffers {
             };
             let out = &mut self.verts[mi];
             out.clear();
-            out.resize(mesh.positions.len(), [0.0; 4]);
+            out.resize(mesh.positions.len(), SVert::default());
             transform_vertices(frame, &rows, &nmat, &mesh.positions, normals, out);
         }
         // 2. Triangle set-up and binning, in fixed chunks (deterministic order).
@@ -530,7 +530,7 @@ fn transform_vertices(
     nmat: &Matrix3<f64>,
     positions: &[[f32; 3]],
     normals: Option<&[[f32; 3]]>,
-    out: &mut [[f32; 4]],
+    out: &mut [SVert],
 ) {
     let near = frame.proj.near_m as f32;
     let persp = frame.proj.perspective;
@@ -563,7 +563,7 @@ fn transform_vertices(
                     }
                     None => 1.0,
                 };
-                *o = [x / wc, y / wc, key, shade];
+                *o = SVert::new(x / wc, y / wc, key, shade);
             }
         });
 }
@@ -586,7 +586,7 @@ fn clear_bins(bins: &mut Vec<Vec<u32>>, bands: usize) {
 fn setup_triangles(
     frame: &Frame,
     mesh: &SceneMesh,
-    verts: &[[f32; 4]],
+    verts: &[SVert],
     clusters: Option<&[Cluster]>,
     face_normals: Option<&[[f32; 3]]>,
     job: &mut TriJob,
@@ -608,7 +608,7 @@ fn setup_triangles(
     let l_mesh = [l_mesh.x as f32, l_mesh.y as f32, l_mesh.z as f32];
     let nmat32 = nmat.map(|v| v as f32);
     let amb = frame.ambient;
-    let (w, h) = (frame.width as f32, frame.height as f32);
+    let hi = frame.height as i32;
     let wi = frame.width as u32;
     let nv = verts.len();
     let smooth = mesh.shading == Shading::Smooth;
@@ -642,37 +642,28 @@ fn setup_triangles(
                 continue;
             }
             let (va, vb, vc) = (verts[a], verts[b], verts[c]);
-            let area = (vb[0] - va[0]) * (vc[1] - va[1]) - (vb[1] - va[1]) * (vc[0] - va[0]);
-            // Counter-clockwise in the world appears clockwise with y down: front faces have area < 0.
-            // NaN keys mark vertices behind the near plane; NaN area fails the test too.
-            if !(area < 0.0 || (!mesh.cull_back_faces && area > 0.0))
-                || va[2].is_nan()
-                || vb[2].is_nan()
-                || vc[2].is_nan()
-            {
+            if va.ix == INVALID || vb.ix == INVALID || vc.ix == INVALID {
                 continue;
             }
+            let ix = [va.ix, vb.ix, vc.ix];
+            let iy = [va.iy, vb.iy, vc.iy];
+            let area = (ix[1] - ix[0]) as i64 * (iy[2] - iy[0]) as i64
+                - (iy[1] - iy[0]) as i64 * (ix[2] - ix[0]) as i64;
+            // Counter-clockwise in the world appears clockwise with y down: front faces have
+            // area < 0.
+            if !(area < 0 || (!mesh.cull_back_faces && area > 0)) {
+                continue;
+            }
+            let Some(bb) = pixel_bbox(ix, iy, wi as i32, hi) else {
+                continue;
+            };
             let rec0 = TriRec {
-                x: [va[0], vb[0], vc[0]],
-                y: [va[1], vb[1], vc[1]],
-                key: [va[2], vb[2], vc[2]],
+                ix,
+                iy,
+                key: [va.key, vb.key, vc.key],
                 color: Color::BLACK,
                 face: face as u32,
             };
-            let Some(bb) = pixel_bbox(&rec0, w, h) else {
-                continue;
-            };
-            let xmin = va[0].min(vb[0]).min(vc[0]);
-            let xmax = va[0].max(vb[0]).max(vc[0]);
-            let ymin = va[1].min(vb[1]).min(vc[1]);
-            let ymax = va[1].max(vb[1]).max(vc[1]);
-            if xmin < -MAX_COORD_PX
-                || ymin < -MAX_COORD_PX
-                || xmax > MAX_COORD_PX
-                || ymax > MAX_COORD_PX
-            {
-                continue;
-            }
             // Tiny triangles: resolve coverage now, before shading (many cover no pixel centre).
             let n_px = (bb[1] - bb[0] + 1) * (bb[3] - bb[2] + 1);
             let mut hits = [(0u32, 0u32); 4];
@@ -680,7 +671,7 @@ fn setup_triangles(
             let tiny = tiny_ok && n_px <= 4;
             let mut st_tiny = None;
             if tiny {
-                let Some((e, ex, ey)) = edges(&rec0, bb[0], bb[2]) else {
+                let Some((e, ex, ey)) = edges(ix, iy, bb[0], bb[2]) else {
                     continue;
                 };
                 let (nx, ny) = (bb[1] - bb[0] + 1, bb[3] - bb[2] + 1);
@@ -714,7 +705,7 @@ fn setup_triangles(
                 None => uniform,
             };
             let (color, shade) = if smooth {
-                (base, [va[3], vb[3], vc[3]])
+                (base, [va.shade, vb.shade, vc.shade])
             } else {
                 let n = face_normals
                     .and_then(|f| f.get(face))

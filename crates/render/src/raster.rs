@@ -13,11 +13,48 @@ const SUB: f32 = 16.0;
 /// Largest accepted |coordinate| of a triangle vertex, pixels (keeps edge functions exact in i64).
 pub(crate) const MAX_COORD_PX: f32 = 4.0e6;
 
+/// A transformed vertex: pixel position snapped to 1/16 px (`ix`, `iy`; [`INVALID`] when the
+/// vertex is behind the near plane or too far off-screen), depth key, brightness.
+#[derive(Clone, Copy, Debug, Default)]
+pub(crate) struct SVert {
+    pub ix: i32,
+    pub iy: i32,
+    pub key: f32,
+    pub shade: f32,
+}
+
+/// Marks a vertex that cannot be drawn.
+pub(crate) const INVALID: i32 = i32::MIN;
+
+impl SVert {
+    /// A vertex at pixel position `(x, y)`; invalid when not finite or beyond [`MAX_COORD_PX`].
+    #[inline]
+    pub fn new(x: f32, y: f32, key: f32, shade: f32) -> SVert {
+        let ok = x.abs() <= MAX_COORD_PX && y.abs() <= MAX_COORD_PX && !key.is_nan();
+        if ok {
+            SVert {
+                ix: fx(x),
+                iy: fx(y),
+                key,
+                shade,
+            }
+        } else {
+            SVert {
+                ix: INVALID,
+                iy: INVALID,
+                key: f32::NAN,
+                shade,
+            }
+        }
+    }
+}
+
 /// A set-up triangle, screen space (shading and wireframe are per job, see the pipeline).
 #[derive(Clone, Copy, Debug)]
 pub(crate) struct TriRec {
-    pub x: [f32; 3],
-    pub y: [f32; 3],
+    /// Vertex positions in 1/16 px.
+    pub ix: [i32; 3],
+    pub iy: [i32; 3],
     pub key: [f32; 3],
     /// Final colour (flat) or base colour (smooth).
     pub color: Color,
@@ -35,18 +72,19 @@ pub(crate) struct PointRec {
     pub face: u32,
 }
 
-/// Pixel-centre bounding box of a triangle, clipped to the frame: x0, x1, y0, y1 inclusive.
+/// Pixel-centre bounding box of a triangle, clipped to the `w x h` frame: x0, x1, y0, y1
+/// inclusive. Pixel `x` has its centre at `16 x + 8` in 1/16 px.
 #[inline]
-pub(crate) fn pixel_bbox(t: &TriRec, w: f32, h: f32) -> Option<[u32; 4]> {
-    let xmin = t.x[0].min(t.x[1]).min(t.x[2]);
-    let xmax = t.x[0].max(t.x[1]).max(t.x[2]);
-    let ymin = t.y[0].min(t.y[1]).min(t.y[2]);
-    let ymax = t.y[0].max(t.y[1]).max(t.y[2]);
-    // Clamp first so the fast floor/ceil stay in range (and NaN fails the final test).
-    let x0 = ceil_f((xmin - 0.5).max(0.0));
-    let x1 = floor_f((xmax - 0.5).min(w - 1.0));
-    let y0 = ceil_f((ymin - 0.5).max(0.0));
-    let y1 = floor_f((ymax - 0.5).min(h - 1.0));
+pub(crate) fn pixel_bbox(ix: [i32; 3], iy: [i32; 3], w: i32, h: i32) -> Option<[u32; 4]> {
+    let xmin = ix[0].min(ix[1]).min(ix[2]);
+    let xmax = ix[0].max(ix[1]).max(ix[2]);
+    let ymin = iy[0].min(iy[1]).min(iy[2]);
+    let ymax = iy[0].max(iy[1]).max(iy[2]);
+    // ceil((v - 8) / 16) and floor((v - 8) / 16) with arithmetic shifts.
+    let x0 = ((xmin + 7) >> 4).max(0);
+    let x1 = ((xmax - 8) >> 4).min(w - 1);
+    let y0 = ((ymin + 7) >> 4).max(0);
+    let y1 = ((ymax - 8) >> 4).min(h - 1);
     (x0 <= x1 && y0 <= y1).then_some([x0 as u32, x1 as u32, y0 as u32, y1 as u32])
 }
 
@@ -67,9 +105,10 @@ pub(crate) struct Setup {
 /// Gradient of an attribute over the triangle and its value at pixel centre (x_lo, y_lo).
 #[inline]
 pub(crate) fn plane(t: &TriRec, f: [f32; 3], x_lo: u32, y_lo: u32) -> Option<(f32, f32, f32)> {
-    let (x0, y0) = (t.x[0], t.y[0]);
-    let (dx1, dy1) = (t.x[1] - x0, t.y[1] - y0);
-    let (dx2, dy2) = (t.x[2] - x0, t.y[2] - y0);
+    const S: f32 = 1.0 / 16.0;
+    let (x0, y0) = (t.ix[0] as f32 * S, t.iy[0] as f32 * S);
+    let (dx1, dy1) = ((t.ix[1] - t.ix[0]) as f32 * S, (t.iy[1] - t.iy[0]) as f32 * S);
+    let (dx2, dy2) = ((t.ix[2] - t.ix[0]) as f32 * S, (t.iy[2] - t.iy[0]) as f32 * S);
     let det = dx1 * dy2 - dx2 * dy1;
     if det == 0.0 || !det.is_finite() {
         return None;
@@ -82,14 +121,19 @@ pub(crate) fn plane(t: &TriRec, f: [f32; 3], x_lo: u32, y_lo: u32) -> Option<(f3
     Some((gx, gy, start))
 }
 
-/// Fixed-point edge functions of `t` at pixel centre `(x_lo, y_lo)` and their x and y steps,
-/// oriented so that inside is non-negative; `None` for zero area. Exact integer arithmetic, so
-/// the two triangles sharing an edge leave no crack and no pixel is claimed by neither.
+/// Fixed-point edge functions of a triangle at pixel centre `(x_lo, y_lo)` and their x and y
+/// steps, oriented so that inside is non-negative; `None` for zero area. Exact integer
+/// arithmetic, so two triangles sharing an edge leave no crack.
 #[inline]
-pub(crate) fn edges(t: &TriRec, x_lo: u32, y_lo: u32) -> Option<([i64; 3], [i64; 3], [i64; 3])> {
-    let (ax, ay) = (fx(t.x[0]), fx(t.y[0]));
-    let (bx, by) = (fx(t.x[1]), fx(t.y[1]));
-    let (cx, cy) = (fx(t.x[2]), fx(t.y[2]));
+pub(crate) fn edges(
+    ix: [i32; 3],
+    iy: [i32; 3],
+    x_lo: u32,
+    y_lo: u32,
+) -> Option<([i64; 3], [i64; 3], [i64; 3])> {
+    let (ax, ay) = (ix[0] as i64, iy[0] as i64);
+    let (bx, by) = (ix[1] as i64, iy[1] as i64);
+    let (cx, cy) = (ix[2] as i64, iy[2] as i64);
     let area = (bx - ax) * (cy - ay) - (by - ay) * (cx - ax);
     if area == 0 {
         return None;
@@ -112,13 +156,14 @@ pub(crate) fn edges(t: &TriRec, x_lo: u32, y_lo: u32) -> Option<([i64; 3], [i64;
 /// `(x_lo, y_lo)`; with `want_len`, also the inverse edge lengths for wireframes.
 #[inline]
 pub(crate) fn setup_edges(t: &TriRec, x_lo: u32, y_lo: u32, want_len: bool) -> Option<Setup> {
-    let (e, ex, ey) = edges(t, x_lo, y_lo)?;
+    let (e, ex, ey) = edges(t.ix, t.iy, x_lo, y_lo)?;
     let (zx, zy, z) = plane(t, t.key, x_lo, y_lo)?;
     let inv_len = if want_len {
         let len = |i: usize, j: usize| {
-            let (dx, dy) = (t.x[j] - t.x[i], t.y[j] - t.y[i]);
-            // E is in (1/16 px)^2; distance in px = E / (256 * |edge in px|).
-            1.0 / (256.0 * (dx * dx + dy * dy).sqrt().max(1e-6))
+            let dx = (t.ix[j] - t.ix[i]) as f32;
+            let dy = (t.iy[j] - t.iy[i]) as f32;
+            // E is in (1/16 px)^2; distance in px = E / (16 * |edge in 1/16 px|).
+            1.0 / (16.0 * (dx * dx + dy * dy).sqrt().max(1e-6))
         };
         [len(1, 2), len(2, 0), len(0, 1)]
     } else {
@@ -192,9 +237,9 @@ impl DepthBias {
 
 /// Fixed-point vertex (round half away from zero; `v` is within [`MAX_COORD_PX`]).
 #[inline]
-fn fx(v: f32) -> i64 {
+fn fx(v: f32) -> i32 {
     let t = v * SUB;
-    (t + 0.5f32.copysign(t)) as i64
+    (if t >= 0.0 { t + 0.5 } else { t - 0.5 }) as i32
 }
 
 /// `floor` without a libm call (the baseline x86-64 target has no rounding instruction).
@@ -239,7 +284,7 @@ impl Band<'_> {
         mesh: u32,
         frame_h: usize,
     ) {
-        let Some(bb) = pixel_bbox(t, self.width as f32, frame_h as f32) else {
+        let Some(bb) = pixel_bbox(t.ix, t.iy, self.width as i32, frame_h as i32) else {
             return;
         };
         let y_lo = (bb[2] as usize).max(self.y0);

@@ -207,18 +207,17 @@ fn build(
         });
     }
     if opts.show_legend && !reports.is_empty() {
-        let mut entries = vec![(launch_color(0), "trace, this frame".to_string(), false)];
+        let mut entries = vec![(launch_color(0), "trace in this frame".to_string(), false)];
         if opts.overlay_other_frame {
             entries.push((
                 Color::rgb(200, 200, 200),
-                "trace, other frame".to_string(),
+                "other frame's trace, transformed".to_string(),
                 true,
             ));
         }
-        entries.push((SITE_COLOR, "launch site (ring)".to_string(), false));
-        entries.push((CONTACT_COLOR, "contact (cross)".to_string(), false));
-        entries.push((REST_COLOR, "at rest (square)".to_string(), false));
-        entries.push((ESCAPE_COLOR, "escaped (diamond)".to_string(), false));
+        entries.push((CONTACT_COLOR, "contact: cross".to_string(), false));
+        entries.push((REST_COLOR, "at rest: square".to_string(), false));
+        entries.push((ESCAPE_COLOR, "escaped: diamond".to_string(), false));
         scene.overlays.push(Overlay::Legend {
             entries,
             corner: Corner::TopLeft,
