@@ -286,6 +286,8 @@ pub struct Dop853<const N: usize> {
     dense: Option<[[f64; N]; 8]>,
     last_rejected: bool,
     err_old: f64,
+    h_acc: f64,
+    err_acc: f64,
     /// Accepted steps so far.
     pub steps: u64,
     /// Rejected step attempts so far.
@@ -334,6 +336,8 @@ impl<const N: usize> Dop853<N> {
             dense: None,
             last_rejected: false,
             err_old: 1e-4,
+            h_acc: 0.0,
+            err_acc: 1e-2,
             steps: 0,
             rejected: 0,
         };
@@ -357,7 +361,11 @@ impl<const N: usize> Dop853<N> {
             t: t0,
             y: y0,
             f: f0,
-            h_next: if h_first.is_finite() && h_first > 0.0 { h_first } else { 1e-6 },
+            h_next: if h_first.is_finite() && h_first > 0.0 {
+                h_first
+            } else {
+                1e-6
+            },
             t_old: t0,
             y_old: y0,
             f_old: f0,
@@ -366,6 +374,8 @@ impl<const N: usize> Dop853<N> {
             dense: None,
             last_rejected: false,
             err_old: 1e-4,
+            h_acc: 0.0,
+            err_acc: 1e-2,
             steps: 0,
             rejected: 0,
         }
@@ -437,6 +447,17 @@ impl<const N: usize> Dop853<N> {
     pub fn h_done(&self) -> f64 {
         self.h_done
     }
+    /// Proposed length of the next step.
+    pub fn h_next(&self) -> f64 {
+        self.h_next
+    }
+    /// Overrides the proposed length of the next step (e.g. to end it at a predicted event);
+    /// ignored unless finite and positive.
+    pub fn set_h_next(&mut self, h: f64) {
+        if h.is_finite() && h > 0.0 {
+            self.h_next = h;
+        }
+    }
 
     /// Takes one accepted step (retrying with smaller steps after rejections) without passing
     /// `t_stop`. Returns an error if the step size underflows.
@@ -444,7 +465,8 @@ impl<const N: usize> Dop853<N> {
         let mut h = self.h_next;
         loop {
             let remaining = t_stop - self.t;
-            if h >= remaining * 0.999_999 {
+            let to_stop = h >= remaining * 0.999_999;
+            if to_stop {
                 h = remaining;
             }
             if h.is_nan() || h <= 1e-14 * self.t.abs().max(1e-3) || !h.is_finite() {
@@ -491,12 +513,22 @@ impl<const N: usize> Dop853<N> {
             if err <= 1.0 && err.is_finite() {
                 // Step-size controller with memory (PI control; Hairer & Wanner, Solving ODEs
                 // II, sec. IV.2, and the `beta` option of DOP853).
-                let scale = if err == 0.0 {
+                let mut scale = if err == 0.0 {
                     FAC_MAX
                 } else {
-                    (SAFETY * err.powf(-(1.0 / 8.0 - 0.2 * PI_BETA)) * self.err_old.powf(PI_BETA))
-                        .clamp(FAC_MIN, FAC_MAX)
+                    SAFETY * err.powf(-(1.0 / 8.0 - 0.2 * PI_BETA)) * self.err_old.powf(PI_BETA)
                 };
+                // Predictive control (Gustafsson 1994, as in Hairer & Wanner's RADAU5): when the
+                // error grows from step to step, extrapolate that trend instead of waiting for
+                // a rejection.
+                if self.h_acc > 0.0 && err > 0.0 {
+                    let predictive =
+                        SAFETY * (h / self.h_acc) * (self.err_acc / (err * err)).powf(1.0 / 8.0);
+                    scale = scale.min(predictive);
+                }
+                let scale = scale.clamp(FAC_MIN, FAC_MAX);
+                self.h_acc = h;
+                self.err_acc = err.max(1e-2);
                 self.err_old = err.max(1e-4);
                 let f_new = sys.derivative(self.t + h, &y_new);
                 self.k[12] = f_new;
@@ -504,7 +536,8 @@ impl<const N: usize> Dop853<N> {
                 self.y_old = self.y;
                 self.f_old = self.f;
                 self.h_done = h;
-                self.t += h;
+                // Land exactly on t_stop so callers can compare times without rounding.
+                self.t = if to_stop { t_stop } else { self.t + h };
                 self.y = y_new;
                 self.f = f_new;
                 self.dense = None;

@@ -422,7 +422,10 @@ pub fn fly(
         report.outcome = Outcome::Failed { reason };
         return report;
     }
-    if body.shape.contains(&launch.pos_body_m) {
+    // Points on the surface may test either way; only a point clearly inside is refused.
+    if body.shape.contains(&launch.pos_body_m)
+        && body.shape.nearest_surface_point(&launch.pos_body_m).t > 1e-6
+    {
         report.outcome = Outcome::Failed {
             reason: format!(
                 "launch point {:?} m is inside the body",
@@ -536,7 +539,9 @@ impl<'a> Flight<'a> {
     /// fall the body size (`sqrt(R / |a|)`). Cheaper than ramping up from a tiny step.
     fn first_step(&self, y_body: &[f64; 6], g: &Vector3<f64>) -> f64 {
         let p = pos_of(y_body);
-        let a = (g - self.w.cross(&self.w.cross(&p.coords))).norm().max(1e-12);
+        let a = (g - self.w.cross(&self.w.cross(&p.coords)))
+            .norm()
+            .max(1e-12);
         let r = self.body.shape.mass_properties().equivalent_radius_m;
         let t_fall = (r / a).sqrt();
         let t_vel = (vel_of(y_body).norm() / a).max((0.01 * r / a).sqrt());
@@ -561,6 +566,10 @@ impl<'a> Flight<'a> {
             let (end, t_end, y_end, drift, max_alt) = self.body_arc(t, y, t_max);
             report.jacobi_rel_drift = report.jacobi_rel_drift.max(drift);
             report.max_altitude_m = report.max_altitude_m.max(max_alt);
+            if let ArcEnd::Failed(reason) = end {
+                report.end_time_s = t_end;
+                break Outcome::Failed { reason };
+            }
             // Same arc in the inertial frame.
             match self.inertial_arc(t, &y, t_end) {
                 Ok(y_in_end) => {
@@ -675,6 +684,7 @@ impl<'a> Flight<'a> {
             if let Some(reason) = self.guard.check() {
                 break ArcEnd::Failed(reason);
             }
+            self.end_step_at_predicted_impact(&mut ode);
             if let Err(e) = ode.step(&mut sys, t_max) {
                 break ArcEnd::Failed(e.to_string());
             }
@@ -717,6 +727,34 @@ impl<'a> Flight<'a> {
         }
     }
 
+    /// Shortens the proposed step so it ends just past a predicted surface crossing.
+    ///
+    /// The field's gradient jumps at the surface (Poisson inside, Laplace outside), so a step
+    /// that goes deep into the body has a large error estimate and is rejected again and again.
+    /// A quadratic prediction from the current position, velocity and acceleration, tested
+    /// against the shape, lets the step end 2 % past the crossing instead.
+    fn end_step_at_predicted_impact(&self, ode: &mut Dop853<6>) {
+        let h = ode.h_next();
+        let (y, f) = (ode.y(), ode.f());
+        let (p0, v, a) = (pos_of(y), vel_of(y), Vector3::new(f[3], f[4], f[5]));
+        let at = |tau: f64| p0 + v * tau + a * (0.5 * tau * tau);
+        const PIECES: usize = 4;
+        let mut pa = p0;
+        for k in 1..=PIECES {
+            let tau_b = h * k as f64 / PIECES as f64;
+            let pb = at(tau_b);
+            if let Some(hit) = self.body.shape.segment_first_hit(&pa, &pb)
+                && hit.front_face
+            {
+                let tau_a = h * (k - 1) as f64 / PIECES as f64;
+                let tau_c = tau_a + hit.t.clamp(0.0, 1.0) * (tau_b - tau_a);
+                ode.set_h_next((tau_c * 1.02).max(h * 1e-3));
+                return;
+            }
+            pa = pb;
+        }
+    }
+
     /// Looks for a surface crossing in the last accepted step; returns the impact time, state,
     /// face and step fraction.
     fn find_impact(
@@ -738,7 +776,25 @@ impl<'a> Flight<'a> {
             } else {
                 pos_of(&hermite_pos_vel(h, &y0, &f0, &y1, &f1, sb))
             };
-            if let Some(hit) = self.body.shape.segment_first_hit(&pa, &pb) {
+            let mut found = self.body.shape.segment_first_hit(&pa, &pb);
+            // A path that starts on the surface and leaves it crosses a face from behind right
+            // at its start: that is the launch, not an impact; look further along.
+            if let Some(h0) = found
+                && !h0.front_face
+                && (h0.point_m - pa).norm() < 1e-3
+            {
+                let d = pb - pa;
+                let len = d.norm();
+                found = if len > 2e-3 {
+                    self.body
+                        .shape
+                        .segment_first_hit(&(h0.point_m + d * (1e-3 / len)), &pb)
+                        .filter(|h| h.front_face)
+                } else {
+                    None
+                };
+            }
+            if let Some(hit) = found {
                 let sa = k as f64 / n as f64;
                 let t_a = ode.t_old() + sa * h;
                 let t_b = ode.t_old() + sb * h;
@@ -749,7 +805,11 @@ impl<'a> Flight<'a> {
                         .map(|y| (pos_of(&y) - hit.point_m).dot(&normal))
                         .unwrap_or(f64::NAN)
                 };
-                let t_lin = t_a + hit.t.clamp(0.0, 1.0) * (t_b - t_a);
+                let seg = pb - pa;
+                let frac = ((hit.point_m - pa).dot(&seg)
+                    / seg.norm_squared().max(f64::MIN_POSITIVE))
+                .clamp(0.0, 1.0);
+                let t_lin = t_a + frac * (t_b - t_a);
                 let t_hit = illinois(plane, t_a, t_b, 1e-9).unwrap_or(t_lin);
                 let y_hit = ode.dense_output(t_hit).unwrap_or_else(|| {
                     hermite_pos_vel(h, &y0, &f0, &y1, &f1, (t_hit - ode.t_old()) / h)

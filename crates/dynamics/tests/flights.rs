@@ -353,3 +353,60 @@ fn step_limit_gives_failed_not_a_hang() {
         o => panic!("{o:?}"),
     }
 }
+
+#[test]
+fn launch_from_exactly_on_the_surface_is_not_an_impact() {
+    let body = point_mass_sphere(1000.0, 2, 50.0, common::spin_z(50.0 * 3600.0));
+    let site = spinfall_dynamics::site::Site::from_face(&body, 11, Default::default()).unwrap();
+    let launch = spinfall_dynamics::launch::LaunchSpec {
+        id: "flat".into(),
+        site,
+        speed_m_s: 0.1,
+        azimuth_deg: 30.0,
+        elevation_deg: 50.0,
+        start_altitude_m: 0.0,
+    }
+    .state()
+    .unwrap();
+    let rep = fly(
+        &body,
+        &launch,
+        &FlightSettings::default(),
+        &AtomicBool::new(false),
+    );
+    assert_eq!(rep.outcome, Outcome::Landed, "{:?}", rep.outcome);
+    // Time of flight of a hop: about 2 v sin(el) / g = 2 * 0.077 / 5e-5 ~ 3000 s, far from 0.
+    assert!(
+        rep.first_contact_time_s.unwrap() > 100.0,
+        "{:?}",
+        rep.first_contact_time_s
+    );
+}
+
+#[test]
+fn particle_at_rest_on_the_synchronous_orbit_stays_put_in_the_body_frame() {
+    // On the equator at r = (GM / w^2)^(1/3) gravity balances the centrifugal acceleration:
+    // an equilibrium of the rotating frame (the stationary orbit; e.g. Scheeres 2012, ch. 3).
+    let gm = 50.0;
+    let body = point_mass_sphere(1000.0, 2, gm, common::spin_z(20.0 * 3600.0));
+    let r_sync = body.figures().synchronous_radius_m;
+    let w = body.spin.rate_rad_s();
+    assert!((gm / (r_sync * r_sync) - w * w * r_sync).abs() < 1e-12 * gm / (r_sync * r_sync));
+    let start = Point3::new(r_sync * 0.6, -r_sync * 0.8, 0.0);
+    let launch = LaunchState::from_state("sync", start, Vector3::zeros()).unwrap();
+    let period = body.spin.period_s;
+    let rep = fly(
+        &body,
+        &launch,
+        &settings(1e-12, period, stick()),
+        &AtomicBool::new(false),
+    );
+    assert_eq!(rep.outcome, Outcome::StillFlying);
+    let end = Point3::from(Vector3::from(rep.final_pos_body_m));
+    // The equilibrium is unstable, so allow a little growth of round-off over one period.
+    assert!(
+        (end - start).norm() < 1e-3,
+        "drifted {} m",
+        (end - start).norm()
+    );
+}

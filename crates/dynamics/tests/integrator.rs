@@ -1,6 +1,8 @@
 //! The DOP853 integrator against closed-form solutions.
 #![allow(clippy::unwrap_used, reason = "tests unwrap freely")]
 
+use std::f64::consts::PI;
+
 use spinfall_dynamics::dop853::{Dop853, OdeSystem, Tolerances, hermite_pos_vel};
 
 struct Exp;
@@ -126,4 +128,39 @@ fn quintic_hermite_matches_closed_form_to_sixth_order() {
     assert!(e1 < 1e-5, "{e1:e}");
     let order = (e1 / e2).log2();
     assert!(order > 5.5, "hermite order {order}");
+}
+
+/// Two-body problem with GM = 1 in the [pos, vel] layout.
+struct Kepler;
+impl OdeSystem<6> for Kepler {
+    fn derivative(&mut self, _t: f64, y: &[f64; 6]) -> [f64; 6] {
+        let r3 = (y[0] * y[0] + y[1] * y[1] + y[2] * y[2]).powf(1.5);
+        [y[3], y[4], y[5], -y[0] / r3, -y[1] / r3, -y[2] / r3]
+    }
+}
+
+#[test]
+fn order_of_convergence_is_eight_on_the_kepler_problem() {
+    // An ellipse with e = 0.5, a = 1 (periapsis 0.5, vis-viva speed sqrt(3)) returns to its start
+    // after one period 2 pi (Kepler's third law); with a fixed step h the error after one
+    // period shrinks like h^8 for DOP853 (Hairer et al., sec. II.10).
+    let y0 = [0.5, 0.0, 0.0, 0.0, 3f64.sqrt(), 0.0];
+    let err = |n: usize| {
+        let h = 2.0 * PI / n as f64;
+        let tol = Tolerances {
+            rel: 1e3,
+            abs: [1e3; 6],
+        };
+        let mut sys = Kepler;
+        let mut ode = Dop853::new(&mut sys, 0.0, y0, tol, h);
+        for k in 1..=n {
+            ode.step(&mut sys, k as f64 * h).unwrap();
+        }
+        let y = ode.y();
+        ((y[0] - y0[0]).powi(2) + (y[1] - y0[1]).powi(2)).sqrt()
+    };
+    let (e1, e2) = (err(200), err(400));
+    let order = (e1 / e2).log2();
+    assert!(e2 < 1e-7, "error {e2:e}");
+    assert!(order > 7.3 && order < 9.0, "order {order} ({e1:e}, {e2:e})");
 }

@@ -305,9 +305,11 @@ fn every_json_example_in_scenario_md_parses() {
     for b in &blocks {
         Scenario::from_json_str(b).unwrap_or_else(|e| panic!("{e}\n{b}"));
     }
-    // The complete example is the built-in one.
+    // The complete example is the built-in one (whose density and period come from the demo
+    // constants of the gravity crate: if this fails after they changed, update SCENARIO.md).
     assert_eq!(
         Scenario::from_json_str(blocks[1]).unwrap(),
-        Scenario::builtin_example()
+        Scenario::builtin_example(),
+        "SCENARIO.md's complete example differs from Scenario::builtin_example()"
     );
 }

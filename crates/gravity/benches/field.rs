@@ -68,6 +68,12 @@ fn bench_field(c: &mut Criterion) {
             start.elapsed().as_secs_f64(),
             field.memory_bytes() as f64 / faces as f64
         );
+        let start = Instant::now();
+        let degree = field.exterior().degree();
+        eprintln!(
+            "  exterior expansion (degree {degree}) integrated in {:.3} s on first use",
+            start.elapsed().as_secs_f64()
+        );
         let points = points_around(radius_m, 256);
         cpu_time_per_facet(&field, &points[17]);
         let big = faces > 100_000;
@@ -81,6 +87,10 @@ fn bench_field(c: &mut Criterion) {
         });
         group.throughput(Throughput::Elements(faces as u64));
         let p = points[17];
+        let far = Point3::new(40.0 * radius_m, 3.0 * radius_m, -5.0 * radius_m);
+        group.bench_function("single_far_point_exterior_expansion", |b| {
+            b.iter(|| black_box(field.potential_acceleration(black_box(&far))))
+        });
         group.bench_function("single_point_potential_acceleration", |b| {
             b.iter(|| black_box(field.potential_acceleration(black_box(&p))))
         });

@@ -5,7 +5,8 @@
 //! carry a line number. `obj-rs` serves as an independent reference in the tests instead.
 //!
 //! Read: `v x y z [w]` (w ignored), `f` with 3 or more corners written `i`, `i/t`, `i//n` or
-//! `i/t/n` (texture and normal indices ignored), negative (relative) indices, `#` comments.
+//! `i/t/n` (texture and normal indices ignored), negative (relative) indices, `#` comments,
+//! CRLF line endings; bytes that are not UTF-8 are tolerated (replaced) outside numbers.
 //! Polygons are fan-triangulated from their first corner. Everything else (`vn`, `vt`, `g`, `o`,
 //! `s`, `usemtl`, `mtllib`, `l`, `p`, ...) is ignored.
 
@@ -52,9 +53,9 @@ pub fn parse_obj(mut reader: impl BufRead, unit: LengthUnit) -> Result<(Mesh, Ve
             break;
         }
         line_number += 1;
-        let text = std::str::from_utf8(&bytes).map_err(|_| {
-            parse_error(line_number, "the line is not valid UTF-8 text".to_string())
-        })?;
+        // Lenient: bytes that are not UTF-8 (e.g. Latin-1 comments) become U+FFFD; keywords and
+        // numbers are ASCII, so a bad byte there still fails with a line-numbered error.
+        let text = String::from_utf8_lossy(&bytes);
         let content = text.split('#').next().unwrap_or("");
         let mut tokens = content.split_whitespace();
         let Some(keyword) = tokens.next() else {

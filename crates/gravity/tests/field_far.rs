@@ -150,3 +150,45 @@ fn field_is_continuous_across_the_switch_radius() {
     assert!(rel(u, field.gm_m3_s2() / r, field.gm_m3_s2() / r) < 1e-12);
     assert!(a.iter().all(|v| v.is_finite()));
 }
+
+#[test]
+fn far_gradient_tensor_matches_the_direct_sum_and_is_traceless() {
+    // Just beyond the switch the direct gradient-tensor sum is still accurate, so the
+    // expansion's (finite-difference) tensor must match it; Laplace's equation outside the body
+    // makes it traceless (Poisson's equation with zero density).
+    let (_, field) = demo_field(3);
+    let rs = field.switch_radius_m();
+    for d in directions() {
+        let far = field.center_of_mass_m() + d * rs * 1.01;
+        let near = field.center_of_mass_m() + d * rs * 0.99;
+        let s_far = field.evaluate(&far);
+        let s_near = field.evaluate(&near);
+        let scale = s_near.gradient_s2.norm();
+        // The tensor changes by ~6 % between 0.99 and 1.01 r_s (it falls like r^-3): compare
+        // the far one with the near one scaled by (0.99/1.01)^3 along the same direction.
+        let ratio = (0.99f64 / 1.01).powi(3);
+        assert!(
+            (s_far.gradient_s2 - s_near.gradient_s2 * ratio).norm() < 1e-3 * scale,
+            "{}",
+            (s_far.gradient_s2 - s_near.gradient_s2 * ratio).norm() / scale
+        );
+        assert!(s_far.gradient_s2.trace().abs() < 1e-9 * scale);
+        assert!(!s_far.inside && s_far.laplacian_s2 == 0.0);
+    }
+    // A tight check at one point: the finite-difference tensor against the direct-sum tensor
+    // at the same point (direct sum still accurate at 1.01 r_s, see the accuracy table).
+    let p = field.center_of_mass_m() + directions()[0] * rs * 1.01;
+    let s = field.evaluate(&p);
+    let h = 1e-3 * rs;
+    for k in 0..3 {
+        let mut dp = Vector3::zeros();
+        dp[k] = h;
+        let col = (field.potential_acceleration_direct(&(p + dp)).1
+            - field.potential_acceleration_direct(&(p - dp)).1)
+            / (2.0 * h);
+        assert!(
+            (col - s.gradient_s2.column(k)).norm() < 1e-5 * s.gradient_s2.norm(),
+            "col {k}"
+        );
+    }
+}

@@ -98,3 +98,27 @@ fn agrees_with_the_obj_rs_reference_parser() {
         assert_eq!(ix, face.to_vec());
     }
 }
+
+#[test]
+fn windows_line_endings_and_tabs_are_accepted() {
+    let text = CUBE_QUADS.replace('\n', "\r\n").replace(' ', "\t");
+    let (mesh, _) = parse_obj(text.as_bytes(), LengthUnit::Metre).unwrap();
+    let (reference, _) = parse_obj(CUBE_QUADS.as_bytes(), LengthUnit::Metre).unwrap();
+    assert_eq!(mesh, reference);
+}
+
+#[test]
+fn latin1_comments_are_tolerated_but_bad_bytes_in_numbers_are_not() {
+    let mut bytes = CUBE_QUADS.as_bytes().to_vec();
+    bytes.extend_from_slice(b"# caf\xe9\n");
+    let (mesh, _) = parse_obj(bytes.as_slice(), LengthUnit::Metre).unwrap();
+    assert_eq!(mesh.faces.len(), 12);
+    bytes.extend_from_slice(b"v 1 2\xe9 3\n");
+    let err = parse_obj(bytes.as_slice(), LengthUnit::Metre)
+        .unwrap_err()
+        .to_string();
+    assert!(
+        err.contains("line 16") && err.contains("not a number"),
+        "{err}"
+    );
+}

@@ -30,6 +30,13 @@ pub const SHORTCUT_RUN_F5: KeyboardShortcut = KeyboardShortcut::new(Modifiers::N
 /// Shortcut: export.
 pub const SHORTCUT_EXPORT: KeyboardShortcut = KeyboardShortcut::new(Modifiers::COMMAND, Key::E);
 
+/// Sites resolved on a body: `(sites, data generation, resolved sites)`.
+type SiteCache = (
+    Vec<SiteEntry>,
+    u64,
+    Vec<Result<spinfall_dynamics::site::Site, String>>,
+);
+
 /// A shape model in use.
 #[derive(Clone)]
 pub struct LoadedShape {
@@ -153,6 +160,8 @@ pub struct SpinfallApp {
     pub(crate) click_to_place: bool,
     pub(crate) hover: Option<crate::views::HoverInfo>,
     pub(crate) frame_ms: f32,
+    /// Smoothed time between frames (whole loop: UI, upload, paint, swap), s.
+    pub(crate) frame_interval_s: f32,
 
     // Jobs.
     pub(crate) load_job: Option<Job<Loaded>>,
@@ -164,7 +173,7 @@ pub struct SpinfallApp {
     pub(crate) run_after_body: bool,
     pub(crate) plot_cache: Option<crate::results::PlotSeries>,
     /// Sites resolved on the current body: `(sites, data generation, resolved)`.
-    site_cache: Option<(Vec<SiteEntry>, u64, Vec<Result<spinfall_dynamics::site::Site, String>>)>,
+    site_cache: Option<SiteCache>,
 
     // UI state.
     pub(crate) commands: Vec<Command>,
@@ -238,6 +247,7 @@ impl SpinfallApp {
             click_to_place: true,
             hover: None,
             frame_ms: 0.0,
+            frame_interval_s: 0.0,
             load_job: None,
             body_job: None,
             map_job: None,
@@ -352,6 +362,16 @@ impl SpinfallApp {
         &self.last_exported
     }
 
+    /// Show time `t_s` (clamped to the slider's range).
+    pub fn set_time_s(&mut self, t_s: f64) {
+        self.t_s = t_s.clamp(0.0, self.end_time_s());
+    }
+
+    /// Whether the animation is playing.
+    pub fn is_playing(&self) -> bool {
+        self.playing
+    }
+
     /// The current simulation time shown, s.
     pub fn time_s(&self) -> f64 {
         self.t_s
@@ -415,10 +435,11 @@ impl SpinfallApp {
                 });
             });
         if self.state.show_results {
+            let min_h = if self.reports.is_empty() { 80.0 } else { 230.0 };
             egui::Panel::bottom("results")
                 .resizable(true)
                 .default_size(300.0)
-                .min_size(120.0)
+                .min_size(min_h)
                 .show(ui, |ui| self.results_ui(ui));
         }
         egui::CentralPanel::default().show(ui, |ui| self.views_ui(ui));
@@ -427,6 +448,14 @@ impl SpinfallApp {
         self.handle_commands();
         if self.busy() {
             ctx.request_repaint_after(Duration::from_millis(50));
+        }
+        let dt = ctx.input(|i| i.unstable_dt);
+        if dt > 0.0 && dt < 1.0 {
+            self.frame_interval_s = if self.frame_interval_s == 0.0 {
+                dt
+            } else {
+                0.9 * self.frame_interval_s + 0.1 * dt
+            };
         }
         let ms = frame_start.elapsed().as_secs_f32() * 1000.0;
         self.frame_ms = if self.frame_ms == 0.0 {
@@ -937,6 +966,16 @@ impl SpinfallApp {
     fn install_view(&mut self, view: Arc<BodyView>) {
         self.view = Some(view);
         self.map = None;
+        // Work started for the previous body no longer applies.
+        for job in [
+            self.run_job.take().map(|j| Box::new(j) as Box<dyn Cancel>),
+            self.map_job.take().map(|j| Box::new(j) as Box<dyn Cancel>),
+        ]
+        .into_iter()
+        .flatten()
+        {
+            job.cancel_job();
+        }
         self.reports = Arc::new(Vec::new());
         self.plot_cache = None;
         self.state.view.selected_launch = None;
@@ -1016,7 +1055,11 @@ impl SpinfallApp {
                     .frame
                     .direction(l.azimuth_deg.to_radians(), l.elevation_deg.to_radians());
                 Some(spinfall_scene::SiteMarker {
-                    pos_body_m: [site.point_body_m.x, site.point_body_m.y, site.point_body_m.z],
+                    pos_body_m: [
+                        site.point_body_m.x,
+                        site.point_body_m.y,
+                        site.point_body_m.z,
+                    ],
                     launch_dir_body: Some([d.x, d.y, d.z]),
                     selected: selected == Some(i),
                 })

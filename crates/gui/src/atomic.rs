@@ -49,6 +49,7 @@ pub fn write_atomic(
 }
 
 #[cfg(test)]
+#[allow(clippy::unwrap_used, reason = "tests unwrap freely")]
 mod tests {
     use super::*;
 

@@ -39,6 +39,8 @@ pub fn fmt_sci(v: f64, unit: &str) -> String {
     }
 }
 
+pub use spinfall_scene::{field_label, pretty_unit};
+
 /// Format a duration in s with hours in brackets when long.
 pub fn fmt_duration(s: f64) -> String {
     if !s.is_finite() {
@@ -211,7 +213,13 @@ impl SpinfallApp {
                 }
                 ui.with_layout(egui::Layout::right_to_left(egui::Align::Center), |ui| {
                     ui.colored_label(Color32::from_rgb(230, 180, 60), CAUTION);
-                    ui.label(format!("{:.1} ms/frame", self.frame_ms));
+                    ui.label(format!("UI {:.1} ms/frame", self.frame_ms))
+                        .on_hover_text(
+                            "Time spent building the frame (views rendered on the CPU included)",
+                        );
+                    if self.playing && self.frame_interval_s > 0.0 {
+                        ui.label(format!("{:.0} fps", 1.0 / self.frame_interval_s));
+                    }
                 });
             });
         });
@@ -325,6 +333,40 @@ impl SpinfallApp {
                 .clicked()
             {
                 self.commands.push(Command::LoadDemo);
+            }
+        });
+        ui.horizontal(|ui| {
+            let l = ui.label("Scenario:");
+            ui.add(
+                egui::TextEdit::singleline(&mut self.scenario_path_field)
+                    .hint_text("/path/to/scenario.json")
+                    .desired_width(180.0),
+            )
+            .labelled_by(l.id);
+        });
+        ui.horizontal(|ui| {
+            let path = self.scenario_path_field.trim().to_string();
+            let have_path = !path.is_empty();
+            if ui
+                .add_enabled(
+                    have_path && self.load_job.is_none(),
+                    egui::Button::new("Load scenario"),
+                )
+                .on_hover_text("Body, sites and settings from a scenario file")
+                .clicked()
+            {
+                self.commands
+                    .push(Command::LoadScenario(path.clone().into()));
+            }
+            if ui
+                .add_enabled(have_path, egui::Button::new("Save scenario"))
+                .on_hover_text("Write the session as a scenario (the format `spinfall fly` reads)")
+                .clicked()
+            {
+                self.commands.push(Command::SaveScenario(path.into()));
+            }
+            if ui.button("Browse…").clicked() {
+                self.commands.push(Command::BrowseScenario);
             }
         });
         if let Some(job) = &self.load_job {
@@ -490,17 +532,13 @@ impl SpinfallApp {
         let before = self.state.view.map;
         egui::ComboBox::from_label("Colour by")
             .selected_text(match self.state.view.map {
-                Some(f) => format!("{} ({})", f.name(), f.unit()),
+                Some(f) => field_label(f),
                 None => "none".into(),
             })
             .show_ui(ui, |ui| {
                 ui.selectable_value(&mut self.state.view.map, None, "none");
                 for f in SurfaceField::ALL {
-                    ui.selectable_value(
-                        &mut self.state.view.map,
-                        Some(f),
-                        format!("{} ({})", f.name(), f.unit()),
-                    );
+                    ui.selectable_value(&mut self.state.view.map, Some(f), field_label(f));
                 }
             });
         egui::ComboBox::from_label("Colour map")
@@ -566,7 +604,7 @@ impl SpinfallApp {
     pub(crate) fn toolbar_ui(&mut self, ui: &mut Ui) {
         egui::Panel::top("toolbar").show(ui, |ui| {
             ui.horizontal(|ui| {
-                if ui.button("Open shape...").on_hover_text("Ctrl+O").clicked() {
+                if ui.button("Open shape…").on_hover_text("Ctrl+O").clicked() {
                     self.commands.push(Command::BrowseShape);
                 }
                 ui.separator();
@@ -598,11 +636,11 @@ impl SpinfallApp {
                     );
                 }
                 ui.separator();
-                if ui.button("Export...").on_hover_text("Ctrl+E").clicked() {
+                if ui.button("Export…").on_hover_text("Ctrl+E").clicked() {
                     self.commands.push(Command::ShowExport);
                 }
                 if ui
-                    .button("Save scenario...")
+                    .button("Save scenario…")
                     .on_hover_text("Ctrl+S")
                     .clicked()
                 {

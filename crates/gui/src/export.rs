@@ -70,6 +70,7 @@ struct ExportSnapshot {
     t_s: f64,
     scenario_json: Result<String, String>,
     body_name: String,
+    sites: Vec<spinfall_scene::SiteMarker>,
 }
 
 impl SpinfallApp {
@@ -170,7 +171,9 @@ impl SpinfallApp {
             self.error("export: the file name prefix must be a plain name");
             return;
         }
+        let sites = self.site_markers();
         let snapshot = ExportSnapshot {
+            sites,
             view,
             reports: self.reports.clone(),
             map: self.map.clone(),
@@ -230,6 +233,7 @@ fn run_export(
                 gap_px: 4,
                 body_camera: s.cameras[0].clone(),
                 inertial_camera: s.cameras[1].clone(),
+                sites: s.sites.clone(),
             },
         )
         .map_err(|e| e.to_string())?;
@@ -261,6 +265,7 @@ fn run_export(
             .unwrap_or_else(|| spinfall_scene::default_camera(&s.view.body().shape, w, h));
         camera.set_viewport(w, h);
         let mut scene = frame_scene(&s.view, &s.reports, s.t_s, &s.options, [w, h], frame);
+        spinfall_scene::add_site_markers(&mut scene, &s.view, &s.sites, s.t_s, frame);
         add_title(
             &mut scene,
             frame,

@@ -36,6 +36,9 @@ mod views;
 
 pub use app::{LoadedShape, Notice, NoticeKind, RunState, SpinfallApp};
 pub use command::{Command, ExportRequest};
+pub use session::{
+    AxisChoice, BodyParams, LaunchParams, MassInput, SiteEntry, SiteLocation, Spread,
+};
 pub use state::PersistedState;
 
 use std::path::PathBuf;

@@ -65,8 +65,6 @@ pub struct TableState {
     pub sort: Option<(ResultColumn, bool)>,
     /// Which plot: 0 altitude, 1 speed, 2 Jacobi drift.
     pub plot_kind: usize,
-    /// Which plot: 0 altitude, 1 speed, 2 Jacobi drift.
-    pub plot_kind: usize,
     /// Plot job for the selected launch.
     pub(crate) plot_job: Option<Job<PlotSeries>>,
 }
@@ -100,28 +98,47 @@ fn sort_value(r: &FlightReport, c: ResultColumn) -> f64 {
     }
 }
 
+/// A cell's sort key.
+#[derive(Debug, Clone, PartialEq)]
+pub enum SortKey {
+    /// Text (sorted lexically).
+    Text(String),
+    /// A number (NaN: missing, always last).
+    Num(f64),
+}
+
 /// Row order for a sort (stable; missing values last).
 pub fn sorted_order(reports: &[FlightReport], sort: Option<(ResultColumn, bool)>) -> Vec<usize> {
-    let mut order: Vec<usize> = (0..reports.len()).collect();
     let Some((col, asc)) = sort else {
-        return order;
+        return (0..reports.len()).collect();
     };
+    let keys: Vec<SortKey> = reports
+        .iter()
+        .map(|r| match col {
+            ResultColumn::Id => SortKey::Text(r.id.clone()),
+            ResultColumn::Outcome => SortKey::Text(outcome_text(&r.outcome)),
+            _ => SortKey::Num(sort_value(r, col)),
+        })
+        .collect();
+    order_by_keys(&keys, asc)
+}
+
+/// Indices ordering `keys` ascending or descending; NaN numbers go last either way.
+pub fn order_by_keys(keys: &[SortKey], ascending: bool) -> Vec<usize> {
+    let mut order: Vec<usize> = (0..keys.len()).collect();
     order.sort_by(|&a, &b| {
-        let (ra, rb) = (&reports[a], &reports[b]);
-        let ord = match col {
-            ResultColumn::Id => ra.id.cmp(&rb.id),
-            ResultColumn::Outcome => outcome_text(&ra.outcome).cmp(&outcome_text(&rb.outcome)),
-            _ => {
-                let (va, vb) = (sort_value(ra, col), sort_value(rb, col));
-                match (va.is_nan(), vb.is_nan()) {
-                    (true, true) => std::cmp::Ordering::Equal,
-                    (true, false) => return std::cmp::Ordering::Greater,
-                    (false, true) => return std::cmp::Ordering::Less,
-                    _ => va.total_cmp(&vb),
-                }
-            }
+        let ord = match (&keys[a], &keys[b]) {
+            (SortKey::Num(va), SortKey::Num(vb)) => match (va.is_nan(), vb.is_nan()) {
+                (true, true) => std::cmp::Ordering::Equal,
+                (true, false) => return std::cmp::Ordering::Greater,
+                (false, true) => return std::cmp::Ordering::Less,
+                _ => va.total_cmp(vb),
+            },
+            (SortKey::Text(ta), SortKey::Text(tb)) => ta.cmp(tb),
+            (SortKey::Text(_), SortKey::Num(_)) => std::cmp::Ordering::Less,
+            (SortKey::Num(_), SortKey::Text(_)) => std::cmp::Ordering::Greater,
         };
-        if asc { ord } else { ord.reverse() }
+        if ascending { ord } else { ord.reverse() }
     });
     order
 }
@@ -147,6 +164,9 @@ pub struct PlotSeries {
     /// `[t_s, (C - C0)/|C0|]` of the Jacobi constant in the body frame.
     pub jacobi_rel: Vec<[f64; 2]>,
 }
+
+/// A named line of a plot.
+type NamedSeries<'a> = (&'a str, &'a Vec<[f64; 2]>);
 
 /// Most samples used for the plots (the trace is thinned evenly beyond that).
 const MAX_PLOT_SAMPLES: usize = 600;
@@ -203,7 +223,7 @@ impl SpinfallApp {
         let width = ui.available_width();
         ui.horizontal_top(|ui| {
             ui.vertical(|ui| {
-                ui.set_width((width * 0.62).max(300.0));
+                ui.set_width((width * 0.58).max(300.0));
                 self.table_ui(ui);
             });
             ui.separator();
@@ -349,32 +369,34 @@ impl SpinfallApp {
         ui.horizontal(|ui| {
             ui.strong(format!("Launch {}", self.reports[i].id));
             ui.separator();
-            for (k, name) in ["Altitude", "Speed", "Jacobi drift"].into_iter().enumerate() {
+            for (k, name) in ["Altitude", "Speed", "Jacobi drift"]
+                .into_iter()
+                .enumerate()
+            {
                 ui.selectable_value(&mut self.table.plot_kind, k, name);
             }
         });
         let t_now = self.t_s;
-        let (id, y_label, lines): (&str, &str, Vec<(&str, &Vec<[f64; 2]>)>) =
-            match self.table.plot_kind {
-                0 => (
-                    "alt",
-                    "altitude above the surface (m)",
-                    vec![("altitude (m)", &series.altitude_m)],
-                ),
-                1 => (
-                    "speed",
-                    "speed (m/s)",
-                    vec![
-                        ("relative to the surface (m/s)", &series.speed_body_m_s),
-                        ("inertial (m/s)", &series.speed_inertial_m_s),
-                    ],
-                ),
-                _ => (
-                    "jacobi",
-                    "(C - C0) / |C0|",
-                    vec![("Jacobi constant, relative drift", &series.jacobi_rel)],
-                ),
-            };
+        let (id, y_label, lines): (&str, &str, Vec<NamedSeries<'_>>) = match self.table.plot_kind {
+            0 => (
+                "alt",
+                "altitude above the surface (m)",
+                vec![("altitude (m)", &series.altitude_m)],
+            ),
+            1 => (
+                "speed",
+                "speed (m/s)",
+                vec![
+                    ("relative to the surface (m/s)", &series.speed_body_m_s),
+                    ("inertial (m/s)", &series.speed_inertial_m_s),
+                ],
+            ),
+            _ => (
+                "jacobi",
+                "(C - C0) / |C0|",
+                vec![("Jacobi constant, relative drift", &series.jacobi_rel)],
+            ),
+        };
         Plot::new(id)
             .height(ui.available_height().max(80.0))
             .legend(Legend::default())
@@ -387,5 +409,25 @@ impl SpinfallApp {
                 }
                 plot_ui.vline(egui_plot::VLine::new("", t_now));
             });
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn sorting_puts_missing_values_last_both_ways() {
+        let keys: Vec<SortKey> = [Some(5.0), None, Some(1.0), Some(9.0)]
+            .iter()
+            .map(|v| SortKey::Num(v.unwrap_or(f64::NAN)))
+            .collect();
+        assert_eq!(order_by_keys(&keys, true), [2, 0, 3, 1]);
+        assert_eq!(order_by_keys(&keys, false), [3, 0, 2, 1]);
+        let text: Vec<SortKey> = ["b", "a", "c"]
+            .iter()
+            .map(|t| SortKey::Text(t.to_string()))
+            .collect();
+        assert_eq!(order_by_keys(&text, false), [2, 0, 1]);
     }
 }

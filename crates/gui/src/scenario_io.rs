@@ -335,3 +335,14 @@ pub(crate) fn load(
         }),
     })
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn launch_ids_are_made_unique() {
+        let ids = unique_ids(["A", "B", "A", " ", "A"].iter().map(|s| s.to_string()));
+        assert_eq!(ids, ["A", "B", "A (2)", "site", "A (3)"]);
+    }
+}

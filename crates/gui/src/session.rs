@@ -95,7 +95,7 @@ impl BodyParams {
 
     /// Fill the two untyped mass figures from the typed one for a body of `volume_m3`.
     pub fn sync_derived(&mut self, volume_m3: f64) {
-        if !(volume_m3 > 0.0) {
+        if volume_m3.is_nan() || volume_m3 <= 0.0 {
             return;
         }
         let mass_kg = match self.mass_input {
@@ -238,4 +238,33 @@ pub enum ShapeSource {
         /// Its length unit.
         unit: LengthUnit,
     },
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn derived_mass_figures_follow_the_typed_one() {
+        // M = rho V and GM = G M (G = 6.674e-11 m^3 kg^-1 s^-2, CODATA 2018, quoted from
+        // memory to four digits).
+        let volume_m3 = 2.0e9;
+        let mut p = BodyParams {
+            mass_input: MassInput::Density,
+            density_kg_m3: 1500.0,
+            ..BodyParams::default()
+        };
+        p.sync_derived(volume_m3);
+        assert!((p.mass_kg - 3.0e12).abs() < 1.0);
+        assert!((p.gm_m3_s2 / (6.674e-11 * 3.0e12) - 1.0).abs() < 1e-4);
+        p.mass_input = MassInput::Gm;
+        p.gm_m3_s2 *= 2.0;
+        p.sync_derived(volume_m3);
+        assert!((p.density_kg_m3 - 3000.0).abs() < 1e-6);
+        // A zero or NaN volume leaves the figures alone.
+        let before = p.clone();
+        p.sync_derived(f64::NAN);
+        p.sync_derived(0.0);
+        assert_eq!(p, before);
+    }
 }

@@ -74,3 +74,35 @@ impl PersistedState {
         self.recent_files.truncate(MAX_RECENT);
     }
 }
+
+#[cfg(test)]
+#[allow(clippy::unwrap_used, reason = "tests unwrap freely")]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn old_or_partial_state_loads_with_defaults() {
+        let s: PersistedState = serde_json::from_str(r#"{"link_cameras": true}"#).unwrap();
+        assert!(s.link_cameras);
+        assert_eq!(s.export_size_px, [1920, 1080]);
+        let s: PersistedState = serde_json::from_str("{}").unwrap();
+        assert!(s.recent_files.is_empty());
+    }
+
+    #[test]
+    fn recent_files_move_to_front_without_duplicates() {
+        let mut s = PersistedState::default();
+        for i in 0..(MAX_RECENT + 3) {
+            s.remember(RecentFile {
+                path: format!("/tmp/{i}.obj").into(),
+                kind: RecentKind::Shape,
+                unit: LengthUnit::Metre,
+            });
+        }
+        assert_eq!(s.recent_files.len(), MAX_RECENT);
+        let again = s.recent_files[3].clone();
+        s.remember(again.clone());
+        assert_eq!(s.recent_files[0], again);
+        assert_eq!(s.recent_files.len(), MAX_RECENT);
+    }
+}

@@ -110,10 +110,7 @@ impl ViewPane {
         let image =
             self.renderer
                 .render(&scene, camera, &RenderOptions::new(size_px[0], size_px[1]));
-        let color_image = ColorImage::from_rgba_unmultiplied(
-            [image.width as usize, image.height as usize],
-            &image.as_rgba_bytes(),
-        );
+        let color_image = to_color_image(image);
         match &mut self.texture {
             Some(t) => t.set(color_image, TextureOptions::LINEAR),
             None => {
@@ -127,6 +124,16 @@ impl ViewPane {
         self.renders += 1;
         self.last_key = Some(key);
     }
+}
+
+/// The rendered image as an egui texture image (opaque pixels: premultiplied = straight).
+pub(crate) fn to_color_image(image: &spinfall_render::Image) -> ColorImage {
+    let pixels = image
+        .pixels
+        .iter()
+        .map(|p| Color32::from_rgba_unmultiplied(p.r, p.g, p.b, p.a))
+        .collect();
+    ColorImage::new([image.width as usize, image.height as usize], pixels)
 }
 
 /// Camera moves from one frame's input, applied to one or both panes.
@@ -240,7 +247,19 @@ impl SpinfallApp {
                             && !response.dragged()
                         {
                             let (x, y) = to_px(p);
-                            hover = pick(&view, camera, pane.frame, self.t_s, x, y);
+                            hover = pick(&view, camera, pane.frame, self.t_s, x, y)
+                                .map(|(p, face)| hover_info(&view, face, &p));
+                            if let Some(info) = &hover {
+                                response.clone().on_hover_ui_at_pointer(|ui| {
+                                    ui.label(format!(
+                                        "lat {:.2}°, lon {:.2}°",
+                                        info.lat_deg, info.lon_deg
+                                    ));
+                                    for (name, value) in &info.values {
+                                        ui.label(format!("{name}: {value}"));
+                                    }
+                                });
+                            }
                         }
                     }
                     pane.update_texture(
@@ -269,15 +288,15 @@ impl SpinfallApp {
         });
         // Apply camera moves (to both panes when linked).
         let linked = self.state.link_cameras;
-        for k in 0..2 {
-            if !inputs[k].any() {
+        for (k, input) in inputs.iter().enumerate() {
+            if !input.any() {
                 continue;
             }
             for (j, pane) in self.panes.iter_mut().enumerate() {
                 if (j == k || linked)
                     && let Some(c) = &mut pane.camera
                 {
-                    inputs[k].apply(c);
+                    input.apply(c);
                 }
             }
         }
@@ -287,7 +306,7 @@ impl SpinfallApp {
             self.commands
                 .push(Command::AddSiteAtPoint { point_body_m, face });
         }
-        self.hover = hover.map(|(p, face)| hover_info(&view, face, &p));
+        self.hover = hover;
     }
 
     fn time_bar_ui(&mut self, ui: &mut Ui) {
@@ -374,7 +393,11 @@ fn hover_info(view: &BodyView, face: usize, p: &Point3<f64>) -> HoverInfo {
             if let Some(v) = map.values(field).get(face) {
                 values.push((
                     field.name().to_string(),
-                    format!("{} {}", spinfall_render::format_value(*v), field.unit()),
+                    format!(
+                        "{} {}",
+                        spinfall_render::format_value(*v),
+                        crate::body_panel::pretty_unit(field.unit())
+                    ),
                 ));
             }
         }

@@ -1,4 +1,5 @@
 //! Drives the real app with egui_kittest: no display, no GPU, no file dialogs.
+#![allow(clippy::unwrap_used, reason = "tests unwrap freely")]
 
 use std::time::Duration;
 
@@ -153,4 +154,159 @@ fn broken_obj_shows_error_and_keeps_old_body() {
     );
     // The message is on screen.
     harness.get_by_label_contains("broken.obj");
+}
+
+#[test]
+fn export_writes_every_file_and_the_scenario_reloads() {
+    let mut harness = demo_harness();
+    settle(&mut harness);
+    {
+        let app = harness.state_mut();
+        app.push_command(spinfall_gui::Command::AddSiteLatLon {
+            lat_deg: 20.0,
+            lon_deg: 45.0,
+        });
+        app.handle_commands();
+        app.sites_mut()[0].launch.speed_m_s = 0.08;
+        app.settings_mut().integrator.max_time_s = 3.0 * 3600.0;
+        app.push_command(spinfall_gui::Command::Run);
+    }
+    settle(&mut harness);
+    assert_eq!(harness.state().reports().len(), 1);
+    let dir = tempfile::tempdir().unwrap();
+    harness
+        .state_mut()
+        .push_command(spinfall_gui::Command::Export(spinfall_gui::ExportRequest {
+            folder: dir.path().to_path_buf(),
+            stem: "run".into(),
+            composite_png: true,
+            body_png: true,
+            inertial_png: false,
+            size_px: [400, 200],
+            results: true,
+            trajectories: true,
+            surface_map: true,
+            scenario: true,
+        }));
+    settle(&mut harness);
+    let mut names: Vec<String> = std::fs::read_dir(dir.path())
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .collect();
+    names.sort();
+    // No surface map was computed, so no map file; no temporary files are left behind.
+    assert_eq!(
+        names,
+        [
+            "run_body_fixed.png",
+            "run_results.csv",
+            "run_results.json",
+            "run_scenario.json",
+            "run_trajectories.csv",
+            "run_views.png"
+        ],
+        "notices: {:?}",
+        harness.state().notices()
+    );
+    // PNG signature (PNG specification, section 5.2).
+    let png = std::fs::read(dir.path().join("run_views.png")).unwrap();
+    assert_eq!(&png[..8], b"\x89PNG\r\n\x1a\n");
+    let csv = std::fs::read_to_string(dir.path().join("run_results.csv")).unwrap();
+    assert_eq!(csv.lines().count(), 2, "{csv}");
+    let json: serde_json::Value = serde_json::from_str(
+        &std::fs::read_to_string(dir.path().join("run_results.json")).unwrap(),
+    )
+    .unwrap();
+    assert!(json.is_object() || json.is_array());
+
+    // The scenario reloads to the same site and launch settings.
+    let sites_before = harness.state().sites().to_vec();
+    harness.state_mut().sites_mut().clear();
+    harness
+        .state_mut()
+        .push_command(spinfall_gui::Command::LoadScenario(
+            dir.path().join("run_scenario.json"),
+        ));
+    settle(&mut harness);
+    assert_eq!(
+        harness.state().sites(),
+        &sites_before[..],
+        "{:?}",
+        harness.state().notices()
+    );
+}
+
+#[test]
+fn inertial_click_unrotates_the_ray() {
+    // At t > 0 the inertial view shows the body turned; a click at the view centre must land on
+    // the body point drawn there, found by turning the ray back into the body frame.
+    let mut harness = demo_harness();
+    settle(&mut harness);
+    let period_s = harness.state().body_view().unwrap().body().spin.period_s;
+    harness
+        .state_mut()
+        .push_command(spinfall_gui::Command::ResetCameras);
+    settle(&mut harness);
+    // Quarter of a turn.
+    harness.state_mut().set_time_s(period_s / 4.0);
+    settle(&mut harness);
+    let rect = harness.state().view_rect(1).unwrap();
+    click_at(&mut harness, rect.center());
+    harness.state_mut().handle_commands();
+    let app = harness.state();
+    assert_eq!(app.sites().len(), 1);
+    let spinfall_gui::SiteLocation::Point { point_body_m, .. } = app.sites()[0].location else {
+        panic!("expected a picked point");
+    };
+    // Where that body point is drawn now: turned by inertial_from_body(t), then projected.
+    let body = app.body_view().unwrap().body();
+    let p_inertial =
+        body.pos_inertial_from_body(period_s / 4.0, &nalgebra::Point3::from(point_body_m));
+    let camera = app.camera(1).unwrap();
+    let (x, y, _) = camera.project(&p_inertial).unwrap();
+    let ppp = 1.0;
+    let centre = (
+        rect.width() as f64 * ppp / 2.0,
+        rect.height() as f64 * ppp / 2.0,
+    );
+    assert!(
+        (x - centre.0).abs() < 1.5 && (y - centre.1).abs() < 1.5,
+        "picked point projects to ({x:.1}, {y:.1}), clicked at {centre:?}"
+    );
+    // The body-frame point differs from the un-rotated pick (the body has turned 90 degrees).
+    let (o, d) = camera.ray_at_pixel(centre.0, centre.1);
+    let naive = body
+        .shape
+        .ray_first_hit(&o, &d, 1e7)
+        .map(|h| h.point_m)
+        .unwrap_or(nalgebra::Point3::origin());
+    assert!((naive - nalgebra::Point3::from(point_body_m)).norm() > 10.0);
+}
+
+#[test]
+fn keyboard_shortcuts_play_and_run() {
+    let mut harness = demo_harness();
+    settle(&mut harness);
+    assert!(!harness.state().is_playing());
+    harness.key_press(egui::Key::Space);
+    harness.step();
+    assert!(harness.state().is_playing(), "Space starts the animation");
+    harness.key_press(egui::Key::Space);
+    harness.step();
+    assert!(!harness.state().is_playing(), "Space pauses it");
+
+    harness
+        .state_mut()
+        .push_command(spinfall_gui::Command::AddSiteLatLon {
+            lat_deg: -10.0,
+            lon_deg: 100.0,
+        });
+    harness.state_mut().sites_mut().clear();
+    harness.state_mut().handle_commands();
+    harness.state_mut().sites_mut()[0].launch.speed_m_s = 0.05;
+    harness.state_mut().settings_mut().integrator.max_time_s = 3600.0;
+    harness.key_press_modifiers(Modifiers::COMMAND, egui::Key::R);
+    harness.step();
+    settle(&mut harness);
+    assert_eq!(harness.state().reports().len(), 1, "Ctrl+R runs");
 }

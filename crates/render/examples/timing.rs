@@ -54,7 +54,10 @@ fn main() -> std::result::Result<(), Box<dyn std::error::Error>> {
     );
     let mut r = Renderer::new();
     let mut best = std::time::Duration::MAX;
-    let frames: usize = std::env::var("FRAMES").ok().and_then(|v| v.parse().ok()).unwrap_or(40);
+    let frames: usize = std::env::var("FRAMES")
+        .ok()
+        .and_then(|v| v.parse().ok())
+        .unwrap_or(40);
     for _ in 0..frames {
         let t = std::time::Instant::now();
         let img = r.render(&s, &cam, &RenderOptions::new(1280, 720));

@@ -64,12 +64,9 @@ impl Color {
 
     /// RGB scaled by `k` (clamped to 0..=1), alpha kept.
     pub fn scaled(self, k: f32) -> Color {
-        let k = if k.is_finite() {
-            k.clamp(0.0, 1.0)
-        } else {
-            0.0
-        };
-        let s = |c: u8| (c as f32 * k + 0.5) as u8;
+        // NaN maps to 0 through the saturating cast.
+        let k = (k.clamp(0.0, 1.0) * 65536.0) as u32;
+        let s = |c: u8| ((c as u32 * k + 32768) >> 16) as u8;
         Color::rgba(s(self.r), s(self.g), s(self.b), self.a)
     }
 

@@ -31,6 +31,14 @@ impl Image {
         self.pixels.resize(width as usize * height as usize, fill);
     }
 
+    /// Sets the size, keeping the allocation and leaving the pixel values unspecified.
+    pub(crate) fn resize(&mut self, width: u32, height: u32) {
+        self.width = width;
+        self.height = height;
+        self.pixels
+            .resize(width as usize * height as usize, Color::TRANSPARENT);
+    }
+
     /// The pixel at `(x, y)` from the top-left, or `None` outside the image.
     pub fn get(&self, x: u32, y: u32) -> Option<Color> {
         if x < self.width && y < self.height {
@@ -59,6 +67,15 @@ impl Image {
             out.extend_from_slice(&p.to_array());
         }
         out
+    }
+
+    /// Writes the RGBA bytes into `out` (cleared first), reusing its allocation.
+    pub fn rgba_bytes_into(&self, out: &mut Vec<u8>) {
+        out.clear();
+        out.reserve(self.pixels.len() * 4);
+        for p in &self.pixels {
+            out.extend_from_slice(&p.to_array());
+        }
     }
 
     /// Blends `c` (with its alpha times `coverage`) onto the pixel at integer `(x, y)`.

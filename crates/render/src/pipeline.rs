@@ -218,8 +218,9 @@ impl Frame {
                 }
             }
         };
-        let mpp = camera.metres_per_pixel_at_target() / scale.max(1) as f64;
-        // Common practice: treat a line within a few pixel-sizes of the surface as on it.
+        let mpp = camera.metres_per_pixel_at_target();
+        // Common practice: treat a line within a few (4 output) pixel sizes of the surface as on
+        // it.
         let bias = if proj.perspective {
             let rel = 4.0 * scale as f64 * mpp / camera.distance_m() + 1e-4;
             DepthBias {
@@ -369,12 +370,12 @@ impl Buffers {
         i
     }
 
-    /// Rasterizes meshes and lines into `color` (already cleared to the background) and the
-    /// depth buffer, then markers and arrow heads.
+    /// Clears `color` (`frame.width * frame.height` pixels) to the background and rasterizes
+    /// meshes and lines into it and the depth buffer, then markers and arrow heads.
     pub fn draw(&mut self, scene: &Scene, frame: &Frame, color: &mut [Color]) {
         let (w, h) = (frame.width, frame.height);
         let n_px = w * h;
-        self.depth.clear();
+        // Sized here, cleared by the band tasks (in parallel, while the band is in cache).
         self.depth.resize(n_px, f32::INFINITY);
         self.ids.clear();
         if frame.want_ids {
@@ -485,6 +486,8 @@ impl Buffers {
             .enumerate()
             .for_each(|(b, ((c, d), ids))| {
                 let rows = c.len() / w;
+                c.fill(scene.background);
+                d.fill(f32::INFINITY);
                 let mut band = Band {
                     color: c,
                     depth: d,
@@ -772,6 +775,9 @@ fn line_color_at(c: &LineColor, i: usize) -> Color {
     }
 }
 
+/// Screen x, y (pixels) and view depth (metres) of a point.
+type Projected = (f64, f64, f64);
+
 #[inline(never)]
 fn setup_lines(frame: &Frame, src: &LineSrc, job: &mut LineJob, bands: usize) {
     job.segs.clear();
@@ -813,11 +819,11 @@ fn setup_lines(frame: &Frame, src: &LineSrc, job: &mut LineJob, bands: usize) {
     let hom = |p: &[f64; 3]| Vector4::new(p[0], p[1], p[2], 1.0);
     let finite = |p: &[f64; 3]| p.iter().all(|c| c.is_finite());
     let mut s_acc = 0.0f32;
-    // Consecutive points closer than this on screen are merged into one segment (the skipped
-    // points are within this distance of the drawn chord).
-    let merge_px = frame.scale as f64;
+    // Consecutive points closer than this on screen (2 output pixels) are merged into one
+    // segment: the skipped points lie within this distance of the drawn chord.
+    let merge_px = 2.0 * frame.scale as f64;
     // The start of the next segment: point index, homogeneous point, projection.
-    let mut anchor: Option<(usize, Vector4<f64>, (f64, f64, f64))> = None;
+    let mut anchor: Option<(usize, Vector4<f64>, Projected)> = None;
     let last = pts.len().saturating_sub(1);
     for (i, b) in pts.iter().enumerate() {
         if !finite(b) {
@@ -833,7 +839,7 @@ fn setup_lines(frame: &Frame, src: &LineSrc, job: &mut LineJob, bands: usize) {
         let clipped = persp && (ja.2 < near || jb.2 < near);
         if !clipped
             && i != last
-            && ((jb.0 - ja.0).powi(2) + (jb.1 - ja.1).powi(2)).sqrt() < merge_px
+            && (jb.0 - ja.0).powi(2) + (jb.1 - ja.1).powi(2) < merge_px * merge_px
         {
             continue;
         }

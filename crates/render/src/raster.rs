@@ -107,8 +107,14 @@ pub(crate) struct Setup {
 pub(crate) fn plane(t: &TriRec, f: [f32; 3], x_lo: u32, y_lo: u32) -> Option<(f32, f32, f32)> {
     const S: f32 = 1.0 / 16.0;
     let (x0, y0) = (t.ix[0] as f32 * S, t.iy[0] as f32 * S);
-    let (dx1, dy1) = ((t.ix[1] - t.ix[0]) as f32 * S, (t.iy[1] - t.iy[0]) as f32 * S);
-    let (dx2, dy2) = ((t.ix[2] - t.ix[0]) as f32 * S, (t.iy[2] - t.iy[0]) as f32 * S);
+    let (dx1, dy1) = (
+        (t.ix[1] - t.ix[0]) as f32 * S,
+        (t.iy[1] - t.iy[0]) as f32 * S,
+    );
+    let (dx2, dy2) = (
+        (t.ix[2] - t.ix[0]) as f32 * S,
+        (t.iy[2] - t.iy[0]) as f32 * S,
+    );
     let det = dx1 * dy2 - dx2 * dy1;
     if det == 0.0 || !det.is_finite() {
         return None;
@@ -235,11 +241,13 @@ impl DepthBias {
     }
 }
 
-/// Fixed-point vertex (round half away from zero; `v` is within [`MAX_COORD_PX`]).
+/// Fixed-point (1/16 px) coordinate, rounded to nearest with ties to even.
 #[inline]
 fn fx(v: f32) -> i32 {
-    let t = v * SUB;
-    (if t >= 0.0 { t + 0.5 } else { t - 0.5 }) as i32
+    // Round to nearest (ties to even) by adding 1.5 * 2^52 in f64: the integer lands in the low
+    // mantissa bits. Exact for |v * 16| < 2^51; callers keep |v| <= MAX_COORD_PX.
+    const MAGIC: f64 = 6_755_399_441_055_744.0;
+    ((v * SUB) as f64 + MAGIC).to_bits() as i64 as i32
 }
 
 /// `floor` without a libm call (the baseline x86-64 target has no rounding instruction).
@@ -346,6 +354,10 @@ impl Band<'_> {
     pub fn segment(&mut self, s: &SegRec, bias: &DepthBias) {
         let (dx, dy) = (s.x1 - s.x0, s.y1 - s.y0);
         let len = (dx * dx + dy * dy).sqrt();
+        if s.hw <= 1.5 && len > 1e-3 {
+            self.thin_segment(s, bias, dx, dy, len);
+            return;
+        }
         let hw = s.hw;
         let (ux, uy) = if len > 1e-6 {
             (dx / len, dy / len)
@@ -433,6 +445,101 @@ impl Band<'_> {
                 }
                 let c = if solid { s.c0 } else { s.c0.lerp(s.c1, t) };
                 self.color[i] = blend(self.color[i], c, a);
+            }
+        }
+    }
+
+    /// Thin lines (up to 3 px): walk the major axis one pixel at a time and fill the pixels whose
+    /// centres are within the half width measured along the minor axis.
+    fn thin_segment(&mut self, s: &SegRec, bias: &DepthBias, dx: f32, dy: f32, len: f32) {
+        let w = self.width;
+        let dashed = s.dash.0 > 0.0;
+        let period = s.dash.0 + s.dash.1;
+        let cap = if dashed { 0.0 } else { 0.5 * s.hw };
+        let dk = s.k1 - s.k0;
+        let solid = s.c0 == s.c1;
+        let a_vis = (s.c0.a as u32 * 256 + 127) / 255; // 0..=256
+        let a_hid = ((s.hidden_alpha * a_vis as f32) + 0.5) as u32;
+        let band_lo = self.y0 as f32;
+        let band_hi = (self.y0 + self.rows - 1) as f32;
+        let x_max = w as f32 - 1.0;
+        // Draws pixel (x, y) at parameter t along the segment.
+        let plot = |color: &mut [Color], depth: &[f32], x: usize, y: usize, t: f32| {
+            let t = t.clamp(0.0, 1.0);
+            if dashed && (s.s0 + t * len).rem_euclid(period) >= s.dash.0 {
+                return;
+            }
+            let i = (y - self.y0) * w + x;
+            let a = if bias.visible(s.k0 + dk * t, depth[i]) {
+                a_vis
+            } else {
+                a_hid
+            };
+            if a == 0 {
+                return;
+            }
+            let c = if solid { s.c0 } else { s.c0.lerp(s.c1, t) };
+            let d = color[i];
+            let m = |s: u8, d: u8| ((d as u32 * (256 - a) + s as u32 * a + 128) >> 8) as u8;
+            color[i] = Color::rgba(m(c.r, d.r), m(c.g, d.g), m(c.b, d.b), d.a);
+        };
+        if dx.abs() >= dy.abs() {
+            // x-major: columns, with a vertical half thickness.
+            let slope = dy / dx;
+            let hv = s.hw * (1.0 + slope * slope).sqrt();
+            let cap_x = cap * dx.abs() / len;
+            let mut xa = s.x0.min(s.x1) - cap_x;
+            let mut xb = s.x0.max(s.x1) + cap_x;
+            // Only columns whose centre line comes within reach of this band's rows.
+            if slope.abs() > 1e-6 {
+                let ya = band_lo + 0.5 - hv - 0.5;
+                let yb = band_hi + 0.5 + hv + 0.5;
+                let (p, q) = (s.x0 + (ya - s.y0) / slope, s.x0 + (yb - s.y0) / slope);
+                xa = xa.max(p.min(q));
+                xb = xb.min(p.max(q));
+            }
+            let xa = ceil_f((xa - 0.5).max(0.0));
+            let xb = floor_f((xb - 0.5).min(x_max));
+            if xa.is_nan() || xb.is_nan() || xa > xb {
+                return;
+            }
+            let inv_dx = 1.0 / dx;
+            for x in (xa as usize)..=(xb as usize) {
+                let px = x as f32 + 0.5;
+                let t = (px - s.x0) * inv_dx;
+                let yc = s.y0 + slope * (px - s.x0);
+                let y_lo = ceil_f((yc - hv - 0.5).max(band_lo));
+                let y_hi = floor_f((yc + hv - 0.5).min(band_hi));
+                if y_lo > y_hi {
+                    continue;
+                }
+                for y in (y_lo as usize)..=(y_hi as usize) {
+                    plot(self.color, self.depth, x, y, t);
+                }
+            }
+        } else {
+            // y-major: rows of this band, with a horizontal half thickness.
+            let slope = dx / dy;
+            let hh = s.hw * (1.0 + slope * slope).sqrt();
+            let cap_y = cap * dy.abs() / len;
+            let ya = ceil_f((s.y0.min(s.y1) - cap_y - 0.5).max(band_lo));
+            let yb = floor_f((s.y0.max(s.y1) + cap_y - 0.5).min(band_hi));
+            if ya.is_nan() || yb.is_nan() || ya > yb {
+                return;
+            }
+            let inv_dy = 1.0 / dy;
+            for y in (ya as usize)..=(yb as usize) {
+                let py = y as f32 + 0.5;
+                let t = (py - s.y0) * inv_dy;
+                let xc = s.x0 + slope * (py - s.y0);
+                let x_lo = ceil_f((xc - hh - 0.5).max(0.0));
+                let x_hi = floor_f((xc + hh - 0.5).min(x_max));
+                if x_lo > x_hi {
+                    continue;
+                }
+                for x in (x_lo as usize)..=(x_hi as usize) {
+                    plot(self.color, self.depth, x, y, t);
+                }
             }
         }
     }

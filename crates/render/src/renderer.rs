@@ -137,11 +137,11 @@ impl Renderer {
         cam.set_viewport(w * s, h * s);
         let frame = Frame::new(&cam, scene, s, false);
         if s == 1 {
-            out.reset(w, h, scene.background);
+            out.resize(w, h);
             self.buffers.draw(scene, &frame, &mut out.pixels);
         } else {
             let mut big = std::mem::take(&mut self.big);
-            big.reset(w * s, h * s, scene.background);
+            big.resize(w * s, h * s);
             self.buffers.draw(scene, &frame, &mut big.pixels);
             downsample_box(&big, s, out);
             self.big = big;

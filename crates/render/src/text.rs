@@ -82,7 +82,10 @@ impl GlyphCache {
     }
 
     /// Draws `text` with its bounding box placed by `anchor` at `(x, y)`.
-    #[allow(clippy::too_many_arguments, reason = "mirrors the fields of Overlay::Text")]
+    #[allow(
+        clippy::too_many_arguments,
+        reason = "mirrors the fields of Overlay::Text"
+    )]
     pub fn draw(
         &mut self,
         img: &mut Image,

@@ -207,10 +207,18 @@ fn trace_behind_body_is_hidden_or_faint_and_in_front_is_drawn() {
     s.polylines = vec![line(2.0, red, Occluded::Hidden)];
     let img = render(&s, &cam, &opts);
     assert_eq!(img.get(100, 100).unwrap(), red);
-    // On the surface (z = 0.5, the cube's top face): drawn (depth tolerance).
+    // On the surface (z = 0.5, the cube's top face): drawn (depth tolerance), with or without
+    // supersampling; 0.2 m behind the face (8 px at this scale): hidden in both.
     s.polylines = vec![line(0.5, red, Occluded::Hidden)];
-    let img = render(&s, &cam, &opts);
-    assert_eq!(img.get(100, 100).unwrap(), red);
+    for ss in [1, 2, 3] {
+        let img = render(&s, &cam, &opts.with_supersample(ss));
+        assert_eq!(img.get(100, 100).unwrap(), red, "supersample {ss}");
+    }
+    s.polylines = vec![line(0.3, red, Occluded::Hidden)];
+    for ss in [1, 2, 3] {
+        let img = render(&s, &cam, &opts.with_supersample(ss));
+        assert_eq!(img.get(100, 100).unwrap(), body_px, "supersample {ss}");
+    }
 }
 
 #[test]
@@ -832,4 +840,84 @@ fn scale_bar_lengths_are_round() {
     assert_eq!(format_value(2500.0), "2500");
     assert_eq!(format_value(0.125), "0.125");
     assert_eq!(format_value(-3.0), "-3");
+}
+
+fn ink_bbox(img: &Image, bg: Color) -> Option<(u32, u32, u32, u32)> {
+    let px = covered(img, bg);
+    if px.is_empty() {
+        return None;
+    }
+    let x0 = px.iter().map(|p| p.0).min()?;
+    let x1 = px.iter().map(|p| p.0).max()?;
+    let y0 = px.iter().map(|p| p.1).min()?;
+    let y1 = px.iter().map(|p| p.1).max()?;
+    Some((x0, x1, y0, y1))
+}
+
+#[test]
+fn text_is_placed_by_its_anchor_and_scales_with_size() {
+    let text_at = |anchor, size| {
+        let mut s = scene_with(vec![]);
+        s.overlays = vec![Overlay::Text {
+            text: "Quillon 42".into(),
+            x_px: 150.0,
+            y_px: 50.0,
+            size_px: size,
+            color: Color::WHITE,
+            anchor,
+        }];
+        let img = render(
+            &s,
+            &top_camera(300, 100, 10.0),
+            &RenderOptions::new(300, 100),
+        );
+        ink_bbox(&img, BG).unwrap()
+    };
+    let tl = text_at(Anchor::TopLeft, 16.0);
+    assert!(
+        tl.0 >= 150 && tl.0 <= 153 && tl.2 >= 50 && tl.2 <= 56,
+        "{tl:?}"
+    );
+    let br = text_at(Anchor::BottomRight, 16.0);
+    assert!(
+        br.1 <= 150 && br.1 >= 146 && br.3 <= 50 && br.3 >= 42,
+        "{br:?}"
+    );
+    let c = text_at(Anchor::Center, 16.0);
+    let (cx, cy) = ((c.0 + c.1) as f64 / 2.0, (c.2 + c.3) as f64 / 2.0);
+    assert!(
+        (cx - 150.0).abs() <= 2.0 && (cy - 50.0).abs() <= 4.0,
+        "{c:?}"
+    );
+    // Twice the size: about twice as wide (glyph outlines scale linearly with the em size).
+    let big = text_at(Anchor::TopLeft, 32.0);
+    let ratio = (big.1 - big.0) as f64 / (tl.1 - tl.0) as f64;
+    assert!((ratio - 2.0).abs() < 0.15, "ratio {ratio}");
+}
+
+#[test]
+fn per_vertex_line_colours_blend_along_the_line() {
+    let mut s = scene_with(vec![]);
+    s.polylines = vec![Polyline {
+        points: vec![[-2.0, 0.0, 0.0], [2.0, 0.0, 0.0]],
+        color: LineColor::PerVertex(vec![Color::rgb(255, 0, 0), Color::rgb(0, 0, 255)]),
+        width_px: 3.0,
+        dash: None,
+        occluded: Occluded::Hidden,
+    }];
+    // 40 px per metre: the line runs from x = 20 to x = 180 px.
+    let img = render(
+        &s,
+        &top_camera(200, 100, 40.0),
+        &RenderOptions::new(200, 100),
+    );
+    let a = img.get(22, 50).unwrap();
+    let m = img.get(100, 50).unwrap();
+    let b = img.get(178, 50).unwrap();
+    assert!(a.r > 240 && a.b < 15, "{a:?}");
+    assert!(b.b > 240 && b.r < 15, "{b:?}");
+    assert!(
+        (m.r as i32 - 128).abs() <= 3 && (m.b as i32 - 128).abs() <= 3,
+        "{m:?}"
+    );
 }

@@ -151,6 +151,7 @@ pub fn value_range(values: &[f64], symmetric: bool) -> (f64, f64) {
 }
 
 #[cfg(test)]
+#[allow(clippy::unwrap_used, reason = "tests unwrap freely")]
 mod tests {
     use super::*;
 

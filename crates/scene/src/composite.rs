@@ -10,7 +10,7 @@ use spinfall_render::{
 use crate::body_view::BodyView;
 use crate::error::{Result, SceneError};
 use crate::options::ViewOptions;
-use crate::scenes::{Frame, frame_scene};
+use crate::scenes::{Frame, SiteMarker, add_site_markers, frame_scene};
 
 /// Vertical field of view of the default camera, degrees.
 pub const DEFAULT_FOV_Y_DEG: f64 = 30.0;
@@ -58,6 +58,8 @@ pub struct CompositeOptions {
     pub body_camera: Option<Camera>,
     /// Camera of the inertial half (`None`: [`default_camera`]).
     pub inertial_camera: Option<Camera>,
+    /// Planned launch sites to mark in both halves.
+    pub sites: Vec<SiteMarker>,
 }
 
 impl Default for CompositeOptions {
@@ -69,6 +71,7 @@ impl Default for CompositeOptions {
             gap_px: 4,
             body_camera: None,
             inertial_camera: None,
+            sites: Vec::new(),
         }
     }
 }
@@ -144,6 +147,7 @@ pub fn composite(
         // One legend is enough: keep it on the left half.
         half_opts.show_legend = opts.show_legend && frame == Frame::BodyFixed;
         let mut scene = frame_scene(view, reports, t_s, &half_opts, [half_w, h], frame);
+        add_site_markers(&mut scene, view, &settings.sites, t_s, frame);
         add_title(&mut scene, frame, t_s, period_s, [half_w, h]);
         halves.push(renderer.render(&scene, &camera, &render_opts).clone());
     }

@@ -42,7 +42,8 @@ pub use composite::{
 pub use error::{Result, SceneError};
 pub use options::{HiddenTraceStyle, ViewOptions};
 pub use scenes::{
-    CONTACT_COLOR, ESCAPE_COLOR, Frame, PLANNED_SITE_COLOR, SiteMarker, add_site_markers, LAUNCH_COLORS, OVERLAY_COLOR, REST_COLOR, SITE_COLOR,
-    SPIN_AXIS_COLOR, body_fixed_scene, color_bar_rect, end_time_s, frame_scene, inertial_scene,
-    launch_color,
+    CONTACT_COLOR, ESCAPE_COLOR, Frame, LAUNCH_COLORS, OVERLAY_COLOR, PLANNED_SITE_COLOR,
+    REST_COLOR, SITE_COLOR, SPIN_AXIS_COLOR, SiteMarker, add_site_markers, body_fixed_scene,
+    color_bar_rect, end_time_s, field_label, frame_scene, inertial_scene, launch_color,
+    pretty_unit,
 };

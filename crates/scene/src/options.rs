@@ -93,6 +93,7 @@ mod colormap_by_name {
 }
 
 #[cfg(test)]
+#[allow(clippy::unwrap_used, reason = "tests unwrap freely")]
 mod tests {
     use super::*;
 

@@ -1,6 +1,7 @@
 //! The two views as render scenes: body-fixed and inertial.
 
 use nalgebra::{Point3, Rotation3};
+use spinfall_dynamics::surface_map::SurfaceField;
 use spinfall_dynamics::{FlightReport, Outcome};
 use spinfall_render::{
     Arrow, Color, Corner, FaceColors, LineColor, Marker, MarkerShape, Occluded, Overlay, Polyline,
@@ -43,7 +44,7 @@ pub const LAUNCH_COLORS: [Color; 8] = [
 ];
 
 /// Colour of the overlaid other-frame trace.
-pub const OVERLAY_COLOR: Color = Color::rgb(20, 20, 20);
+pub const OVERLAY_COLOR: Color = Color::rgb(245, 245, 245);
 /// Colour of contact markers.
 pub const CONTACT_COLOR: Color = Color::rgb(255, 235, 80);
 /// Colour of launch-site markers.
@@ -54,6 +55,22 @@ pub const REST_COLOR: Color = Color::rgb(60, 230, 120);
 pub const ESCAPE_COLOR: Color = Color::rgb(255, 70, 70);
 /// Colour of the spin axis arrow.
 pub const SPIN_AXIS_COLOR: Color = Color::rgb(120, 200, 255);
+
+/// A unit for display: `m^2/s^2` becomes `m²/s²`, the dimensionless `1` becomes empty.
+pub fn pretty_unit(unit: &str) -> String {
+    if unit == "1" {
+        return String::new();
+    }
+    unit.replace("^2", "²").replace("^3", "³")
+}
+
+/// A surface field's name with its unit in brackets (none for dimensionless fields).
+pub fn field_label(field: SurfaceField) -> String {
+    match pretty_unit(field.unit()).as_str() {
+        "" => field.name().to_string(),
+        u => format!("{} ({u})", field.name()),
+    }
+}
 
 /// Colour of launch `index`.
 pub fn launch_color(index: usize) -> Color {
@@ -189,7 +206,7 @@ fn build(
             colormap: mc.colormap,
             min: mc.min,
             max: mc.max,
-            label: format!("{} ({})", field.name(), field.unit()),
+            label: field_label(field),
             ticks: 5,
             rect: color_bar_rect(size_px),
         });
@@ -210,7 +227,7 @@ fn build(
         let mut entries = vec![(launch_color(0), "trace in this frame".to_string(), false)];
         if opts.overlay_other_frame {
             entries.push((
-                Color::rgb(200, 200, 200),
+                OVERLAY_COLOR,
                 "other frame's trace, transformed".to_string(),
                 true,
             ));
@@ -311,7 +328,7 @@ fn add_markers(
 pub fn color_bar_rect(size_px: [u32; 2]) -> Rect {
     let (w, h) = (size_px[0] as f32, size_px[1] as f32);
     let bar_h = (h * 0.45).clamp(40.0, 600.0);
-    Rect::new(w - 78.0, (h - bar_h) * 0.5, 16.0, bar_h)
+    Rect::new(w - 120.0, (h - bar_h) * 0.5, 16.0, bar_h)
 }
 
 /// A launch site to mark (before or without a run).

@@ -11,6 +11,7 @@ use std::arch::x86_64::*;
 
 use super::direct::{EDGE_FLOOR, PLANE_TOL, Sums};
 use super::lanes::{ATAN_P, ATAN_Q, LG, LN2_HI, LN2_LO, MORE_BITS};
+use super::simd::Span;
 use super::tables::{LANES, SymSoa, Tables};
 
 type V = __m256d;
@@ -181,16 +182,16 @@ fn sym_load(m: &SymSoa, i: usize) -> [V; 6] {
     ]
 }
 
-/// Potential and acceleration sums (no gradient) for the vertex vectors `rv`.
+/// Potential and acceleration sums (no gradient) over `span` for the vertex vectors `rv`.
 #[target_feature(enable = "avx2,fma")]
-pub(crate) fn sums(t: &Tables, rv: &[[f64; 4]]) -> Sums {
+pub(crate) fn sums(t: &Tables, rv: &[[f64; 4]], span: &Span) -> Sums {
     let zero = _mm256_setzero_pd();
     let two = splat(2.0);
     let plane_tol = splat(PLANE_TOL);
     let mut omega_acc = zero;
     let mut face_u = zero;
     let mut face_a = [zero; 3];
-    for i in (0..t.f0.len()).step_by(LANES) {
+    for i in span.faces.clone().step_by(LANES) {
         let r1 = gather(rv, &t.f0[i..i + LANES]);
         let r2 = gather(rv, &t.f1[i..i + LANES]);
         let r3 = gather(rv, &t.f2[i..i + LANES]);
@@ -226,7 +227,7 @@ pub(crate) fn sums(t: &Tables, rv: &[[f64; 4]]) -> Sums {
     let floor = splat(EDGE_FLOOR);
     let mut edge_u = zero;
     let mut edge_a = [zero; 3];
-    for i in (0..t.e0.len()).step_by(LANES) {
+    for i in span.edges.clone().step_by(LANES) {
         let ra = gather(rv, &t.e0[i..i + LANES]);
         let rb = gather(rv, &t.e1[i..i + LANES]);
         let e = load(&t.edge_len_m, i);

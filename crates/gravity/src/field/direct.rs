@@ -35,6 +35,21 @@ pub(crate) struct Sums {
     pub face_grad: [f64; 6],
 }
 
+impl Sums {
+    /// The sums of two disjoint parts of the mesh.
+    pub fn merged(&self, o: &Sums) -> Sums {
+        Sums {
+            edge_u: self.edge_u + o.edge_u,
+            edge_a: std::array::from_fn(|k| self.edge_a[k] + o.edge_a[k]),
+            face_u: self.face_u + o.face_u,
+            face_a: std::array::from_fn(|k| self.face_a[k] + o.face_a[k]),
+            omega: self.omega + o.omega,
+            edge_grad: std::array::from_fn(|k| self.edge_grad[k] + o.edge_grad[k]),
+            face_grad: std::array::from_fn(|k| self.face_grad[k] + o.face_grad[k]),
+        }
+    }
+}
+
 /// Vertex vectors relative to the field point: `[x, y, z, |r|]` per vertex, metres.
 pub(crate) fn fill_vertices(t: &Tables, p: [f64; 3], scratch: &mut Vec<[f64; 4]>) {
     scratch.clear();

@@ -6,8 +6,11 @@
 //! `avx2` runs instead. All agree with the scalar kernel to ~1e-13 relative on non-degenerate
 //! points (tested).
 
+use std::ops::Range;
+
 use multiversion::multiversion;
 use multiversion::target::match_target;
+use rayon::prelude::*;
 use wide::f64x4;
 
 use super::direct::{EDGE_FLOOR, PLANE_TOL, Sums};
@@ -51,14 +54,14 @@ fn sym_mul<L: Lanes>(m: &[L; 6], r: &[L; 4]) -> [L; 3] {
 }
 
 #[inline(always)]
-fn kernel<L: Lanes>(t: &Tables, rv: &[[f64; 4]]) -> Sums {
+fn kernel<L: Lanes>(t: &Tables, rv: &[[f64; 4]], span: &Span) -> Sums {
     let zero = L::splat(0.0);
     let two = L::splat(2.0);
     let plane_tol = L::splat(PLANE_TOL);
     let mut omega_acc = zero;
     let mut face_u = zero;
     let mut face_a = [zero; 3];
-    for i in (0..t.f0.len()).step_by(LANES) {
+    for i in span.faces.clone().step_by(LANES) {
         let r1: [L; 4] = gather(rv, &t.f0[i..i + LANES]);
         let r2: [L; 4] = gather(rv, &t.f1[i..i + LANES]);
         let r3: [L; 4] = gather(rv, &t.f2[i..i + LANES]);
@@ -85,7 +88,7 @@ fn kernel<L: Lanes>(t: &Tables, rv: &[[f64; 4]]) -> Sums {
     let floor = L::splat(EDGE_FLOOR);
     let mut edge_u = zero;
     let mut edge_a = [zero; 3];
-    for i in (0..t.e0.len()).step_by(LANES) {
+    for i in span.edges.clone().step_by(LANES) {
         let ra: [L; 4] = gather(rv, &t.e0[i..i + LANES]);
         let rb: [L; 4] = gather(rv, &t.e1[i..i + LANES]);
         let e: L = load(&t.edge_len_m, i);
@@ -111,21 +114,59 @@ fn kernel<L: Lanes>(t: &Tables, rv: &[[f64; 4]]) -> Sums {
 }
 
 /// The kernel on `wide::f64x4` (whatever SIMD the build enables; SSE2 on default x86-64).
-pub(crate) fn sums_wide(t: &Tables, rv: &[[f64; 4]]) -> Sums {
-    kernel::<f64x4>(t, rv)
+pub(crate) fn sums_wide(t: &Tables, rv: &[[f64; 4]], span: &Span) -> Sums {
+    kernel::<f64x4>(t, rv, span)
 }
 
 /// The kernel compiled per CPU feature set and dispatched at run time: explicit AVX2+FMA on
 /// x86-64 CPUs that have them, `wide` elsewhere.
 #[multiversion(targets("x86_64+avx2+fma+avx"))]
-pub(crate) fn sums_compiled(t: &Tables, rv: &[[f64; 4]]) -> Sums {
+pub(crate) fn sums_compiled(t: &Tables, rv: &[[f64; 4]], span: &Span) -> Sums {
     match_target! {
-        "x86_64+avx2+fma" => super::avx2::sums(t, rv),
-        _ => kernel::<f64x4>(t, rv),
+        "x86_64+avx2+fma" => super::avx2::sums(t, rv, span),
+        _ => kernel::<f64x4>(t, rv, span),
     }
 }
 
-/// The fastest kernel for this CPU.
+/// Face and edge index ranges (padded tables, multiples of [`LANES`]) one kernel call covers.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub(crate) struct Span {
+    pub faces: Range<usize>,
+    pub edges: Range<usize>,
+}
+
+impl Span {
+    /// Everything.
+    pub fn all(t: &Tables) -> Span {
+        Span {
+            faces: 0..t.f0.len(),
+            edges: 0..t.e0.len(),
+        }
+    }
+
+    /// Piece `k` of `n` roughly equal pieces, boundaries on multiples of [`LANES`].
+    pub fn piece(t: &Tables, k: usize, n: usize) -> Span {
+        let cut = |len: usize, j: usize| (len / LANES * j / n) * LANES;
+        let cut_end = |len: usize, j: usize| if j == n { len } else { cut(len, j) };
+        Span {
+            faces: cut(t.f0.len(), k)..cut_end(t.f0.len(), k + 1),
+            edges: cut(t.e0.len(), k)..cut_end(t.e0.len(), k + 1),
+        }
+    }
+}
+
+/// The fastest kernel for this CPU over the whole mesh.
 pub(crate) fn sums(t: &Tables, rv: &[[f64; 4]]) -> Sums {
-    sums_compiled(t, rv)
+    sums_compiled(t, rv, &Span::all(t))
+}
+
+/// As [`sums`], split into `pieces` parts run in parallel on rayon's pool (for one point on a
+/// large mesh). The parts are added in a fixed order, so the result does not depend on the
+/// number of threads.
+pub(crate) fn sums_parallel(t: &Tables, rv: &[[f64; 4]], pieces: usize) -> Sums {
+    let parts: Vec<Sums> = (0..pieces)
+        .into_par_iter()
+        .map(|k| sums_compiled(t, rv, &Span::piece(t, k, pieces)))
+        .collect();
+    parts.iter().fold(Sums::default(), |acc, p| acc.merged(p))
 }
