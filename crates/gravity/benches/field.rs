@@ -87,10 +87,11 @@ fn bench_field(c: &mut Criterion) {
         });
         group.throughput(Throughput::Elements(faces as u64));
         let p = points[17];
-        let far = Point3::new(40.0 * radius_m, 3.0 * radius_m, -5.0 * radius_m);
-        group.bench_function("single_far_point_exterior_expansion", |b| {
-            b.iter(|| black_box(field.potential_acceleration(black_box(&far))))
-        });
+        if faces >= spinfall_gravity::field::SPLIT_FACE_COUNT {
+            group.bench_function("single_point_unsplit_one_thread", |b| {
+                b.iter(|| black_box(field.potential_acceleration_direct(black_box(&p))))
+            });
+        }
         group.bench_function("single_point_potential_acceleration", |b| {
             b.iter(|| black_box(field.potential_acceleration(black_box(&p))))
         });
@@ -110,6 +111,14 @@ fn bench_field(c: &mut Criterion) {
                 b.iter(|| black_box(field.evaluate(black_box(&p))))
             });
         }
+        group.finish();
+        let mut group = c.benchmark_group(format!("exterior_{faces}_faces"));
+        group.sample_size(10);
+        group.measurement_time(Duration::from_secs(1));
+        let far = Point3::new(40.0 * radius_m, 3.0 * radius_m, -5.0 * radius_m);
+        group.bench_function("single_far_point_degree_8_expansion", |b| {
+            b.iter(|| black_box(field.potential_acceleration(black_box(&far))))
+        });
         group.finish();
     }
 }

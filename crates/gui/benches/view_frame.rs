@@ -19,7 +19,13 @@ fn view_frame(c: &mut Criterion) {
     let launches = scenario.build_launches(&body).expect("demo launches build");
     let mut settings = FlightSettings::default();
     settings.integrator.max_time_s = 4.0 * 3600.0;
-    let reports = fly_all(&body, &launches, &settings, &|_, _| {}, &AtomicBool::new(false));
+    let reports = fly_all(
+        &body,
+        &launches,
+        &settings,
+        &|_, _| {},
+        &AtomicBool::new(false),
+    );
     let view = BodyView::new(body);
     let (w, h) = (1280, 720);
     let mut camera = default_camera(&view.body().shape, w, h);

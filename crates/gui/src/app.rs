@@ -713,9 +713,8 @@ impl SpinfallApp {
             return;
         }
         let label = format!("Loading scenario {}", path.display());
-        let current = self.shape.clone();
         self.load_job = Some(Job::spawn(label, self.repaint.clone(), move |ctx| {
-            crate::export::load_scenario_job(ctx, &path, current)
+            crate::scenario_io::load(ctx, &path)
         }));
     }
 

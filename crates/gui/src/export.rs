@@ -13,7 +13,7 @@ use spinfall_scene::{
     BodyView, CompositeOptions, Frame, ViewOptions, add_title, composite, frame_scene,
 };
 
-use crate::app::{Loaded, LoadedShape, SpinfallApp};
+use crate::app::SpinfallApp;
 use crate::atomic::write_atomic;
 use crate::command::{Command, ExportRequest};
 use crate::jobs::{Job, JobContext};
@@ -129,7 +129,7 @@ impl SpinfallApp {
                     ui.vertical(|ui| {
                         ui.checkbox(&mut r.results, "results (JSON and CSV)");
                         ui.checkbox(&mut r.trajectories, "trajectories (CSV)");
-                        ui.checkbox(&mut r.surface_map, "surface map (CSV, when computed)");
+                        ui.checkbox(&mut r.surface_map, "surface map per face (CSV)");
                         ui.checkbox(&mut r.scenario, "scenario (JSON)");
                     });
                     ui.end_row();
@@ -308,9 +308,27 @@ fn run_export(
         })?;
         written.push(p);
     }
-    if req.surface_map
-        && let Some(map) = &s.map
-    {
+    if req.surface_map {
+        // Compute the map here when the user has not shown one yet.
+        let computed;
+        let map = match &s.map {
+            Some(m) => m.as_ref(),
+            None => {
+                ctx.progress.set_stage("computing the surface map");
+                ctx.request_repaint();
+                let progress = |done: usize, total: usize| {
+                    ctx.progress.set(done, total);
+                    ctx.request_repaint();
+                };
+                computed = spinfall_dynamics::surface_map::surface_map(
+                    s.view.body(),
+                    &progress,
+                    &ctx.cancel,
+                )
+                .map_err(|e| format!("surface map: {e}"))?;
+                &computed
+            }
+        };
         ctx.progress.set_stage("writing the surface map");
         let p = path("surface_map.csv");
         write_atomic(&p, |out| {
@@ -369,13 +387,4 @@ fn csv_text(s: &str) -> String {
     } else {
         s.to_string()
     }
-}
-
-/// Load a scenario file and its shape model (worker thread).
-pub(crate) fn load_scenario_job(
-    ctx: &JobContext,
-    path: &Path,
-    current: Option<LoadedShape>,
-) -> Result<Loaded, String> {
-    crate::scenario_io::load(ctx, path, current)
 }

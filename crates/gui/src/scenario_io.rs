@@ -296,11 +296,7 @@ fn sites_from(s: &Scenario, shape: &ShapeModel) -> (Vec<SiteEntry>, Vec<LaunchEn
 }
 
 /// Load a scenario and its shape model (worker thread).
-pub(crate) fn load(
-    ctx: &JobContext,
-    path: &Path,
-    _current: Option<LoadedShape>,
-) -> Result<Loaded, String> {
+pub(crate) fn load(ctx: &JobContext, path: &Path) -> Result<Loaded, String> {
     ctx.progress.set_stage("reading the scenario");
     let text = std::fs::read_to_string(path)
         .map_err(|e| format!("cannot read {}: {e}", path.display()))?;

@@ -165,6 +165,20 @@ impl CameraInput {
 impl SpinfallApp {
     pub(crate) fn views_ui(&mut self, ui: &mut Ui) {
         self.time_bar_ui(ui);
+        ui.horizontal(|ui| {
+            ui.checkbox(&mut self.state.link_cameras, "Link cameras")
+                .on_hover_text("Orbit, pan and zoom both views together");
+            ui.checkbox(
+                &mut self.state.view.overlay_other_frame,
+                "Overlay the other frame's trace",
+            )
+            .on_hover_text("The trace integrated in the other frame, turned into this one (dashed); it must lie on this frame's trace");
+            ui.checkbox(&mut self.state.view.trail_to_time, "Traces up to t");
+            if ui.button("Reset views").clicked() {
+                self.commands.push(Command::ResetCameras);
+            }
+            ui.weak("drag: orbit · right/middle drag: pan · wheel: zoom");
+        });
         let Some(view) = self.view.clone() else {
             ui.centered_and_justified(|ui| {
                 if self.load_job.is_some() {

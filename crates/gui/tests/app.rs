@@ -194,7 +194,7 @@ fn export_writes_every_file_and_the_scenario_reloads() {
         .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
         .collect();
     names.sort();
-    // No surface map was computed, so no map file; no temporary files are left behind.
+    // The surface map is computed for the export; no temporary files are left behind.
     assert_eq!(
         names,
         [
@@ -202,6 +202,7 @@ fn export_writes_every_file_and_the_scenario_reloads() {
             "run_results.csv",
             "run_results.json",
             "run_scenario.json",
+            "run_surface_map.csv",
             "run_trajectories.csv",
             "run_views.png"
         ],
@@ -213,6 +214,10 @@ fn export_writes_every_file_and_the_scenario_reloads() {
     assert_eq!(&png[..8], b"\x89PNG\r\n\x1a\n");
     let csv = std::fs::read_to_string(dir.path().join("run_results.csv")).unwrap();
     assert_eq!(csv.lines().count(), 2, "{csv}");
+    // One row per face plus the header.
+    let faces = harness.state().shape().unwrap().shape.face_count();
+    let map_csv = std::fs::read_to_string(dir.path().join("run_surface_map.csv")).unwrap();
+    assert_eq!(map_csv.lines().count(), faces + 1);
     let json: serde_json::Value = serde_json::from_str(
         &std::fs::read_to_string(dir.path().join("run_results.json")).unwrap(),
     )
@@ -309,4 +314,50 @@ fn keyboard_shortcuts_play_and_run() {
     harness.step();
     settle(&mut harness);
     assert_eq!(harness.state().reports().len(), 1, "Ctrl+R runs");
+}
+
+/// A file dropped on the window.
+#[derive(Debug)]
+struct TestFile(std::path::PathBuf);
+
+impl egui::DroppedFile for TestFile {
+    fn path(&self) -> &std::path::Path {
+        &self.0
+    }
+
+    fn bytes(&self) -> Result<Vec<u8>, String> {
+        std::fs::read(&self.0).map_err(|e| e.to_string())
+    }
+}
+
+#[test]
+fn dropped_obj_file_loads_in_the_background() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("brick.obj");
+    let mesh = spinfall_gravity::generate::box_mesh(400.0, 200.0, 100.0);
+    std::fs::write(
+        &path,
+        spinfall_gravity::generate::to_obj(&mesh, LengthUnit::Metre, "test brick"),
+    )
+    .unwrap();
+    let mut harness = demo_harness();
+    settle(&mut harness);
+    harness.state_mut().params_mut().density_kg_m3 = 1000.0;
+    // The unit follows the radio buttons; the file is in metres.
+    harness.get_by_label("m").click();
+    harness.step();
+    harness
+        .input_mut()
+        .dropped_files
+        .push(std::sync::Arc::new(TestFile(path.clone())));
+    harness.step();
+    settle(&mut harness);
+    let app = harness.state();
+    let shape = app.shape().expect("a shape");
+    assert_eq!(shape.name, "brick", "{:?}", app.notices());
+    assert_eq!(shape.shape.face_count(), 12);
+    // Mass of a 400 m x 200 m x 100 m brick of 1000 kg/m^3: 8e9 kg (rho * V).
+    let mass_kg = app.body_view().unwrap().body().figures().mass_kg;
+    assert!((mass_kg / 8.0e9 - 1.0).abs() < 1e-9, "mass {mass_kg} kg");
+    assert!(app.persisted().recent_files.iter().any(|f| f.path == path));
 }

@@ -53,6 +53,16 @@ fn main() -> std::result::Result<(), Box<dyn std::error::Error>> {
         40.0,
     );
     let mut r = Renderer::new();
+    // OPTS="3840 2160 2" renders at another size with supersampling.
+    let nums: Vec<u32> = std::env::var("OPTS")
+        .unwrap_or_default()
+        .split_whitespace()
+        .filter_map(|v| v.parse().ok())
+        .collect();
+    let opts = match nums[..] {
+        [w, h, ss] => RenderOptions::new(w, h).with_supersample(ss),
+        _ => RenderOptions::new(1280, 720),
+    };
     let mut best = std::time::Duration::MAX;
     let frames: usize = std::env::var("FRAMES")
         .ok()
@@ -60,7 +70,7 @@ fn main() -> std::result::Result<(), Box<dyn std::error::Error>> {
         .unwrap_or(40);
     for _ in 0..frames {
         let t = std::time::Instant::now();
-        let img = r.render(&s, &cam, &RenderOptions::new(1280, 720));
+        let img = r.render(&s, &cam, &opts);
         std::hint::black_box(img.pixels.len());
         best = best.min(t.elapsed());
     }

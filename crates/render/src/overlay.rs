@@ -113,7 +113,9 @@ fn color_bar(
         rect.width_px.round().max(1.0),
         rect.height_px.round().max(2.0),
     );
-    if !(x0.is_finite() && y0.is_finite() && w.is_finite() && h.is_finite()) {
+    // Nothing sensible to draw for rectangles far outside any image or absurdly large.
+    let sane = |v: f32| v.is_finite() && v.abs() <= 1.0e6;
+    if !(sane(x0) && sane(y0) && sane(w) && sane(h)) {
         return;
     }
     let rows = h as i64;

@@ -96,7 +96,7 @@ impl GlyphCache {
         color: Color,
         anchor: Anchor,
     ) {
-        if !(x.is_finite() && y.is_finite()) {
+        if !(x.is_finite() && y.is_finite() && x.abs() <= 1.0e6 && y.abs() <= 1.0e6) {
             return;
         }
         let size_px = clamp_size(size_px);

@@ -921,3 +921,134 @@ fn per_vertex_line_colours_blend_along_the_line() {
         "{m:?}"
     );
 }
+
+#[test]
+fn model_matrix_places_and_scales_the_mesh() {
+    // Orthographic, 40 px/m: a unit cube covers 40 x 40 px; scaled by 2 (a non-rigid model
+    // matrix) 80 x 80 px; rotated 45 degrees about z, its top face becomes a diamond with the
+    // same area (rotations preserve area) but a bounding box sqrt(2) times wider.
+    let cam = top_camera(200, 200, 40.0);
+    let count = |model: nalgebra::Matrix4<f64>| {
+        let mut m = mesh(testing::cube(1.0), Color::WHITE);
+        m.model = model;
+        let img = render(&scene_with(vec![m]), &cam, &RenderOptions::new(200, 200));
+        (covered(&img, BG).len() as f64, ink_bbox(&img, BG).unwrap())
+    };
+    let (a1, _) = count(nalgebra::Matrix4::identity());
+    let (a2, _) = count(nalgebra::Matrix4::new_scaling(2.0));
+    let rot = nalgebra::Rotation3::from_axis_angle(&Vector3::z_axis(), std::f64::consts::FRAC_PI_4);
+    let (a3, bb3) = count(rot.to_homogeneous());
+    let shift = nalgebra::Matrix4::new_translation(&Vector3::new(1.0, 0.5, 0.0));
+    let (_, bb4) = count(shift);
+    assert!((a1 - 1600.0).abs() <= 80.0, "{a1}");
+    assert!((a2 / a1 - 4.0).abs() < 0.05, "{a2} / {a1}");
+    assert!((a3 / a1 - 1.0).abs() < 0.05, "{a3} / {a1}");
+    let w3 = (bb3.1 - bb3.0 + 1) as f64;
+    assert!((w3 / 40.0 - 2f64.sqrt()).abs() < 0.05, "{w3}");
+    // Translation by (1, 0.5) m: 40 px right and 20 px up (y up in the world, down on screen).
+    assert_eq!((bb4.0, bb4.2), (120, 60));
+}
+
+#[test]
+fn a_reused_renderer_matches_fresh_renders_across_sizes() {
+    let s = demo_scene();
+    let mut r = Renderer::new();
+    for (w, h, ss) in [(120, 90, 1), (64, 64, 2), (120, 90, 1), (33, 17, 3)] {
+        let opts = RenderOptions::new(w, h).with_supersample(ss);
+        let cam = demo_camera(w, h);
+        let reused = r.render(&s, &cam, &opts).clone();
+        assert_eq!(reused, render(&s, &cam, &opts), "{w}x{h} ss {ss}");
+    }
+}
+
+#[test]
+fn random_scenes_and_cameras_never_panic() {
+    // A small linear congruential generator (Knuth, MMIX constants) keeps the test reproducible.
+    let mut state = 0x2545_f491_4f6c_dd1du64;
+    let mut next = move || {
+        state = state
+            .wrapping_mul(6_364_136_223_846_793_005)
+            .wrapping_add(1_442_695_040_888_963_407);
+        (state >> 11) as f64 / (1u64 << 53) as f64
+    };
+    let specials = [0.0, -0.0, 1e-30, 1e30, f64::NAN, f64::INFINITY, -1.0];
+    for round in 0..300 {
+        let mut v = |scale: f64| {
+            let r = next();
+            if r < 0.05 {
+                specials[(next() * specials.len() as f64) as usize % specials.len()]
+            } else {
+                (r - 0.5) * 2.0 * scale
+            }
+        };
+        let n = 3 + (round % 7) * 5;
+        let pos: Vec<[f32; 3]> = (0..n)
+            .map(|_| [v(2.0) as f32, v(2.0) as f32, v(2.0) as f32])
+            .collect();
+        let tris: Vec<[u32; 3]> = (0..n)
+            .map(|_| {
+                [
+                    (v(1.0).abs() * n as f64) as u32,
+                    1,
+                    (v(1.0).abs() * 1.2 * n as f64) as u32,
+                ]
+            })
+            .collect();
+        let mut m = SceneMesh::new(Arc::new(pos), Arc::new(tris), Color::WHITE);
+        m.shading = if round % 2 == 0 {
+            Shading::Smooth
+        } else {
+            Shading::Flat
+        };
+        m.wireframe = (round % 3 == 0).then_some(Color::RED);
+        m.cull_back_faces = round % 4 != 0;
+        m.model = nalgebra::Matrix4::new_scaling(v(3.0));
+        let mut s = scene_with(vec![m]);
+        s.polylines = vec![Polyline {
+            points: (0..20).map(|_| [v(3.0), v(3.0), v(3.0)]).collect(),
+            color: LineColor::Uniform(Color::YELLOW),
+            width_px: v(6.0) as f32,
+            dash: Some((v(5.0) as f32, v(5.0) as f32)),
+            occluded: Occluded::Faint(v(1.0) as f32),
+        }];
+        s.arrows = vec![Arrow {
+            from: [v(2.0), v(2.0), v(2.0)],
+            to: [v(2.0), v(2.0), v(2.0)],
+            color: Color::CYAN,
+            width_px: v(5.0) as f32,
+        }];
+        s.overlays = vec![
+            Overlay::ColorBar {
+                colormap: Colormap::RedBlue,
+                min: v(10.0),
+                max: v(10.0),
+                label: "x".into(),
+                ticks: (v(10.0).abs() * 2.0) as usize,
+                rect: Rect::new(
+                    v(100.0) as f32,
+                    v(100.0) as f32,
+                    v(50.0) as f32,
+                    v(50.0) as f32,
+                ),
+            },
+            Overlay::ScaleBar {
+                unit_label: String::new(),
+                corner: Corner::TopRight,
+            },
+        ];
+        let eye = Point3::new(v(10.0), v(10.0), v(10.0));
+        let cam = if round % 2 == 0 {
+            Camera::perspective(64, 48, eye, Point3::origin(), Vector3::z(), v(200.0))
+        } else {
+            Camera::orthographic(64, 48, eye, Point3::origin(), Vector3::z(), v(5.0))
+        };
+        let img = render(
+            &s,
+            &cam,
+            &RenderOptions::new(64, 48).with_supersample(1 + round as u32 % 3),
+        );
+        assert_eq!(img.pixels.len(), 64 * 48);
+        let mut r = Renderer::new();
+        let _ = r.render_face_ids(&s, &cam, 64, 48);
+    }
+}
