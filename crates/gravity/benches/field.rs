@@ -53,7 +53,47 @@ fn cpu_time_per_facet(field: &PolyhedronGravity, p: &Point3<f64>) {
     }
 }
 
+/// CPU time of the whole process (all threads), ns, from `/proc/self/stat` (utime + stime in
+/// clock ticks, assumed 100 per second as on Linux); `None` elsewhere.
+fn process_cpu_ns() -> Option<u64> {
+    let text = std::fs::read_to_string("/proc/self/stat").ok()?;
+    let rest = text.rsplit_once(')')?.1;
+    let fields: Vec<&str> = rest.split_whitespace().collect();
+    let ticks: u64 = fields.get(11)?.parse::<u64>().ok()? + fields.get(12)?.parse::<u64>().ok()?;
+    Some(ticks * 10_000_000)
+}
+
+/// Prints wall and CPU ns per facet per point of the batch, and how many cores were busy.
+fn batch_figures(field: &PolyhedronGravity, points: &[Point3<f64>]) {
+    let work = (field.face_count() * points.len()) as f64;
+    let reps = (2.0e9 / work).ceil().max(2.0) as usize;
+    black_box(field.potential_acceleration_batch(points));
+    let cpu0 = process_cpu_ns();
+    let start = Instant::now();
+    for _ in 0..reps {
+        black_box(field.potential_acceleration_batch(black_box(points)));
+    }
+    let wall = start.elapsed().as_nanos() as f64;
+    let per = |ns: f64| ns / (reps as f64 * work);
+    match (cpu0, process_cpu_ns()) {
+        (Some(c0), Some(c1)) => eprintln!(
+            "  batch of {}: {:.2} ns wall, {:.2} ns CPU per facet per point ({:.2} cores busy)",
+            points.len(),
+            per(wall),
+            per((c1 - c0) as f64),
+            (c1 - c0) as f64 / wall
+        ),
+        _ => eprintln!(
+            "  batch of {}: {:.2} ns wall per facet per point",
+            points.len(),
+            per(wall)
+        ),
+    }
+}
+
 fn bench_field(c: &mut Criterion) {
+    // SPINFALL_BENCH_QUICK=1: print the figures above, skip criterion's statistics.
+    let quick = std::env::var("SPINFALL_BENCH_QUICK").is_ok_and(|v| v == "1");
     for subdivisions in [4u32, 6, 7] {
         let radius_m = 1000.0;
         let mesh = generate::icosphere(radius_m, subdivisions);
@@ -76,6 +116,10 @@ fn bench_field(c: &mut Criterion) {
         );
         let points = points_around(radius_m, 256);
         cpu_time_per_facet(&field, &points[17]);
+        batch_figures(&field, &points);
+        if quick {
+            continue;
+        }
         let big = faces > 100_000;
         let mut group = c.benchmark_group(format!("field_{faces}_faces"));
         group.sample_size(10);

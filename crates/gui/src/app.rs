@@ -19,6 +19,9 @@ use crate::session::{BodyParams, ShapeSource, SiteEntry};
 use crate::state::{PersistedState, RecentFile, RecentKind};
 use crate::views::ViewPane;
 
+/// Largest model whose surface map starts by itself when a map is chosen.
+pub const AUTO_MAP_MAX_FACES: usize = 50_000;
+
 /// Shortcut: open a shape model.
 pub const SHORTCUT_OPEN: KeyboardShortcut = KeyboardShortcut::new(Modifiers::COMMAND, Key::O);
 /// Shortcut: save the scenario.
@@ -738,6 +741,14 @@ impl SpinfallApp {
         self.built_params = Some(self.params.clone());
     }
 
+    /// Whether the surface map may start without being asked: its cost grows with the square
+    /// of the face count, so large models wait for the button.
+    pub(crate) fn map_starts_by_itself(&self) -> bool {
+        self.view
+            .as_ref()
+            .is_some_and(|v| v.triangles().len() <= AUTO_MAP_MAX_FACES)
+    }
+
     pub(crate) fn start_map(&mut self) {
         let Some(view) = self.view.clone() else {
             return;
@@ -981,7 +992,7 @@ impl SpinfallApp {
         self.run_state = RunState::NotRun;
         self.t_s = 0.0;
         self.data_generation += 1;
-        if self.state.view.map.is_some() {
+        if self.state.view.map.is_some() && self.map_starts_by_itself() {
             self.start_map();
         }
     }

@@ -146,6 +146,17 @@ impl SpinfallApp {
                     );
                     ui.checkbox(&mut v.show_wireframe, "Wireframe");
                     ui.checkbox(&mut v.smooth_shading, "Smooth shading");
+                    let mut faint = v.hidden_trace_style == spinfall_scene::HiddenTraceStyle::Faint;
+                    if ui
+                        .checkbox(&mut faint, "Show traces behind the body (faint)")
+                        .changed()
+                    {
+                        v.hidden_trace_style = if faint {
+                            spinfall_scene::HiddenTraceStyle::Faint
+                        } else {
+                            spinfall_scene::HiddenTraceStyle::Hidden
+                        };
+                    }
                     ui.checkbox(&mut v.show_spin_axis, "Spin axis");
                     ui.checkbox(&mut v.show_triad, "Axis triad");
                     ui.checkbox(&mut v.show_legend, "Legend");
@@ -548,12 +559,25 @@ impl SpinfallApp {
                     ui.selectable_value(&mut self.state.view.colormap, c, c.name());
                 }
             });
-        if self.state.view.map != before
-            && self.state.view.map.is_some()
-            && self.map.is_none()
-            && self.map_job.is_none()
-        {
+        let wanted = self.state.view.map.is_some() && self.map.is_none() && self.map_job.is_none();
+        if wanted && self.state.view.map != before && self.map_starts_by_itself() {
             self.commands.push(Command::ComputeMap);
+        } else if wanted && self.view.is_some() {
+            let faces = self.view.as_ref().map_or(0, |v| v.triangles().len());
+            if ui.button("Compute map").clicked() {
+                self.commands.push(Command::ComputeMap);
+            }
+            if faces > crate::app::AUTO_MAP_MAX_FACES {
+                ui.add(
+                    egui::Label::new(
+                        RichText::new(format!(
+                            "{faces} faces: the map takes a while (its cost grows with the square of the face count)"
+                        ))
+                        .weak(),
+                    )
+                    .wrap(),
+                );
+            }
         }
         if let Some(job) = &self.map_job {
             ui.horizontal(|ui| {

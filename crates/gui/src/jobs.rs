@@ -1,10 +1,27 @@
 //! Background jobs: a worker thread, a progress counter, a cancel flag and a result channel.
 //!
 //! The UI polls [`Job::poll`] once per frame; it never waits on a job.
+//!
+//! Jobs run their parallel work (rayon) in a thread pool of their own, so the global pool stays
+//! free for the renderer on the UI thread: a long surface map or run never stalls a frame.
 
 use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
 use std::sync::mpsc::{Receiver, TryRecvError, channel};
-use std::sync::{Arc, Mutex};
+use std::sync::{Arc, Mutex, OnceLock};
+
+/// The rayon pool background jobs run in (separate from the global pool the renderer uses).
+fn job_pool() -> Option<&'static rayon::ThreadPool> {
+    static POOL: OnceLock<Option<rayon::ThreadPool>> = OnceLock::new();
+    POOL.get_or_init(|| {
+        let threads = std::thread::available_parallelism().map_or(2, |n| n.get());
+        rayon::ThreadPoolBuilder::new()
+            .num_threads(threads)
+            .thread_name(|i| format!("spinfall worker {i}"))
+            .build()
+            .ok()
+    })
+    .as_ref()
+}
 
 /// Progress shared between a worker and the UI.
 #[derive(Debug, Default)]
@@ -107,7 +124,12 @@ impl<T: Send + 'static> Job<T> {
         let spawned = std::thread::Builder::new()
             .name(format!("spinfall job: {label}"))
             .spawn(move || {
-                let result = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| work(&ctx)))
+                let run = || work(&ctx);
+                let result =
+                    std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| match job_pool() {
+                        Some(pool) => pool.install(run),
+                        None => run(),
+                    }))
                     .unwrap_or_else(|_| Err("the background job failed unexpectedly".into()));
                 // The receiver may be gone when the app closed; nothing to do then.
                 let _ = tx.send(result);
@@ -148,5 +170,50 @@ impl<T: Send + 'static> Job<T> {
                 Poll::Done(Err("the background job ended without a result".into()))
             }
         }
+    }
+}
+
+#[cfg(test)]
+#[allow(clippy::unwrap_used, reason = "tests unwrap freely")]
+mod tests {
+    use super::*;
+
+    /// Regression: a surface map of a large model once filled the global rayon pool and the
+    /// renderer on the UI thread waited behind it. Jobs must run in their own pool.
+    #[test]
+    fn jobs_run_in_their_own_rayon_pool_and_report_results() {
+        let job = Job::spawn("probe", Arc::new(|| {}), |ctx| {
+            ctx.progress.set(3, 4);
+            let name = std::thread::current().name().map(str::to_string);
+            Ok((rayon::current_thread_index(), name))
+        });
+        let result = loop {
+            if let Poll::Done(r) = job.poll() {
+                break r.unwrap();
+            }
+            std::thread::sleep(std::time::Duration::from_millis(2));
+        };
+        assert!(
+            result.0.is_some(),
+            "the job did not run inside a rayon pool"
+        );
+        let name = result.1.unwrap_or_default();
+        assert!(name.starts_with("spinfall worker"), "ran on {name}");
+        // The global pool is a different one: this thread is not in any pool.
+        assert!(rayon::current_thread_index().is_none());
+        assert_eq!(job.progress.counts(), (3, 4));
+        assert_eq!(job.progress.fraction(), Some(0.75));
+    }
+
+    #[test]
+    fn a_panicking_job_becomes_an_error() {
+        let job: Job<()> = Job::spawn("boom", Arc::new(|| {}), |_| panic!("worker panic"));
+        let result = loop {
+            if let Poll::Done(r) = job.poll() {
+                break r;
+            }
+            std::thread::sleep(std::time::Duration::from_millis(2));
+        };
+        assert!(result.unwrap_err().contains("failed unexpectedly"));
     }
 }

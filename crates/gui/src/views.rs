@@ -95,9 +95,12 @@ impl ViewPane {
             target: camera.target().into(),
             up: camera.up().into(),
             size_px,
-            // The body-fixed view without trails or particles does not change with time, but
-            // markers at t do: keep t in the key for both.
-            t_s,
+            // Without flights the body-fixed view does not change with time.
+            t_s: if self.frame == Frame::BodyFixed && reports.is_empty() {
+                0.0
+            } else {
+                t_s
+            },
             data_generation,
             options: options.clone(),
             sites: sites.to_vec(),

@@ -361,3 +361,99 @@ fn dropped_obj_file_loads_in_the_background() {
     assert!((mass_kg / 8.0e9 - 1.0).abs() < 1e-9, "mass {mass_kg} kg");
     assert!(app.persisted().recent_files.iter().any(|f| f.path == path));
 }
+
+fn drag(harness: &mut Harness<'static, SpinfallApp>, from: Pos2, to: Pos2) {
+    harness.input_mut().events.push(Event::PointerMoved(from));
+    harness.step();
+    harness.input_mut().events.push(Event::PointerButton {
+        pos: from,
+        button: PointerButton::Primary,
+        pressed: true,
+        modifiers: Modifiers::NONE,
+    });
+    harness.step();
+    for k in 1..=5 {
+        let p = from + (to - from) * (k as f32 / 5.0);
+        harness.input_mut().events.push(Event::PointerMoved(p));
+        harness.step();
+    }
+    harness.input_mut().events.push(Event::PointerButton {
+        pos: to,
+        button: PointerButton::Primary,
+        pressed: false,
+        modifiers: Modifiers::NONE,
+    });
+    harness.step();
+}
+
+#[test]
+fn dragging_orbits_one_view_or_both_when_linked() {
+    let mut harness = demo_harness();
+    settle(&mut harness);
+    let eye = |h: &Harness<'static, SpinfallApp>, k: usize| h.state().camera(k).unwrap().eye();
+    let (body0, inertial0) = (eye(&harness, 0), eye(&harness, 1));
+    let renders0 = harness.state().render_counts();
+    let c = harness.state().view_rect(0).unwrap().center();
+    drag(&mut harness, c, c + egui::vec2(60.0, 0.0));
+    assert!(
+        (eye(&harness, 0) - body0).norm() > 1.0,
+        "the body-fixed camera did not orbit"
+    );
+    assert_eq!(
+        eye(&harness, 1),
+        inertial0,
+        "the inertial camera moved without the link"
+    );
+    assert!(
+        harness.state().render_counts()[0] > renders0[0],
+        "no re-render after orbit"
+    );
+    // A drag is not a click: no site was placed.
+    assert!(harness.state().sites().is_empty());
+
+    harness.get_by_label("Link cameras").click();
+    harness.step();
+    let (body1, inertial1) = (eye(&harness, 0), eye(&harness, 1));
+    drag(&mut harness, c, c + egui::vec2(0.0, 40.0));
+    assert!((eye(&harness, 0) - body1).norm() > 1.0);
+    assert!(
+        (eye(&harness, 1) - inertial1).norm() > 1.0,
+        "linked camera did not follow"
+    );
+}
+
+#[test]
+fn cancel_stops_a_run() {
+    let mut harness = demo_harness();
+    settle(&mut harness);
+    {
+        let app = harness.state_mut();
+        app.push_command(spinfall_gui::Command::AddSiteLatLon {
+            lat_deg: 5.0,
+            lon_deg: 10.0,
+        });
+        app.handle_commands();
+        let site = &mut app.sites_mut()[0];
+        site.launch.speed_m_s = 0.3;
+        site.launch.spread = spinfall_gui::Spread::Dispersion {
+            count: 400,
+            speed_sigma_percent: 5.0,
+            direction_sigma_deg: 5.0,
+        };
+        app.settings_mut().integrator.max_time_s = 48.0 * 3600.0;
+        app.push_command(spinfall_gui::Command::Run);
+        app.handle_commands();
+        assert!(app.busy());
+        app.push_command(spinfall_gui::Command::CancelJobs);
+        app.handle_commands();
+    }
+    settle(&mut harness);
+    assert!(
+        matches!(
+            harness.state().run_state(),
+            spinfall_gui::RunState::Cancelled { .. }
+        ),
+        "{:?}",
+        harness.state().run_state()
+    );
+}

@@ -19,6 +19,13 @@ fn main() -> std::result::Result<(), Box<dyn std::error::Error>> {
     let colors = face_colors(&values, -1000.0, 1000.0, Colormap::Viridis);
     let mut mesh = SceneMesh::new(Arc::new(positions), Arc::new(triangles), Color::GREY);
     mesh.colors = FaceColors::PerFace(Arc::new(colors));
+    // SMOOTH=1 and WIRE=1 switch to smooth shading and a wireframe overlay.
+    if std::env::var("SMOOTH").is_ok() {
+        mesh.shading = Shading::Smooth;
+    }
+    if std::env::var("WIRE").is_ok() {
+        mesh.wireframe = Some(Color::rgba(0, 0, 0, 90));
+    }
     let mut scene = Scene {
         meshes: vec![mesh],
         light: Light::Sun {

@@ -17,13 +17,16 @@
 //!   pixel coordinates and `f64` world positions at this API) with orbit, pan, zoom, fit and
 //!   picking rays;
 //! - [`Renderer`] (reusable buffers) and [`render`]; [`RenderOptions`] sets size and
-//!   supersampling (box-filtered anti-aliasing for exports);
+//!   supersampling (box-filtered anti-aliasing for exports); [`Renderer::render_face_ids`]
+//!   gives a [`FaceIdImage`] for picking;
 //! - [`Colormap`] and [`face_colors`] for scalar fields; [`compose_side_by_side`];
 //!   [`encode_png`] with text chunks.
 //!
 //! Rasterization runs in parallel over horizontal bands, each owned by one rayon task, and the
 //! triangles of each band are drawn in scene order, so output does not depend on the number of
 //! threads.
+//!
+//! Performance figures and the drawing pipeline are described in the crate's `README.md`.
 //!
 //! Spinfall is a research and planning tool, not flight-certified; images are for inspection.
 //!

@@ -119,7 +119,12 @@ fn color_bar(
         return;
     }
     let rows = h as i64;
-    for r in 0..rows {
+    // Only the rows and columns inside the image are visited.
+    let r_lo = (-(y0 as i64)).clamp(0, rows);
+    let r_hi = (img.height as i64 - y0 as i64).clamp(0, rows);
+    let c_lo = (-(x0 as i64)).clamp(0, w as i64);
+    let c_hi = (img.width as i64 - x0 as i64).clamp(0, w as i64);
+    for r in r_lo..r_hi {
         // Top row is max, bottom row is min.
         let t = if rows > 1 {
             1.0 - r as f64 / (rows - 1) as f64
@@ -127,7 +132,7 @@ fn color_bar(
             0.5
         };
         let c = bar_color(colormap, t);
-        for x in 0..w as i64 {
+        for x in c_lo..c_hi {
             img.blend(x0 as i64 + x, y0 as i64 + r, c, 1.0);
         }
     }
@@ -137,7 +142,7 @@ fn color_bar(
     img.fill_rect(x0 - 1.0, y0 + h, x0 + w + 1.0, y0 + h + 1.0, frame);
     img.fill_rect(x0 - 1.0, y0, x0, y0 + h, frame);
     img.fill_rect(x0 + w, y0, x0 + w + 1.0, y0 + h, frame);
-    let n = ticks.max(2);
+    let n = ticks.clamp(2, 64);
     for i in 0..n {
         let f = i as f64 / (n - 1) as f64;
         let v = min + (max - min) * f;

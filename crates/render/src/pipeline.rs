@@ -799,7 +799,13 @@ fn setup_lines(frame: &Frame, src: &LineSrc, job: &mut LineJob, bands: usize) {
     }
     let near = frame.proj.near_m;
     let persp = frame.proj.perspective;
-    let hw = (0.5 * src.width_px.max(1.0) * frame.scale).max(0.5);
+    // Widths are clamped to 1..=64 output pixels (NaN gives 1).
+    let width = if src.width_px.is_finite() {
+        src.width_px.clamp(1.0, 64.0)
+    } else {
+        1.0
+    };
+    let hw = 0.5 * width * frame.scale;
     let dash = match src.dash {
         Some((on, off)) if on > 0.0 && off > 0.0 && on.is_finite() && off.is_finite() => {
             (on * frame.scale, off * frame.scale)

@@ -120,7 +120,7 @@ pub struct Polyline {
     pub points: Vec<[f64; 3]>,
     /// Colour.
     pub color: LineColor,
-    /// Width in output pixels (at least one pixel is drawn).
+    /// Width in output pixels (clamped to 1..=64).
     pub width_px: f32,
     /// Dash pattern `(on_px, off_px)` along the screen length, or solid.
     pub dash: Option<(f32, f32)>,
@@ -286,7 +286,7 @@ pub enum Overlay {
         max: f64,
         /// Label with unit, e.g. "slope (deg)".
         label: String,
-        /// Number of tick labels (at least 2 are drawn).
+        /// Number of tick labels (clamped to 2..=64).
         ticks: usize,
         /// Where the bar itself goes (labels are drawn to its right, the title above).
         rect: Rect,

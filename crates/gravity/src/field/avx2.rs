@@ -9,8 +9,9 @@
 
 use std::arch::x86_64::*;
 
+use super::block::{BLOCK, Quad};
 use super::direct::{EDGE_FLOOR, PLANE_TOL, Sums};
-use super::lanes::{ATAN_P, ATAN_Q, LG, LN2_HI, LN2_LO, MORE_BITS};
+use super::lanes::{ATAN_P, ATAN_Q, ATANH_FAST_MAX, LG, LN2_HI, LN2_LO, MORE_BITS};
 use super::simd::Span;
 use super::tables::{LANES, SymSoa, Tables};
 
@@ -169,6 +170,32 @@ fn ln(v: V) -> V {
     )
 }
 
+/// `L_e = ln((a+b+e)/(a+b-e))` from `sum = a + b` and the edge length `e`.
+///
+/// Since `(a+b+e)/(a+b-e) = (1+s)/(1-s)` with `s = e/(a+b)`, `L_e = 2 atanh(s) = 2s + s R(s^2)`
+/// with fdlibm's `R` (the same polynomial as in [`ln`]), valid for `s <= 3 - 2 sqrt 2` (ratio
+/// `<= sqrt 2`): one division instead of two, and more accurate than taking the log of the
+/// rounded ratio. Lanes of an edge closer than that (rare on large meshes) take the general
+/// route with the floored denominator.
+#[target_feature(enable = "avx2,fma")]
+#[inline]
+fn edge_log(sum: V, e: V, floor: V) -> V {
+    let s = _mm256_div_pd(e, sum);
+    let fast = _mm256_cmp_pd::<_CMP_LE_OQ>(s, splat(ATANH_FAST_MAX));
+    let z = _mm256_mul_pd(s, s);
+    let mut r = splat(LG[6]);
+    for c in [LG[5], LG[4], LG[3], LG[2], LG[1], LG[0]] {
+        r = _mm256_fmadd_pd(r, z, splat(c));
+    }
+    let l_fast = _mm256_fmadd_pd(_mm256_mul_pd(s, z), r, _mm256_add_pd(s, s));
+    if _mm256_movemask_pd(fast) == 0b1111 {
+        return l_fast;
+    }
+    let num = _mm256_add_pd(sum, e);
+    let den = _mm256_max_pd(_mm256_sub_pd(sum, e), _mm256_mul_pd(floor, num));
+    _mm256_blendv_pd(ln(_mm256_div_pd(num, den)), l_fast, fast)
+}
+
 #[target_feature(enable = "avx2,fma")]
 #[inline]
 fn sym_load(m: &SymSoa, i: usize) -> [V; 6] {
@@ -232,9 +259,7 @@ pub(crate) fn sums(t: &Tables, rv: &[[f64; 4]], span: &Span) -> Sums {
         let rb = gather(rv, &t.e1[i..i + LANES]);
         let e = load(&t.edge_len_m, i);
         let sum = _mm256_add_pd(ra[3], rb[3]);
-        let num = _mm256_add_pd(sum, e);
-        let den = _mm256_max_pd(_mm256_sub_pd(sum, e), _mm256_mul_pd(floor, num));
-        let l = ln(_mm256_div_pd(num, den));
+        let l = edge_log(sum, e, floor);
         let m = sym_load(&t.edge_dyad, i);
         let er = [
             dot3(&[m[0], m[1], m[2]], &ra),
@@ -254,4 +279,146 @@ pub(crate) fn sums(t: &Tables, rv: &[[f64; 4]], span: &Span) -> Sums {
         omega: hsum(omega_acc),
         ..Sums::default()
     }
+}
+
+/// Lanes `k*4 .. k*4+4` of a vertex block: one coordinate (or `|r|`) for the four points.
+#[target_feature(enable = "avx2,fma")]
+#[inline]
+fn part(q: &[f64; 16], k: usize) -> V {
+    _mm256_setr_pd(q[4 * k], q[4 * k + 1], q[4 * k + 2], q[4 * k + 3])
+}
+
+#[target_feature(enable = "avx2,fma")]
+#[inline]
+fn vertex(q: &[Quad], i: u32) -> [V; 4] {
+    let q = &q[i as usize].0;
+    [part(q, 0), part(q, 1), part(q, 2), part(q, 3)]
+}
+
+/// Vertex vectors for four field points (see [`Quad`]).
+#[target_feature(enable = "avx2,fma")]
+pub(crate) fn fill_quads(t: &Tables, p: &[[f64; 3]; BLOCK], out: &mut Vec<Quad>) {
+    let px = _mm256_setr_pd(p[0][0], p[1][0], p[2][0], p[3][0]);
+    let py = _mm256_setr_pd(p[0][1], p[1][1], p[2][1], p[3][1]);
+    let pz = _mm256_setr_pd(p[0][2], p[1][2], p[2][2], p[3][2]);
+    out.clear();
+    out.extend(t.vx.iter().zip(&t.vy).zip(&t.vz).map(|((&x, &y), &z)| {
+        let rx = _mm256_sub_pd(splat(x), px);
+        let ry = _mm256_sub_pd(splat(y), py);
+        let rz = _mm256_sub_pd(splat(z), pz);
+        // Same rounding as the scalar fill: ((x x + y y) + z z), no fused operations.
+        let r2 = _mm256_add_pd(
+            _mm256_add_pd(_mm256_mul_pd(rx, rx), _mm256_mul_pd(ry, ry)),
+            _mm256_mul_pd(rz, rz),
+        );
+        let mut q = [0.0; 16];
+        for (k, v) in [rx, ry, rz, _mm256_sqrt_pd(r2)].into_iter().enumerate() {
+            let lanes = to_array(v);
+            q[4 * k..4 * k + 4].copy_from_slice(&lanes);
+        }
+        Quad(q)
+    }));
+}
+
+#[target_feature(enable = "avx2,fma")]
+#[inline]
+fn to_array(v: V) -> [f64; 4] {
+    let lo = _mm256_castpd256_pd128(v);
+    let hi = _mm256_extractf128_pd::<1>(v);
+    [
+        _mm_cvtsd_f64(lo),
+        _mm_cvtsd_f64(_mm_unpackhi_pd(lo, lo)),
+        _mm_cvtsd_f64(hi),
+        _mm_cvtsd_f64(_mm_unpackhi_pd(hi, hi)),
+    ]
+}
+
+/// Potential and acceleration sums for four field points at once (lanes are points), over the
+/// whole mesh, from their vertex blocks `q` (see [`Quad`]).
+#[target_feature(enable = "avx2,fma")]
+pub(crate) fn sums4(t: &Tables, q: &[Quad]) -> [Sums; BLOCK] {
+    let zero = _mm256_setzero_pd();
+    let two = splat(2.0);
+    let plane_tol = splat(PLANE_TOL);
+    let mut omega_acc = zero;
+    let mut face_u = zero;
+    let mut face_a = [zero; 3];
+    let faces = t.face_count;
+    for ((((&i0, &i1), &i2), (&nx, &ny)), &nz) in t.f0[..faces]
+        .iter()
+        .zip(&t.f1[..faces])
+        .zip(&t.f2[..faces])
+        .zip(t.nx[..faces].iter().zip(&t.ny[..faces]))
+        .zip(&t.nz[..faces])
+    {
+        let r1 = vertex(q, i0);
+        let r2 = vertex(q, i1);
+        let r3 = vertex(q, i2);
+        let cx = _mm256_fmsub_pd(r2[1], r3[2], _mm256_mul_pd(r2[2], r3[1]));
+        let cy = _mm256_fmsub_pd(r2[2], r3[0], _mm256_mul_pd(r2[0], r3[2]));
+        let cz = _mm256_fmsub_pd(r2[0], r3[1], _mm256_mul_pd(r2[1], r3[0]));
+        let num = dot3(&r1, &[cx, cy, cz]);
+        let d12 = dot3(&r1, &r2);
+        let d23 = dot3(&r2, &r3);
+        let d31 = dot3(&r3, &r1);
+        let prod = _mm256_mul_pd(_mm256_mul_pd(r1[3], r2[3]), r3[3]);
+        let den = _mm256_fmadd_pd(
+            r3[3],
+            d12,
+            _mm256_fmadd_pd(r2[3], d31, _mm256_fmadd_pd(r1[3], d23, prod)),
+        );
+        let tol = _mm256_mul_pd(plane_tol, prod);
+        let abs_num = _mm256_andnot_pd(splat(-0.0), num);
+        let on_plane = _mm256_and_pd(
+            _mm256_cmp_pd::<_CMP_LE_OQ>(abs_num, tol),
+            _mm256_cmp_pd::<_CMP_LE_OQ>(den, tol),
+        );
+        let omega = _mm256_andnot_pd(on_plane, _mm256_mul_pd(two, atan2(num, den)));
+        let n = [splat(nx), splat(ny), splat(nz)];
+        let h = dot3(&n, &r1);
+        let h_omega = _mm256_mul_pd(h, omega);
+        omega_acc = _mm256_add_pd(omega_acc, omega);
+        face_u = _mm256_fmadd_pd(h, h_omega, face_u);
+        for k in 0..3 {
+            face_a[k] = _mm256_fmadd_pd(n[k], h_omega, face_a[k]);
+        }
+    }
+    let floor = splat(EDGE_FLOOR);
+    let mut edge_u = zero;
+    let mut edge_a = [zero; 3];
+    let edges = t.edge_count;
+    let d = &t.edge_dyad;
+    for (((&ia, &ib), &len), e) in t.e0[..edges]
+        .iter()
+        .zip(&t.e1[..edges])
+        .zip(&t.edge_len_m[..edges])
+        .zip(0..edges)
+    {
+        let ra = vertex(q, ia);
+        let rb = vertex(q, ib);
+        let sum = _mm256_add_pd(ra[3], rb[3]);
+        let l = edge_log(sum, splat(len), floor);
+        let (xx, xy, xz) = (splat(d.xx[e]), splat(d.xy[e]), splat(d.xz[e]));
+        let (yy, yz, zz) = (splat(d.yy[e]), splat(d.yz[e]), splat(d.zz[e]));
+        let er = [
+            dot3(&[xx, xy, xz], &ra),
+            dot3(&[xy, yy, yz], &ra),
+            dot3(&[xz, yz, zz], &ra),
+        ];
+        edge_u = _mm256_fmadd_pd(dot3(&ra, &er), l, edge_u);
+        for k in 0..3 {
+            edge_a[k] = _mm256_fmadd_pd(er[k], l, edge_a[k]);
+        }
+    }
+    let [omega, face_u, edge_u] = [omega_acc, face_u, edge_u].map(|v| to_array(v));
+    let face_a = face_a.map(|v| to_array(v));
+    let edge_a = edge_a.map(|v| to_array(v));
+    std::array::from_fn(|k| Sums {
+        edge_u: edge_u[k],
+        edge_a: [edge_a[0][k], edge_a[1][k], edge_a[2][k]],
+        face_u: face_u[k],
+        face_a: [face_a[0][k], face_a[1][k], face_a[2][k]],
+        omega: omega[k],
+        ..Sums::default()
+    })
 }

@@ -89,7 +89,9 @@ pub(crate) fn solid_angle(r1: &[f64; 4], r2: &[f64; 4], r3: &[f64; 4]) -> f64 {
 pub(crate) fn edge_log(a: f64, b: f64, e: f64) -> f64 {
     let num = a + b + e;
     let den = (a + b - e).max(EDGE_FLOOR * num);
-    (num / den).ln()
+    // ln(num / den) = ln(1 + 2e / den): far from the edge the ratio is close to 1 and taking
+    // the log of the rounded ratio would lose ~1e-16 / L_e relative.
+    (2.0 * e / den).ln_1p()
 }
 
 #[inline]

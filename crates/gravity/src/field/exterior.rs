@@ -184,6 +184,100 @@ impl Harmonics {
     }
 }
 
+/// Field error allowed from the face quadrature at [`super::SWITCH_BRILLOUIN_MULTIPLE`]
+/// Brillouin radii, relative to `GM/r`: four orders below the truncation bound there.
+const QUADRATURE_TOLERANCE: f64 = 1e-15;
+
+/// Points per direction of the collapsed Gauss–Legendre rule for a face of diameter `size`
+/// (in Brillouin radii).
+///
+/// The `k x k` rule integrates polynomials of total degree `2k - 2` over the triangle exactly.
+/// Expanded about a point of the face, `R_n^m` (normalised, `|x| <= 1`) has terms of degree `j`
+/// in the offset of size up to `binom(n, j) size^j`, and a degree-`n` moment error `eps_n`
+/// moves the field at `r` by `eps_n (R_B / r)^n` relative. So the rule needs
+/// `sum_n binom(n, 2k-1) size^(2k-1) / 16^n <= QUADRATURE_TOLERANCE`: small faces of fine
+/// meshes need far fewer points than exactness for every degree (`k = degree/2 + 1`) demands.
+/// At `r` below the switch radius the truncation error of the expansion, which grows as fast,
+/// stays the larger one.
+fn rule_points(size: f64, degree: usize) -> usize {
+    let k_exact = degree / 2 + 1;
+    let switch = super::SWITCH_BRILLOUIN_MULTIPLE;
+    (1..k_exact)
+        .find(|&k| {
+            let j = 2 * k - 1;
+            let bound: f64 = (j..=degree)
+                .map(|n| binomial(n, j) * size.powi(j as i32) / switch.powi(n as i32))
+                .sum();
+            bound <= QUADRATURE_TOLERANCE
+        })
+        .unwrap_or(k_exact)
+}
+
+fn binomial(n: usize, j: usize) -> f64 {
+    (0..j).fold(1.0, |acc, i| acc * (n - i) as f64 / (i + 1) as f64)
+}
+
+/// The Legendre recurrences of [`Harmonics::fill`] with their coefficients precomputed, for the
+/// moment integration (values only, accumulated straight into the moments).
+struct Recurrence {
+    degree: usize,
+    /// `(2n + 1) / (n - m + 1)` and `(n + m) / (n - m + 1)` at `index(n, m)`.
+    a: Vec<f64>,
+    b: Vec<f64>,
+    /// `1 / (n + 3)`, the cone factor of degree `n`.
+    cone: Vec<f64>,
+}
+
+impl Recurrence {
+    fn new(degree: usize) -> Self {
+        let len = index(degree, degree) + 1;
+        let (mut a, mut b) = (vec![0.0; len], vec![0.0; len]);
+        for n in 0..=degree {
+            for m in 0..=n {
+                let d = (n - m + 1) as f64;
+                a[index(n, m)] = (2 * n + 1) as f64 / d;
+                b[index(n, m)] = (n + m) as f64 / d;
+            }
+        }
+        let cone = (0..=degree).map(|n| 1.0 / (n + 3) as f64).collect();
+        Self { degree, a, b, cone }
+    }
+
+    /// Adds `w / (n + 3) R_n^m(x)` to `c` (real parts) and `s` (imaginary parts).
+    #[inline]
+    fn accumulate(&self, x: [f64; 3], w: f64, c: &mut [f64], s: &mut [f64]) {
+        let nmax = self.degree;
+        let r2 = x[0] * x[0] + x[1] * x[1] + x[2] * x[2];
+        let (mut mm_re, mut mm_im) = (1.0, 0.0);
+        for m in 0..=nmax {
+            if m > 0 {
+                // R_m^m = (2m - 1) (x + i y) R_{m-1}^{m-1}
+                let f = (2 * m - 1) as f64;
+                (mm_re, mm_im) = (
+                    f * (x[0] * mm_re - x[1] * mm_im),
+                    f * (x[0] * mm_im + x[1] * mm_re),
+                );
+            }
+            let (mut prev_re, mut prev_im) = (0.0, 0.0);
+            let (mut cur_re, mut cur_im) = (mm_re, mm_im);
+            for n in m..=nmax {
+                let i = index(n, m);
+                let wn = w * self.cone[n];
+                c[i] += wn * cur_re;
+                s[i] += wn * cur_im;
+                // R_{n+1}^m = a z R_n^m - b r^2 R_{n-1}^m
+                let (za, rb) = (self.a[i] * x[2], self.b[i] * r2);
+                (prev_re, prev_im, cur_re, cur_im) = (
+                    cur_re,
+                    cur_im,
+                    za * cur_re - rb * prev_re,
+                    za * cur_im - rb * prev_im,
+                );
+            }
+        }
+    }
+}
+
 fn factorial(n: usize) -> f64 {
     (1..=n).map(|k| k as f64).product()
 }
@@ -217,51 +311,42 @@ impl Exterior {
             .fold(0.0, f64::max)
             .max(f64::MIN_POSITIVE);
         let len = index(degree, degree) + 1;
-        let k = degree / 2 + 1;
-        let rule = gauss_legendre_01(k);
+        // One collapsed Gauss–Legendre rule per size: rules[k - 1] has k x k points.
+        let rules: Vec<Vec<(f64, f64)>> = (1..=degree / 2 + 1).map(gauss_legendre_01).collect();
+        let steps = Recurrence::new(degree);
         let scaled = |i: u32| (vertex(i) - center_m) / ref_radius_m;
-        let zero = || (vec![0.0; len], vec![0.0; len], Harmonics::new(degree));
+        let zero = || (vec![0.0; len], vec![0.0; len]);
         let (c, s) = (0..face_count)
             .into_par_iter()
-            .with_min_len(256)
-            .fold(zero, |(mut c, mut s, mut h), f| {
+            .with_min_len(1024)
+            .fold(zero, |(mut c, mut s), f| {
                 let [i0, i1, i2] = face(f);
                 let (v0, v1, v2) = (scaled(i0), scaled(i1), scaled(i2));
                 let cross = (v1 - v0).cross(&(v2 - v0)); // 2 A n
                 let area2 = cross.norm();
                 if area2 == 0.0 {
-                    return (c, s, h);
+                    return (c, s);
                 }
                 let height = cross.dot(&v0) / area2;
                 let (e1, e2) = (v1 - v0, v2 - v1);
-                for &(xi, wx) in &rule {
-                    for &(eta, we) in &rule {
+                let size = e1.norm().max(e2.norm()).max((v0 - v2).norm());
+                let rule = &rules[rule_points(size, degree) - 1];
+                for &(xi, wx) in rule {
+                    for &(eta, we) in rule {
                         let p = v0 + xi * (e1 + eta * e2);
                         let w = area2 * wx * we * xi * height;
-                        h.fill([p.x, p.y, p.z], false);
-                        for n in 0..=degree {
-                            let wn = w / (n + 3) as f64;
-                            for m in 0..=n {
-                                let i = index(n, m);
-                                c[i] += wn * h.re[i];
-                                s[i] += wn * h.im[i];
-                            }
-                        }
+                        steps.accumulate([p.x, p.y, p.z], w, &mut c, &mut s);
                     }
                 }
-                (c, s, h)
+                (c, s)
             })
-            .map(|(c, s, _)| (c, s))
-            .reduce(
-                || (vec![0.0; len], vec![0.0; len]),
-                |(mut c, mut s), (c2, s2)| {
-                    for i in 0..len {
-                        c[i] += c2[i];
-                        s[i] += s2[i];
-                    }
-                    (c, s)
-                },
-            );
+            .reduce(zero, |(mut c, mut s), (c2, s2)| {
+                for i in 0..len {
+                    c[i] += c2[i];
+                    s[i] += s2[i];
+                }
+                (c, s)
+            });
         let mut out = Self {
             degree,
             ref_radius_m,
@@ -359,6 +444,34 @@ mod tests {
                 );
             }
         }
+    }
+
+    #[test]
+    fn moment_recurrence_matches_harmonics() {
+        // The integration's lean recurrence against the tested Harmonics::fill.
+        let x = [0.3, -0.5, 0.7];
+        let mut h = Harmonics::new(8);
+        h.fill(x, false);
+        let steps = Recurrence::new(8);
+        let (mut c, mut s) = (vec![0.0; index(8, 8) + 1], vec![0.0; index(8, 8) + 1]);
+        steps.accumulate(x, 2.0, &mut c, &mut s);
+        for n in 0..=8 {
+            for m in 0..=n {
+                let i = index(n, m);
+                let w = 2.0 / (n + 3) as f64;
+                assert!((c[i] - w * h.re[i]).abs() <= 1e-12 * (w * h.re[i]).abs().max(1e-3));
+                assert!((s[i] - w * h.im[i]).abs() <= 1e-12 * (w * h.im[i]).abs().max(1e-3));
+            }
+        }
+    }
+
+    #[test]
+    fn quadrature_rule_shrinks_with_face_size() {
+        // Large faces get the rule exact for every degree, small ones fewer points.
+        assert_eq!(rule_points(0.5, 8), 5);
+        assert_eq!(rule_points(0.0062, 8), 3);
+        assert!(rule_points(1e-6, 8) <= 2);
+        assert_eq!(binomial(8, 3), 56.0);
     }
 
     #[test]

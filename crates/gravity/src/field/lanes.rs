@@ -25,12 +25,14 @@ pub(crate) trait Lanes:
     fn from_array(a: [f64; 4]) -> Self;
     fn transpose(rows: [Self; 4]) -> [Self; 4];
     fn abs(self) -> Self;
-    fn max(self, o: Self) -> Self;
     /// Lane-wise `if a <= ta && b <= tb { 0 } else { val }`.
     fn zero_where_both_le(a: Self, ta: Self, b: Self, tb: Self, val: Self) -> Self;
     fn atan2(self, x: Self) -> Self;
-    fn ln(self) -> Self;
     fn reduce_add(self) -> f64;
+    fn to_array(self) -> [f64; 4];
+    /// `L_e = ln((sum + e) / max(sum - e, floor (sum + e)))` for `sum = a + b`, via
+    /// `2 atanh(e / sum)` where that series applies (see [`ATANH_FAST_MAX`]).
+    fn edge_log(sum: Self, e: Self, floor: Self) -> Self;
 }
 
 impl Lanes for f64x4 {
@@ -51,10 +53,6 @@ impl Lanes for f64x4 {
         f64x4::abs(self)
     }
     #[inline(always)]
-    fn max(self, o: Self) -> Self {
-        f64x4::max(self, o)
-    }
-    #[inline(always)]
     fn zero_where_both_le(a: Self, ta: Self, b: Self, tb: Self, val: Self) -> Self {
         let mask = a.simd_le(ta) & b.simd_le(tb);
         mask.bitselect(f64x4::ZERO, val)
@@ -64,12 +62,29 @@ impl Lanes for f64x4 {
         f64x4::atan2(self, x)
     }
     #[inline(always)]
-    fn ln(self) -> Self {
-        f64x4::ln(self)
-    }
-    #[inline(always)]
     fn reduce_add(self) -> f64 {
         f64x4::reduce_add(self)
+    }
+    #[inline(always)]
+    fn to_array(self) -> [f64; 4] {
+        f64x4::to_array(self)
+    }
+    #[inline(always)]
+    fn edge_log(sum: Self, e: Self, floor: Self) -> Self {
+        let s = e / sum;
+        let z = s * s;
+        let mut r = f64x4::splat(LG[6]);
+        for c in [LG[5], LG[4], LG[3], LG[2], LG[1], LG[0]] {
+            r = r.mul_add(z, f64x4::splat(c));
+        }
+        let fast_val = (s * z).mul_add(r, s + s);
+        let fast = s.simd_le(f64x4::splat(ATANH_FAST_MAX));
+        if fast.all() {
+            return fast_val;
+        }
+        let num = sum + e;
+        let den = f64x4::max(sum - e, floor * num);
+        fast.bitselect(fast_val, f64x4::ln(num / den))
     }
 }
 
@@ -101,6 +116,9 @@ pub(crate) const LG: [f64; 7] = [
     1.531383769920937332e-01,
     1.479819860511658591e-01,
 ];
+/// Largest `s` for which `2 atanh(s) = 2s + s R(s^2)` with the `LG` polynomial `R` is accurate:
+/// `3 - 2 sqrt 2`, where `(1+s)/(1-s) = sqrt 2`, the edge of fdlibm's reduced range.
+pub(crate) const ATANH_FAST_MAX: f64 = 0.171_572_875_253_809_9;
 pub(crate) const LN2_HI: f64 = 6.93147180369123816490e-01;
 pub(crate) const LN2_LO: f64 = 1.90821492927058770002e-10;
 
@@ -160,9 +178,34 @@ fn ln_lane(v: f64) -> f64 {
     k * LN2_HI - ((hfsq - (s * (hfsq + r) + k * LN2_LO)) - f)
 }
 
+/// Scalar statement of the edge-log series `2 atanh(s) = 2s + s R(s^2)` (tested).
+#[cfg(test)]
+fn atanh2_lane(s: f64) -> f64 {
+    let z = s * s;
+    let r = LG.iter().rev().fold(0.0, |acc, &c| acc * z + c);
+    s * z * r + 2.0 * s
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn atanh_series_matches_std() {
+        // Reference: 2 atanh(s) = ln((1+s)/(1-s)) = ln_1p(2s/(1-s)) from the platform libm.
+        let mut worst = 0.0f64;
+        for i in 0..=20_000 {
+            let s = ATANH_FAST_MAX * i as f64 / 20_000.0;
+            let want = (2.0 * s / (1.0 - s)).ln_1p();
+            let got = atanh2_lane(s);
+            if want == 0.0 {
+                assert_eq!(got, 0.0);
+            } else {
+                worst = worst.max((got - want).abs() / (f64::EPSILON * want));
+            }
+        }
+        assert!(worst < 4.0, "worst {worst} ulp");
+    }
 
     fn ulps(a: f64, b: f64) -> f64 {
         (a - b).abs() / (f64::EPSILON * b.abs().max(f64::MIN_POSITIVE))

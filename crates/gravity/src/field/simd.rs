@@ -93,9 +93,7 @@ fn kernel<L: Lanes>(t: &Tables, rv: &[[f64; 4]], span: &Span) -> Sums {
         let rb: [L; 4] = gather(rv, &t.e1[i..i + LANES]);
         let e: L = load(&t.edge_len_m, i);
         let sum = ra[3] + rb[3];
-        let num = sum + e;
-        let den = (sum - e).max(floor * num);
-        let l = (num / den).ln();
+        let l = L::edge_log(sum, e, floor);
         let m: [L; 6] = sym_load(&t.edge_dyad, i);
         let er = sym_mul(&m, &ra);
         edge_u += (ra[0] * er[0] + ra[1] * er[1] + ra[2] * er[2]) * l;

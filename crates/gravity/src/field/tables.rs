@@ -77,6 +77,9 @@ pub(crate) struct Tables {
     pub edge_len_m: Vec<f64>,
     /// Edge dyads (padded with zeros).
     pub edge_dyad: SymSoa,
+    /// The face each edge was taken from (its end vertices are that face's corners; not
+    /// padded). Edges are stored in increasing order of it.
+    pub edge_owner: Vec<u32>,
 }
 
 /// Volume and centre of mass of the homogeneous polyhedron (signed tetrahedra from the origin).
@@ -184,6 +187,7 @@ impl Tables {
             e1: Vec::new(),
             edge_len_m: Vec::new(),
             edge_dyad: SymSoa::default(),
+            edge_owner: Vec::with_capacity(3 * nf / 2),
         };
         for (f, face) in mesh.faces.iter().enumerate() {
             t.f0.push(face[0]);
@@ -237,6 +241,7 @@ impl Tables {
                 t.e1.push(j);
                 t.edge_len_m.push(len);
                 t.edge_dyad.push(&e);
+                t.edge_owner.push(f as u32);
             }
         }
         t.edge_count = t.e0.len();
@@ -261,6 +266,104 @@ impl Tables {
         ))
     }
 
+    /// The mesh cut into pieces of `faces_per_piece` consecutive faces, each a self-contained
+    /// table set with its own (local) vertices: every edge goes with the face it was taken from,
+    /// whose corners it joins. Vertices shared by pieces are repeated. Summing the face and edge
+    /// terms over all pieces gives the whole mesh's sums; a piece is small enough that its
+    /// tables and per-vertex scratch stay in the core's cache while several field points are
+    /// evaluated over it.
+    pub fn pieces(&self, faces_per_piece: usize) -> Vec<Tables> {
+        let faces_per_piece = faces_per_piece.max(1);
+        let mut local = vec![u32::MAX; self.vx.len()];
+        let mut out = Vec::with_capacity(self.face_count.div_ceil(faces_per_piece));
+        let mut e = 0;
+        for f_start in (0..self.face_count).step_by(faces_per_piece) {
+            let f_end = (f_start + faces_per_piece).min(self.face_count);
+            let mut global: Vec<u32> = Vec::new();
+            let mut map = |g: u32, global: &mut Vec<u32>| -> u32 {
+                let slot = &mut local[g as usize];
+                if *slot == u32::MAX {
+                    *slot = global.len() as u32;
+                    global.push(g);
+                }
+                *slot
+            };
+            let np = padded(f_end - f_start);
+            let mut t = Tables {
+                vx: Vec::new(),
+                vy: Vec::new(),
+                vz: Vec::new(),
+                face_count: f_end - f_start,
+                f0: Vec::with_capacity(np),
+                f1: Vec::with_capacity(np),
+                f2: Vec::with_capacity(np),
+                nx: self.nx[f_start..f_end].to_vec(),
+                ny: self.ny[f_start..f_end].to_vec(),
+                nz: self.nz[f_start..f_end].to_vec(),
+                edge_count: 0,
+                e0: Vec::new(),
+                e1: Vec::new(),
+                edge_len_m: Vec::new(),
+                edge_dyad: SymSoa::default(),
+                edge_owner: Vec::new(),
+            };
+            for f in f_start..f_end {
+                t.f0.push(map(self.f0[f], &mut global));
+                t.f1.push(map(self.f1[f], &mut global));
+                t.f2.push(map(self.f2[f], &mut global));
+            }
+            while e < self.edge_count && (self.edge_owner[e] as usize) < f_end {
+                t.e0.push(map(self.e0[e], &mut global));
+                t.e1.push(map(self.e1[e], &mut global));
+                t.edge_len_m.push(self.edge_len_m[e]);
+                let m = self.edge_dyad.get(e);
+                for (v, x) in [
+                    &mut t.edge_dyad.xx,
+                    &mut t.edge_dyad.xy,
+                    &mut t.edge_dyad.xz,
+                    &mut t.edge_dyad.yy,
+                    &mut t.edge_dyad.yz,
+                    &mut t.edge_dyad.zz,
+                ]
+                .into_iter()
+                .zip(m)
+                {
+                    v.push(x);
+                }
+                t.edge_owner.push(self.edge_owner[e] - f_start as u32);
+                e += 1;
+            }
+            t.edge_count = t.e0.len();
+            for &g in &global {
+                t.vx.push(self.vx[g as usize]);
+                t.vy.push(self.vy[g as usize]);
+                t.vz.push(self.vz[g as usize]);
+                local[g as usize] = u32::MAX;
+            }
+            t.pad();
+            out.push(t);
+        }
+        out
+    }
+
+    /// Pads faces and edges to a multiple of [`LANES`] with inert entries.
+    fn pad(&mut self) {
+        while self.f0.len() % LANES != 0 {
+            self.f0.push(0);
+            self.f1.push(0);
+            self.f2.push(0);
+            self.nx.push(0.0);
+            self.ny.push(0.0);
+            self.nz.push(0.0);
+        }
+        while self.e0.len() % LANES != 0 {
+            self.e0.push(0);
+            self.e1.push(0);
+            self.edge_len_m.push(1.0);
+            self.edge_dyad.push(&Matrix3::zeros());
+        }
+    }
+
     /// Approximate heap use, bytes.
     pub fn heap_bytes(&self) -> usize {
         let f64s = std::mem::size_of::<f64>();
@@ -271,5 +374,6 @@ impl Tables {
             + 2 * self.e0.capacity() * u32s
             + self.edge_len_m.capacity() * f64s
             + self.edge_dyad.heap_bytes()
+            + self.edge_owner.capacity() * u32s
     }
 }
