@@ -33,9 +33,10 @@ pub const SHORTCUT_RUN_F5: KeyboardShortcut = KeyboardShortcut::new(Modifiers::N
 /// Shortcut: export.
 pub const SHORTCUT_EXPORT: KeyboardShortcut = KeyboardShortcut::new(Modifiers::COMMAND, Key::E);
 
-/// Sites resolved on a body: `(sites, data generation, resolved sites)`.
+/// Sites resolved on a body: `(site locations, data generation, resolved sites)`. Keyed by
+/// location only, so renaming a site or dragging its speed does not place it again.
 type SiteCache = (
-    Vec<SiteEntry>,
+    Vec<crate::session::SiteLocation>,
     u64,
     Vec<Result<spinfall_dynamics::site::Site, String>>,
 );
@@ -1037,13 +1038,14 @@ impl SpinfallApp {
 
     /// The sites resolved on the current body (cached until the sites or the body change).
     pub(crate) fn resolved_sites(&mut self) -> &[Result<spinfall_dynamics::site::Site, String>] {
-        let fresh = matches!(&self.site_cache, Some((s, g, _)) if *s == self.sites && *g == self.data_generation);
+        let locations: Vec<_> = self.sites.iter().map(|s| s.location).collect();
+        let fresh = matches!(&self.site_cache, Some((l, g, _)) if *l == locations && *g == self.data_generation);
         if !fresh {
             let resolved = match &self.view {
                 Some(v) => self.sites.iter().map(|s| s.site(v.body())).collect(),
                 None => Vec::new(),
             };
-            self.site_cache = Some((self.sites.clone(), self.data_generation, resolved));
+            self.site_cache = Some((locations, self.data_generation, resolved));
         }
         match &self.site_cache {
             Some((_, _, r)) => r,

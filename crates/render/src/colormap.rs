@@ -70,7 +70,8 @@ impl Colormap {
 }
 
 /// Per-face colours for `values` mapped linearly from `min..max` to the colour map's ends
-/// (clamped outside). NaN values and an empty or invalid range give [`Color::GREY`].
+/// (clamped outside). NaN values and non-finite bounds give [`Color::GREY`]; an empty or reversed
+/// range (`max <= min`) maps every value to the middle colour.
 pub fn face_colors(values: &[f64], min: f64, max: f64, colormap: Colormap) -> Vec<Color> {
     let span = max - min;
     let ok = min.is_finite() && max.is_finite();

@@ -11,8 +11,10 @@
 //! What it is not: no egui, no file I/O, no physics of its own.
 //!
 //! Main types: [`BodyView`] (the body with its `f32` mesh and cached per-map face colours),
-//! [`ViewOptions`], [`body_fixed_scene`], [`inertial_scene`], [`composite`],
-//! [`default_camera`].
+//! [`ViewOptions`], [`body_fixed_scene`] / [`inertial_scene`] / [`frame_scene`] (each takes
+//! the image size so the colour bar can be placed), [`add_site_markers`] for planned launch
+//! sites, [`add_title`], [`composite`] and [`default_camera`]. [`trace`] holds the trajectory
+//! helpers (Hermite interpolation at a time, frame changes) shared with the GUI's plots.
 //!
 //! Spinfall is for research and planning, not flight-certified.
 //!

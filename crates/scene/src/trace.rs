@@ -1,6 +1,6 @@
 //! Trajectory helpers: interpolation at a time, cutting a trace at a time, frame changes.
 //!
-//! Everything that reads a [`FlightReport`]'s samples goes through here, so a change in the
+//! Everything that reads a [`spinfall_dynamics::FlightReport`]'s samples goes through here, so a change in the
 //! dynamics crate's report layout touches one file.
 
 use nalgebra::{Point3, Vector3};

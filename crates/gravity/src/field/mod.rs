@@ -116,8 +116,6 @@ const PIECE_FACES: usize = 4096;
 /// Largest number of points a batch evaluates piece by piece together.
 const GROUP_POINTS: usize = 64;
 
-/// Number of parts a split single-point evaluation uses (fixed, for reproducible sums).
-const SPLIT_PARTS: usize = 8;
 
 /// The gravity field of a homogeneous polyhedron.
 ///
@@ -138,9 +136,14 @@ const SPLIT_PARTS: usize = 8;
 /// ```
 #[derive(Debug, Clone)]
 pub struct PolyhedronGravity {
-    tables: Tables,
-    /// The same tables cut into cache-sized pieces (see `Tables::pieces`), for batches.
+    /// The face and edge tables cut into cache-sized pieces (see `Tables::pieces`); every sum
+    /// runs piece by piece, in this order.
     pieces: Vec<Tables>,
+    /// Corner indices of every face and the vertices, metres (for the exterior moments).
+    faces: Vec<[u32; 3]>,
+    vertices_m: Vec<Point3<f64>>,
+    face_count: usize,
+    edge_count: usize,
     density_kg_m3: f64,
     volume_m3: f64,
     center_of_mass_m: Point3<f64>,
@@ -173,7 +176,10 @@ impl PolyhedronGravity {
             .fold(0.0, f64::max);
         Ok(Self {
             pieces: tables.pieces(PIECE_FACES),
-            tables,
+            faces: mesh.faces.clone(),
+            vertices_m: mesh.vertices_m.clone(),
+            face_count: tables.face_count,
+            edge_count: tables.edge_count,
             density_kg_m3,
             volume_m3: bulk.volume_m3,
             center_of_mass_m: com,
@@ -221,12 +227,11 @@ impl PolyhedronGravity {
     /// The exterior expansion used far away (integrated on first use, then kept).
     pub fn exterior(&self) -> &Exterior {
         self.exterior.get_or_init(|| {
-            let t = &self.tables;
             Exterior::integrate(
-                t.face_count,
-                &|f| [t.f0[f], t.f1[f], t.f2[f]],
-                &|i| Point3::new(t.vx[i as usize], t.vy[i as usize], t.vz[i as usize]),
-                t.vx.len(),
+                self.faces.len(),
+                &|f| self.faces[f],
+                &|i| self.vertices_m[i as usize],
+                self.vertices_m.len(),
                 self.center_of_mass_m,
                 exterior::DEFAULT_DEGREE,
             )
@@ -235,18 +240,19 @@ impl PolyhedronGravity {
 
     /// Number of faces.
     pub fn face_count(&self) -> usize {
-        self.tables.face_count
+        self.face_count
     }
 
     /// Number of undirected edges.
     pub fn edge_count(&self) -> usize {
-        self.tables.edge_count
+        self.edge_count
     }
 
     /// Approximate heap use of the precomputed tables and expansion, bytes.
     pub fn memory_bytes(&self) -> usize {
-        self.tables.heap_bytes()
-            + self.pieces.iter().map(Tables::heap_bytes).sum::<usize>()
+        self.pieces.iter().map(Tables::heap_bytes).sum::<usize>()
+            + self.faces.capacity() * std::mem::size_of::<[u32; 3]>()
+            + self.vertices_m.capacity() * std::mem::size_of::<Point3<f64>>()
             + self.exterior.get().map_or(0, Exterior::heap_bytes)
     }
 
@@ -270,9 +276,15 @@ impl PolyhedronGravity {
     /// result does not depend on the thread count); batches parallelise over points instead.
     pub fn potential_acceleration(&self, p: &Point3<f64>) -> (f64, Vector3<f64>) {
         if self.face_count() >= SPLIT_FACE_COUNT && self.method_at(p) == FieldMethod::Direct {
-            let mut scratch = Vec::new();
-            direct::fill_vertices(&self.tables, [p.x, p.y, p.z], &mut scratch);
-            let s = simd::sums_parallel(&self.tables, &scratch, SPLIT_PARTS);
+            let parts: Vec<direct::Sums> = self
+                .pieces
+                .par_iter()
+                .map_init(Vec::new, |scratch, piece| {
+                    direct::fill_vertices(piece, [p.x, p.y, p.z], scratch);
+                    simd::sums(piece, scratch)
+                })
+                .collect();
+            let s = parts.iter().fold(direct::Sums::default(), |acc, s| acc.merged(s));
             return self.combine(&s);
         }
         let mut scratch = Vec::new();
@@ -298,8 +310,7 @@ impl PolyhedronGravity {
     }
 
     fn direct_simd(&self, p: &Point3<f64>, scratch: &mut Vec<[f64; 4]>) -> (f64, Vector3<f64>) {
-        direct::fill_vertices(&self.tables, [p.x, p.y, p.z], scratch);
-        let s = simd::sums(&self.tables, scratch);
+        let s = self.piece_sums(p, scratch, simd::sums);
         self.combine(&s)
     }
 
@@ -330,18 +341,32 @@ impl PolyhedronGravity {
         kernel: DirectKernel,
     ) -> (f64, Vector3<f64>) {
         let mut scratch = Vec::new();
-        direct::fill_vertices(&self.tables, [p.x, p.y, p.z], &mut scratch);
         let s = match kernel {
-            DirectKernel::Auto => simd::sums(&self.tables, &scratch),
-            DirectKernel::Scalar => direct::sums_scalar::<false>(&self.tables, &scratch),
-            DirectKernel::Wide => {
-                simd::sums_wide(&self.tables, &scratch, &simd::Span::all(&self.tables))
-            }
-            DirectKernel::Compiled => {
-                simd::sums_compiled(&self.tables, &scratch, &simd::Span::all(&self.tables))
-            }
+            DirectKernel::Auto => self.piece_sums(p, &mut scratch, simd::sums),
+            DirectKernel::Scalar => self.piece_sums(p, &mut scratch, direct::sums_scalar::<false>),
+            DirectKernel::Wide => self.piece_sums(p, &mut scratch, |t, rv| {
+                simd::sums_wide(t, rv, &simd::Span::all(t))
+            }),
+            DirectKernel::Compiled => self.piece_sums(p, &mut scratch, |t, rv| {
+                simd::sums_compiled(t, rv, &simd::Span::all(t))
+            }),
         };
         self.combine(&s)
+    }
+
+    /// `sums` of every piece of the mesh for the field point `p`, added in piece order.
+    fn piece_sums(
+        &self,
+        p: &Point3<f64>,
+        scratch: &mut Vec<[f64; 4]>,
+        sums: impl Fn(&Tables, &[[f64; 4]]) -> direct::Sums,
+    ) -> direct::Sums {
+        self.pieces
+            .iter()
+            .fold(direct::Sums::default(), |acc, piece| {
+                direct::fill_vertices(piece, [p.x, p.y, p.z], scratch);
+                acc.merged(&sums(piece, scratch))
+            })
     }
 
     /// Potential and acceleration from the exterior expansion at any distance (for
@@ -364,8 +389,7 @@ impl PolyhedronGravity {
         if self.method_at(p) == FieldMethod::Exterior {
             return self.evaluate_exterior(p);
         }
-        direct::fill_vertices(&self.tables, [p.x, p.y, p.z], scratch);
-        let s = direct::sums_scalar::<true>(&self.tables, scratch);
+        let s = self.piece_sums(p, scratch, direct::sums_scalar::<true>);
         let g = self.g_rho();
         let (u, a) = self.combine(&s);
         let d: [f64; 6] = std::array::from_fn(|k| g * (s.edge_grad[k] - s.face_grad[k]));
@@ -410,8 +434,11 @@ impl PolyhedronGravity {
             return false;
         }
         let mut scratch = Vec::new();
-        direct::fill_vertices(&self.tables, [p.x, p.y, p.z], &mut scratch);
-        is_inside_omega(direct::omega_sum(&self.tables, &scratch))
+        let s = self.piece_sums(p, &mut scratch, |t, rv| direct::Sums {
+            omega: direct::omega_sum(t, rv),
+            ..direct::Sums::default()
+        });
+        is_inside_omega(s.omega)
     }
 
     /// [`Self::potential_acceleration`] for many points, in parallel over points.

@@ -10,7 +10,6 @@ use std::ops::Range;
 
 use multiversion::multiversion;
 use multiversion::target::match_target;
-use rayon::prelude::*;
 use wide::f64x4;
 
 use super::direct::{EDGE_FLOOR, PLANE_TOL, Sums};
@@ -141,30 +140,9 @@ impl Span {
             edges: 0..t.e0.len(),
         }
     }
-
-    /// Piece `k` of `n` roughly equal pieces, boundaries on multiples of [`LANES`].
-    pub fn piece(t: &Tables, k: usize, n: usize) -> Span {
-        let cut = |len: usize, j: usize| (len / LANES * j / n) * LANES;
-        let cut_end = |len: usize, j: usize| if j == n { len } else { cut(len, j) };
-        Span {
-            faces: cut(t.f0.len(), k)..cut_end(t.f0.len(), k + 1),
-            edges: cut(t.e0.len(), k)..cut_end(t.e0.len(), k + 1),
-        }
-    }
 }
 
 /// The fastest kernel for this CPU over the whole mesh.
 pub(crate) fn sums(t: &Tables, rv: &[[f64; 4]]) -> Sums {
     sums_compiled(t, rv, &Span::all(t))
-}
-
-/// As [`sums`], split into `pieces` parts run in parallel on rayon's pool (for one point on a
-/// large mesh). The parts are added in a fixed order, so the result does not depend on the
-/// number of threads.
-pub(crate) fn sums_parallel(t: &Tables, rv: &[[f64; 4]], pieces: usize) -> Sums {
-    let parts: Vec<Sums> = (0..pieces)
-        .into_par_iter()
-        .map(|k| sums_compiled(t, rv, &Span::piece(t, k, pieces)))
-        .collect();
-    parts.iter().fold(Sums::default(), |acc, p| acc.merged(p))
 }
