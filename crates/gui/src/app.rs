@@ -128,6 +128,9 @@ pub(crate) enum DialogPurpose {
     ExportFolder,
 }
 
+/// What a file dialog thread sends back: the purpose, the chosen path and how long it took.
+type DialogAnswer = (DialogPurpose, Option<PathBuf>, Duration);
+
 /// The Spinfall app.
 pub struct SpinfallApp {
     /// Remembered between runs.
@@ -190,8 +193,8 @@ pub struct SpinfallApp {
     pub(crate) export_form: crate::export::ExportForm,
     pub(crate) table: crate::results::TableState,
     pub(crate) last_exported: Vec<PathBuf>,
-    dialog_tx: Sender<(DialogPurpose, Option<PathBuf>)>,
-    dialog_rx: Receiver<(DialogPurpose, Option<PathBuf>)>,
+    dialog_tx: Sender<DialogAnswer>,
+    dialog_rx: Receiver<DialogAnswer>,
 }
 
 impl SpinfallApp {
@@ -369,6 +372,11 @@ impl SpinfallApp {
     /// Show time `t_s` (clamped to the slider's range).
     pub fn set_time_s(&mut self, t_s: f64) {
         self.t_s = t_s.clamp(0.0, self.end_time_s());
+    }
+
+    /// The launch selected in the table and the views.
+    pub fn selected_launch(&self) -> Option<usize> {
+        self.state.view.selected_launch
     }
 
     /// Whether the animation is playing.
@@ -561,24 +569,31 @@ impl SpinfallApp {
         let spawned = std::thread::Builder::new()
             .name("spinfall file dialog".into())
             .spawn(move || {
-                let d = rfd::FileDialog::new();
-                let path = match purpose {
-                    DialogPurpose::OpenShape => d
-                        .add_filter("Wavefront OBJ shape model", &["obj", "OBJ"])
-                        .set_title("Open a shape model")
-                        .pick_file(),
-                    DialogPurpose::OpenScenario => d
-                        .add_filter("Scenario (JSON)", &["json"])
-                        .set_title("Load a scenario")
-                        .pick_file(),
-                    DialogPurpose::SaveScenario => d
-                        .add_filter("Scenario (JSON)", &["json"])
-                        .set_file_name("scenario.json")
-                        .set_title("Save the scenario")
-                        .save_file(),
-                    DialogPurpose::ExportFolder => d.set_title("Export folder").pick_folder(),
+                let asked = Instant::now();
+                let d = rfd::AsyncFileDialog::new();
+                let handle = match purpose {
+                    DialogPurpose::OpenShape => block_on(
+                        d.add_filter("Wavefront OBJ shape model", &["obj", "OBJ"])
+                            .set_title("Open a shape model")
+                            .pick_file(),
+                    ),
+                    DialogPurpose::OpenScenario => block_on(
+                        d.add_filter("Scenario (JSON)", &["json"])
+                            .set_title("Load a scenario")
+                            .pick_file(),
+                    ),
+                    DialogPurpose::SaveScenario => block_on(
+                        d.add_filter("Scenario (JSON)", &["json"])
+                            .set_file_name("scenario.json")
+                            .set_title("Save the scenario")
+                            .save_file(),
+                    ),
+                    DialogPurpose::ExportFolder => {
+                        block_on(d.set_title("Export folder").pick_folder())
+                    }
                 };
-                let _ = tx.send((purpose, path));
+                let path = handle.map(|h| h.path().to_path_buf());
+                let _ = tx.send((purpose, path, asked.elapsed()));
                 repaint();
             });
         if let Err(e) = spawned {
@@ -589,8 +604,14 @@ impl SpinfallApp {
     }
 
     fn poll_dialogs(&mut self) {
-        while let Ok((purpose, path)) = self.dialog_rx.try_recv() {
+        while let Ok((purpose, path, took)) = self.dialog_rx.try_recv() {
             let Some(path) = path else {
+                // An answer within a moment means no dialog could be shown (no desktop portal).
+                if took < Duration::from_millis(300) {
+                    self.info(
+                        "No file dialog is available here: type the path in the field instead.",
+                    );
+                }
                 continue;
             };
             match purpose {
@@ -1113,6 +1134,28 @@ impl SpinfallApp {
                 }
             }
             Err(e) => self.error(format!("scenario not saved: {e}")),
+        }
+    }
+}
+
+/// Wakes a parked thread (the dialog thread waiting for the portal's answer).
+struct ThreadWaker(std::thread::Thread);
+
+impl std::task::Wake for ThreadWaker {
+    fn wake(self: Arc<Self>) {
+        self.0.unpark();
+    }
+}
+
+/// Runs a future to completion on the current (dialog) thread.
+fn block_on<F: std::future::Future>(future: F) -> F::Output {
+    let mut future = std::pin::pin!(future);
+    let waker = std::task::Waker::from(Arc::new(ThreadWaker(std::thread::current())));
+    let mut cx = std::task::Context::from_waker(&waker);
+    loop {
+        match future.as_mut().poll(&mut cx) {
+            std::task::Poll::Ready(v) => return v,
+            std::task::Poll::Pending => std::thread::park(),
         }
     }
 }

@@ -190,10 +190,7 @@ impl SpinfallApp {
                 }
                 if let Some(v) = &self.view {
                     ui.separator();
-                    ui.label(format!(
-                        "mass {}",
-                        fmt_sci(v.body().figures().mass_kg, "kg")
-                    ));
+                    ui.label(format!("mass {}", fmt_sci(v.figures().mass_kg, "kg")));
                 }
                 ui.separator();
                 let run = match &self.run_state {
@@ -505,7 +502,7 @@ impl SpinfallApp {
             }
         });
         if let Some(v) = &self.view {
-            let f = v.body().figures();
+            let f = *v.figures();
             egui::CollapsingHeader::new("Derived figures (applied body)")
                 .default_open(true)
                 .show(ui, |ui| {

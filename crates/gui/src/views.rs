@@ -206,6 +206,7 @@ impl SpinfallApp {
         let mut inputs = [CameraInput::default(), CameraInput::default()];
         let mut hover = None;
         let mut click = None;
+        let mut clicked_trace = None;
         ui.horizontal_top(|ui| {
             ui.spacing_mut().item_spacing.x = gap;
             for (k, pane) in self.panes.iter_mut().enumerate() {
@@ -258,7 +259,13 @@ impl SpinfallApp {
                             && let Some(p) = response.interact_pointer_pos()
                         {
                             let (x, y) = to_px(p);
-                            click = pick(&view, camera, pane.frame, self.t_s, x, y);
+                            let cut = self.state.view.trail_to_time.then_some(self.t_s);
+                            let hit_px = 6.0 * ppp as f64;
+                            match nearest_trace(&self.reports, camera, pane.frame, cut, x, y) {
+                                // A click on a trace selects its launch.
+                                Some((i, d)) if d <= hit_px => clicked_trace = Some(i),
+                                _ => click = pick(&view, camera, pane.frame, self.t_s, x, y),
+                            }
                         }
                         if let Some(p) = response.hover_pos()
                             && !response.dragged()
@@ -316,6 +323,9 @@ impl SpinfallApp {
                     input.apply(c);
                 }
             }
+        }
+        if let Some(i) = clicked_trace {
+            self.commands.push(Command::SelectLaunch(Some(i)));
         }
         if let Some((point_body_m, face)) = click
             && self.click_to_place
@@ -395,11 +405,55 @@ pub(crate) fn pick(
     y_px: f64,
 ) -> Option<(Point3<f64>, usize)> {
     let (origin, dir) = body_ray(view, camera, frame, t_s, x_px, y_px);
-    let max_t = (origin.coords.norm() + view.body().brillouin_radius_m()) * 2.0 + 1.0;
+    let max_t = (origin.coords.norm() + view.brillouin_radius_m()) * 2.0 + 1.0;
     view.body()
         .shape
         .ray_first_hit(&origin, &dir, max_t)
         .map(|hit| (hit.point_m, hit.face))
+}
+
+/// The launch whose trace (in this view's frame, up to `cut_s`) passes closest to pixel
+/// `(x_px, y_px)`, with that distance in pixels.
+fn nearest_trace(
+    reports: &[spinfall_dynamics::FlightReport],
+    camera: &Camera,
+    frame: Frame,
+    cut_s: Option<f64>,
+    x_px: f64,
+    y_px: f64,
+) -> Option<(usize, f64)> {
+    let mut best: Option<(usize, f64)> = None;
+    for (i, r) in reports.iter().enumerate() {
+        let samples = match frame {
+            Frame::BodyFixed => &r.trajectory_body,
+            Frame::Inertial => &r.trajectory_inertial,
+        };
+        let points = spinfall_scene::trace::points_until(samples, cut_s);
+        let projected: Vec<(f64, f64)> = points
+            .iter()
+            .filter_map(|p| camera.project(&Point3::from(*p)).map(|(x, y, _)| (x, y)))
+            .collect();
+        for w in projected.windows(2) {
+            let d = segment_distance((x_px, y_px), w[0], w[1]);
+            if best.is_none_or(|(_, b)| d < b) {
+                best = Some((i, d));
+            }
+        }
+    }
+    best
+}
+
+/// Distance from point `p` to the segment `a`-`b` (pixels).
+fn segment_distance(p: (f64, f64), a: (f64, f64), b: (f64, f64)) -> f64 {
+    let (dx, dy) = (b.0 - a.0, b.1 - a.1);
+    let len2 = dx * dx + dy * dy;
+    let t = if len2 > 0.0 {
+        (((p.0 - a.0) * dx + (p.1 - a.1) * dy) / len2).clamp(0.0, 1.0)
+    } else {
+        0.0
+    };
+    let (qx, qy) = (a.0 + t * dx - p.0, a.1 + t * dy - p.1);
+    (qx * qx + qy * qy).sqrt()
 }
 
 fn hover_info(view: &BodyView, face: usize, p: &Point3<f64>) -> HoverInfo {
@@ -443,5 +497,19 @@ impl SpinfallApp {
     /// Camera of a pane (0 body-fixed, 1 inertial).
     pub fn camera(&self, pane: usize) -> Option<&Camera> {
         self.panes.get(pane).and_then(|p| p.camera.as_ref())
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::segment_distance;
+
+    #[test]
+    fn distance_to_a_segment_uses_the_nearest_point() {
+        // Perpendicular foot inside the segment, then beyond each end (Euclidean geometry).
+        assert!((segment_distance((1.0, 2.0), (0.0, 0.0), (4.0, 0.0)) - 2.0).abs() < 1e-12);
+        assert!((segment_distance((7.0, 4.0), (0.0, 0.0), (4.0, 0.0)) - 5.0).abs() < 1e-12);
+        assert!((segment_distance((-3.0, -4.0), (0.0, 0.0), (4.0, 0.0)) - 5.0).abs() < 1e-12);
+        assert!((segment_distance((3.0, 4.0), (0.0, 0.0), (0.0, 0.0)) - 5.0).abs() < 1e-12);
     }
 }

@@ -457,3 +457,54 @@ fn cancel_stops_a_run() {
         harness.state().run_state()
     );
 }
+
+#[test]
+fn clicking_a_trace_selects_its_launch() {
+    let mut harness = demo_harness();
+    settle(&mut harness);
+    {
+        let app = harness.state_mut();
+        for (lat_deg, lon_deg) in [(10.0, 30.0), (-20.0, 150.0)] {
+            app.push_command(spinfall_gui::Command::AddSiteLatLon { lat_deg, lon_deg });
+        }
+        app.handle_commands();
+        for site in app.sites_mut() {
+            site.launch.speed_m_s = 0.4;
+            site.launch.elevation_deg = 70.0;
+        }
+        app.settings_mut().integrator.max_time_s = 2.0 * 3600.0;
+        app.push_command(spinfall_gui::Command::Run);
+    }
+    settle(&mut harness);
+    assert_eq!(harness.state().reports().len(), 2);
+    assert_eq!(harness.state().selected_launch(), Some(0));
+    // The highest point of launch 1's trace, as the body-fixed camera shows it.
+    let app = harness.state();
+    let r = &app.reports()[1];
+    let top = r
+        .trajectory_body
+        .iter()
+        .max_by(|a, b| {
+            let na = nalgebra::Vector3::from(a.pos_m).norm();
+            let nb = nalgebra::Vector3::from(b.pos_m).norm();
+            na.total_cmp(&nb)
+        })
+        .unwrap();
+    let (x, y, _) = app
+        .camera(0)
+        .unwrap()
+        .project(&nalgebra::Point3::from(top.pos_m))
+        .unwrap();
+    let rect = app.view_rect(0).unwrap();
+    let pos = rect.min + egui::vec2(x as f32, y as f32);
+    assert!(rect.contains(pos), "trace point off screen");
+    let sites_before = app.sites().len();
+    click_at(&mut harness, pos);
+    harness.state_mut().handle_commands();
+    assert_eq!(harness.state().selected_launch(), Some(1));
+    assert_eq!(
+        harness.state().sites().len(),
+        sites_before,
+        "a trace click placed a site"
+    );
+}

@@ -2,8 +2,8 @@
 
 use std::sync::{Arc, Mutex};
 
-use spinfall_dynamics::Body;
 use spinfall_dynamics::surface_map::{SurfaceField, SurfaceMap};
+use spinfall_dynamics::{Body, BodyFigures};
 use spinfall_render::{Color, Colormap, face_colors};
 
 /// Colour of the body when no map is shown.
@@ -33,6 +33,7 @@ pub struct BodyView {
     triangles: Arc<Vec<[u32; 3]>>,
     map: Option<Arc<SurfaceMap>>,
     colors: Mutex<Vec<MapColors>>,
+    figures: BodyFigures,
 }
 
 impl BodyView {
@@ -45,12 +46,14 @@ impl BodyView {
             .map(|p| [p.x as f32, p.y as f32, p.z as f32])
             .collect();
         let triangles = mesh.faces.clone();
+        let figures = body.figures();
         Self {
             body,
             positions: Arc::new(positions),
             triangles: Arc::new(triangles),
             map: None,
             colors: Mutex::new(Vec::new()),
+            figures,
         }
     }
 
@@ -61,12 +64,14 @@ impl BodyView {
         if !same_shape {
             return Self::new(body);
         }
+        let figures = body.figures();
         Self {
             body,
             positions: self.positions.clone(),
             triangles: self.triangles.clone(),
             map: None,
             colors: Mutex::new(Vec::new()),
+            figures,
         }
     }
 
@@ -81,6 +86,16 @@ impl BodyView {
     /// The body.
     pub fn body(&self) -> &Arc<Body> {
         &self.body
+    }
+
+    /// Derived figures of the body (mass, density, radii, periods), computed once.
+    pub fn figures(&self) -> &BodyFigures {
+        &self.figures
+    }
+
+    /// Radius of the smallest origin-centred sphere enclosing the body, m (computed once).
+    pub fn brillouin_radius_m(&self) -> f64 {
+        self.figures.brillouin_radius_m
     }
 
     /// The surface map, when computed.

@@ -152,7 +152,7 @@ fn build(
     }
     scene.meshes.push(mesh);
 
-    let radius_m = body.brillouin_radius_m();
+    let radius_m = view.brillouin_radius_m();
     if opts.show_spin_axis {
         let axis = world_from_body * body.spin.axis_body.into_inner();
         scene.arrows.push(Arrow {
@@ -359,7 +359,7 @@ pub fn add_site_markers(
         Frame::BodyFixed => Rotation3::identity(),
         Frame::Inertial => body.inertial_from_body(t_s),
     };
-    let arrow_len_m = body.brillouin_radius_m() * 0.12;
+    let arrow_len_m = view.brillouin_radius_m() * 0.12;
     for site in sites {
         let p = world_from_body * Point3::from(site.pos_body_m);
         scene.markers.push(Marker {

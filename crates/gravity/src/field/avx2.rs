@@ -9,7 +9,7 @@
 
 use std::arch::x86_64::*;
 
-use super::block::{BLOCK, Quad};
+use super::block::{BLOCK, Oct};
 use super::direct::{EDGE_FLOOR, PLANE_TOL, Sums};
 use super::lanes::{ATAN_P, ATAN_Q, ATANH_FAST_MAX, LG, LN2_HI, LN2_LO, MORE_BITS};
 use super::simd::Span;
@@ -116,7 +116,7 @@ fn atan2(y: V, x: V) -> V {
 /// `ln` of finite positive normal lanes.
 #[target_feature(enable = "avx2,fma")]
 #[inline]
-fn ln(v: V) -> V {
+pub(crate) fn ln(v: V) -> V {
     let bits = _mm256_castpd_si256(v);
     // Exponent field to f64 with the 2^52 trick (AVX2 has no i64 -> f64 conversion).
     let e_field = _mm256_srli_epi64::<52>(bits);
@@ -281,43 +281,24 @@ pub(crate) fn sums(t: &Tables, rv: &[[f64; 4]], span: &Span) -> Sums {
     }
 }
 
-/// Lanes `k*4 .. k*4+4` of a vertex block: one coordinate (or `|r|`) for the four points.
+/// Lanes `4 half .. 4 half + 4` of component `k` (x, y, z, |r|) of a vertex block.
 #[target_feature(enable = "avx2,fma")]
 #[inline]
-fn part(q: &[f64; 16], k: usize) -> V {
-    _mm256_setr_pd(q[4 * k], q[4 * k + 1], q[4 * k + 2], q[4 * k + 3])
+fn part(q: &[f64; 4 * BLOCK], k: usize, half: usize) -> V {
+    let o = BLOCK * k + 4 * half;
+    _mm256_setr_pd(q[o], q[o + 1], q[o + 2], q[o + 3])
 }
 
 #[target_feature(enable = "avx2,fma")]
 #[inline]
-fn vertex(q: &[Quad], i: u32) -> [V; 4] {
+fn vertex(q: &[Oct], i: u32, half: usize) -> [V; 4] {
     let q = &q[i as usize].0;
-    [part(q, 0), part(q, 1), part(q, 2), part(q, 3)]
-}
-
-/// Vertex vectors for four field points (see [`Quad`]).
-#[target_feature(enable = "avx2,fma")]
-pub(crate) fn fill_quads(t: &Tables, p: &[[f64; 3]; BLOCK], out: &mut Vec<Quad>) {
-    let px = _mm256_setr_pd(p[0][0], p[1][0], p[2][0], p[3][0]);
-    let py = _mm256_setr_pd(p[0][1], p[1][1], p[2][1], p[3][1]);
-    let pz = _mm256_setr_pd(p[0][2], p[1][2], p[2][2], p[3][2]);
-    out.clear();
-    out.extend(t.vx.iter().zip(&t.vy).zip(&t.vz).map(|((&x, &y), &z)| {
-        let rx = _mm256_sub_pd(splat(x), px);
-        let ry = _mm256_sub_pd(splat(y), py);
-        let rz = _mm256_sub_pd(splat(z), pz);
-        // Same rounding as the scalar fill: ((x x + y y) + z z), no fused operations.
-        let r2 = _mm256_add_pd(
-            _mm256_add_pd(_mm256_mul_pd(rx, rx), _mm256_mul_pd(ry, ry)),
-            _mm256_mul_pd(rz, rz),
-        );
-        let mut q = [0.0; 16];
-        for (k, v) in [rx, ry, rz, _mm256_sqrt_pd(r2)].into_iter().enumerate() {
-            let lanes = to_array(v);
-            q[4 * k..4 * k + 4].copy_from_slice(&lanes);
-        }
-        Quad(q)
-    }));
+    [
+        part(q, 0, half),
+        part(q, 1, half),
+        part(q, 2, half),
+        part(q, 3, half),
+    ]
 }
 
 #[target_feature(enable = "avx2,fma")]
@@ -333,10 +314,10 @@ fn to_array(v: V) -> [f64; 4] {
     ]
 }
 
-/// Potential and acceleration sums for four field points at once (lanes are points), over the
-/// whole mesh, from their vertex blocks `q` (see [`Quad`]).
+/// Potential and acceleration sums over the whole of `t` for the four field points in lanes
+/// `4 half .. 4 half + 4` of the vertex blocks `q` (see [`Oct`]).
 #[target_feature(enable = "avx2,fma")]
-pub(crate) fn sums4(t: &Tables, q: &[Quad]) -> [Sums; BLOCK] {
+pub(crate) fn sums_half(t: &Tables, q: &[Oct], half: usize) -> [Sums; 4] {
     let zero = _mm256_setzero_pd();
     let two = splat(2.0);
     let plane_tol = splat(PLANE_TOL);
@@ -351,9 +332,9 @@ pub(crate) fn sums4(t: &Tables, q: &[Quad]) -> [Sums; BLOCK] {
         .zip(t.nx[..faces].iter().zip(&t.ny[..faces]))
         .zip(&t.nz[..faces])
     {
-        let r1 = vertex(q, i0);
-        let r2 = vertex(q, i1);
-        let r3 = vertex(q, i2);
+        let r1 = vertex(q, i0, half);
+        let r2 = vertex(q, i1, half);
+        let r3 = vertex(q, i2, half);
         let cx = _mm256_fmsub_pd(r2[1], r3[2], _mm256_mul_pd(r2[2], r3[1]));
         let cy = _mm256_fmsub_pd(r2[2], r3[0], _mm256_mul_pd(r2[0], r3[2]));
         let cz = _mm256_fmsub_pd(r2[0], r3[1], _mm256_mul_pd(r2[1], r3[0]));
@@ -394,8 +375,8 @@ pub(crate) fn sums4(t: &Tables, q: &[Quad]) -> [Sums; BLOCK] {
         .zip(&t.edge_len_m[..edges])
         .zip(0..edges)
     {
-        let ra = vertex(q, ia);
-        let rb = vertex(q, ib);
+        let ra = vertex(q, ia, half);
+        let rb = vertex(q, ib, half);
         let sum = _mm256_add_pd(ra[3], rb[3]);
         let l = edge_log(sum, splat(len), floor);
         let (xx, xy, xz) = (splat(d.xx[e]), splat(d.xy[e]), splat(d.xz[e]));
@@ -410,9 +391,19 @@ pub(crate) fn sums4(t: &Tables, q: &[Quad]) -> [Sums; BLOCK] {
             edge_a[k] = _mm256_fmadd_pd(er[k], l, edge_a[k]);
         }
     }
-    let [omega, face_u, edge_u] = [omega_acc, face_u, edge_u].map(|v| to_array(v));
-    let face_a = face_a.map(|v| to_array(v));
-    let edge_a = edge_a.map(|v| to_array(v));
+    let omega = to_array(omega_acc);
+    let face_u = to_array(face_u);
+    let edge_u = to_array(edge_u);
+    let face_a = [
+        to_array(face_a[0]),
+        to_array(face_a[1]),
+        to_array(face_a[2]),
+    ];
+    let edge_a = [
+        to_array(edge_a[0]),
+        to_array(edge_a[1]),
+        to_array(edge_a[2]),
+    ];
     std::array::from_fn(|k| Sums {
         edge_u: edge_u[k],
         edge_a: [edge_a[0][k], edge_a[1][k], edge_a[2][k]],

@@ -286,42 +286,43 @@ impl Exterior {
     /// Integrates the moments of the homogeneous polyhedron `mesh` about `center_m` up to
     /// `degree`.
     pub fn from_mesh(mesh: &Mesh, center_m: Point3<f64>, degree: usize) -> Self {
+        let ref_radius_m = mesh
+            .vertices_m
+            .iter()
+            .map(|v| (v - center_m).norm())
+            .fold(0.0, f64::max);
         Self::integrate(
             mesh.faces.len(),
-            &|f| mesh.faces[f],
-            &|i| mesh.vertices_m[i as usize],
-            mesh.vertices_m.len(),
+            &|f| mesh.triangle(f),
             center_m,
+            ref_radius_m,
             degree,
         )
     }
 
-    /// As [`Self::from_mesh`], for `face_count` faces given by `face` over `vertex_count`
-    /// vertices given by `vertex`.
+    /// As [`Self::from_mesh`], for `face_count` triangles given by `triangle` (corners
+    /// counter-clockwise seen from outside, metres), with `ref_radius_m` the largest vertex
+    /// distance from `center_m`.
     pub(crate) fn integrate(
         face_count: usize,
-        face: &(dyn Fn(usize) -> [u32; 3] + Sync),
-        vertex: &(dyn Fn(u32) -> Point3<f64> + Sync),
-        vertex_count: usize,
+        triangle: &(dyn Fn(usize) -> [Point3<f64>; 3] + Sync),
         center_m: Point3<f64>,
+        ref_radius_m: f64,
         degree: usize,
     ) -> Self {
-        let ref_radius_m = (0..vertex_count)
-            .map(|i| (vertex(i as u32) - center_m).norm())
-            .fold(0.0, f64::max)
-            .max(f64::MIN_POSITIVE);
+        let ref_radius_m = ref_radius_m.max(f64::MIN_POSITIVE);
         let len = index(degree, degree) + 1;
         // One collapsed Gauss–Legendre rule per size: rules[k - 1] has k x k points.
         let rules: Vec<Vec<(f64, f64)>> = (1..=degree / 2 + 1).map(gauss_legendre_01).collect();
         let steps = Recurrence::new(degree);
-        let scaled = |i: u32| (vertex(i) - center_m) / ref_radius_m;
+        let scaled = |p: Point3<f64>| (p - center_m) / ref_radius_m;
         let zero = || (vec![0.0; len], vec![0.0; len]);
         let (c, s) = (0..face_count)
             .into_par_iter()
             .with_min_len(1024)
             .fold(zero, |(mut c, mut s), f| {
-                let [i0, i1, i2] = face(f);
-                let (v0, v1, v2) = (scaled(i0), scaled(i1), scaled(i2));
+                let [p0, p1, p2] = triangle(f);
+                let (v0, v1, v2) = (scaled(p0), scaled(p1), scaled(p2));
                 let cross = (v1 - v0).cross(&(v2 - v0)); // 2 A n
                 let area2 = cross.norm();
                 if area2 == 0.0 {

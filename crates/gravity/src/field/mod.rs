@@ -38,6 +38,8 @@
 
 #[cfg(target_arch = "x86_64")]
 mod avx2;
+#[cfg(target_arch = "x86_64")]
+mod avx512;
 mod block;
 mod direct;
 pub mod exterior;
@@ -116,7 +118,6 @@ const PIECE_FACES: usize = 4096;
 /// Largest number of points a batch evaluates piece by piece together.
 const GROUP_POINTS: usize = 64;
 
-
 /// The gravity field of a homogeneous polyhedron.
 ///
 /// Field points are in metres in the body frame of the mesh. Any finite point gives finite
@@ -139,9 +140,6 @@ pub struct PolyhedronGravity {
     /// The face and edge tables cut into cache-sized pieces (see `Tables::pieces`); every sum
     /// runs piece by piece, in this order.
     pieces: Vec<Tables>,
-    /// Corner indices of every face and the vertices, metres (for the exterior moments).
-    faces: Vec<[u32; 3]>,
-    vertices_m: Vec<Point3<f64>>,
     face_count: usize,
     edge_count: usize,
     density_kg_m3: f64,
@@ -176,8 +174,6 @@ impl PolyhedronGravity {
             .fold(0.0, f64::max);
         Ok(Self {
             pieces: tables.pieces(PIECE_FACES),
-            faces: mesh.faces.clone(),
-            vertices_m: mesh.vertices_m.clone(),
             face_count: tables.face_count,
             edge_count: tables.edge_count,
             density_kg_m3,
@@ -227,12 +223,19 @@ impl PolyhedronGravity {
     /// The exterior expansion used far away (integrated on first use, then kept).
     pub fn exterior(&self) -> &Exterior {
         self.exterior.get_or_init(|| {
+            let vertex = |t: &Tables, i: u32| {
+                let i = i as usize;
+                Point3::new(t.vx[i], t.vy[i], t.vz[i])
+            };
             Exterior::integrate(
-                self.faces.len(),
-                &|f| self.faces[f],
-                &|i| self.vertices_m[i as usize],
-                self.vertices_m.len(),
+                self.face_count,
+                &|f| {
+                    let t = &self.pieces[f / PIECE_FACES];
+                    let k = f % PIECE_FACES;
+                    [vertex(t, t.f0[k]), vertex(t, t.f1[k]), vertex(t, t.f2[k])]
+                },
                 self.center_of_mass_m,
+                self.brillouin_radius_m,
                 exterior::DEFAULT_DEGREE,
             )
         })
@@ -251,8 +254,6 @@ impl PolyhedronGravity {
     /// Approximate heap use of the precomputed tables and expansion, bytes.
     pub fn memory_bytes(&self) -> usize {
         self.pieces.iter().map(Tables::heap_bytes).sum::<usize>()
-            + self.faces.capacity() * std::mem::size_of::<[u32; 3]>()
-            + self.vertices_m.capacity() * std::mem::size_of::<Point3<f64>>()
             + self.exterior.get().map_or(0, Exterior::heap_bytes)
     }
 
@@ -284,7 +285,9 @@ impl PolyhedronGravity {
                     simd::sums(piece, scratch)
                 })
                 .collect();
-            let s = parts.iter().fold(direct::Sums::default(), |acc, s| acc.merged(s));
+            let s = parts
+                .iter()
+                .fold(direct::Sums::default(), |acc, s| acc.merged(s));
             return self.combine(&s);
         }
         let mut scratch = Vec::new();
@@ -520,7 +523,7 @@ impl PolyhedronGravity {
         points: &[Point3<f64>],
         idx: &[usize],
         kernel: DirectKernel,
-        scratch: &mut Vec<block::Quad>,
+        scratch: &mut Vec<block::Oct>,
     ) -> Vec<direct::Sums> {
         let mut sums = vec![direct::Sums::default(); idx.len()];
         for piece in &self.pieces {
@@ -529,7 +532,7 @@ impl PolyhedronGravity {
                     let p = points[block_idx[j.min(block_idx.len() - 1)]];
                     [p.x, p.y, p.z]
                 });
-                block::fill_quads(piece, &pts, scratch);
+                block::fill_block(piece, &pts, scratch);
                 let part = if kernel == DirectKernel::Wide {
                     block::sums_block_wide(piece, scratch)
                 } else {

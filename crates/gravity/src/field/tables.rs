@@ -78,7 +78,7 @@ pub(crate) struct Tables {
     /// Edge dyads (padded with zeros).
     pub edge_dyad: SymSoa,
     /// The face each edge was taken from (its end vertices are that face's corners; not
-    /// padded). Edges are stored in increasing order of it.
+    /// padded). Edges are stored in increasing order of it. Empty in pieces.
     pub edge_owner: Vec<u32>,
 }
 
@@ -330,7 +330,6 @@ impl Tables {
                 {
                     v.push(x);
                 }
-                t.edge_owner.push(self.edge_owner[e] - f_start as u32);
                 e += 1;
             }
             t.edge_count = t.e0.len();
@@ -348,7 +347,7 @@ impl Tables {
 
     /// Pads faces and edges to a multiple of [`LANES`] with inert entries.
     fn pad(&mut self) {
-        while self.f0.len() % LANES != 0 {
+        while !self.f0.len().is_multiple_of(LANES) {
             self.f0.push(0);
             self.f1.push(0);
             self.f2.push(0);
@@ -356,7 +355,7 @@ impl Tables {
             self.ny.push(0.0);
             self.nz.push(0.0);
         }
-        while self.e0.len() % LANES != 0 {
+        while !self.e0.len().is_multiple_of(LANES) {
             self.e0.push(0);
             self.e1.push(0);
             self.edge_len_m.push(1.0);
@@ -375,5 +374,45 @@ impl Tables {
             + self.edge_len_m.capacity() * f64s
             + self.edge_dyad.heap_bytes()
             + self.edge_owner.capacity() * u32s
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::field::direct;
+
+    #[test]
+    fn pieces_cover_every_face_and_edge_once() {
+        // Euler: a closed triangle mesh has E = 3F/2 edges; the pieces must share them out, and
+        // their sums must add up to the whole mesh's (to rounding).
+        let (t, _) = Tables::build(&crate::generate::demo_body(2)).expect("valid");
+        let whole = t.pieces(usize::MAX);
+        assert_eq!(whole.len(), 1);
+        let pieces = t.pieces(97);
+        assert_eq!(pieces.len(), t.face_count.div_ceil(97));
+        assert_eq!(
+            pieces.iter().map(|p| p.face_count).sum::<usize>(),
+            t.face_count
+        );
+        assert_eq!(
+            pieces.iter().map(|p| p.edge_count).sum::<usize>(),
+            3 * t.face_count / 2
+        );
+        let p = [310.0, -1200.0, 455.0];
+        let sums = |ts: &[Tables]| {
+            let mut scratch = Vec::new();
+            ts.iter().fold(direct::Sums::default(), |acc, piece| {
+                direct::fill_vertices(piece, p, &mut scratch);
+                acc.merged(&direct::sums_scalar::<true>(piece, &scratch))
+            })
+        };
+        let (a, b) = (sums(&whole), sums(&pieces));
+        assert!((a.edge_u - b.edge_u).abs() < 1e-12 * a.edge_u.abs());
+        assert!((a.face_u - b.face_u).abs() < 1e-12 * a.face_u.abs());
+        for k in 0..3 {
+            assert!((a.edge_a[k] - b.edge_a[k]).abs() < 1e-12 * a.edge_u.abs().sqrt());
+        }
+        assert!((a.omega - b.omega).abs() < 1e-12);
     }
 }
