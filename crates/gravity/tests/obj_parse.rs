@@ -122,3 +122,26 @@ fn latin1_comments_are_tolerated_but_bad_bytes_in_numbers_are_not() {
         "{err}"
     );
 }
+
+#[test]
+fn other_statements_are_ignored_and_continuations_joined() {
+    // Free-form statements (`curv`, `lod`), a group with two names and an unknown statement: all
+    // ignored (obj-rs alone would refuse or not implement them). A backslash at the end of a line
+    // continues the statement on the next one (Wavefront OBJ specification, "Object files").
+    let text = "v 0 0 \\\n 0\nv 1 0 0\nv 0 1 0\nv 0 0 1\n\
+                curv 0 1 1 2\nlod 3\ng a b\nvc 1 0 0\n\
+                f 1 3 2\nf 1 2 \\\n 4\nf 1 4 3\nf 2 3 4\n";
+    let (mesh, _) = parse_obj(text.as_bytes(), LengthUnit::Metre).unwrap();
+    assert_eq!(mesh.vertices_m.len(), 4);
+    assert_eq!(mesh.faces, vec![[0, 2, 1], [0, 1, 3], [0, 3, 2], [1, 2, 3]]);
+    // An error only the obj-rs reader detects (texture index beyond the 1 `vt`) still names its
+    // line.
+    let bad = "v 0 0 0\nv 1 0 0\nv 0 1 0\nvt 0 0\n\nf 1/1 2/1 3/2\n";
+    let err = parse_obj(bad.as_bytes(), LengthUnit::Metre)
+        .unwrap_err()
+        .to_string();
+    assert!(
+        err.contains("line 6") && err.contains("f 1/1 2/1 3/2"),
+        "{err}"
+    );
+}

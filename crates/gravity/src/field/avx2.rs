@@ -1,5 +1,7 @@
 //! The direct face and edge sums with explicit AVX2+FMA intrinsics (x86-64 only).
 //!
+//! Two kernels: `sums`, four faces or edges in the lanes (one field point), and `sums_half`,
+//! four field points in the lanes (half of a `block::Oct` block of eight).
 //! Same formulas, surface rules and polynomial approximations as the portable kernels
 //! (`simd::kernel` over `lanes::Lanes`): Cephes `atan` for the solid angles, fdlibm's `log`
 //! reduction for the edge logs. Every function here carries

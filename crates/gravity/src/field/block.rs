@@ -3,7 +3,7 @@
 //!
 //! Each face and edge is then read once per block of points (its constants broadcast to all
 //! lanes), so the tables stream from memory once per [`BLOCK`] points, and the per-vertex vectors
-//! of the points sit side by side in one [`Quad`] per vertex: a face reads its three corners as
+//! of the points sit side by side in one [`Oct`] per vertex: a face reads its three corners as
 //! whole vectors with no shuffles. Same formulas and surface rules as the scalar kernel in
 //! `direct`; batches of points use this (see [`super::PolyhedronGravity::potential_acceleration_batch`]).
 

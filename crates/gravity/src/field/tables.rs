@@ -361,6 +361,33 @@ impl Tables {
             self.edge_len_m.push(1.0);
             self.edge_dyad.push(&Matrix3::zeros());
         }
+        for v in [
+            &mut self.vx,
+            &mut self.vy,
+            &mut self.vz,
+            &mut self.nx,
+            &mut self.ny,
+        ]
+        .into_iter()
+        .chain([&mut self.nz, &mut self.edge_len_m])
+        {
+            v.shrink_to_fit();
+        }
+        for v in [
+            &mut self.f0,
+            &mut self.f1,
+            &mut self.f2,
+            &mut self.e0,
+            &mut self.e1,
+        ] {
+            v.shrink_to_fit();
+        }
+        let d = &mut self.edge_dyad;
+        for v in [
+            &mut d.xx, &mut d.xy, &mut d.xz, &mut d.yy, &mut d.yz, &mut d.zz,
+        ] {
+            v.shrink_to_fit();
+        }
     }
 
     /// Approximate heap use, bytes.
