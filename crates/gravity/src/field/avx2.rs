@@ -28,7 +28,9 @@ fn splat(v: f64) -> V {
 #[target_feature(enable = "avx2,fma")]
 #[inline]
 fn load(v: &[f64], i: usize) -> V {
-    _mm256_setr_pd(v[i], v[i + 1], v[i + 2], v[i + 3])
+    // One bounds check for the slice, then a single vector load.
+    let s = &v[i..i + 4];
+    _mm256_setr_pd(s[0], s[1], s[2], s[3])
 }
 
 #[target_feature(enable = "avx2,fma")]
@@ -288,7 +290,8 @@ pub(crate) fn sums(t: &Tables, rv: &[[f64; 4]], span: &Span) -> Sums {
 #[inline]
 fn part(q: &[f64; 4 * BLOCK], k: usize, half: usize) -> V {
     let o = BLOCK * k + 4 * half;
-    _mm256_setr_pd(q[o], q[o + 1], q[o + 2], q[o + 3])
+    let s = &q[o..o + 4];
+    _mm256_setr_pd(s[0], s[1], s[2], s[3])
 }
 
 #[target_feature(enable = "avx2,fma")]

@@ -1,9 +1,11 @@
-//! The block kernel (eight field points in the lanes) with explicit AVX-512 intrinsics
-//! (x86-64 only).
+//! The direct sums with explicit AVX-512 intrinsics (x86-64 only): `sums`, eight faces or edges
+//! in the lanes (one field point), and `sums8`, eight field points in the lanes (a
+//! `block::Oct` block).
 //!
-//! Same formulas, surface rules and polynomial approximations as `avx2::sums_half`, on eight
+//! Same formulas, surface rules and polynomial approximations as the AVX2 kernels, on eight
 //! lanes at once. Every function carries `#[target_feature(enable = "avx512f,avx512dq")]` and is
-//! only called from the `multiversion` clone of `block::sums_block` compiled for (and selected
+//! only called from the `multiversion` clones of `block::sums_block` and `simd::sums_compiled`
+//! compiled for (and selected
 //! at run time on) CPUs with those features, which makes the intrinsic calls safe without
 //! `unsafe` blocks.
 
@@ -12,7 +14,8 @@ use std::arch::x86_64::*;
 use super::block::{BLOCK, Oct};
 use super::direct::{EDGE_FLOOR, PLANE_TOL, Sums};
 use super::lanes::{ATAN_P, ATAN_Q, ATANH_FAST_MAX, LG, MORE_BITS};
-use super::tables::Tables;
+use super::simd::Span;
+use super::tables::{SymSoa, Tables};
 
 type V = __m512d;
 
@@ -240,4 +243,122 @@ pub(crate) fn sums8(t: &Tables, q: &[Oct]) -> [Sums; BLOCK] {
         omega: omega[k],
         ..Sums::default()
     })
+}
+
+/// Rows `[x, y, z, |r|]` of eight vertices -> lanes x, y, z, |r| (lane `k` from `idx[k]`).
+#[target_feature(enable = "avx512f,avx512dq")]
+#[inline]
+fn gather(rv: &[[f64; 4]], idx: &[u32]) -> [V; 4] {
+    let row = |k: usize| {
+        let r = &rv[idx[k] as usize];
+        _mm256_setr_pd(r[0], r[1], r[2], r[3])
+    };
+    // Rows a..h; pairs [a | c], [b | d], [e | g], [f | h] in the two 256-bit halves.
+    let pa = _mm512_insertf64x4::<1>(_mm512_castpd256_pd512(row(0)), row(2));
+    let pb = _mm512_insertf64x4::<1>(_mm512_castpd256_pd512(row(1)), row(3));
+    let pc = _mm512_insertf64x4::<1>(_mm512_castpd256_pd512(row(4)), row(6));
+    let pd = _mm512_insertf64x4::<1>(_mm512_castpd256_pd512(row(5)), row(7));
+    let t0 = _mm512_unpacklo_pd(pa, pb); // a0 b0 a2 b2 | c0 d0 c2 d2
+    let t1 = _mm512_unpackhi_pd(pa, pb); // a1 b1 a3 b3 | c1 d1 c3 d3
+    let t2 = _mm512_unpacklo_pd(pc, pd); // e0 f0 e2 f2 | g0 h0 g2 h2
+    let t3 = _mm512_unpackhi_pd(pc, pd); // e1 f1 e3 f3 | g1 h1 g3 h3
+    [
+        _mm512_shuffle_f64x2::<0x88>(t0, t2),
+        _mm512_shuffle_f64x2::<0x88>(t1, t3),
+        _mm512_shuffle_f64x2::<0xDD>(t0, t2),
+        _mm512_shuffle_f64x2::<0xDD>(t1, t3),
+    ]
+}
+
+#[target_feature(enable = "avx512f,avx512dq")]
+#[inline]
+fn load(v: &[f64], i: usize) -> V {
+    // One bounds check for the slice, then a single vector load.
+    let s = &v[i..i + 8];
+    _mm512_setr_pd(s[0], s[1], s[2], s[3], s[4], s[5], s[6], s[7])
+}
+
+#[target_feature(enable = "avx512f,avx512dq")]
+#[inline]
+fn sym_load(m: &SymSoa, i: usize) -> [V; 6] {
+    [
+        load(&m.xx, i),
+        load(&m.xy, i),
+        load(&m.xz, i),
+        load(&m.yy, i),
+        load(&m.yz, i),
+        load(&m.zz, i),
+    ]
+}
+
+/// Potential and acceleration sums (no gradient) over `span` (multiples of eight) for the
+/// vertex vectors `rv` of one field point.
+#[target_feature(enable = "avx512f,avx512dq")]
+pub(crate) fn sums(t: &Tables, rv: &[[f64; 4]], span: &Span) -> Sums {
+    const W: usize = 8;
+    let zero = _mm512_setzero_pd();
+    let two = splat(2.0);
+    let plane_tol = splat(PLANE_TOL);
+    let mut omega_acc = zero;
+    let mut face_u = zero;
+    let mut face_a = [zero; 3];
+    for i in span.faces.clone().step_by(W) {
+        let r1 = gather(rv, &t.f0[i..i + W]);
+        let r2 = gather(rv, &t.f1[i..i + W]);
+        let r3 = gather(rv, &t.f2[i..i + W]);
+        let cx = _mm512_fmsub_pd(r2[1], r3[2], _mm512_mul_pd(r2[2], r3[1]));
+        let cy = _mm512_fmsub_pd(r2[2], r3[0], _mm512_mul_pd(r2[0], r3[2]));
+        let cz = _mm512_fmsub_pd(r2[0], r3[1], _mm512_mul_pd(r2[1], r3[0]));
+        let num = dot3(&r1, &[cx, cy, cz]);
+        let d12 = dot3(&r1, &r2);
+        let d23 = dot3(&r2, &r3);
+        let d31 = dot3(&r3, &r1);
+        let prod = _mm512_mul_pd(_mm512_mul_pd(r1[3], r2[3]), r3[3]);
+        let den = _mm512_fmadd_pd(
+            r3[3],
+            d12,
+            _mm512_fmadd_pd(r2[3], d31, _mm512_fmadd_pd(r1[3], d23, prod)),
+        );
+        let tol = _mm512_mul_pd(plane_tol, prod);
+        let abs_num = _mm512_andnot_pd(splat(-0.0), num);
+        let on_plane = _mm512_cmp_pd_mask::<_CMP_LE_OQ>(abs_num, tol)
+            & _mm512_cmp_pd_mask::<_CMP_LE_OQ>(den, tol);
+        let omega = _mm512_maskz_mul_pd(!on_plane, two, atan2(num, den));
+        let n = [load(&t.nx, i), load(&t.ny, i), load(&t.nz, i)];
+        let h = dot3(&n, &r1);
+        let h_omega = _mm512_mul_pd(h, omega);
+        omega_acc = _mm512_add_pd(omega_acc, omega);
+        face_u = _mm512_fmadd_pd(h, h_omega, face_u);
+        for k in 0..3 {
+            face_a[k] = _mm512_fmadd_pd(n[k], h_omega, face_a[k]);
+        }
+    }
+    let floor = splat(EDGE_FLOOR);
+    let mut edge_u = zero;
+    let mut edge_a = [zero; 3];
+    for i in span.edges.clone().step_by(W) {
+        let ra = gather(rv, &t.e0[i..i + W]);
+        let rb = gather(rv, &t.e1[i..i + W]);
+        let sum = _mm512_add_pd(ra[3], rb[3]);
+        let l = edge_log(sum, load(&t.edge_len_m, i), floor);
+        let m = sym_load(&t.edge_dyad, i);
+        let er = [
+            dot3(&[m[0], m[1], m[2]], &ra),
+            dot3(&[m[1], m[3], m[4]], &ra),
+            dot3(&[m[2], m[4], m[5]], &ra),
+        ];
+        edge_u = _mm512_fmadd_pd(dot3(&ra, &er), l, edge_u);
+        for k in 0..3 {
+            edge_a[k] = _mm512_fmadd_pd(er[k], l, edge_a[k]);
+        }
+    }
+    let total = |v: V| to_array(v).iter().sum::<f64>();
+    Sums {
+        edge_u: total(edge_u),
+        edge_a: [total(edge_a[0]), total(edge_a[1]), total(edge_a[2])],
+        face_u: total(face_u),
+        face_a: [total(face_a[0]), total(face_a[1]), total(face_a[2])],
+        omega: total(omega_acc),
+        ..Sums::default()
+    }
 }

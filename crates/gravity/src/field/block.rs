@@ -48,7 +48,8 @@ fn vertex<L: Lanes>(q: &[Oct], i: u32, half: usize) -> [L; 4] {
     let q = &q[i as usize].0;
     std::array::from_fn(|k| {
         let o = BLOCK * k + 4 * half;
-        L::from_array([q[o], q[o + 1], q[o + 2], q[o + 3]])
+        let s = &q[o..o + 4];
+        L::from_array([s[0], s[1], s[2], s[3]])
     })
 }
 

@@ -14,7 +14,7 @@
 //! distance of the face plane), and the face integrals use a collapsed (Duffy) Gauss–Legendre
 //! rule: exact for every degree on large faces; on small faces (fine meshes) a smaller rule
 //! whose error bound at the switch radius is below 1e-15 relative (see `rule_points`), which
-//! makes the moments of a 330k-face mesh about ten times cheaper (~0.3 s on two cores).
+//! makes the moments of a 330k-face mesh over ten times cheaper (~0.2 s on two cores).
 //!
 //! # Accuracy (measured by `tests/field_far.rs`, `far_field_accuracy_table`)
 //! Truncating at degree `N` leaves a tail bounded rigorously by `(R_B/r)^(N+1) / (1 - R_B/r)`

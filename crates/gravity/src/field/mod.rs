@@ -27,7 +27,8 @@
 //! [`exterior`]'s documentation.
 //!
 //! # Speed
-//! The face and edge tables are cut into pieces of [`PIECE_FACES`] consecutive faces, each with
+//! The face and edge tables are cut into pieces of [`PIECE_FACES`] faces close together (along
+//! a Morton curve through the face centroids, whatever the face order of the file), each with
 //! its own vertex list, so a piece's tables and per-vertex scratch stay in a core's L2 cache.
 //! Per field point and piece the vertex vectors `r_i` and `|r_i|` are computed once (one square
 //! root per vertex) and gathered by faces and edges. The edge log is taken as
@@ -40,21 +41,27 @@
 //!   parallel over groups with rayon. Explicit AVX-512 (eight lanes) or AVX2+FMA (two
 //!   four-lane halves) intrinsics on CPUs that have them, chosen at run time with
 //!   `multiversion`, else the portable `wide` crate.
-//! - One point ([`PolyhedronGravity::potential_acceleration`]) runs four faces or edges at a
-//!   time (AVX2+FMA, else `wide`); from [`SPLIT_FACE_COUNT`] faces its pieces are shared out
-//!   over rayon's threads. A scalar version is kept as the reference.
+//! - One point ([`PolyhedronGravity::potential_acceleration`]) runs eight (AVX-512) or four
+//!   (AVX2+FMA, else `wide`) faces or edges at a time; from [`SPLIT_FACE_COUNT`] faces its
+//!   pieces are shared out over rayon's threads. A scalar version is kept as the reference.
 //!
-//! Measured (`cargo bench -p spinfall-gravity --bench field`, icospheres, 2-core AMD EPYC
-//! (Zen 5) VM shared with other builds, so CPU time per thread is the steadier figure):
+//! Measured with `cargo bench -p spinfall-gravity --bench field` on icospheres, on a 2-core
+//! AMD EPYC (Zen 5, AVX-512) VM shared with other builds (load 1.2-1.5), ns per facet per
+//! point. Batch: criterion's time for 256 points on both threads, and CPU time per core. One
+//! point: criterion's time of [`PolyhedronGravity::potential_acceleration`] (split over both
+//! threads from [`SPLIT_FACE_COUNT`] faces) and of the same sums on one thread:
 //!
-//! | faces   | batch of 256, 2 threads: wall / CPU per core | one point, one thread | memory   |
-//! |--------:|---------------------------------------------:|----------------------:|---------:|
-//! |   5 120 | BENCH_5K                                     | ONE_5K                | MEM      |
-//! |  81 920 | BENCH_80K                                    | ONE_80K               | MEM      |
-//! | 327 680 | BENCH_330K                                   | ONE_330K              | MEM      |
+//! | faces   | batch of 256 | batch CPU per core | one point | one point, one thread |
+//! |--------:|-------------:|-------------------:|----------:|----------------------:|
+//! |   5 120 |          1.7 |                3.6 |       7.0 |                   7.0 |
+//! |  81 920 |          1.9 |                3.8 |       4.3 |                   8.5 |
+//! | 327 680 |          1.8 |                3.7 |       7.8 |                    14 |
 //!
-//! (ns per facet per point; memory in bytes per facet, tables of all pieces.) The exterior
-//! expansion is integrated on first use in EXT_5K s, EXT_80K s and EXT_330K s for these meshes
+//! Under heavy load (load 5-6, about one core left to the bench) the batch figures were
+//! 3.1-3.9 ns. One point on the largest mesh is bound by memory bandwidth (its 47 MB of
+//! tables stream from RAM for every point); batches are the way to evaluate many points there.
+//! Memory: 145 bytes per facet (all pieces, vertices repeated at piece borders). The exterior
+//! expansion is integrated on first use in 0.006 s, 0.07 s and 0.21 s for these meshes
 //! (adaptive face quadrature, see [`exterior`]).
 //!
 //! Spinfall is for research and planning, not flight-certified.
@@ -117,8 +124,8 @@ pub enum DirectKernel {
     Scalar,
     /// `wide::f64x4` explicit SIMD as compiled (SSE2 on a default x86-64 build).
     Wide,
-    /// Chosen at run time by CPU features: explicit AVX2+FMA intrinsics on x86-64 CPUs that
-    /// have them, else `wide`.
+    /// Chosen at run time by CPU features: explicit AVX-512 or AVX2+FMA intrinsics on x86-64
+    /// CPUs that have them, else `wide`.
     Compiled,
 }
 
@@ -172,7 +179,7 @@ pub struct PolyhedronGravity {
     brillouin_radius_m: f64,
     switch_radius_m: f64,
     /// Built on first use (integrating the degree-8 moments costs about as much as a few
-    /// hundred direct evaluations: ~0.3 s at 330k faces).
+    /// hundred direct evaluations: ~0.2 s at 330k faces).
     exterior: std::sync::OnceLock<Exterior>,
 }
 
@@ -297,8 +304,9 @@ impl PolyhedronGravity {
     /// Potential (m^2/s^2) and acceleration (m/s^2) at `p` (metres, body frame): the hot path.
     ///
     /// On meshes of [`SPLIT_FACE_COUNT`] faces or more the face and edge sums of this one point
-    /// are split over rayon's threads (in a fixed number of parts added in a fixed order, so the
-    /// result does not depend on the thread count); batches parallelise over points instead.
+    /// are split over rayon's threads (by pieces of [`PIECE_FACES`] faces, added in a fixed
+    /// order, so the result does not depend on the thread count); batches parallelise over
+    /// points instead.
     pub fn potential_acceleration(&self, p: &Point3<f64>) -> (f64, Vector3<f64>) {
         if self.face_count() >= SPLIT_FACE_COUNT && self.method_at(p) == FieldMethod::Direct {
             let parts: Vec<direct::Sums> = self

@@ -115,17 +115,27 @@ pub(crate) fn sums_wide(t: &Tables, rv: &[[f64; 4]], span: &Span) -> Sums {
     kernel::<f64x4>(t, rv, span)
 }
 
-/// The kernel compiled per CPU feature set and dispatched at run time: explicit AVX2+FMA on
-/// x86-64 CPUs that have them, `wide` elsewhere.
-#[multiversion(targets("x86_64+avx2+fma+avx"))]
+/// The kernel compiled per CPU feature set and dispatched at run time: explicit AVX-512 (eight
+/// lanes) or AVX2+FMA (four) on x86-64 CPUs that have them, `wide` elsewhere. `span` must be in
+/// multiples of eight (the tables are padded so).
+#[multiversion(targets("x86_64+avx512f+avx512dq+avx2+fma+avx"))]
 pub(crate) fn sums_compiled(t: &Tables, rv: &[[f64; 4]], span: &Span) -> Sums {
+    match_target! {
+        "x86_64+avx512f+avx512dq" => super::avx512::sums(t, rv, span),
+        _ => sums_avx2(t, rv, span),
+    }
+}
+
+/// As [`sums_compiled`] without the AVX-512 kernel (tested on its own on CPUs with both).
+#[multiversion(targets("x86_64+avx2+fma+avx"))]
+pub(crate) fn sums_avx2(t: &Tables, rv: &[[f64; 4]], span: &Span) -> Sums {
     match_target! {
         "x86_64+avx2+fma" => super::avx2::sums(t, rv, span),
         _ => kernel::<f64x4>(t, rv, span),
     }
 }
 
-/// Face and edge index ranges (padded tables, multiples of [`LANES`]) one kernel call covers.
+/// Face and edge index ranges (padded tables, multiples of `tables::PAD`) one kernel call covers.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub(crate) struct Span {
     pub faces: Range<usize>,
@@ -145,4 +155,59 @@ impl Span {
 /// The fastest kernel for this CPU over the whole mesh.
 pub(crate) fn sums(t: &Tables, rv: &[[f64; 4]]) -> Sums {
     sums_compiled(t, rv, &Span::all(t))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::field::direct;
+
+    #[test]
+    fn every_single_point_kernel_matches_the_scalar_kernel() {
+        // Each compiled variant this CPU can run (AVX-512, AVX2, wide) against the portable
+        // scalar reference; a vertex and an edge midpoint exercise the surface rules. The
+        // demo body's face count is not a multiple of eight, so the padding is exercised too.
+        let mesh = crate::generate::demo_body(2);
+        let (t, _) = Tables::build(&mesh).expect("valid");
+        let t = t.pieces(usize::MAX).remove(0);
+        let [a, b, _] = mesh.triangle(9);
+        let mid = (a.coords + b.coords) * 0.5;
+        let span = Span::all(&t);
+        let mut rv = Vec::new();
+        for p in [
+            [3000.0, 100.0, -200.0],
+            [a.x, a.y, a.z],
+            [mid.x, mid.y, mid.z],
+            [0.0, 0.0, 0.0],
+            [-900.0, 700.0, 2500.0],
+        ] {
+            direct::fill_vertices(&t, p, &mut rv);
+            let want = direct::sums_scalar::<false>(&t, &rv);
+            let scale_u = want.edge_u.abs().max(want.face_u.abs());
+            let scale_a = want
+                .edge_a
+                .iter()
+                .chain(&want.face_a)
+                .fold(0.0f64, |m, v| m.max(v.abs()));
+            for got in [
+                sums_compiled(&t, &rv, &span),
+                sums_avx2(&t, &rv, &span),
+                sums_wide(&t, &rv, &span),
+            ] {
+                assert!((got.edge_u - want.edge_u).abs() <= 1e-13 * scale_u, "{p:?}");
+                assert!((got.face_u - want.face_u).abs() <= 1e-13 * scale_u, "{p:?}");
+                assert!((got.omega - want.omega).abs() <= 1e-13, "{p:?}");
+                for j in 0..3 {
+                    assert!(
+                        (got.edge_a[j] - want.edge_a[j]).abs() <= 1e-13 * scale_a,
+                        "{p:?}"
+                    );
+                    assert!(
+                        (got.face_a[j] - want.face_a[j]).abs() <= 1e-13 * scale_a,
+                        "{p:?}"
+                    );
+                }
+            }
+        }
+    }
 }

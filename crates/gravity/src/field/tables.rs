@@ -3,7 +3,7 @@
 //! Face dyads `F_f = n_f n_f^T` are kept as the unit normals `n_f`; the edge dyads
 //! `E_e = n_A n_A12^T + n_B n_B21^T` (Werner & Scheeres 1997) are symmetric, so six components
 //! are kept for each. All arrays
-//! are padded to a multiple of [`LANES`] with inert entries (zero dyads, vertex index 0) so the
+//! are padded to a multiple of [`PAD`] with inert entries (zero dyads, vertex index 0) so the
 //! vector kernels need no remainder loop.
 
 use std::collections::HashMap;
@@ -15,6 +15,9 @@ use crate::mesh::Mesh;
 
 /// Width of the vector kernels (f64 lanes).
 pub(crate) const LANES: usize = 4;
+
+/// Padding of the face and edge tables: a multiple of every kernel's width (4 or 8 lanes).
+pub(crate) const PAD: usize = 8;
 
 /// Six components of a symmetric 3x3 matrix, one `Vec` each: xx, xy, xz, yy, yz, zz.
 #[derive(Debug, Clone, Default)]
@@ -82,6 +85,17 @@ pub(crate) struct Tables {
     pub edge_owner: Vec<u32>,
 }
 
+/// The low 21 bits of `v` spread to every third bit (bit `k` to bit `3k`), for Morton codes.
+fn spread_bits(v: u64) -> u64 {
+    let mut x = v & 0x1f_ffff;
+    x = (x | x << 32) & 0x001f_0000_0000_ffff;
+    x = (x | x << 16) & 0x001f_0000_ff00_00ff;
+    x = (x | x << 8) & 0x100f_00f0_0f00_f00f;
+    x = (x | x << 4) & 0x10c3_0c30_c30c_30c3;
+    x = (x | x << 2) & 0x1249_2492_4924_9249;
+    x
+}
+
 /// Volume and centre of mass of the homogeneous polyhedron (signed tetrahedra from the origin).
 #[derive(Debug, Clone, Copy)]
 pub(crate) struct Bulk {
@@ -90,7 +104,7 @@ pub(crate) struct Bulk {
 }
 
 fn padded(n: usize) -> usize {
-    n.div_ceil(LANES) * LANES
+    n.div_ceil(PAD) * PAD
 }
 
 impl Tables {
@@ -266,19 +280,28 @@ impl Tables {
         ))
     }
 
-    /// The mesh cut into pieces of `faces_per_piece` consecutive faces, each a self-contained
-    /// table set with its own (local) vertices: every edge goes with the face it was taken from,
-    /// whose corners it joins. Vertices shared by pieces are repeated. Summing the face and edge
-    /// terms over all pieces gives the whole mesh's sums; a piece is small enough that its
-    /// tables and per-vertex scratch stay in the core's cache while several field points are
-    /// evaluated over it.
+    /// The mesh cut into pieces of `faces_per_piece` faces close together (consecutive along a
+    /// Morton curve through the face centroids), each a self-contained table set with its own
+    /// (local) vertices: every edge goes with the face it was taken from, whose corners it
+    /// joins. Vertices shared by pieces are repeated. Summing the face and edge terms over all
+    /// pieces gives the whole mesh's sums; a piece is small enough that its tables and
+    /// per-vertex scratch stay in the core's cache while several field points are evaluated
+    /// over it, and compact enough (whatever the face order of the file) that few vertices
+    /// repeat.
     pub fn pieces(&self, faces_per_piece: usize) -> Vec<Tables> {
         let faces_per_piece = faces_per_piece.max(1);
+        let order = self.spatial_face_order();
+        let mut piece_of = vec![0u32; self.face_count];
+        for (rank, &f) in order.iter().enumerate() {
+            piece_of[f as usize] = (rank / faces_per_piece) as u32;
+        }
+        let mut edges_of: Vec<Vec<u32>> = vec![Vec::new(); order.len().div_ceil(faces_per_piece)];
+        for e in 0..self.edge_count {
+            edges_of[piece_of[self.edge_owner[e] as usize] as usize].push(e as u32);
+        }
         let mut local = vec![u32::MAX; self.vx.len()];
-        let mut out = Vec::with_capacity(self.face_count.div_ceil(faces_per_piece));
-        let mut e = 0;
-        for f_start in (0..self.face_count).step_by(faces_per_piece) {
-            let f_end = (f_start + faces_per_piece).min(self.face_count);
+        let mut out = Vec::with_capacity(edges_of.len());
+        for (faces, edges) in order.chunks(faces_per_piece).zip(&edges_of) {
             let mut global: Vec<u32> = Vec::new();
             let mut map = |g: u32, global: &mut Vec<u32>| -> u32 {
                 let slot = &mut local[g as usize];
@@ -288,18 +311,18 @@ impl Tables {
                 }
                 *slot
             };
-            let np = padded(f_end - f_start);
+            let np = padded(faces.len());
             let mut t = Tables {
                 vx: Vec::new(),
                 vy: Vec::new(),
                 vz: Vec::new(),
-                face_count: f_end - f_start,
+                face_count: faces.len(),
                 f0: Vec::with_capacity(np),
                 f1: Vec::with_capacity(np),
                 f2: Vec::with_capacity(np),
-                nx: self.nx[f_start..f_end].to_vec(),
-                ny: self.ny[f_start..f_end].to_vec(),
-                nz: self.nz[f_start..f_end].to_vec(),
+                nx: Vec::with_capacity(np),
+                ny: Vec::with_capacity(np),
+                nz: Vec::with_capacity(np),
                 edge_count: 0,
                 e0: Vec::new(),
                 e1: Vec::new(),
@@ -307,12 +330,17 @@ impl Tables {
                 edge_dyad: SymSoa::default(),
                 edge_owner: Vec::new(),
             };
-            for f in f_start..f_end {
+            for &f in faces {
+                let f = f as usize;
                 t.f0.push(map(self.f0[f], &mut global));
                 t.f1.push(map(self.f1[f], &mut global));
                 t.f2.push(map(self.f2[f], &mut global));
+                t.nx.push(self.nx[f]);
+                t.ny.push(self.ny[f]);
+                t.nz.push(self.nz[f]);
             }
-            while e < self.edge_count && (self.edge_owner[e] as usize) < f_end {
+            for &e in edges {
+                let e = e as usize;
                 t.e0.push(map(self.e0[e], &mut global));
                 t.e1.push(map(self.e1[e], &mut global));
                 t.edge_len_m.push(self.edge_len_m[e]);
@@ -330,7 +358,6 @@ impl Tables {
                 {
                     v.push(x);
                 }
-                e += 1;
             }
             t.edge_count = t.e0.len();
             for &g in &global {
@@ -345,9 +372,35 @@ impl Tables {
         out
     }
 
-    /// Pads faces and edges to a multiple of [`LANES`] with inert entries.
+    /// Face indices sorted along a Morton (Z-order) curve through the face centroids, 21 bits
+    /// per axis over the bounding box (ties by index, so the order is reproducible).
+    fn spatial_face_order(&self) -> Vec<u32> {
+        let bounds = |v: &[f64]| {
+            let lo = v.iter().copied().fold(f64::INFINITY, f64::min);
+            let hi = v.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+            (lo, (hi - lo).max(f64::MIN_POSITIVE))
+        };
+        let axes = [bounds(&self.vx), bounds(&self.vy), bounds(&self.vz)];
+        let coords = [&self.vx, &self.vy, &self.vz];
+        let mut keyed: Vec<(u64, u32)> = (0..self.face_count)
+            .map(|f| {
+                let corners = [self.f0[f], self.f1[f], self.f2[f]].map(|i| i as usize);
+                let mut code = 0u64;
+                for (axis, (&(lo, span), v)) in axes.iter().zip(coords).enumerate() {
+                    let c = corners.iter().map(|&i| v[i]).sum::<f64>() / 3.0;
+                    let cell = (((c - lo) / span) * 2_097_151.0).clamp(0.0, 2_097_151.0) as u64;
+                    code |= spread_bits(cell) << axis;
+                }
+                (code, f as u32)
+            })
+            .collect();
+        keyed.sort_unstable();
+        keyed.into_iter().map(|(_, f)| f).collect()
+    }
+
+    /// Pads faces and edges to a multiple of [`PAD`] with inert entries.
     fn pad(&mut self) {
-        while !self.f0.len().is_multiple_of(LANES) {
+        while !self.f0.len().is_multiple_of(PAD) {
             self.f0.push(0);
             self.f1.push(0);
             self.f2.push(0);
@@ -355,7 +408,7 @@ impl Tables {
             self.ny.push(0.0);
             self.nz.push(0.0);
         }
-        while !self.e0.len().is_multiple_of(LANES) {
+        while !self.e0.len().is_multiple_of(PAD) {
             self.e0.push(0);
             self.e1.push(0);
             self.edge_len_m.push(1.0);
@@ -441,5 +494,38 @@ mod tests {
             assert!((a.edge_a[k] - b.edge_a[k]).abs() < 1e-12 * a.edge_u.abs().sqrt());
         }
         assert!((a.omega - b.omega).abs() < 1e-12);
+    }
+
+    #[test]
+    fn morton_bits_spread_to_every_third_bit() {
+        for k in 0..21 {
+            assert_eq!(spread_bits(1 << k), 1 << (3 * k));
+        }
+        assert_eq!(spread_bits(0x1f_ffff), 0x1249_2492_4924_9249);
+    }
+
+    #[test]
+    fn pieces_stay_compact_whatever_the_face_order() {
+        // Faces of an icosphere in a scrambled order (a fixed multiplicative permutation):
+        // consecutive faces would be scattered over the sphere, so pieces cut in file order
+        // would each touch most of the vertices. Cut along the Morton curve they stay compact:
+        // the vertices repeated at piece borders stay a fraction of the total.
+        let mut mesh = crate::generate::icosphere(1.0, 4);
+        let nf = mesh.faces.len();
+        let faces = mesh.faces.clone();
+        mesh.faces = (0..nf).map(|i| faces[(i * 7919) % nf]).collect();
+        let (t, _) = Tables::build(&mesh).expect("valid");
+        let pieces = t.pieces(512);
+        assert_eq!(pieces.iter().map(|p| p.face_count).sum::<usize>(), nf);
+        assert_eq!(
+            pieces.iter().map(|p| p.edge_count).sum::<usize>(),
+            3 * nf / 2
+        );
+        let vertices: usize = pieces.iter().map(|p| p.vx.len()).sum();
+        assert!(
+            vertices < 3 * t.vx.len() / 2,
+            "{vertices} piece vertices for {} mesh vertices",
+            t.vx.len()
+        );
     }
 }
