@@ -1,7 +1,10 @@
 //! Speed of the polyhedron gravity field: batches of points (ns per facet per point from the
 //! throughput line: 1e3 / (Melem/s)), single-point latency, and memory per facet.
 //!
-//! Run: `cargo bench -p spinfall-gravity --bench field`.
+//! Run: `cargo bench -p spinfall-gravity --bench field`. Before each mesh's criterion groups it
+//! prints CPU time per facet per point of each single-point kernel and of the 256-point batch
+//! (with how many cores were busy, since the machine may be shared); with
+//! `SPINFALL_BENCH_QUICK=1` it prints only those and skips criterion.
 
 use std::hint::black_box;
 use std::time::{Duration, Instant};
