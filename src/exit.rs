@@ -19,12 +19,18 @@ pub struct CliError {
 impl CliError {
     /// Bad input (exit 2).
     pub fn input(error: impl Into<anyhow::Error>) -> Self {
-        Self { code: BAD_INPUT, error: error.into() }
+        Self {
+            code: BAD_INPUT,
+            error: error.into(),
+        }
     }
 
     /// Output could not be written (exit 4).
     pub fn output(error: impl Into<anyhow::Error>) -> Self {
-        Self { code: OUTPUT_FAILED, error: error.into() }
+        Self {
+            code: OUTPUT_FAILED,
+            error: error.into(),
+        }
     }
 
     /// Prints the error chain on stderr and returns the exit code.

@@ -24,15 +24,22 @@ pub struct LoadedShape {
 /// Loads `spec` (a path or [`BUILTIN_SHAPE`]) in `unit`; the demo body is always in km.
 pub fn load_shape(spec: &str, unit: LengthUnit, recenter: bool) -> CmdResult<LoadedShape> {
     let (shape, warnings) = if spec == BUILTIN_SHAPE {
-        ShapeModel::from_obj(spinfall_gravity::demo::OBJ_KM.as_bytes(), LengthUnit::Kilometre)
-            .input_context("built-in demo body")?
+        ShapeModel::from_obj(
+            spinfall_gravity::demo::OBJ_KM.as_bytes(),
+            LengthUnit::Kilometre,
+        )
+        .input_context("built-in demo body")?
     } else {
         let file = File::open(spec).input_context(format!("cannot open shape model {spec}"))?;
         ShapeModel::from_obj(BufReader::new(file), unit)
             .input_context(format!("shape model {spec}"))?
     };
     let shape = if recenter { shape.recentered() } else { shape };
-    Ok(LoadedShape { shape, warnings, source: spec.to_owned() })
+    Ok(LoadedShape {
+        shape,
+        warnings,
+        source: spec.to_owned(),
+    })
 }
 
 /// Reads a scenario file's text, or the built-in example; returns the text and the folder that
@@ -44,9 +51,12 @@ pub fn read_scenario_text(spec: &str) -> CmdResult<(String, PathBuf)> {
             .map_err(CliError::output)?;
         return Ok((text, PathBuf::from(".")));
     }
-    let text = std::fs::read_to_string(spec)
-        .input_context(format!("cannot read scenario file {spec}"))?;
-    let dir = Path::new(spec).parent().map(Path::to_path_buf).unwrap_or_default();
+    let text =
+        std::fs::read_to_string(spec).input_context(format!("cannot read scenario file {spec}"))?;
+    let dir = Path::new(spec)
+        .parent()
+        .map(Path::to_path_buf)
+        .unwrap_or_default();
     Ok((text, dir))
 }
 
@@ -65,7 +75,11 @@ pub fn write_atomic(
         .file_name()
         .with_context(|| format!("{} is not a file path", path.display()))
         .map_err(CliError::input)?;
-    let tmp = dir.join(format!(".{}.{}.tmp", name.to_string_lossy(), std::process::id()));
+    let tmp = dir.join(format!(
+        ".{}.{}.tmp",
+        name.to_string_lossy(),
+        std::process::id()
+    ));
     let result = (|| -> anyhow::Result<()> {
         let file =
             File::create(&tmp).with_context(|| format!("cannot create {}", tmp.display()))?;

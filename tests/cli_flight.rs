@@ -50,8 +50,14 @@ fn fly_writes_results_and_both_frames() {
     let landing = drop["landing"]["pos_body_m"].as_array().unwrap();
     // Lands on the top face (z = 400 m), near where it started: the Coriolis drift of a
     // 1 m fall is far below a metre.
-    assert!((landing[2].as_f64().unwrap() - 400.0).abs() < 1e-6, "{landing:?}");
-    assert!((landing[0].as_f64().unwrap() - 100.0).abs() < 0.5, "{landing:?}");
+    assert!(
+        (landing[2].as_f64().unwrap() - 400.0).abs() < 1e-6,
+        "{landing:?}"
+    );
+    assert!(
+        (landing[0].as_f64().unwrap() - 100.0).abs() < 0.5,
+        "{landing:?}"
+    );
     // 30 m/s is far above the escape speed of a 3.8e12 kg box (sqrt(2GM/r) ~ 0.7 m/s).
     assert_eq!(launches[1]["outcome"]["kind"], "escaped");
 
@@ -77,7 +83,12 @@ fn a_run_that_fails_exits_3_and_still_writes_its_results() {
     );
     let out_dir = dir.path().join("out");
     let out = spinfall(&["fly", &scenario, "--out", out_dir.to_str().unwrap()]);
-    assert_eq!(out.status.code(), Some(3), "{}", String::from_utf8_lossy(&out.stderr));
+    assert_eq!(
+        out.status.code(),
+        Some(3),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
     let results = std::fs::read_to_string(out_dir.join("results.json")).unwrap();
     assert!(results.contains("failed"), "{results}");
 }
@@ -98,7 +109,12 @@ fn bad_scenarios_exit_2_and_name_the_field() {
     assert!(!out_dir.join("results.json").exists());
     std::fs::write(dir.path().join("scenario.json"), "{ not json").unwrap();
     assert_bad_input(
-        &spinfall(&["map", &scenario, "--out", dir.path().join("m.csv").to_str().unwrap()]),
+        &spinfall(&[
+            "map",
+            &scenario,
+            "--out",
+            dir.path().join("m.csv").to_str().unwrap(),
+        ]),
         &["line 1"],
     );
     std::fs::remove_file(dir.path().join("rock.obj")).unwrap();
@@ -118,15 +134,28 @@ fn bad_scenarios_exit_2_and_name_the_field() {
 fn map_writes_one_row_per_face() {
     let dir = tempfile::tempdir().unwrap();
     let out = dir.path().join("map.csv");
-    ok_stdout(&spinfall(&["map", "builtin:example", "--out", out.to_str().unwrap()]));
+    ok_stdout(&spinfall(&[
+        "map",
+        "builtin:example",
+        "--out",
+        out.to_str().unwrap(),
+    ]));
     let info: Value =
         serde_json::from_str(&ok_stdout(&spinfall(&["info", "builtin:quillon"]))).unwrap();
     let csv = std::fs::read_to_string(&out).unwrap();
     let header = csv.lines().next().unwrap();
-    for column in ["slope_deg", "geopotential_m2_s2", "escape_speed_normal_m_s", "lat_deg"] {
+    for column in [
+        "slope_deg",
+        "geopotential_m2_s2",
+        "escape_speed_normal_m_s",
+        "lat_deg",
+    ] {
         assert!(header.contains(column), "{header}");
     }
-    assert_eq!(csv.lines().count() - 1, info["faces"].as_u64().unwrap() as usize);
+    assert_eq!(
+        csv.lines().count() - 1,
+        info["faces"].as_u64().unwrap() as usize
+    );
 }
 
 /// Width, height and tEXt keywords of a PNG file (PNG specification, ISO/IEC 15948: IHDR

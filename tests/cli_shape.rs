@@ -17,7 +17,12 @@ fn info_of_the_box_matches_the_rigid_body_closed_form() {
     let (lx, ly, lz) = (2000.0, 1200.0, 800.0);
     let volume = lx * ly * lz;
     assert!(rel(v["volume_m3"].as_f64().unwrap(), volume) < 1e-12);
-    assert!(rel(v["area_m2"].as_f64().unwrap(), 2.0 * (lx * ly + ly * lz + lx * lz)) < 1e-12);
+    assert!(
+        rel(
+            v["area_m2"].as_f64().unwrap(),
+            2.0 * (lx * ly + ly * lz + lx * lz)
+        ) < 1e-12
+    );
     // Solid box about its centre: I_xx = m (ly^2 + lz^2) / 12 (standard rigid-body table).
     let m = 2000.0 * volume;
     let ixx = v["inertia_kg_m2"][0][0].as_f64().unwrap();
@@ -28,7 +33,10 @@ fn info_of_the_box_matches_the_rigid_body_closed_form() {
         .iter()
         .map(|x| x.as_f64().unwrap())
         .collect();
-    assert!(rel(moments[2], m * (lx * lx + ly * ly) / 12.0) < 1e-10, "{moments:?}");
+    assert!(
+        rel(moments[2], m * (lx * lx + ly * ly) / 12.0) < 1e-10,
+        "{moments:?}"
+    );
     // Brillouin radius of a box centred on its centre of mass: half the space diagonal.
     let half_diag = 0.5 * (lx * lx + ly * ly + lz * lz).sqrt();
     assert!(rel(v["brillouin_radius_m"].as_f64().unwrap(), half_diag) < 1e-9);
@@ -67,11 +75,18 @@ fn gravity_far_away_is_the_point_mass_value() {
     ]);
     let text = ok_stdout(&out);
     let gm = G * 2000.0 * 2000.0 * 1200.0 * 800.0;
-    let lines: Vec<Value> = text.lines().map(|l| serde_json::from_str(l).unwrap()).collect();
+    let lines: Vec<Value> = text
+        .lines()
+        .map(|l| serde_json::from_str(l).unwrap())
+        .collect();
     assert_eq!(lines.len(), 2);
     for line in &lines {
-        let p: Vec<f64> =
-            line["point_m"].as_array().unwrap().iter().map(|x| x.as_f64().unwrap()).collect();
+        let p: Vec<f64> = line["point_m"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|x| x.as_f64().unwrap())
+            .collect();
         let r = (p[0] * p[0] + p[1] * p[1] + p[2] * p[2]).sqrt();
         assert!(rel(line["potential_m2_s2"].as_f64().unwrap(), gm / r) < 1e-4);
         let a: Vec<f64> = line["acceleration_m_s2"]
@@ -111,7 +126,10 @@ fn gravity_inside_has_the_poisson_laplacian_and_csv_works() {
     for line in lines {
         let cols: Vec<&str> = line.split(',').collect();
         let lap: f64 = cols[lap_col].parse().unwrap();
-        assert!(rel(lap, -4.0 * std::f64::consts::PI * G * rho) < 1e-10, "{lap}");
+        assert!(
+            rel(lap, -4.0 * std::f64::consts::PI * G * rho) < 1e-10,
+            "{lap}"
+        );
         assert_eq!(cols[inside_col], "true");
     }
 }
@@ -128,16 +146,36 @@ fn the_builtin_demo_body_needs_no_file() {
 fn bad_input_exits_2_and_names_the_problem() {
     let dir = tempfile::tempdir().unwrap();
     let open = dir.path().join("open.obj");
-    std::fs::write(&open, "v 0 0 0\nv 1 0 0\nv 0 1 0\nv 0 0 1\nf 1 3 2\nf 1 2 4\nf 2 3 4\n")
-        .unwrap();
+    std::fs::write(
+        &open,
+        "v 0 0 0\nv 1 0 0\nv 0 1 0\nv 0 0 1\nf 1 3 2\nf 1 2 4\nf 2 3 4\n",
+    )
+    .unwrap();
     assert_bad_input(&spinfall(&["info", open.to_str().unwrap()]), &["open.obj"]);
-    assert_bad_input(&spinfall(&["info", "no/such/file.obj"]), &["no/such/file.obj"]);
     assert_bad_input(
-        &spinfall(&["gravity", "shapes/box.obj", "--density", "-5", "--at", "0,0,0"]),
+        &spinfall(&["info", "no/such/file.obj"]),
+        &["no/such/file.obj"],
+    );
+    assert_bad_input(
+        &spinfall(&[
+            "gravity",
+            "shapes/box.obj",
+            "--density",
+            "-5",
+            "--at",
+            "0,0,0",
+        ]),
         &["density"],
     );
     assert_bad_input(
-        &spinfall(&["gravity", "shapes/box.obj", "--density", "2000", "--at", "1,2"]),
+        &spinfall(&[
+            "gravity",
+            "shapes/box.obj",
+            "--density",
+            "2000",
+            "--at",
+            "1,2",
+        ]),
         &["X,Y,Z"],
     );
     assert!(root().join("shapes/box.obj").exists());

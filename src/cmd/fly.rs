@@ -15,7 +15,9 @@ pub fn run(args: &FlyArgs) -> CmdResult<ExitCode> {
         CliError::output(anyhow::Error::from(e).context(format!("creating {}", args.out.display())))
     })?;
     let reports = fly_with_progress(&prepared);
-    write_atomic(&args.out.join("results.json"), |w| Ok(write_results_json(w, &reports)?))?;
+    write_atomic(&args.out.join("results.json"), |w| {
+        Ok(write_results_json(w, &reports)?)
+    })?;
     write_atomic(&args.out.join("trajectories.csv"), |w| {
         Ok(write_trajectories_csv(w, &reports)?)
     })?;

@@ -19,7 +19,9 @@ pub fn run(args: &GravityArgs) -> CmdResult<ExitCode> {
         (None, Some(m), None) => MassSpec::MassKg(m),
         (None, None, Some(gm)) => MassSpec::GmM3S2(gm),
         _ => {
-            return Err(CliError::input(anyhow!("give exactly one of --density, --mass, --gm")));
+            return Err(CliError::input(anyhow!(
+                "give exactly one of --density, --mass, --gm"
+            )));
         }
     };
     let points = match &args.points {
@@ -36,7 +38,11 @@ pub fn run(args: &GravityArgs) -> CmdResult<ExitCode> {
             .collect::<anyhow::Result<Vec<_>>>()
             .map_err(CliError::input)?,
     };
-    let loaded = load_shape(&args.shape.shape, args.shape.unit.into(), args.shape.recenter)?;
+    let loaded = load_shape(
+        &args.shape.shape,
+        args.shape.unit.into(),
+        args.shape.recenter,
+    )?;
     for w in &loaded.warnings {
         eprintln!("warning: {w}");
     }
@@ -109,7 +115,9 @@ fn parse_point(s: &str) -> anyhow::Result<Point3<f64>> {
     }
     let mut xyz = [0.0; 3];
     for (v, p) in xyz.iter_mut().zip(&parts) {
-        *v = p.parse::<f64>().map_err(|_| anyhow!("{p:?} is not a number in {s:?}"))?;
+        *v = p
+            .parse::<f64>()
+            .map_err(|_| anyhow!("{p:?} is not a number in {s:?}"))?;
         if !v.is_finite() {
             bail!("coordinate {p:?} is not finite in {s:?}");
         }
@@ -119,8 +127,13 @@ fn parse_point(s: &str) -> anyhow::Result<Point3<f64>> {
 
 /// Parses a CSV with the header `x_m,y_m,z_m`.
 fn parse_points_csv(text: &str) -> anyhow::Result<Vec<Point3<f64>>> {
-    let mut lines = text.lines().enumerate().filter(|(_, l)| !l.trim().is_empty());
-    let (_, header) = lines.next().context("the file is empty: expected the header x_m,y_m,z_m")?;
+    let mut lines = text
+        .lines()
+        .enumerate()
+        .filter(|(_, l)| !l.trim().is_empty());
+    let (_, header) = lines
+        .next()
+        .context("the file is empty: expected the header x_m,y_m,z_m")?;
     let names: Vec<&str> = header.split(',').map(str::trim).collect();
     if names != ["x_m", "y_m", "z_m"] {
         bail!("line 1: expected the header x_m,y_m,z_m, got {header:?}");
@@ -146,6 +159,9 @@ mod tests {
         assert!(format!("{err:#}").contains("header"), "{err:#}");
         let err = parse_point("1,nan,3").unwrap_err();
         assert!(err.to_string().contains("not finite"), "{err}");
-        assert_eq!(parse_points_csv("x_m,y_m,z_m\n1, 2 ,-3\n").unwrap().len(), 1);
+        assert_eq!(
+            parse_points_csv("x_m,y_m,z_m\n1, 2 ,-3\n").unwrap().len(),
+            1
+        );
     }
 }

@@ -17,7 +17,11 @@ pub fn run(args: &InfoArgs) -> CmdResult<ExitCode> {
             )));
         }
     }
-    let loaded = load_shape(&args.shape.shape, args.shape.unit.into(), args.shape.recenter)?;
+    let loaded = load_shape(
+        &args.shape.shape,
+        args.shape.unit.into(),
+        args.shape.recenter,
+    )?;
     let shape = &loaded.shape;
     let mp = shape.mass_properties();
     let axes = mp.principal_axes;

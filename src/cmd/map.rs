@@ -15,7 +15,9 @@ pub fn run(args: &MapArgs) -> CmdResult<ExitCode> {
     let prepared = prepare(&args.scenario)?;
     let cancel = AtomicBool::new(false);
     let map = surface_map(&prepared.body, &|_, _| {}, &cancel).map_err(CliError::output)?;
-    write_atomic(&args.out, |w| Ok(write_surface_map_csv(w, &prepared.body, &map)?))?;
+    write_atomic(&args.out, |w| {
+        Ok(write_surface_map_csv(w, &prepared.body, &map)?)
+    })?;
     eprintln!("wrote {} faces to {}", map.len(), args.out.display());
     Ok(ExitCode::SUCCESS)
 }

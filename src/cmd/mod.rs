@@ -21,7 +21,10 @@ pub fn run(cli: Cli) -> CmdResult<ExitCode> {
         Some(Command::Map(args)) => map::run(&args),
         Some(Command::Render(args)) => render::run(&args),
         None => {
-            let options = spinfall_gui::GuiOptions { shape_path: cli.shape, unit: cli.unit.into() };
+            let options = spinfall_gui::GuiOptions {
+                shape_path: cli.shape,
+                unit: cli.unit.into(),
+            };
             spinfall_gui::run(options).map_err(CliError::output)?;
             Ok(ExitCode::SUCCESS)
         }

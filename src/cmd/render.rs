@@ -24,7 +24,9 @@ pub fn run(args: &RenderArgs) -> CmdResult<ExitCode> {
     let (width_px, height_px) = parse_size(&args.size).map_err(CliError::input)?;
     if let Some(t) = args.time {
         if !(t.is_finite() && t >= 0.0) {
-            return Err(CliError::input(anyhow!("--time must be a number of seconds >= 0, got {t}")));
+            return Err(CliError::input(anyhow!(
+                "--time must be a number of seconds >= 0, got {t}"
+            )));
         }
     }
     let prepared = prepare(&args.scenario)?;
@@ -41,7 +43,10 @@ pub fn run(args: &RenderArgs) -> CmdResult<ExitCode> {
         let map = surface_map(&prepared.body, &|_, _| {}, &cancel).map_err(CliError::output)?;
         view.set_map(Some(Arc::new(map)));
     }
-    let options = ViewOptions { map: field, ..ViewOptions::default() };
+    let options = ViewOptions {
+        map: field,
+        ..ViewOptions::default()
+    };
     let t_s = args.time.unwrap_or_else(|| end_time_s(&reports));
     let image = match args.view {
         ViewArg::Both => composite(
@@ -49,24 +54,57 @@ pub fn run(args: &RenderArgs) -> CmdResult<ExitCode> {
             &reports,
             t_s,
             &options,
-            &CompositeOptions { width_px, height_px, ..CompositeOptions::default() },
+            &CompositeOptions {
+                width_px,
+                height_px,
+                ..CompositeOptions::default()
+            },
         )
         .map_err(CliError::input)?,
         ViewArg::Body | ViewArg::Inertial => {
-            let frame = if args.view == ViewArg::Body { Frame::BodyFixed } else { Frame::Inertial };
+            let frame = if args.view == ViewArg::Body {
+                Frame::BodyFixed
+            } else {
+                Frame::Inertial
+            };
             let camera = default_camera(&prepared.body.shape, width_px, height_px);
             let mut scene =
                 frame_scene(&view, &reports, t_s, &options, [width_px, height_px], frame);
-            add_title(&mut scene, frame, t_s, prepared.body.spin.period_s, [width_px, height_px]);
+            add_title(
+                &mut scene,
+                frame,
+                t_s,
+                prepared.body.spin.period_s,
+                [width_px, height_px],
+            );
             let render_options = RenderOptions::new(width_px, height_px).with_supersample(2);
-            Renderer::new().render(&scene, &camera, &render_options).clone()
+            Renderer::new()
+                .render(&scene, &camera, &render_options)
+                .clone()
         }
     };
     let spin = &prepared.body.spin;
     let chunks = [
-        ("Software", "Spinfall (research and planning tool, not flight-certified)".to_string()),
-        ("Title", prepared.scenario.name.clone().unwrap_or_else(|| prepared.body.name.clone())),
-        ("Body", format!("{} ({} faces)", prepared.body.name, prepared.body.shape.face_count())),
+        (
+            "Software",
+            "Spinfall (research and planning tool, not flight-certified)".to_string(),
+        ),
+        (
+            "Title",
+            prepared
+                .scenario
+                .name
+                .clone()
+                .unwrap_or_else(|| prepared.body.name.clone()),
+        ),
+        (
+            "Body",
+            format!(
+                "{} ({} faces)",
+                prepared.body.name,
+                prepared.body.shape.face_count()
+            ),
+        ),
         (
             "Spin",
             format!(
@@ -83,7 +121,12 @@ pub fn run(args: &RenderArgs) -> CmdResult<ExitCode> {
     ];
     let chunk_refs: Vec<(&str, &str)> = chunks.iter().map(|(k, v)| (*k, v.as_str())).collect();
     write_atomic(&args.out, |w| Ok(encode_png(&image, &chunk_refs, w)?))?;
-    eprintln!("wrote {}x{} image to {}", image.width, image.height, args.out.display());
+    eprintln!(
+        "wrote {}x{} image to {}",
+        image.width,
+        image.height,
+        args.out.display()
+    );
     let failed = failures(&reports);
     if failed.is_empty() {
         Ok(ExitCode::SUCCESS)
@@ -101,7 +144,10 @@ fn parse_size(s: &str) -> anyhow::Result<(u32, u32)> {
         .split_once(['x', 'X'])
         .ok_or_else(|| anyhow!("--size must look like 1920x1080, got {s:?}"))?;
     let parse = |v: &str| -> anyhow::Result<u32> {
-        let n: u32 = v.trim().parse().map_err(|_| anyhow!("--size: {v:?} is not a pixel count"))?;
+        let n: u32 = v
+            .trim()
+            .parse()
+            .map_err(|_| anyhow!("--size: {v:?} is not a pixel count"))?;
         if !(32..=MAX_SIDE_PX).contains(&n) {
             return Err(anyhow!("--size: {n} px is outside 32..={MAX_SIDE_PX}"));
         }
@@ -117,8 +163,18 @@ mod tests {
     #[test]
     fn sizes_are_checked() {
         assert_eq!(parse_size("3840x2160").unwrap(), (3840, 2160));
-        assert!(parse_size("10x10").unwrap_err().to_string().contains("outside"));
-        assert!(parse_size("wide").unwrap_err().to_string().contains("1920x1080"));
+        assert!(
+            parse_size("10x10")
+                .unwrap_err()
+                .to_string()
+                .contains("outside")
+        );
+        assert!(
+            parse_size("wide")
+                .unwrap_err()
+                .to_string()
+                .contains("1920x1080")
+        );
         assert!(parse_size("100x-3").is_err());
     }
 }

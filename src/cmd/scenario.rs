@@ -5,9 +5,9 @@ use std::io::BufReader;
 use std::sync::Arc;
 use std::time::{Duration, Instant};
 
-use spinfall_dynamics::scenario::{ShapeSource, builtin_quillon};
 use spinfall_dynamics::launch::LaunchState;
 use spinfall_dynamics::scenario::Scenario;
+use spinfall_dynamics::scenario::{ShapeSource, builtin_quillon};
 use spinfall_dynamics::{Body, FlightReport, Outcome, fly_all};
 use spinfall_gravity::ShapeModel;
 
@@ -24,8 +24,7 @@ pub struct Prepared {
 /// Reads, validates and builds a scenario (`spec` is a path or `builtin:example`).
 pub fn prepare(spec: &str) -> CmdResult<Prepared> {
     let (text, dir) = read_scenario_text(spec)?;
-    let scenario =
-        Scenario::from_json_str(&text).input_context(format!("scenario {spec}"))?;
+    let scenario = Scenario::from_json_str(&text).input_context(format!("scenario {spec}"))?;
     let (shape, warnings) = match scenario.shape_source() {
         ShapeSource::BuiltinQuillon => builtin_quillon().input_context("built-in demo body")?,
         ShapeSource::File { path, unit } => {
@@ -41,10 +40,19 @@ pub fn prepare(spec: &str) -> CmdResult<Prepared> {
     for w in &warnings {
         eprintln!("warning: shape model: {w}");
     }
-    let body = Arc::new(scenario.build_body(shape).input_context(format!("scenario {spec}"))?);
-    let launches =
-        scenario.build_launches(&body).input_context(format!("scenario {spec}"))?;
-    Ok(Prepared { scenario, body, launches })
+    let body = Arc::new(
+        scenario
+            .build_body(shape)
+            .input_context(format!("scenario {spec}"))?,
+    );
+    let launches = scenario
+        .build_launches(&body)
+        .input_context(format!("scenario {spec}"))?;
+    Ok(Prepared {
+        scenario,
+        body,
+        launches,
+    })
 }
 
 /// Flies every launch with progress on stderr (at most one line a second).

@@ -32,7 +32,11 @@ pub fn ok_stdout(out: &Output) -> String {
 /// Asserts a bad-input failure (exit code 2) whose message contains every one of `needles`.
 pub fn assert_bad_input(out: &Output, needles: &[&str]) {
     let stderr = String::from_utf8_lossy(&out.stderr);
-    assert_eq!(out.status.code(), Some(2), "expected exit code 2 (bad input), stderr: {stderr}");
+    assert_eq!(
+        out.status.code(),
+        Some(2),
+        "expected exit code 2 (bad input), stderr: {stderr}"
+    );
     for n in needles {
         assert!(stderr.contains(n), "stderr should mention {n:?}: {stderr}");
     }
