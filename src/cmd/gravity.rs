@@ -148,6 +148,7 @@ fn parse_points_csv(text: &str) -> anyhow::Result<Vec<Point3<f64>>> {
 }
 
 #[cfg(test)]
+#[allow(clippy::unwrap_used, reason = "tests unwrap freely")]
 mod tests {
     use super::*;
 

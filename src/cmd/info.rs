@@ -10,12 +10,12 @@ use crate::exit::{CliError, CmdResult};
 use crate::io::load_shape;
 
 pub fn run(args: &InfoArgs) -> CmdResult<ExitCode> {
-    if let Some(d) = args.density {
-        if !(d.is_finite() && d > 0.0) {
-            return Err(CliError::input(anyhow::anyhow!(
-                "--density must be a positive number of kg/m^3, got {d}"
-            )));
-        }
+    if let Some(d) = args.density
+        && !(d.is_finite() && d > 0.0)
+    {
+        return Err(CliError::input(anyhow::anyhow!(
+            "--density must be a positive number of kg/m^3, got {d}"
+        )));
     }
     let loaded = load_shape(
         &args.shape.shape,

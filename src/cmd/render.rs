@@ -22,12 +22,12 @@ const MAX_SIDE_PX: u32 = 16_384;
 
 pub fn run(args: &RenderArgs) -> CmdResult<ExitCode> {
     let (width_px, height_px) = parse_size(&args.size).map_err(CliError::input)?;
-    if let Some(t) = args.time {
-        if !(t.is_finite() && t >= 0.0) {
-            return Err(CliError::input(anyhow!(
-                "--time must be a number of seconds >= 0, got {t}"
-            )));
-        }
+    if let Some(t) = args.time
+        && !(t.is_finite() && t >= 0.0)
+    {
+        return Err(CliError::input(anyhow!(
+            "--time must be a number of seconds >= 0, got {t}"
+        )));
     }
     let prepared = prepare(&args.scenario)?;
     let reports = fly_with_progress(&prepared);
@@ -157,6 +157,7 @@ fn parse_size(s: &str) -> anyhow::Result<(u32, u32)> {
 }
 
 #[cfg(test)]
+#[allow(clippy::unwrap_used, reason = "tests unwrap freely")]
 mod tests {
     use super::parse_size;
 

@@ -60,14 +60,14 @@ pub fn fly_with_progress(prepared: &Prepared) -> Vec<FlightReport> {
     let start = Instant::now();
     let last = std::sync::Mutex::new(Instant::now());
     let progress = |done: usize, total: usize| {
-        if let Ok(mut last) = last.lock() {
-            if last.elapsed() >= Duration::from_secs(1) || done == total {
-                *last = Instant::now();
-                eprintln!(
-                    "flying: {done}/{total} launches ({:.1} s)",
-                    start.elapsed().as_secs_f64()
-                );
-            }
+        if let Ok(mut last) = last.lock()
+            && (last.elapsed() >= Duration::from_secs(1) || done == total)
+        {
+            *last = Instant::now();
+            eprintln!(
+                "flying: {done}/{total} launches ({:.1} s)",
+                start.elapsed().as_secs_f64()
+            );
         }
     };
     let cancel = spinfall_dynamics::Cancel::new(false);
