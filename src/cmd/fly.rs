@@ -4,9 +4,9 @@ use std::process::ExitCode;
 
 use spinfall_dynamics::export::{write_results_json, write_trajectories_csv};
 
-use super::scenario::{failures, fly_with_progress, prepare};
+use super::scenario::{fly_with_progress, prepare, run_exit_code};
 use crate::cli::FlyArgs;
-use crate::exit::{CliError, CmdResult, RUN_FAILED};
+use crate::exit::{CliError, CmdResult};
 use crate::io::write_atomic;
 
 pub fn run(args: &FlyArgs) -> CmdResult<ExitCode> {
@@ -21,18 +21,10 @@ pub fn run(args: &FlyArgs) -> CmdResult<ExitCode> {
     write_atomic(&args.out.join("trajectories.csv"), |w| {
         Ok(write_trajectories_csv(w, &reports)?)
     })?;
-    let failed = failures(&reports);
     eprintln!(
         "wrote {} launches to {} (results.json, trajectories.csv)",
         reports.len(),
         args.out.display()
     );
-    if failed.is_empty() {
-        Ok(ExitCode::SUCCESS)
-    } else {
-        for f in &failed {
-            eprintln!("failed: {f}");
-        }
-        Ok(ExitCode::from(RUN_FAILED))
-    }
+    Ok(run_exit_code(&reports))
 }

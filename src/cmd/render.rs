@@ -12,9 +12,9 @@ use spinfall_scene::{
     end_time_s, frame_scene,
 };
 
-use super::scenario::{failures, fly_with_progress, prepare};
+use super::scenario::{fly_with_progress, prepare, run_exit_code};
 use crate::cli::{MapArg, RenderArgs, ViewArg};
-use crate::exit::{CliError, CmdResult, RUN_FAILED};
+use crate::exit::{CliError, CmdResult};
 use crate::io::write_atomic;
 
 /// Largest accepted image side, pixels (16k: beyond it memory use gets silly).
@@ -127,15 +127,7 @@ pub fn run(args: &RenderArgs) -> CmdResult<ExitCode> {
         image.height,
         args.out.display()
     );
-    let failed = failures(&reports);
-    if failed.is_empty() {
-        Ok(ExitCode::SUCCESS)
-    } else {
-        for f in &failed {
-            eprintln!("failed: {f}");
-        }
-        Ok(ExitCode::from(RUN_FAILED))
-    }
+    Ok(run_exit_code(&reports))
 }
 
 /// Parses `WxH`.

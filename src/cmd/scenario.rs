@@ -2,6 +2,7 @@
 
 use std::fs::File;
 use std::io::BufReader;
+use std::process::ExitCode;
 use std::sync::Arc;
 use std::time::{Duration, Instant};
 
@@ -11,7 +12,7 @@ use spinfall_dynamics::scenario::{ShapeSource, builtin_quillon};
 use spinfall_dynamics::{Body, FlightReport, Outcome, fly_all};
 use spinfall_gravity::ShapeModel;
 
-use crate::exit::{CmdResult, InputContext};
+use crate::exit::{CmdResult, InputContext, RUN_FAILED};
 use crate::io::read_scenario_text;
 
 /// A scenario with its body built and its launches expanded.
@@ -80,13 +81,18 @@ pub fn fly_with_progress(prepared: &Prepared) -> Vec<FlightReport> {
     )
 }
 
-/// The ids and reasons of failed launches.
-pub fn failures(reports: &[FlightReport]) -> Vec<String> {
-    reports
-        .iter()
-        .filter_map(|r| match &r.outcome {
-            Outcome::Failed { reason } => Some(format!("{}: {reason}", r.id)),
-            _ => None,
-        })
-        .collect()
+/// Exit status of a run: success, or [`RUN_FAILED`] after naming each failed launch on stderr.
+pub fn run_exit_code(reports: &[FlightReport]) -> ExitCode {
+    let mut failed = false;
+    for r in reports {
+        if let Outcome::Failed { reason } = &r.outcome {
+            eprintln!("failed: {}: {reason}", r.id);
+            failed = true;
+        }
+    }
+    if failed {
+        ExitCode::from(RUN_FAILED)
+    } else {
+        ExitCode::SUCCESS
+    }
 }
