@@ -225,7 +225,9 @@ impl SpinfallApp {
                         .on_hover_text(
                             "Time spent building the frame (views rendered on the CPU included)",
                         );
-                    if self.playing && self.frame_interval_s > 0.0 {
+                    // Shown while the views animate or are being dragged (orbit, pan).
+                    let dragging = ui.ctx().input(|i| i.pointer.any_down());
+                    if (self.playing || dragging) && self.frame_interval_s > 0.0 {
                         ui.label(format!("{:.0} fps", 1.0 / self.frame_interval_s));
                     }
                 });
