@@ -1,10 +1,9 @@
 //! File input and output for the commands: shape and scenario loading, atomic writes.
 
 use std::fs::File;
-use std::io::{BufReader, BufWriter, Write};
+use std::io::{BufReader, Write};
 use std::path::{Path, PathBuf};
 
-use anyhow::Context;
 use spinfall_gravity::{LengthUnit, ShapeModel, Warning};
 
 use crate::exit::{CliError, CmdResult, InputContext};
@@ -60,40 +59,12 @@ pub fn read_scenario_text(spec: &str) -> CmdResult<(String, PathBuf)> {
     Ok((text, dir))
 }
 
-/// Writes a file atomically: the content goes to a temporary file in the same folder, which
-/// is renamed over `path` only when everything was written and flushed. A failed write leaves
-/// no half file behind.
+/// Writes a file atomically through the app's writer ([`spinfall_gui::write_atomic`]: temporary
+/// file in the same folder, renamed over `path` only when complete), mapping failure to exit 4.
 pub fn write_atomic(
     path: &Path,
-    write: impl FnOnce(&mut BufWriter<File>) -> anyhow::Result<()>,
+    write: impl FnOnce(&mut dyn Write) -> anyhow::Result<()>,
 ) -> CmdResult<()> {
-    let dir = match path.parent() {
-        Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
-        _ => PathBuf::from("."),
-    };
-    let name = path
-        .file_name()
-        .with_context(|| format!("{} is not a file path", path.display()))
-        .map_err(CliError::input)?;
-    let tmp = dir.join(format!(
-        ".{}.{}.tmp",
-        name.to_string_lossy(),
-        std::process::id()
-    ));
-    let result = (|| -> anyhow::Result<()> {
-        let file =
-            File::create(&tmp).with_context(|| format!("cannot create {}", tmp.display()))?;
-        let mut w = BufWriter::new(file);
-        write(&mut w)?;
-        w.flush()?;
-        w.get_ref().sync_all()?;
-        drop(w);
-        std::fs::rename(&tmp, path)
-            .with_context(|| format!("cannot rename {} to {}", tmp.display(), path.display()))?;
-        Ok(())
-    })();
-    if result.is_err() {
-        let _ = std::fs::remove_file(&tmp);
-    }
-    result.map_err(|e| CliError::output(e.context(format!("writing {}", path.display()))))
+    spinfall_gui::write_atomic(path, |w| write(w).map_err(|e| format!("{e:#}")))
+        .map_err(|e| CliError::output(anyhow::anyhow!("writing {}: {e}", path.display())))
 }

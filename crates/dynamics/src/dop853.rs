@@ -321,26 +321,8 @@ impl<const N: usize> Dop853<N> {
         tol: Tolerances<N>,
         h_max: f64,
     ) -> Self {
-        let f0 = sys.derivative(t0, &y0);
-        let mut me = Dop853 {
-            tol,
-            t: t0,
-            y: y0,
-            f: f0,
-            h_next: 0.0,
-            t_old: t0,
-            y_old: y0,
-            f_old: f0,
-            h_done: 0.0,
-            k: [[0.0; N]; 16],
-            dense: None,
-            last_rejected: false,
-            err_old: 1e-4,
-            h_acc: 0.0,
-            err_acc: 1e-2,
-            steps: 0,
-            rejected: 0,
-        };
+        // The placeholder first step is replaced by the heuristic at once.
+        let mut me = Self::with_first_step(sys, t0, y0, tol, 1e-6);
         me.h_next = me.initial_step(sys, h_max.abs());
         me
     }

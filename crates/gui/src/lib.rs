@@ -35,6 +35,7 @@ mod state;
 mod views;
 
 pub use app::{LoadedShape, Notice, NoticeKind, RunState, SpinfallApp};
+pub use atomic::write_atomic;
 pub use command::{Command, ExportRequest};
 pub use session::{
     AxisChoice, BodyParams, LaunchParams, MassInput, SiteEntry, SiteLocation, Spread,
