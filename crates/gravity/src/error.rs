@@ -22,6 +22,22 @@ pub enum GravityError {
     /// The mesh cannot be used for a polyhedron gravity model.
     #[error("unusable mesh: {0}")]
     InvalidMesh(String),
+    /// Work stopped because the caller asked.
+    #[error("cancelled")]
+    Cancelled,
+    /// A structure would need more memory than allowed.
+    #[error(
+        "{what} needs about {needed_mb} MB, more than the limit of {limit_mb} MB; raise the \
+         limit or loosen the error bound"
+    )]
+    MemoryLimit {
+        /// What was being built.
+        what: String,
+        /// Memory it had reached when stopped, MB.
+        needed_mb: usize,
+        /// The limit, MB.
+        limit_mb: usize,
+    },
     /// A physical parameter is out of range (negative density, NaN, ...).
     #[error("invalid {name}: {message}")]
     InvalidParameter {

@@ -40,7 +40,10 @@ mod shape;
 mod validate;
 
 pub use error::{GravityError, Result};
-pub use field::{FieldSample, G_SI, MassSpec, PolyhedronGravity};
+pub use field::{
+    BuildProgress, BuildStats, FieldSample, G_SI, InterpolatedGravity, InterpolationSettings,
+    MassSpec, PolyhedronGravity, build_interpolated,
+};
 pub use mass::MassProperties;
 pub use mesh::{LengthUnit, Mesh};
 pub use obj::parse_obj;

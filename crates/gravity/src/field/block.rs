@@ -72,21 +72,31 @@ impl Runner {
     /// Sums of the first `points` (1 to [`BLOCK`]) points of the blocks `q` over the whole of
     /// `t`; the other entries of the result are left at their defaults.
     pub fn run<const GRAD: bool>(self, t: &Tables, q: &[Oct], points: usize) -> [Sums; BLOCK] {
+        self.run_mode::<GRAD, false>(t, q, points)
+    }
+
+    /// As [`Runner::run`]; with `OPEN` (and `GRAD`) the open-set tensor terms too.
+    pub fn run_mode<const GRAD: bool, const OPEN: bool>(
+        self,
+        t: &Tables,
+        q: &[Oct],
+        points: usize,
+    ) -> [Sums; BLOCK] {
         let mut out = [Sums::default(); BLOCK];
         let halves = if points <= BLOCK / 2 { 1 } else { 2 };
         match self {
             Runner::Portable => {
-                kernel::sums::<Portable, GRAD, 0>(t, q, &mut out);
+                kernel::sums::<Portable, GRAD, OPEN, 0>(t, q, &mut out);
                 if halves == 2 {
-                    kernel::sums::<Portable, GRAD, 4>(t, q, &mut out);
+                    kernel::sums::<Portable, GRAD, OPEN, 4>(t, q, &mut out);
                 }
             }
             #[cfg(target_arch = "x86_64")]
             Runner::X86(isa) => {
                 if halves == 1 {
-                    isa.sums_half::<GRAD>(t, q, &mut out);
+                    isa.sums_half::<GRAD, OPEN>(t, q, &mut out);
                 } else {
-                    isa.sums_block::<GRAD>(t, q, &mut out);
+                    isa.sums_block::<GRAD, OPEN>(t, q, &mut out);
                 }
             }
         }

@@ -33,6 +33,10 @@ pub(crate) struct Sums {
     pub edge_grad: [f64; 6],
     /// sum_f F_f omega_f (xx, xy, xz, yy, yz, zz).
     pub face_grad: [f64; 6],
+    /// For an open set of faces (see `kernel`): the symmetric part of
+    /// `sum_f h_f n_f grad(omega_f)^T - sum_e (E_e r_e) grad(L_e)^T`, zero for a closed
+    /// polyhedron.
+    pub open_grad: [f64; 6],
 }
 
 impl Sums {
@@ -46,6 +50,7 @@ impl Sums {
             omega: self.omega + o.omega,
             edge_grad: std::array::from_fn(|k| self.edge_grad[k] + o.edge_grad[k]),
             face_grad: std::array::from_fn(|k| self.face_grad[k] + o.face_grad[k]),
+            open_grad: std::array::from_fn(|k| self.open_grad[k] + o.open_grad[k]),
         }
     }
 }

@@ -201,9 +201,8 @@ const QUADRATURE_TOLERANCE: f64 = 1e-15;
 /// meshes need far fewer points than exactness for every degree (`k = degree/2 + 1`) demands.
 /// At `r` below the switch radius the truncation error of the expansion, which grows as fast,
 /// stays the larger one.
-fn rule_points(size: f64, degree: usize) -> usize {
+fn rule_points(size: f64, degree: usize, switch: f64) -> usize {
     let k_exact = degree / 2 + 1;
-    let switch = super::SWITCH_BRILLOUIN_MULTIPLE;
     (1..k_exact)
         .find(|&k| {
             let j = 2 * k - 1;
@@ -288,6 +287,17 @@ impl Exterior {
     /// Integrates the moments of the homogeneous polyhedron `mesh` about `center_m` up to
     /// `degree`.
     pub fn from_mesh(mesh: &Mesh, center_m: Point3<f64>, degree: usize) -> Self {
+        Self::from_mesh_for_switch(mesh, center_m, degree, super::SWITCH_BRILLOUIN_MULTIPLE)
+    }
+
+    /// As [`Self::from_mesh`] for use from `switch_multiple` Brillouin radii outwards (the face
+    /// quadrature is chosen so its error there stays below 1e-15 relative).
+    pub fn from_mesh_for_switch(
+        mesh: &Mesh,
+        center_m: Point3<f64>,
+        degree: usize,
+        switch_multiple: f64,
+    ) -> Self {
         let ref_radius_m = mesh
             .vertices_m
             .iter()
@@ -299,6 +309,7 @@ impl Exterior {
             center_m,
             ref_radius_m,
             degree,
+            switch_multiple,
         )
     }
 
@@ -311,6 +322,7 @@ impl Exterior {
         center_m: Point3<f64>,
         ref_radius_m: f64,
         degree: usize,
+        switch_multiple: f64,
     ) -> Self {
         let ref_radius_m = ref_radius_m.max(f64::MIN_POSITIVE);
         let len = index(degree, degree) + 1;
@@ -333,7 +345,7 @@ impl Exterior {
                 let height = cross.dot(&v0) / area2;
                 let (e1, e2) = (v1 - v0, v2 - v1);
                 let size = e1.norm().max(e2.norm()).max((v0 - v2).norm());
-                let rule = &rules[rule_points(size, degree) - 1];
+                let rule = &rules[rule_points(size, degree, switch_multiple) - 1];
                 for &(xi, wx) in rule {
                     for &(eta, we) in rule {
                         let p = v0 + xi * (e1 + eta * e2);
@@ -396,8 +408,30 @@ impl Exterior {
             return (f64::INFINITY, Vector3::zeros());
         }
         let unit = rho / dist;
-        let mut h = Harmonics::new(degree);
-        h.fill([unit.x, unit.y, unit.z], true);
+        thread_local! {
+            // Reused between calls: evaluating allocates nothing.
+            static SCRATCH: std::cell::RefCell<Option<Harmonics>> =
+                const { std::cell::RefCell::new(None) };
+        }
+        SCRATCH.with(|cell| {
+            let mut slot = cell.borrow_mut();
+            let h = match slot.as_mut() {
+                Some(h) if h.degree == degree => h,
+                _ => slot.insert(Harmonics::new(degree)),
+            };
+            h.fill([unit.x, unit.y, unit.z], true);
+            self.sum_harmonics(h, degree, dist, &unit)
+        })
+    }
+
+    fn sum_harmonics(
+        &self,
+        h: &Harmonics,
+        degree: usize,
+        dist: f64,
+        unit: &Vector3<f64>,
+    ) -> (f64, Vector3<f64>) {
+        let big_r = self.ref_radius_m;
         let mut u = 0.0;
         let mut a = Vector3::zeros();
         let inv = 1.0 / dist;
@@ -417,7 +451,7 @@ impl Exterior {
                 );
             }
             u += pow * phi;
-            a += (pow * inv) * (grad - (2 * n + 1) as f64 * phi * unit);
+            a += (pow * inv) * (grad - (2 * n + 1) as f64 * phi * *unit);
             pow *= inv;
         }
         (big_r * big_r * u, big_r * a)
@@ -471,9 +505,9 @@ mod tests {
     #[test]
     fn quadrature_rule_shrinks_with_face_size() {
         // Large faces get the rule exact for every degree, small ones fewer points.
-        assert_eq!(rule_points(0.5, 8), 5);
-        assert_eq!(rule_points(0.0062, 8), 3);
-        assert!(rule_points(1e-6, 8) <= 2);
+        assert_eq!(rule_points(0.5, 8, 16.0), 5);
+        assert_eq!(rule_points(0.0062, 8, 16.0), 3);
+        assert!(rule_points(1e-6, 8, 16.0) <= 2);
         assert_eq!(binomial(8, 3), 56.0);
     }
 

@@ -8,6 +8,12 @@
 //! `GRAD` the gradient-tensor sums (`sum_f F_f omega_f`, `sum_e E_e L_e`) come too, for six
 //! fused multiply-adds per face and per edge.
 //!
+//! With `OPEN` (and `GRAD`) it also sums the terms of the gradient tensor that cancel over a
+//! closed polyhedron but not over an open set of faces (the interpolated field sums sets of
+//! faces near a cell): `sum_f h_f n_f grad(omega_f)^T - sum_e (E_e r_e) grad(L_e)^T`, with
+//! `grad omega_f` the Biot–Savart field of a unit current around face `f` and
+//! `grad L_e = 2 l (r_a/|r_a| + r_b/|r_b|) / (s^2 - l^2)`, `s = |r_a| + |r_b|`.
+//!
 //! Every lane runs the same operations in the same order whatever the lane type, so a point's
 //! sums do not depend on the width, on its neighbours in the block or on the thread: the
 //! field is bit-for-bit reproducible however the points are batched.
@@ -29,10 +35,21 @@ fn dot3<V: Lanes>(a: &[V], b: &[V]) -> V {
     a[2].mul_add(b[2], a[1].mul_add(b[1], a[0] * b[0]))
 }
 
+/// `acc += s (a b^T + b a^T) / 2` on the six components xx, xy, xz, yy, yz, zz.
+#[inline(always)]
+fn add_sym_outer<V: Lanes>(acc: &mut [V; 6], a: &[V; 3], b: &[V; 3], s: V) {
+    let half = V::splat(0.5) * s;
+    let pairs = [(0, 0), (0, 1), (0, 2), (1, 1), (1, 2), (2, 2)];
+    for (k, (i, j)) in pairs.into_iter().enumerate() {
+        let v = a[i].mul_add(b[j], a[j] * b[i]);
+        acc[k] = v.mul_add(half, acc[k]);
+    }
+}
+
 /// Writes to `out[BASE .. BASE + V::N]` the sums over the whole of `t` for the points in those
 /// lanes of the blocks `q` (the gradient sums only with `GRAD`).
 #[inline(always)]
-pub(crate) fn sums<V: Lanes, const GRAD: bool, const BASE: usize>(
+pub(crate) fn sums<V: Lanes, const GRAD: bool, const OPEN: bool, const BASE: usize>(
     t: &Tables,
     q: &[Oct],
     out: &mut [Sums; BLOCK],
@@ -44,6 +61,7 @@ pub(crate) fn sums<V: Lanes, const GRAD: bool, const BASE: usize>(
     let mut face_u = zero;
     let mut face_a = [zero; 3];
     let mut face_grad = [zero; 6];
+    let mut open_grad = [zero; 6];
     let faces = t.face_count;
     let corners = t.f0[..faces].iter().zip(&t.f1[..faces]).zip(&t.f2[..faces]);
     let normals = t.nx[..faces].iter().zip(&t.ny[..faces]).zip(&t.nz[..faces]);
@@ -77,6 +95,26 @@ pub(crate) fn sums<V: Lanes, const GRAD: bool, const BASE: usize>(
                 face_grad[k] = V::splat(m[k]).mul_add(omega, face_grad[k]);
             }
         }
+        if OPEN {
+            // grad omega = sum over the edges (a, b) of the face of
+            // (r_a x r_b)(|r_a| + |r_b|) / (|r_a||r_b|(|r_a||r_b| + r_a . r_b)).
+            let mut g_om = [zero; 3];
+            for (ra, rb) in [(&r1, &r2), (&r2, &r3), (&r3, &r1)] {
+                let c = [
+                    ra[1].mul_sub(rb[2], ra[2] * rb[1]),
+                    ra[2].mul_sub(rb[0], ra[0] * rb[2]),
+                    ra[0].mul_sub(rb[1], ra[1] * rb[0]),
+                ];
+                let ab = ra[3] * rb[3];
+                let d = ab * (ab + dot3(ra, rb));
+                let s = V::select(d.gt(zero), (ra[3] + rb[3]) / d, zero);
+                for k in 0..3 {
+                    g_om[k] = c[k].mul_add(s, g_om[k]);
+                }
+            }
+            let hn = [h * n[0], h * n[1], h * n[2]];
+            add_sym_outer(&mut open_grad, &hn, &g_om, V::splat(1.0));
+        }
     }
     let floor = V::splat(EDGE_FLOOR);
     let mut edge_u = zero;
@@ -90,7 +128,8 @@ pub(crate) fn sums<V: Lanes, const GRAD: bool, const BASE: usize>(
     for (((&ia, &ib), &len), (((&xx, &xy), &xz), ((&yy, &yz), &zz))) in ends.zip(dyads) {
         let ra: [V; 4] = vertex::<V, BASE>(q, ia);
         let rb: [V; 4] = vertex::<V, BASE>(q, ib);
-        let l = edge_log(ra[3] + rb[3], V::splat(len), floor);
+        let len_v = V::splat(len);
+        let l = edge_log(ra[3] + rb[3], len_v, floor);
         let mv = [xx, xy, xz, yy, yz, zz].map(V::splat);
         let er = [
             dot3(&[mv[0], mv[1], mv[2]], &ra),
@@ -106,6 +145,17 @@ pub(crate) fn sums<V: Lanes, const GRAD: bool, const BASE: usize>(
                 edge_grad[k] = mv[k].mul_add(l, edge_grad[k]);
             }
         }
+        if OPEN {
+            let s = ra[3] + rb[3];
+            let den = (s * s - len_v * len_v).max(floor * s * s);
+            let coef = (len_v + len_v) / (den * ra[3] * rb[3]);
+            let gl = [
+                ra[0].mul_add(rb[3], rb[0] * ra[3]) * coef,
+                ra[1].mul_add(rb[3], rb[1] * ra[3]) * coef,
+                ra[2].mul_add(rb[3], rb[2] * ra[3]) * coef,
+            ];
+            add_sym_outer(&mut open_grad, &er, &gl, V::splat(-1.0));
+        }
     }
     let omega = omega_acc.to_array();
     let (face_u, edge_u) = (face_u.to_array(), edge_u.to_array());
@@ -113,6 +163,7 @@ pub(crate) fn sums<V: Lanes, const GRAD: bool, const BASE: usize>(
     let edge_a = edge_a.map(V::to_array);
     let face_grad = face_grad.map(V::to_array);
     let edge_grad = edge_grad.map(V::to_array);
+    let open_grad = open_grad.map(V::to_array);
     for k in 0..V::N {
         let s = &mut out[BASE + k];
         s.omega = omega[k];
@@ -123,6 +174,9 @@ pub(crate) fn sums<V: Lanes, const GRAD: bool, const BASE: usize>(
         if GRAD {
             s.face_grad = std::array::from_fn(|j| face_grad[j][k]);
             s.edge_grad = std::array::from_fn(|j| edge_grad[j][k]);
+        }
+        if OPEN {
+            s.open_grad = std::array::from_fn(|j| open_grad[j][k]);
         }
     }
 }

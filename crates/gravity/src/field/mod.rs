@@ -70,6 +70,7 @@
 mod block;
 mod direct;
 pub mod exterior;
+mod interp;
 mod kernel;
 mod lanes;
 mod mass_spec;
@@ -84,6 +85,9 @@ use serde::{Deserialize, Serialize};
 use crate::error::Result;
 use crate::mesh::Mesh;
 pub use exterior::Exterior;
+pub use interp::{
+    BuildProgress, BuildStats, InterpolatedGravity, InterpolationSettings, build_interpolated,
+};
 pub use mass_spec::MassSpec;
 use tables::Tables;
 
@@ -304,6 +308,7 @@ impl PolyhedronGravity {
                 self.center_of_mass_m,
                 self.brillouin_radius_m,
                 exterior::DEFAULT_DEGREE,
+                SWITCH_BRILLOUIN_MULTIPLE,
             )
         })
     }

@@ -277,6 +277,90 @@ impl Tables {
         ))
     }
 
+    /// Tables for an open set of faces of a mesh: their corners as local vertices, every edge
+    /// of those faces once, with the symmetric part of `sum over the set's faces on it of
+    /// n_f nu_fe^T` as its dyad (the Werner–Scheeres dyad where both faces are in the set).
+    /// The kernel's sums over these tables are the set's potential and its gradient in the
+    /// single-layer split (see `interp::face_set`); its tensor needs the `OPEN` terms.
+    pub fn from_face_set(g: &super::interp::face_set::FaceGeometry, faces: &[u32]) -> Tables {
+        let mut local: HashMap<u32, u32> = HashMap::with_capacity(faces.len());
+        let mut vx = Vec::new();
+        let mut vy = Vec::new();
+        let mut vz = Vec::new();
+        let mut map = |v: u32| -> u32 {
+            *local.entry(v).or_insert_with(|| {
+                let p = g.vertices[v as usize];
+                vx.push(p[0]);
+                vy.push(p[1]);
+                vz.push(p[2]);
+                (vx.len() - 1) as u32
+            })
+        };
+        let np = padded(faces.len());
+        let mut f0 = Vec::with_capacity(np);
+        let mut f1 = Vec::with_capacity(np);
+        let mut f2 = Vec::with_capacity(np);
+        let mut nx = Vec::with_capacity(np);
+        let mut ny = Vec::with_capacity(np);
+        let mut nz = Vec::with_capacity(np);
+        let mut edges: HashMap<(u32, u32), usize> = HashMap::with_capacity(2 * faces.len());
+        let mut e0 = Vec::new();
+        let mut e1 = Vec::new();
+        let mut edge_len_m = Vec::new();
+        let mut dyads: Vec<Matrix3<f64>> = Vec::new();
+        for &f in faces {
+            let fi = f as usize;
+            let idx = g.faces[fi];
+            let l = idx.map(&mut map);
+            f0.push(l[0]);
+            f1.push(l[1]);
+            f2.push(l[2]);
+            let n = g.normals[fi];
+            nx.push(n[0]);
+            ny.push(n[1]);
+            nz.push(n[2]);
+            let nv = Vector3::new(n[0], n[1], n[2]);
+            for k in 0..3 {
+                let (a, b) = (l[k], l[(k + 1) % 3]);
+                let key = (a.min(b), a.max(b));
+                let slot = *edges.entry(key).or_insert_with(|| {
+                    e0.push(key.0);
+                    e1.push(key.1);
+                    edge_len_m.push(g.edge_len_m[fi][k]);
+                    dyads.push(Matrix3::zeros());
+                    dyads.len() - 1
+                });
+                let nu = g.edge_normals[fi][k];
+                dyads[slot] += nv * Vector3::new(nu[0], nu[1], nu[2]).transpose();
+            }
+        }
+        let face_count = f0.len();
+        let edge_count = e0.len();
+        let mut t = Tables {
+            vx,
+            vy,
+            vz,
+            face_count,
+            f0,
+            f1,
+            f2,
+            nx,
+            ny,
+            nz,
+            edge_count,
+            e0,
+            e1,
+            edge_len_m,
+            edge_dyad: SymSoa::default(),
+            edge_owner: Vec::new(),
+        };
+        for d in &dyads {
+            t.edge_dyad.push(d);
+        }
+        t.pad();
+        t
+    }
+
     /// The mesh cut into pieces of `faces_per_piece` faces close together (consecutive along a
     /// Morton curve through the face centroids), each a self-contained table set with its own
     /// (local) vertices: every edge goes with the face it was taken from, whose corners it

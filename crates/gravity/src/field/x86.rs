@@ -252,33 +252,48 @@ impl Isa {
     ///
     /// # Panics
     /// If this CPU lacks `self`'s features (callers check [`Isa::detected`] first).
-    pub fn sums_block<const GRAD: bool>(self, t: &Tables, q: &[Oct], out: &mut [Sums; 8]) {
+    pub fn sums_block<const GRAD: bool, const OPEN: bool>(
+        self,
+        t: &Tables,
+        q: &[Oct],
+        out: &mut [Sums; 8],
+    ) {
         assert!(self.detected(), "{self:?} is not available on this CPU");
         match self {
             // SAFETY: the features were detected just above.
-            Isa::Avx512 => unsafe { block_avx512::<GRAD>(t, q, out) },
+            Isa::Avx512 => unsafe { block_avx512::<GRAD, OPEN>(t, q, out) },
             // SAFETY: as above.
-            Isa::Avx2 => unsafe { block_avx2::<GRAD>(t, q, out, 2) },
+            Isa::Avx2 => unsafe { block_avx2::<GRAD, OPEN>(t, q, out, 2) },
         }
     }
 
     /// Sums of the first four points of `q` only (one four-lane pass).
-    pub fn sums_half<const GRAD: bool>(self, t: &Tables, q: &[Oct], out: &mut [Sums; 8]) {
+    pub fn sums_half<const GRAD: bool, const OPEN: bool>(
+        self,
+        t: &Tables,
+        q: &[Oct],
+        out: &mut [Sums; 8],
+    ) {
         assert!(Isa::Avx2.detected(), "AVX2 is not available on this CPU");
         // SAFETY: the features were detected just above.
-        unsafe { block_avx2::<GRAD>(t, q, out, 1) }
+        unsafe { block_avx2::<GRAD, OPEN>(t, q, out, 1) }
     }
 }
 
 #[target_feature(enable = "avx512f,avx512dq,avx2,fma,avx")]
-fn block_avx512<const GRAD: bool>(t: &Tables, q: &[Oct], out: &mut [Sums; 8]) {
-    kernel::sums::<Avx512, GRAD, 0>(t, q, out);
+fn block_avx512<const GRAD: bool, const OPEN: bool>(t: &Tables, q: &[Oct], out: &mut [Sums; 8]) {
+    kernel::sums::<Avx512, GRAD, OPEN, 0>(t, q, out);
 }
 
 #[target_feature(enable = "avx2,fma,avx")]
-fn block_avx2<const GRAD: bool>(t: &Tables, q: &[Oct], out: &mut [Sums; 8], halves: usize) {
-    kernel::sums::<Avx2, GRAD, 0>(t, q, out);
+fn block_avx2<const GRAD: bool, const OPEN: bool>(
+    t: &Tables,
+    q: &[Oct],
+    out: &mut [Sums; 8],
+    halves: usize,
+) {
+    kernel::sums::<Avx2, GRAD, OPEN, 0>(t, q, out);
     if halves == 2 {
-        kernel::sums::<Avx2, GRAD, 4>(t, q, out);
+        kernel::sums::<Avx2, GRAD, OPEN, 4>(t, q, out);
     }
 }

@@ -1,0 +1,786 @@
+//! Building the octree of the interpolated field, level by level (see the parent module).
+
+use std::sync::Arc;
+use std::sync::atomic::{AtomicBool, AtomicU64, Ordering};
+use std::time::Instant;
+
+use nalgebra::{Point3, Vector3};
+use rayon::prelude::*;
+
+use super::face_set::{FaceGeometry, SetJet, set_jets};
+use super::fit::{MONOMIAL_MAX_DEGREE, Pattern, ROWS_PER_POINT, Solver, Space};
+use super::solid;
+use super::{BuildStats, InterpolatedGravity, InterpolationSettings, Node};
+use crate::error::{GravityError, Result};
+use crate::field::exterior::Exterior;
+use crate::field::tables::Tables;
+use crate::field::{MassSpec, PolyhedronGravity};
+use crate::mesh::Mesh;
+
+/// Where a build has got to (for progress bars).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct BuildProgress {
+    /// Octree level being fitted (0 = the root).
+    pub level: usize,
+    /// Cells of that level done.
+    pub cells_done: usize,
+    /// Cells in that level.
+    pub cells_in_level: usize,
+    /// Leaf cells so far.
+    pub leaves: usize,
+    /// Seconds since the build started.
+    pub elapsed_s: f64,
+}
+
+/// Polynomial degrees tried, lowest first (the lowest that meets the budget is kept): leaves
+/// use those up to `MONOMIAL_MAX_DEGREE`, cells that only feed their children any.
+fn degrees(space: Space) -> impl Iterator<Item = usize> {
+    (4..=space.max_degree()).step_by(2)
+}
+
+/// Cells fitted from the exact field only once their near set is at most this share of the
+/// faces: above, a fit costs two sums over most of the mesh per sample and its children's
+/// rings would be nearly as costly; the cell is split without one.
+const TOP_FRACTION: f64 = 0.25;
+
+/// Deepest level of the octree.
+const MAX_DEPTH: usize = 24;
+
+/// Share of the error bound left by its sources that a leaf's fit may use (the errors measured
+/// at the check points are the largest seen there, not the largest anywhere: the rest is the
+/// margin for that).
+const LEAF_SHARE: f64 = 0.5;
+
+/// Share of the error bound left by its sources that a cell whose children will be fitted
+/// from it may use (leaving the rest to them).
+const SOURCE_SHARE: f64 = 0.2;
+
+/// Degrees of the exterior expansion tried, lowest first: the lowest whose switch radius for
+/// the bound is within [`SWITCH_TARGET`] Brillouin radii is used (else the highest).
+const EXTERIOR_DEGREES: [usize; 5] = [12, 16, 20, 24, 28];
+
+/// Switch radius aimed at, Brillouin radii: beyond it the octree would hold many cells far from
+/// the body that the expansion covers more cheaply.
+const SWITCH_TARGET: f64 = 3.0;
+
+/// The near-set radius, in cell half-widths, for a bound: larger for tighter bounds (the fit's
+/// error falls like `(corner distance / near radius)^p`).
+fn kappa_for(max_rel_error: f64) -> f64 {
+    if let Some(k) = std::env::var("SPINFALL_KAPPA").ok().and_then(|v| v.parse().ok()) {
+        return k;
+    }
+    if max_rel_error >= 1e-7 {
+        3.0
+    } else if max_rel_error >= 2e-9 {
+        4.0
+    } else {
+        5.0
+    }
+}
+
+/// Rigorous bound of the exterior expansion's acceleration error, relative to `GM / r^2`, at
+/// `q = R_B / r` truncated after degree `n`: the degree-`k` term of any mass inside the
+/// Brillouin sphere is at most `(k+1) q^k` of `GM / r^2` (its potential is at most `q^k` of
+/// `GM / r` since `|P_k| <= 1`, and the gradient adds the factor `k+1` since
+/// `(k+1)^2 P_k^2 + sin^2 P_k'^2 <= (k+1)^2`), so the tail is `sum_(k>n) (k+1) q^k`.
+pub(crate) fn exterior_tail(q: f64, n: usize) -> f64 {
+    ((n + 1)..2000)
+        .map(|k| (k + 1) as f64 * q.powi(k as i32))
+        .take_while(|t| *t > 1e-300)
+        .sum()
+}
+
+/// The exterior degree and switch radius (Brillouin radii) for relative acceleration error
+/// `eps`, given `g_ratio(r)`: the smallest `|g| r^2 / GM` on the sphere of `r` Brillouin
+/// radii. At the switch radius the tail bound is a quarter of the budget.
+fn exterior_choice(eps: f64, g_ratio: &dyn Fn(f64) -> f64) -> (usize, f64) {
+    let mut choice = (EXTERIOR_DEGREES[0], f64::INFINITY);
+    for &n in &EXTERIOR_DEGREES {
+        // Smallest r (largest q) meeting the bound, by bisection on q in (0, 0.95).
+        let ok = |q: f64| exterior_tail(q, n) <= 0.25 * eps * g_ratio(1.0 / q);
+        let (mut lo, mut hi) = (0.01, 0.95);
+        if !ok(lo) {
+            continue;
+        }
+        for _ in 0..60 {
+            let mid = 0.5 * (lo + hi);
+            if ok(mid) {
+                lo = mid;
+            } else {
+                hi = mid;
+            }
+        }
+        choice = (n, 1.0 / lo);
+        if choice.1 <= SWITCH_TARGET {
+            break;
+        }
+    }
+    choice
+}
+
+/// The representation a cell's data come from: the polynomial of an ancestor (none: the
+/// exact field) and that ancestor's near set.
+struct Source {
+    poly: Option<Poly>,
+    near: Arc<Vec<u32>>,
+    error: f64,
+}
+
+struct Poly {
+    coef: Vec<f64>,
+    space: Space,
+    degree: usize,
+    center: [f64; 3],
+    half_m: f64,
+}
+
+impl Poly {
+    /// Value, gradient and Hessian per unit `G rho` at `p`.
+    fn jet(&self, p: &Point3<f64>) -> SetJet {
+        let h = self.half_m;
+        let xi = [
+            (p.x - self.center[0]) / h,
+            (p.y - self.center[1]) / h,
+            (p.z - self.center[2]) / h,
+        ];
+        let j = solid::eval::<true>(self.space, self.degree, &self.coef, xi);
+        SetJet {
+            potential: j.value,
+            grad: j.grad.map(|g| g / h),
+            hess: j.hess.map(|v| v / (h * h)),
+            omega: 0.0,
+        }
+    }
+}
+
+/// A cell waiting to be fitted.
+struct Pending {
+    node: usize,
+    center: [f64; 3],
+    half_m: f64,
+    depth: usize,
+    near: Arc<Vec<u32>>,
+    source: Arc<Source>,
+}
+
+impl Pending {
+    /// The function space of the cell's fit: harmonic where no face is near.
+    fn space(&self) -> Space {
+        if self.near.is_empty() {
+            Space::Harmonic
+        } else {
+            Space::Biharmonic
+        }
+    }
+
+    /// The cell's fit and check points, in metres.
+    fn template_points(&self) -> Vec<Point3<f64>> {
+        let t = Pattern::get(self.space());
+        t.fit_points
+            .iter()
+            .chain(&t.check_points)
+            .map(|xi| {
+                Point3::new(
+                    self.center[0] + self.half_m * xi[0],
+                    self.center[1] + self.half_m * xi[1],
+                    self.center[2] + self.half_m * xi[2],
+                )
+            })
+            .collect()
+    }
+}
+
+/// What fitting one cell gave.
+enum Outcome {
+    Leaf {
+        coef: Vec<f64>,
+        space: Space,
+        degree: usize,
+        error: f64,
+    },
+    Exact,
+    Split {
+        source: Arc<Source>,
+    },
+}
+
+/// `n` unit vectors spread over the sphere (a Fibonacci lattice).
+fn sphere_directions(n: usize) -> Vec<Vector3<f64>> {
+    (0..n)
+        .map(|i| {
+            let z = 1.0 - 2.0 * (i as f64 + 0.5) / n as f64;
+            let phi = i as f64 * 2.399_963_229_728_653;
+            let s = (1.0 - z * z).sqrt();
+            Vector3::new(s * phi.cos(), s * phi.sin(), z)
+        })
+        .collect()
+}
+
+/// Elements of `a` not in `b` (both sorted).
+fn difference(a: &[u32], b: &[u32]) -> Vec<u32> {
+    let mut out = Vec::with_capacity(a.len().saturating_sub(b.len()));
+    let mut j = 0;
+    for &x in a {
+        while j < b.len() && b[j] < x {
+            j += 1;
+        }
+        if j < b.len() && b[j] == x {
+            continue;
+        }
+        out.push(x);
+    }
+    out
+}
+
+struct Builder<'a> {
+    exact: &'a PolyhedronGravity,
+    geometry: &'a FaceGeometry,
+    settings: InterpolationSettings,
+    kappa: f64,
+    com: [f64; 3],
+    switch_radius_m: f64,
+    all_faces: Arc<Vec<u32>>,
+    full_evaluations: AtomicU64,
+    ring_face_terms: AtomicU64,
+    /// Floor of the gravity that errors are relative to, per unit `G rho`: a tenth of
+    /// `GM / R_B^2`, below every surface value, so that points deep inside the body (where
+    /// gravity vanishes at the centre, and no particle flies) do not dictate the fits.
+    g_floor: f64,
+}
+
+impl Builder<'_> {
+    /// Faces of `parent_near` within `kappa h` of `center`.
+    fn near_of(&self, parent_near: &[u32], center: [f64; 3], half_m: f64) -> Vec<u32> {
+        let r = self.kappa * half_m;
+        parent_near
+            .iter()
+            .copied()
+            .filter(|&f| self.geometry.distance_to_face(f as usize, center) <= r)
+            .collect()
+    }
+
+    /// Whether the cell box meets the ball where the octree is used.
+    fn in_region(&self, center: [f64; 3], half_m: f64) -> bool {
+        let d2: f64 = (0..3)
+            .map(|a| {
+                let d = ((center[a] - self.com[a]).abs() - half_m).max(0.0);
+                d * d
+            })
+            .sum();
+        d2.sqrt() <= self.switch_radius_m
+    }
+
+    /// The data of one cell, from its source: derivatives of `F` at the fit points (cell
+    /// units), values there, and at the check points the gradient of `F` and the size of the
+    /// total gravity. `exact_at` holds the exact field (per unit `G rho`) at the template
+    /// points when the source is the exact field.
+    fn prepare(&self, cell: &Pending, exact_at: Option<&[SetJet]>) -> Prepared {
+        let t = Pattern::get(cell.space());
+        let h = cell.half_m;
+        let points = cell.template_points();
+        let mut scratch = Vec::new();
+        let near_tables = Tables::from_face_set(self.geometry, &cell.near);
+        let near = set_jets::<true>(&near_tables, &points, &mut scratch);
+        let (data, total): (Vec<SetJet>, Vec<[f64; 3]>) = match (&cell.source.poly, exact_at) {
+            (None, Some(exact)) => exact
+                .iter()
+                .zip(&near)
+                .map(|(e, n)| {
+                    let mut f = *e;
+                    f.add(n, -1.0);
+                    (f, e.grad)
+                })
+                .unzip(),
+            (source_poly, _) => {
+                let ring = difference(&cell.source.near, &cell.near);
+                self.ring_face_terms
+                    .fetch_add((ring.len() * points.len()) as u64, Ordering::Relaxed);
+                let ring_tables = Tables::from_face_set(self.geometry, &ring);
+                let ring_jets = set_jets::<true>(&ring_tables, &points, &mut scratch);
+                points
+                    .iter()
+                    .zip(ring_jets)
+                    .zip(&near)
+                    .map(|((p, r), n)| {
+                        let mut f = source_poly.as_ref().map(|s| s.jet(p)).unwrap_or_default();
+                        f.add(&r, 1.0);
+                        let mut tot = f;
+                        tot.add(n, 1.0);
+                        (f, tot.grad)
+                    })
+                    .unzip()
+            }
+        };
+        let nfit = t.fit_points.len();
+        let mut derivs = Vec::with_capacity(nfit * ROWS_PER_POINT);
+        let mut values = Vec::with_capacity(nfit);
+        for f in &data[..nfit] {
+            derivs.extend(f.grad.iter().map(|g| g * h));
+            derivs.extend(f.hess.iter().map(|v| v * h * h));
+            values.push(f.potential);
+        }
+        let checks = data[nfit..]
+            .iter()
+            .zip(&total[nfit..])
+            .map(|(f, g)| {
+                let g = (g[0] * g[0] + g[1] * g[1] + g[2] * g[2]).sqrt();
+                (f.grad, g.max(self.g_floor))
+            })
+            .collect();
+        Prepared {
+            space: cell.space(),
+            derivs,
+            values,
+            checks,
+        }
+    }
+
+    /// Chooses the lowest degree whose fit meets the budget and what the cell becomes;
+    /// `coefs[d]` holds the non-constant basis coefficients of the `d`-th degree of
+    /// [`degrees`].
+    fn decide(&self, cell: &Pending, prep: &Prepared, coefs: &[Vec<f64>]) -> Outcome {
+        let space = prep.space;
+        let pattern = Pattern::get(space);
+        let h = cell.half_m;
+        let remaining = (self.settings.max_rel_error - cell.source.error).max(0.0);
+        let small = cell.near.len() <= self.settings.leaf_near_faces;
+        let leaf_budget = remaining * LEAF_SHARE;
+        let source_budget = remaining * SOURCE_SHARE;
+        // Error of each degree at the check points.
+        let errors: Vec<(usize, f64)> = degrees(space)
+            .zip(coefs)
+            .map(|(p, c)| {
+                let g = pattern.check_gradients(c);
+                let err = prep
+                    .checks
+                    .iter()
+                    .enumerate()
+                    .map(|(k, (grad_f, gn))| {
+                        let d = Vector3::new(
+                            g[3 * k] / h - grad_f[0],
+                            g[3 * k + 1] / h - grad_f[1],
+                            g[3 * k + 2] / h - grad_f[2],
+                        );
+                        d.norm() / gn
+                    })
+                    .fold(0.0, f64::max);
+                (p, err)
+            })
+            .collect();
+        let full = |i: usize| -> Vec<f64> {
+            let mut v = vec![pattern.constant(&coefs[i], &prep.values)];
+            v.extend_from_slice(&coefs[i]);
+            v
+        };
+        let leaf = errors
+            .iter()
+            .position(|&(p, e)| p <= MONOMIAL_MAX_DEGREE && e <= leaf_budget);
+        let source = errors.iter().position(|&(_, e)| e <= source_budget);
+        if std::env::var("SPINFALL_TRACE").is_ok() {
+            let best = errors.iter().fold(f64::INFINITY, |m, e| m.min(e.1));
+            eprintln!(
+                "depth {} h {:.0} near {} src {} srcerr {:.1e} leaf {:?} source {:?} best {best:.2e} r {:.2}",
+                cell.depth,
+                h,
+                cell.near.len(),
+                if cell.source.poly.is_some() { "poly" } else { "exact" },
+                cell.source.error,
+                leaf.map(|i| errors[i].0),
+                source.map(|i| errors[i].0),
+                ((cell.center[0] - self.com[0]).powi(2)
+                    + (cell.center[1] - self.com[1]).powi(2)
+                    + (cell.center[2] - self.com[2]).powi(2))
+                .sqrt()
+                    / self.exact.brillouin_radius_m()
+            );
+        }
+        if let Some(i) = leaf
+            && (small || cell.depth >= MAX_DEPTH)
+        {
+            let (p, err) = errors[i];
+            if let Some(coef) = Solver::get(space, p).monomials(&full(i)) {
+                return Outcome::Leaf {
+                    coef,
+                    space,
+                    degree: p,
+                    error: cell.source.error + err,
+                };
+            }
+        }
+        if cell.depth >= MAX_DEPTH {
+            return Outcome::Exact;
+        }
+        let source = if let Some(i) = source {
+            let (p, err) = errors[i];
+            Arc::new(Source {
+                poly: Some(Poly {
+                    coef: full(i),
+                    space,
+                    degree: p,
+                    center: cell.center,
+                    half_m: h,
+                }),
+                near: Arc::clone(&cell.near),
+                error: cell.source.error + err,
+            })
+        } else if remaining < 0.25 * self.settings.max_rel_error && cell.source.poly.is_some() {
+            // The chain of sources has used up most of the bound: start again from the exact
+            // field.
+            Arc::new(Source {
+                poly: None,
+                near: Arc::clone(&self.all_faces),
+                error: 0.0,
+            })
+        } else {
+            Arc::clone(&cell.source)
+        };
+        Outcome::Split { source }
+    }
+}
+
+/// The data one cell is fitted to.
+struct Prepared {
+    space: Space,
+    derivs: Vec<f64>,
+    values: Vec<f64>,
+    /// At each check point: the gradient of the smooth part and the size of the total gravity,
+    /// per unit `G rho`.
+    checks: Vec<([f64; 3], f64)>,
+}
+
+/// Fits of every degree of [`degrees`] for cells whose data are `preps` (one matrix product
+/// per degree, in chunks of cells): the non-constant basis coefficients.
+fn fit_all(preps: &[&Prepared]) -> Vec<Vec<Vec<f64>>> {
+    let mut out: Vec<Vec<Vec<f64>>> = vec![Vec::new(); preps.len()];
+    for space in [Space::Biharmonic, Space::Harmonic] {
+        let idx: Vec<usize> = (0..preps.len()).filter(|&k| preps[k].space == space).collect();
+        let Some(&first) = idx.first() else { continue };
+        let data_len = preps[first].derivs.len();
+        for chunk in idx.chunks(256) {
+            let mut data = nalgebra::DMatrix::<f64>::zeros(data_len, chunk.len());
+            for (k, &i) in chunk.iter().enumerate() {
+                data.column_mut(k).copy_from_slice(&preps[i].derivs);
+            }
+            for p in degrees(space) {
+                let coefs = Solver::get(space, p).fit_many(&data);
+                for (k, &i) in chunk.iter().enumerate() {
+                    out[i].push(coefs.column(k).as_slice().to_vec());
+                }
+            }
+        }
+    }
+    out
+}
+
+/// Builds the interpolated field of the closed, outward-oriented `mesh` (metres) with `mass`
+/// (see the parent module). `progress` is called after each batch of cells; setting `cancel`
+/// stops the build with [`GravityError::Cancelled`].
+pub fn build_interpolated(
+    mesh: &Mesh,
+    mass: MassSpec,
+    settings: InterpolationSettings,
+    progress: &(dyn Fn(&BuildProgress) + Sync),
+    cancel: &AtomicBool,
+) -> Result<InterpolatedGravity> {
+    let start = Instant::now();
+    if !(settings.max_rel_error >= 1e-12 && settings.max_rel_error <= 1e-3) {
+        return Err(GravityError::InvalidParameter {
+            name: "max_rel_error",
+            message: format!(
+                "{} is outside [1e-12, 1e-3] (relative acceleration error of the interpolated \
+                 field)",
+                settings.max_rel_error
+            ),
+        });
+    }
+    if settings.leaf_near_faces == 0 {
+        return Err(GravityError::InvalidParameter {
+            name: "leaf_near_faces",
+            message: "must be at least 1".into(),
+        });
+    }
+    let exact = Arc::new(PolyhedronGravity::from_mesh(mesh, mass)?);
+    let geometry = Arc::new(FaceGeometry::new(mesh));
+    let com = exact.center_of_mass_m();
+    let r_b = exact.brillouin_radius_m();
+    // Switch radius and exterior degree: where the expansion's rigorous bound is a quarter of
+    // the budget, relative to the smallest gravity on that sphere (sampled with the exact
+    // field in 256 directions, less a tenth for the directions between them).
+    let dirs = sphere_directions(256);
+    let gm_per = exact.gm_m3_s2();
+    let g_ratio = |r_multiple: f64| -> f64 {
+        let r = r_multiple * r_b;
+        let pts: Vec<Point3<f64>> = dirs.iter().map(|d| com + d * r).collect();
+        let min = exact
+            .potential_acceleration_batch(&pts)
+            .iter()
+            .map(|(_, a)| a.norm())
+            .fold(f64::INFINITY, f64::min);
+        0.9 * min * r * r / gm_per
+    };
+    let (exterior_degree, switch_multiple) = exterior_choice(settings.max_rel_error, &g_ratio);
+    let switch_radius_m = switch_multiple * r_b;
+    let exterior = Exterior::from_mesh_for_switch(mesh, com, exterior_degree, switch_multiple);
+    let nf = geometry.face_count();
+    let all_faces = Arc::new((0..nf as u32).collect::<Vec<u32>>());
+    let builder = Builder {
+        exact: &exact,
+        geometry: &geometry,
+        settings,
+        kappa: kappa_for(settings.max_rel_error),
+        com: [com.x, com.y, com.z],
+        switch_radius_m,
+        all_faces: Arc::clone(&all_faces),
+        full_evaluations: AtomicU64::new(0),
+        ring_face_terms: AtomicU64::new(0),
+        g_floor: 0.1 * exact.volume_m3() / (r_b * r_b),
+    };
+    let mut nodes = vec![Node::Exact];
+    let mut coefs: Vec<f64> = Vec::new();
+    let mut near_faces: Vec<u32> = Vec::new();
+    let mut stats = BuildStats::default();
+    let mut near_total = 0usize;
+    let root_source = Arc::new(Source {
+        poly: None,
+        near: Arc::clone(&all_faces),
+        error: 0.0,
+    });
+    let mut level = vec![Pending {
+        node: 0,
+        center: [com.x, com.y, com.z],
+        half_m: switch_radius_m,
+        depth: 0,
+        near: Arc::clone(&all_faces),
+        source: root_source,
+    }];
+    let fixed_bytes = nf * std::mem::size_of::<[f64; 3]>() * 9 + exact.memory_bytes();
+    while !level.is_empty() {
+        if cancel.load(Ordering::Relaxed) {
+            return Err(GravityError::Cancelled);
+        }
+        let depth = level[0].depth;
+        stats.depth = stats.depth.max(depth);
+        let kinds: Vec<Option<Outcome>> = level.par_iter().map(|c| classify(&builder, c)).collect();
+        // Cells fitted from the exact field: their template points in one batch.
+        let exact_cells: Vec<usize> = (0..level.len())
+            .filter(|&k| kinds[k].is_none() && level[k].source.poly.is_none())
+            .collect();
+        let mut exact_points = Vec::new();
+        let mut offsets = Vec::with_capacity(exact_cells.len() + 1);
+        for &k in &exact_cells {
+            offsets.push(exact_points.len());
+            exact_points.extend(level[k].template_points());
+        }
+        offsets.push(exact_points.len());
+        let g_rho = crate::field::G_SI * exact.density_kg_m3();
+        let exact_jets: Vec<SetJet> = exact
+            .evaluate_batch(&exact_points)
+            .iter()
+            .map(|s| {
+                let g = s.gradient_s2 / g_rho;
+                SetJet {
+                    potential: s.potential_m2_s2 / g_rho,
+                    grad: [
+                        s.acceleration_m_s2.x / g_rho,
+                        s.acceleration_m_s2.y / g_rho,
+                        s.acceleration_m_s2.z / g_rho,
+                    ],
+                    hess: [g[(0, 0)], g[(0, 1)], g[(0, 2)], g[(1, 1)], g[(1, 2)], g[(2, 2)]],
+                    omega: 0.0,
+                }
+            })
+            .collect();
+        builder
+            .full_evaluations
+            .fetch_add(exact_points.len() as u64, Ordering::Relaxed);
+        let mut exact_slice: Vec<Option<&[SetJet]>> = vec![None; level.len()];
+        for (i, &k) in exact_cells.iter().enumerate() {
+            exact_slice[k] = Some(&exact_jets[offsets[i]..offsets[i + 1]]);
+        }
+        if cancel.load(Ordering::Relaxed) {
+            return Err(GravityError::Cancelled);
+        }
+        let done = std::sync::atomic::AtomicUsize::new(0);
+        let total = level.len();
+        let leaves_before = stats.leaves;
+        let report = |n: usize| {
+            let k = done.fetch_add(n, Ordering::Relaxed) + n;
+            progress(&BuildProgress {
+                level: depth,
+                cells_done: k.min(total),
+                cells_in_level: total,
+                leaves: leaves_before,
+                elapsed_s: start.elapsed().as_secs_f64(),
+            });
+        };
+        let preps: Vec<Option<Prepared>> = level
+            .par_iter()
+            .zip(kinds.par_iter())
+            .zip(exact_slice.par_iter())
+            .map(|((cell, kind), ex)| {
+                if kind.is_some() || cancel.load(Ordering::Relaxed) {
+                    return None;
+                }
+                let p = builder.prepare(cell, *ex);
+                report(1);
+                Some(p)
+            })
+            .collect();
+        if cancel.load(Ordering::Relaxed) {
+            return Err(GravityError::Cancelled);
+        }
+        let fitted: Vec<usize> = (0..level.len()).filter(|&k| preps[k].is_some()).collect();
+        let prep_refs: Vec<&Prepared> = fitted.iter().filter_map(|&k| preps[k].as_ref()).collect();
+        let fits = fit_all(&prep_refs);
+        let mut fit_of: Vec<Option<&Vec<Vec<f64>>>> = vec![None; level.len()];
+        for (i, &k) in fitted.iter().enumerate() {
+            fit_of[k] = Some(&fits[i]);
+        }
+        let outcomes: Vec<Option<Outcome>> = kinds
+            .into_par_iter()
+            .zip(level.par_iter())
+            .zip(preps.par_iter().zip(fit_of.par_iter()))
+            .map(|((kind, cell), (prep, coefs))| match (kind, prep, coefs) {
+                (Some(k), _, _) => Some(k),
+                (None, Some(prep), Some(coefs)) => Some(builder.decide(cell, prep, coefs)),
+                _ => None,
+            })
+            .collect();
+        let mut next = Vec::new();
+        for (cell, out) in level.into_iter().zip(outcomes) {
+            let Some(out) = out else {
+                return Err(GravityError::Cancelled);
+            };
+            match out {
+                Outcome::Exact => {
+                    nodes[cell.node] = Node::Exact;
+                    stats.exact_cells += 1;
+                }
+                Outcome::Leaf {
+                    coef,
+                    space,
+                    degree,
+                    error,
+                } => {
+                    nodes[cell.node] = Node::Leaf {
+                        coef: coefs.len() as u32,
+                        space,
+                        degree: degree as u8,
+                        near: near_faces.len() as u32,
+                        near_len: cell.near.len() as u32,
+                    };
+                    coefs.extend_from_slice(&coef);
+                    near_faces.extend_from_slice(&cell.near);
+                    near_total += cell.near.len();
+                    stats.leaves += 1;
+                    stats.worst_leaf_bound = stats.worst_leaf_bound.max(error);
+                    stats.max_degree = stats.max_degree.max(degree);
+                }
+                Outcome::Split { source } => {
+                    let first = nodes.len();
+                    nodes[cell.node] = Node::Branch {
+                        first_child: first as u32,
+                    };
+                    let h = 0.5 * cell.half_m;
+                    for k in 0..8 {
+                        nodes.push(Node::Exact);
+                        let center = [
+                            cell.center[0] + if k & 1 != 0 { h } else { -h },
+                            cell.center[1] + if k & 2 != 0 { h } else { -h },
+                            cell.center[2] + if k & 4 != 0 { h } else { -h },
+                        ];
+                        if !builder.in_region(center, h) {
+                            continue;
+                        }
+                        next.push((first + k, center, h, cell.depth + 1, Arc::clone(&cell.near), Arc::clone(&source)));
+                    }
+                }
+            }
+        }
+        // Near sets of the next level, in parallel (each from its parent's).
+        level = next
+            .into_par_iter()
+            .map(|(node, center, half_m, depth, parent_near, source)| Pending {
+                node,
+                center,
+                half_m,
+                depth,
+                near: Arc::new(builder.near_of(&parent_near, center, half_m)),
+                source,
+            })
+            .collect();
+        let memory = fixed_bytes
+            + coefs.len() * 8
+            + near_faces.len() * 4
+            + nodes.len() * std::mem::size_of::<Node>();
+        if memory > settings.max_memory_bytes {
+            return Err(GravityError::MemoryLimit {
+                what: format!(
+                    "the interpolated field for a relative error of {:e}",
+                    settings.max_rel_error
+                ),
+                needed_mb: memory.div_ceil(1 << 20),
+                limit_mb: settings.max_memory_bytes >> 20,
+            });
+        }
+    }
+    stats.cells = nodes.len();
+    stats.mean_leaf_near_faces = near_total as f64 / stats.leaves.max(1) as f64;
+    stats.full_evaluations = builder.full_evaluations.load(Ordering::Relaxed);
+    stats.ring_face_terms = builder.ring_face_terms.load(Ordering::Relaxed);
+    stats.exterior_degree = exterior_degree;
+    stats.switch_brillouin_multiple = switch_radius_m / r_b;
+    stats.memory_bytes = fixed_bytes - exact.memory_bytes()
+        + coefs.len() * 8
+        + near_faces.len() * 4
+        + nodes.len() * std::mem::size_of::<Node>();
+    stats.build_s = start.elapsed().as_secs_f64();
+    coefs.shrink_to_fit();
+    near_faces.shrink_to_fit();
+    Ok(InterpolatedGravity {
+        exact,
+        geometry,
+        root_center: [com.x, com.y, com.z],
+        root_half_m: switch_radius_m,
+        nodes,
+        coefs,
+        near_faces,
+        exterior,
+        switch_radius_m,
+        settings,
+        stats,
+    })
+}
+
+/// What a cell is before fitting: `None` when it needs a fit.
+fn classify(b: &Builder<'_>, cell: &Pending) -> Option<Outcome> {
+    let nf = b.all_faces.len();
+    let circum = 3f64.sqrt() * cell.half_m;
+    let touches_surface = cell
+        .near
+        .iter()
+        .any(|&f| b.geometry.distance_to_face(f as usize, cell.center) <= circum);
+    if !touches_surface {
+        let c = Point3::new(cell.center[0], cell.center[1], cell.center[2]);
+        if b.exact.is_inside(&c) {
+            return Some(Outcome::Exact);
+        }
+    }
+    let top = cell.source.poly.is_none() && cell.near.len() as f64 > TOP_FRACTION * nf as f64;
+    if cell.near.len() == nf || (top && cell.near.len() > b.settings.leaf_near_faces) {
+        // Every face (or most) is near: nothing worth fitting; split unless the whole mesh is
+        // small enough to sum in a leaf.
+        if nf <= b.settings.leaf_near_faces || cell.depth >= MAX_DEPTH {
+            return Some(Outcome::Leaf {
+                coef: vec![0.0],
+                space: Space::Biharmonic,
+                degree: 0,
+                error: 0.0,
+            });
+        }
+        return Some(Outcome::Split {
+            source: Arc::clone(&cell.source),
+        });
+    }
+    None
+}

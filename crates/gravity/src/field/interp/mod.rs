@@ -1,0 +1,317 @@
+//! The interpolated field: the exact sums over the faces near a cell plus a fitted polynomial
+//! for the rest, in an octree of cells from the surface out to where an exterior
+//! spherical-harmonic expansion takes over.
+//!
+//! # The split
+//! The potential of the polyhedron is a sum over its faces, `U = sum_f U_f` (the single-layer
+//! split of `face_set`, whose per-face terms have exact, local gradients). In a cell of
+//! half-width `h` the faces within `kappa h` of its centre (its *near set*) are summed exactly;
+//! the rest, `F = U - sum_near U_f`, is analytic in a ball reaching past the cell's corners, so
+//! a polynomial approximates it with an error falling geometrically with the degree. `F` is
+//! biharmonic there (its Laplacian `-G rho sum_far omega_f` is harmonic), so the fit uses the
+//! biharmonic polynomials of `basis` (`2 p^2 + 2` of them instead of `(p+1)(p+2)(p+3)/6`).
+//! Right at the surface the near set holds the faces, edges and vertices whose terms are
+//! singular (the gradient tensor diverges like `log d` at edges): those are summed exactly, so
+//! the bound holds on the surface itself, where flights start, bounce and land.
+//!
+//! The interpolant is a potential, `U = G rho (sum_near U_f + P)`, and the acceleration is its
+//! gradient, so the Jacobi constant is conserved by the integrator as with the direct field;
+//! between cells the potential and acceleration jump by amounts below the error bound.
+//!
+//! # The build
+//! The cells are fitted level by level from the root down. A cell's data (gradients and
+//! Hessians of `F` at a fixed pattern of 125 points, see `fit`) come from the nearest
+//! ancestor whose fit held ("the source"): `F_cell = F_source + sum_(near(source) - near(cell))
+//! U_f`, the source's polynomial plus exact sums over the ring of faces between the two near
+//! sets, so no cell below the top needs a sum over the whole mesh. Each fit is checked at 26
+//! points it did not use; its error there, added to its source's, is the cell's error. A cell
+//! becomes a leaf when that error is below the bound and its near set is small enough to sum
+//! quickly; otherwise it is split. Cells inside the body, and any cell the fit cannot bring
+//! under the bound at the deepest level, evaluate the exact sums instead (never wrong, only
+//! slower). Beyond the switch radius the exterior expansion, of a degree and radius chosen from
+//! its rigorous truncation bound for the same error, takes over.
+//!
+//! Spinfall is for research and planning, not flight-certified.
+
+pub(crate) mod basis;
+mod build;
+pub(crate) mod face_set;
+pub(crate) mod fit;
+pub(crate) mod poly3;
+mod solid;
+
+use std::sync::Arc;
+
+use nalgebra::{Matrix3, Point3, Vector3};
+use serde::{Deserialize, Serialize};
+
+use super::exterior::Exterior;
+use super::{FieldSample, PolyhedronGravity};
+pub use build::{BuildProgress, build_interpolated};
+use face_set::{FaceGeometry, set_jet};
+use fit::{Solver, Space, monomial_jet};
+
+/// How an interpolated field is built.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct InterpolationSettings {
+    /// Largest relative error of the acceleration, as a fraction of the local gravity, allowed
+    /// anywhere outside the body: in [1e-12, 1e-3].
+    pub max_rel_error: f64,
+    /// Most memory the field may take, bytes (the build stops with an error beyond it).
+    pub max_memory_bytes: usize,
+    /// Most faces summed exactly in a leaf cell (smaller: faster evaluation, more cells).
+    pub leaf_near_faces: usize,
+}
+
+impl Default for InterpolationSettings {
+    fn default() -> Self {
+        InterpolationSettings {
+            max_rel_error: 1e-9,
+            max_memory_bytes: 4096 << 20,
+            leaf_near_faces: 400,
+        }
+    }
+}
+
+/// What a build did and what the field takes.
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+pub struct BuildStats {
+    /// Cells of the octree (branches and leaves).
+    pub cells: usize,
+    /// Leaf cells with a fitted polynomial.
+    pub leaves: usize,
+    /// Cells that evaluate the exact sums (inside the body, or not fitted under the bound).
+    pub exact_cells: usize,
+    /// Deepest level of the octree.
+    pub depth: usize,
+    /// Exact field evaluations over the whole mesh made by the build.
+    pub full_evaluations: u64,
+    /// Face terms summed by the build in the rings between near sets (each one face at one
+    /// point).
+    pub ring_face_terms: u64,
+    /// Largest error bound of a leaf (its own fit error plus its sources'), relative to the
+    /// local gravity.
+    pub worst_leaf_bound: f64,
+    /// Average number of faces summed exactly in a leaf.
+    pub mean_leaf_near_faces: f64,
+    /// Largest polynomial degree used.
+    pub max_degree: usize,
+    /// Degree of the exterior expansion.
+    pub exterior_degree: usize,
+    /// Where the exterior expansion takes over, in Brillouin radii.
+    pub switch_brillouin_multiple: f64,
+    /// Wall-clock time of the build, s.
+    pub build_s: f64,
+    /// Memory taken by the field (octree, polynomials, near sets, face data), bytes; the exact
+    /// field it keeps for fallback cells adds its own tables.
+    pub memory_bytes: usize,
+}
+
+/// One cell of the octree.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub(crate) enum Node {
+    /// Split: its eight children are at `first_child ..` (order: bit 0 = +x, 1 = +y, 2 = +z).
+    Branch { first_child: u32 },
+    /// A fitted cell: polynomial coefficients at `coef`, of `degree`; near faces at
+    /// `near .. near + near_len` of the near-face list.
+    Leaf {
+        coef: u32,
+        space: Space,
+        degree: u8,
+        near: u32,
+        near_len: u32,
+    },
+    /// Evaluated with the exact sums.
+    Exact,
+}
+
+/// The polyhedron's field from an octree of fitted cells (see the module docs).
+#[derive(Debug, Clone)]
+pub struct InterpolatedGravity {
+    pub(crate) exact: Arc<PolyhedronGravity>,
+    pub(crate) geometry: Arc<FaceGeometry>,
+    pub(crate) root_center: [f64; 3],
+    pub(crate) root_half_m: f64,
+    pub(crate) nodes: Vec<Node>,
+    pub(crate) coefs: Vec<f64>,
+    pub(crate) near_faces: Vec<u32>,
+    pub(crate) exterior: Exterior,
+    pub(crate) switch_radius_m: f64,
+    pub(crate) settings: InterpolationSettings,
+    pub(crate) stats: BuildStats,
+}
+
+impl InterpolatedGravity {
+    /// The exact field it was built from (and falls back to inside the body).
+    pub fn exact(&self) -> &PolyhedronGravity {
+        &self.exact
+    }
+
+    /// The settings it was built with.
+    pub fn settings(&self) -> &InterpolationSettings {
+        &self.settings
+    }
+
+    /// What the build did.
+    pub fn stats(&self) -> &BuildStats {
+        &self.stats
+    }
+
+    /// Distance from the centre of mass beyond which the exterior expansion is used, m.
+    pub fn switch_radius_m(&self) -> f64 {
+        self.switch_radius_m
+    }
+
+    fn g_rho(&self) -> f64 {
+        super::G_SI * self.exact.density_kg_m3()
+    }
+
+    /// The leaf cell holding `p`: its node, centre and half-width.
+    fn locate(&self, p: &Point3<f64>) -> (Node, [f64; 3], f64) {
+        let mut c = self.root_center;
+        let mut h = self.root_half_m;
+        let mut node = self.nodes[0];
+        while let Node::Branch { first_child } = node {
+            let q = [p.x > c[0], p.y > c[1], p.z > c[2]];
+            let k = q[0] as usize | (q[1] as usize) << 1 | (q[2] as usize) << 2;
+            h *= 0.5;
+            for a in 0..3 {
+                c[a] += if q[a] { h } else { -h };
+            }
+            node = self.nodes[first_child as usize + k];
+        }
+        (node, c, h)
+    }
+
+    /// A leaf's polynomial (in cell units) at `p`; degree 0 marks a leaf with none.
+    fn poly_jet<const HESS: bool>(
+        &self,
+        coef: u32,
+        space: Space,
+        degree: u8,
+        c: [f64; 3],
+        h: f64,
+        p: &Point3<f64>,
+    ) -> poly3::Jet {
+        let solver = Solver::get(space, degree as usize);
+        let Some(layout) = solver.layout().filter(|_| degree > 0) else {
+            return poly3::Jet::default();
+        };
+        let len = layout.len();
+        let xi = [(p.x - c[0]) / h, (p.y - c[1]) / h, (p.z - c[2]) / h];
+        monomial_jet::<HESS>(layout, &self.coefs[coef as usize..coef as usize + len], xi)
+    }
+
+    /// Whether `p` lies beyond the switch radius.
+    fn far(&self, p: &Point3<f64>) -> bool {
+        (p - self.exact.center_of_mass_m()).norm() > self.switch_radius_m
+    }
+
+    /// Potential (m^2/s^2) and acceleration (m/s^2) at `p` (metres, body frame).
+    pub fn potential_acceleration(&self, p: &Point3<f64>) -> (f64, Vector3<f64>) {
+        if !(p.x.is_finite() && p.y.is_finite() && p.z.is_finite()) {
+            return (f64::NAN, Vector3::from_element(f64::NAN));
+        }
+        if self.far(p) {
+            let (u, a) = self
+                .exterior
+                .potential_acceleration(&(p - self.exact.center_of_mass_m()));
+            return (self.g_rho() * u, self.g_rho() * a);
+        }
+        match self.locate(p) {
+            (
+                Node::Leaf {
+                    coef,
+                    space,
+                    degree,
+                    near,
+                    near_len,
+                },
+                c,
+                h,
+            ) => {
+                let faces = &self.near_faces[near as usize..(near + near_len) as usize];
+                let nj = set_jet::<false>(&self.geometry, faces, p);
+                let fj = self.poly_jet::<false>(coef, space, degree, c, h, p);
+                let g = self.g_rho();
+                (
+                    g * (nj.potential + fj.value),
+                    Vector3::new(
+                        nj.grad[0] + fj.grad[0] / h,
+                        nj.grad[1] + fj.grad[1] / h,
+                        nj.grad[2] + fj.grad[2] / h,
+                    ) * g,
+                )
+            }
+            _ => self.exact.potential_acceleration(p),
+        }
+    }
+
+    /// Potential, acceleration, gradient tensor, Laplacian and inside flag at `p`: the
+    /// tensor is the Hessian of the interpolant (exact near sums plus the polynomial's), the
+    /// Laplacian its trace, and the point counts as inside where `-Laplacian / (G rho)` exceeds
+    /// `2 pi` (to the fit's accuracy; the exact field's rule is the same).
+    pub fn evaluate(&self, p: &Point3<f64>) -> FieldSample {
+        if self.far(p) || !(p.x.is_finite() && p.y.is_finite() && p.z.is_finite()) {
+            return self.exact.evaluate(p);
+        }
+        match self.locate(p) {
+            (
+                Node::Leaf {
+                    coef,
+                    space,
+                    degree,
+                    near,
+                    near_len,
+                },
+                c,
+                h,
+            ) => {
+                let faces = &self.near_faces[near as usize..(near + near_len) as usize];
+                let nj = set_jet::<true>(&self.geometry, faces, p);
+                let fj = self.poly_jet::<true>(coef, space, degree, c, h, p);
+                let g = self.g_rho();
+                let d: [f64; 6] = std::array::from_fn(|k| g * (nj.hess[k] + fj.hess[k] / (h * h)));
+                let gradient_s2 = Matrix3::new(d[0], d[1], d[2], d[1], d[3], d[4], d[2], d[4], d[5]);
+                let laplacian_s2 = d[0] + d[3] + d[5];
+                FieldSample {
+                    potential_m2_s2: g * (nj.potential + fj.value),
+                    acceleration_m_s2: Vector3::new(
+                        nj.grad[0] + fj.grad[0] / h,
+                        nj.grad[1] + fj.grad[1] / h,
+                        nj.grad[2] + fj.grad[2] / h,
+                    ) * g,
+                    gradient_s2,
+                    laplacian_s2,
+                    inside: -laplacian_s2 / g > 2.0 * std::f64::consts::PI + 1e-6,
+                }
+            }
+            _ => self.exact.evaluate(p),
+        }
+    }
+
+    /// [`Self::potential_acceleration`] for many points, in parallel; each entry is bit-for-bit
+    /// what a lone call gives.
+    pub fn potential_acceleration_batch_into(
+        &self,
+        points: &[Point3<f64>],
+        out: &mut [(f64, Vector3<f64>)],
+    ) {
+        use rayon::prelude::*;
+        assert_eq!(points.len(), out.len(), "one output per point");
+        out.par_iter_mut()
+            .zip(points.par_iter())
+            .with_min_len(16)
+            .for_each(|(o, p)| *o = self.potential_acceleration(p));
+    }
+
+    /// [`Self::evaluate`] for many points, in parallel.
+    pub fn evaluate_batch(&self, points: &[Point3<f64>]) -> Vec<FieldSample> {
+        use rayon::prelude::*;
+        points
+            .par_iter()
+            .with_min_len(16)
+            .map(|p| self.evaluate(p))
+            .collect()
+    }
+}
