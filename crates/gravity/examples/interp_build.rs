@@ -8,7 +8,9 @@ use std::sync::atomic::AtomicBool;
 use std::time::Instant;
 
 use nalgebra::{Point3, Vector3};
-use spinfall_gravity::{InterpolationSettings, MassSpec, PolyhedronGravity, build_interpolated, generate};
+use spinfall_gravity::{
+    InterpolationSettings, MassSpec, PolyhedronGravity, build_interpolated, generate,
+};
 
 fn main() {
     let args: Vec<String> = std::env::args().collect();
@@ -68,7 +70,9 @@ fn main() {
     let nf = mesh.faces.len();
     let mut seed = 12345u64;
     let mut rnd = || {
-        seed = seed.wrapping_mul(6364136223846793005).wrapping_add(1442695040888963407);
+        seed = seed
+            .wrapping_mul(6364136223846793005)
+            .wrapping_add(1442695040888963407);
         (seed >> 11) as f64 / (1u64 << 53) as f64
     };
     for k in 0..600 {
@@ -77,7 +81,11 @@ fn main() {
         let n = (b - a).cross(&(c - a)).normalize();
         let size = (b - a).norm();
         let (u, v) = (rnd(), rnd());
-        let (u, v) = if u + v > 1.0 { (1.0 - u, 1.0 - v) } else { (u, v) };
+        let (u, v) = if u + v > 1.0 {
+            (1.0 - u, 1.0 - v)
+        } else {
+            (u, v)
+        };
         let on = a + (b - a) * u + (c - a) * v;
         let on = match k % 3 {
             0 => on,
@@ -101,7 +109,10 @@ fn main() {
     let want = exact.potential_acceleration_batch(&pts);
     let exact_s = t1.elapsed().as_secs_f64();
     let t2 = Instant::now();
-    let got: Vec<_> = pts.iter().map(|p| field.potential_acceleration(p)).collect();
+    let got: Vec<_> = pts
+        .iter()
+        .map(|p| field.potential_acceleration(p))
+        .collect();
     let interp_s = t2.elapsed().as_secs_f64();
     let mut worst = 0.0f64;
     let mut worst_u = 0.0f64;

@@ -22,6 +22,9 @@ pub enum GravityError {
     /// The mesh cannot be used for a polyhedron gravity model.
     #[error("unusable mesh: {0}")]
     InvalidMesh(String),
+    /// A stored field cannot be used (damaged, truncated, or built for other inputs).
+    #[error("stored field unusable: {0}")]
+    Stored(String),
     /// Work stopped because the caller asked.
     #[error("cancelled")]
     Cancelled,

@@ -378,6 +378,29 @@ impl Exterior {
         out
     }
 
+    /// The expansion's numbers, for storing it: degree, reference radius, and the cosine and
+    /// sine moments.
+    pub(crate) fn parts(&self) -> (usize, f64, &[f64], &[f64]) {
+        (self.degree, self.ref_radius_m, &self.c, &self.s)
+    }
+
+    /// An expansion from stored [`Self::parts`]; `None` if the lengths do not fit the degree.
+    pub(crate) fn from_parts(
+        degree: usize,
+        ref_radius_m: f64,
+        c: Vec<f64>,
+        s: Vec<f64>,
+    ) -> Option<Self> {
+        let len = index(degree, degree) + 1;
+        (c.len() == len && s.len() == len && ref_radius_m > 0.0 && ref_radius_m.is_finite())
+            .then_some(Self {
+                degree,
+                ref_radius_m,
+                c,
+                s,
+            })
+    }
+
     /// Degree of the expansion.
     pub fn degree(&self) -> usize {
         self.degree

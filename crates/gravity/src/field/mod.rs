@@ -87,6 +87,7 @@ use crate::mesh::Mesh;
 pub use exterior::Exterior;
 pub use interp::{
     BuildProgress, BuildStats, InterpolatedGravity, InterpolationSettings, build_interpolated,
+    cache_key,
 };
 pub use mass_spec::MassSpec;
 use tables::Tables;

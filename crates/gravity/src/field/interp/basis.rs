@@ -106,7 +106,6 @@ fn solid_harmonics(layout: &Layout) -> Vec<(usize, usize, Poly3)> {
     out
 }
 
-
 #[cfg(test)]
 mod tests {
     use super::super::poly3::eval;
@@ -142,7 +141,8 @@ mod tests {
         // R_2^0 = (3 z^2 - r^2) / 2 ... scaled: compare shapes at points (Legendre P_2, P_3^1).
         let layout = Layout::new(3);
         let h = solid_harmonics(&layout);
-        let at = |k: usize, x: f64, y: f64, z: f64| eval::<false>(&layout, &h[k].2.coef, x, y, z).value;
+        let at =
+            |k: usize, x: f64, y: f64, z: f64| eval::<false>(&layout, &h[k].2.coef, x, y, z).value;
         // Order: n=0: R00; n=1: R10, Re R11, Im R11; n=2: R20, ...
         let (x, y, z) = (0.3, -0.4, 0.5);
         let r2 = x * x + y * y + z * z;
@@ -151,6 +151,10 @@ mod tests {
         assert!((at(2, x, y, z) - x).abs() < 1e-15 && (at(3, x, y, z) - y).abs() < 1e-15);
         // R_3^1 = r^3 P_3^1 e^(i phi) with P_3^1 = (3/2) sin(theta) (5 cos^2 theta - 1).
         let want_re = 1.5 * x * (5.0 * z * z - r2);
-        assert!((at(10, x, y, z) - want_re).abs() < 1e-13, "{}", at(10, x, y, z));
+        assert!(
+            (at(10, x, y, z) - want_re).abs() < 1e-13,
+            "{}",
+            at(10, x, y, z)
+        );
     }
 }

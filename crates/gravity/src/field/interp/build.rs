@@ -66,7 +66,10 @@ const SWITCH_TARGET: f64 = 3.0;
 /// The near-set radius, in cell half-widths, for a bound: larger for tighter bounds (the fit's
 /// error falls like `(corner distance / near radius)^p`).
 fn kappa_for(max_rel_error: f64) -> f64 {
-    if let Some(k) = std::env::var("SPINFALL_KAPPA").ok().and_then(|v| v.parse().ok()) {
+    if let Some(k) = std::env::var("SPINFALL_KAPPA")
+        .ok()
+        .and_then(|v| v.parse().ok())
+    {
         return k;
     }
     if max_rel_error >= 1e-7 {
@@ -383,7 +386,11 @@ impl Builder<'_> {
                 cell.depth,
                 h,
                 cell.near.len(),
-                if cell.source.poly.is_some() { "poly" } else { "exact" },
+                if cell.source.poly.is_some() {
+                    "poly"
+                } else {
+                    "exact"
+                },
                 cell.source.error,
                 leaf.map(|i| errors[i].0),
                 source.map(|i| errors[i].0),
@@ -453,7 +460,9 @@ struct Prepared {
 fn fit_all(preps: &[&Prepared]) -> Vec<Vec<Vec<f64>>> {
     let mut out: Vec<Vec<Vec<f64>>> = vec![Vec::new(); preps.len()];
     for space in [Space::Biharmonic, Space::Harmonic] {
-        let idx: Vec<usize> = (0..preps.len()).filter(|&k| preps[k].space == space).collect();
+        let idx: Vec<usize> = (0..preps.len())
+            .filter(|&k| preps[k].space == space)
+            .collect();
         let Some(&first) = idx.first() else { continue };
         let data_len = preps[first].derivs.len();
         for chunk in idx.chunks(256) {
@@ -585,7 +594,14 @@ pub fn build_interpolated(
                         s.acceleration_m_s2.y / g_rho,
                         s.acceleration_m_s2.z / g_rho,
                     ],
-                    hess: [g[(0, 0)], g[(0, 1)], g[(0, 2)], g[(1, 1)], g[(1, 2)], g[(2, 2)]],
+                    hess: [
+                        g[(0, 0)],
+                        g[(0, 1)],
+                        g[(0, 2)],
+                        g[(1, 1)],
+                        g[(1, 2)],
+                        g[(2, 2)],
+                    ],
                     omega: 0.0,
                 }
             })
@@ -692,7 +708,14 @@ pub fn build_interpolated(
                         if !builder.in_region(center, h) {
                             continue;
                         }
-                        next.push((first + k, center, h, cell.depth + 1, Arc::clone(&cell.near), Arc::clone(&source)));
+                        next.push((
+                            first + k,
+                            center,
+                            h,
+                            cell.depth + 1,
+                            Arc::clone(&cell.near),
+                            Arc::clone(&source),
+                        ));
                     }
                 }
             }
@@ -700,14 +723,16 @@ pub fn build_interpolated(
         // Near sets of the next level, in parallel (each from its parent's).
         level = next
             .into_par_iter()
-            .map(|(node, center, half_m, depth, parent_near, source)| Pending {
-                node,
-                center,
-                half_m,
-                depth,
-                near: Arc::new(builder.near_of(&parent_near, center, half_m)),
-                source,
-            })
+            .map(
+                |(node, center, half_m, depth, parent_near, source)| Pending {
+                    node,
+                    center,
+                    half_m,
+                    depth,
+                    near: Arc::new(builder.near_of(&parent_near, center, half_m)),
+                    source,
+                },
+            )
             .collect();
         let memory = fixed_bytes
             + coefs.len() * 8

@@ -183,7 +183,11 @@ fn edge_log(ra: f64, rb: f64, l: f64) -> f64 {
 }
 
 /// The sums over `faces` at `p` (see the module docs), per unit `G rho`.
-pub(crate) fn set_jet<const HESS: bool>(g: &FaceGeometry, faces: &[u32], p: &Point3<f64>) -> SetJet {
+pub(crate) fn set_jet<const HESS: bool>(
+    g: &FaceGeometry,
+    faces: &[u32],
+    p: &Point3<f64>,
+) -> SetJet {
     let x = [p.x, p.y, p.z];
     let mut out = SetJet::default();
     for &f in faces {
@@ -195,7 +199,8 @@ pub(crate) fn set_jet<const HESS: bool>(g: &FaceGeometry, faces: &[u32], p: &Poi
         // Solid angle (van Oosterom & Strackee 1983) with the surface rule of `direct`.
         let num = dot(r[0], cross(r[1], r[2]));
         let prod = len[0] * len[1] * len[2];
-        let den = prod + len[0] * dot(r[1], r[2]) + len[1] * dot(r[2], r[0]) + len[2] * dot(r[0], r[1]);
+        let den =
+            prod + len[0] * dot(r[1], r[2]) + len[1] * dot(r[2], r[0]) + len[2] * dot(r[0], r[1]);
         let tol = PLANE_TOL * prod;
         let omega = if num.abs() <= tol && den <= tol {
             0.0
@@ -307,7 +312,11 @@ pub(crate) fn set_jets<const HESS: bool>(
         } else {
             runner.run_mode::<false, false>(t, scratch, block.len())
         };
-        out.extend(sums[..block.len()].iter().map(|s| SetJet::from_sums(s, HESS)));
+        out.extend(
+            sums[..block.len()]
+                .iter()
+                .map(|s| SetJet::from_sums(s, HESS)),
+        );
     }
     out
 }
@@ -339,14 +348,33 @@ mod tests {
             let want = field.evaluate(&p);
             let got = set_jet::<true>(&g, &all, &p);
             let u = g_rho * got.potential;
-            assert!((u - want.potential_m2_s2).abs() < 1e-12 * u.abs(), "{u} vs {}", want.potential_m2_s2);
+            assert!(
+                (u - want.potential_m2_s2).abs() < 1e-12 * u.abs(),
+                "{u} vs {}",
+                want.potential_m2_s2
+            );
             let a = grad_vec(&got) * g_rho;
-            assert!((a - want.acceleration_m_s2).norm() < 1e-12 * a.norm(), "{a} vs {}", want.acceleration_m_s2);
+            assert!(
+                (a - want.acceleration_m_s2).norm() < 1e-12 * a.norm(),
+                "{a} vs {}",
+                want.acceleration_m_s2
+            );
             let w = want.gradient_s2;
-            let want_h = [w[(0, 0)], w[(0, 1)], w[(0, 2)], w[(1, 1)], w[(1, 2)], w[(2, 2)]];
+            let want_h = [
+                w[(0, 0)],
+                w[(0, 1)],
+                w[(0, 2)],
+                w[(1, 1)],
+                w[(1, 2)],
+                w[(2, 2)],
+            ];
             let scale = want_h.iter().fold(0.0f64, |m, v| m.max(v.abs()));
             for (gh, wh) in got.hess.iter().zip(want_h) {
-                assert!((g_rho * gh - wh).abs() < 1e-11 * scale, "{} vs {wh}", g_rho * gh);
+                assert!(
+                    (g_rho * gh - wh).abs() < 1e-11 * scale,
+                    "{} vs {wh}",
+                    g_rho * gh
+                );
             }
         }
     }
@@ -358,7 +386,10 @@ mod tests {
         // whole mesh (where the open-set terms must cancel).
         let mesh = generate::demo_body(2);
         let g = FaceGeometry::new(&mesh);
-        let some: Vec<u32> = (0..g.face_count() as u32).filter(|f| f % 3 != 1).take(150).collect();
+        let some: Vec<u32> = (0..g.face_count() as u32)
+            .filter(|f| f % 3 != 1)
+            .take(150)
+            .collect();
         let all: Vec<u32> = (0..g.face_count() as u32).collect();
         let pts = [
             Point3::new(2600.0, 900.0, 400.0),
@@ -372,14 +403,29 @@ mod tests {
             for (p, f) in pts.iter().zip(&fast) {
                 let s = set_jet::<true>(&g, set, p);
                 let su = s.potential.abs().max(1.0);
-                assert!((f.potential - s.potential).abs() < 1e-11 * su, "{} vs {}", f.potential, s.potential);
+                assert!(
+                    (f.potential - s.potential).abs() < 1e-11 * su,
+                    "{} vs {}",
+                    f.potential,
+                    s.potential
+                );
                 let sg = s.grad.iter().fold(0.0f64, |m, v| m.max(v.abs())).max(1e-3);
                 for k in 0..3 {
-                    assert!((f.grad[k] - s.grad[k]).abs() < 1e-11 * sg, "{:?} vs {:?}", f.grad, s.grad);
+                    assert!(
+                        (f.grad[k] - s.grad[k]).abs() < 1e-11 * sg,
+                        "{:?} vs {:?}",
+                        f.grad,
+                        s.grad
+                    );
                 }
                 let sh = s.hess.iter().fold(0.0f64, |m, v| m.max(v.abs())).max(1e-6);
                 for k in 0..6 {
-                    assert!((f.hess[k] - s.hess[k]).abs() < 1e-9 * sh, "{:?} vs {:?}", f.hess, s.hess);
+                    assert!(
+                        (f.hess[k] - s.hess[k]).abs() < 1e-9 * sh,
+                        "{:?} vs {:?}",
+                        f.hess,
+                        s.hess
+                    );
                 }
                 assert!((f.omega - s.omega).abs() < 1e-12);
             }
@@ -402,7 +448,11 @@ mod tests {
             let up = set_jet::<false>(&g, &some, &(p + d));
             let dn = set_jet::<false>(&g, &some, &(p - d));
             let fd = (up.potential - dn.potential) / (2.0 * h);
-            assert!((fd - j.grad[axis]).abs() < 1e-7 * j.grad[axis].abs().max(1.0), "{fd} vs {}", j.grad[axis]);
+            assert!(
+                (fd - j.grad[axis]).abs() < 1e-7 * j.grad[axis].abs().max(1.0),
+                "{fd} vs {}",
+                j.grad[axis]
+            );
             let idx = |a: usize, b: usize| match (a.min(b), a.max(b)) {
                 (0, 0) => 0,
                 (0, 1) => 1,
@@ -414,7 +464,10 @@ mod tests {
             for c in 0..3 {
                 let fd2 = (up.grad[c] - dn.grad[c]) / (2.0 * h);
                 let got = j.hess[idx(axis, c)];
-                assert!((fd2 - got).abs() < 1e-6 * got.abs().max(1e-3), "{axis}{c}: {fd2} vs {got}");
+                assert!(
+                    (fd2 - got).abs() < 1e-6 * got.abs().max(1e-3),
+                    "{axis}{c}: {fd2} vs {got}"
+                );
             }
         }
     }

@@ -76,7 +76,6 @@ impl Space {
 /// The fit and check points of a space, with the basis at them.
 #[derive(Debug)]
 pub(crate) struct Pattern {
-    pub space: Space,
     /// Fit points in cell coordinates (Chebyshev–Lobatto grid, corners included).
     pub fit_points: Vec<[f64; 3]>,
     /// Points used only to check a fit (none of them a fit point).
@@ -127,7 +126,6 @@ impl Pattern {
             }
         }
         Pattern {
-            space,
             fit_points,
             check_points,
             fit_values,
@@ -184,8 +182,6 @@ fn cached<K: std::hash::Hash + Eq + Copy, V>(
 /// The least-squares solution of one degree, and its conversion to monomials.
 #[derive(Debug)]
 pub(crate) struct Solver {
-    pub space: Space,
-    pub degree: usize,
     /// Non-constant basis coefficients from the data.
     solve: DMatrix<f64>,
     /// Monomial coefficients from the basis coefficients (constant included), up to
@@ -229,8 +225,6 @@ impl Solver {
             (layout, conv)
         });
         Solver {
-            space,
-            degree: p,
             solve,
             to_monomials,
         }
@@ -320,7 +314,11 @@ mod tests {
     fn members_of_each_space_are_fitted_exactly_in_both_forms() {
         // Data taken from a member of the space: the fit must return it to rounding at the
         // check points, in the basis form and (degree <= 16) in the monomial form.
-        for (space, p) in [(Space::Biharmonic, 6), (Space::Biharmonic, 12), (Space::Harmonic, 12)] {
+        for (space, p) in [
+            (Space::Biharmonic, 6),
+            (Space::Biharmonic, 12),
+            (Space::Harmonic, 12),
+        ] {
             let k = space.unknowns(p);
             let target: Vec<f64> = (0..k).map(|i| ((i * 37) % 11) as f64 / 5.0 - 1.0).collect();
             let got = refit(space, p, &target);
@@ -344,7 +342,12 @@ mod tests {
                     solid::eval::<false>(space, p, &got, *pt),
                     solid::eval::<false>(space, p, &target, *pt),
                 );
-                assert!((a.value - b.value).abs() < tol, "{space:?} {p}: {} vs {}", a.value, b.value);
+                assert!(
+                    (a.value - b.value).abs() < tol,
+                    "{space:?} {p}: {} vs {}",
+                    a.value,
+                    b.value
+                );
                 for i in 0..3 {
                     assert!((a.grad[i] - b.grad[i]).abs() < tol, "{space:?} {p}");
                 }

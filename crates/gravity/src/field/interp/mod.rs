@@ -35,6 +35,7 @@
 
 pub(crate) mod basis;
 mod build;
+mod codec;
 pub(crate) mod face_set;
 pub(crate) mod fit;
 pub(crate) mod poly3;
@@ -48,6 +49,7 @@ use serde::{Deserialize, Serialize};
 use super::exterior::Exterior;
 use super::{FieldSample, PolyhedronGravity};
 pub use build::{BuildProgress, build_interpolated};
+pub use codec::cache_key;
 use face_set::{FaceGeometry, set_jet};
 use fit::{Solver, Space, monomial_jet};
 
@@ -193,8 +195,11 @@ impl InterpolatedGravity {
         h: f64,
         p: &Point3<f64>,
     ) -> poly3::Jet {
+        if degree == 0 {
+            return poly3::Jet::default();
+        }
         let solver = Solver::get(space, degree as usize);
-        let Some(layout) = solver.layout().filter(|_| degree > 0) else {
+        let Some(layout) = solver.layout() else {
             return poly3::Jet::default();
         };
         let len = layout.len();
@@ -272,7 +277,8 @@ impl InterpolatedGravity {
                 let fj = self.poly_jet::<true>(coef, space, degree, c, h, p);
                 let g = self.g_rho();
                 let d: [f64; 6] = std::array::from_fn(|k| g * (nj.hess[k] + fj.hess[k] / (h * h)));
-                let gradient_s2 = Matrix3::new(d[0], d[1], d[2], d[1], d[3], d[4], d[2], d[4], d[5]);
+                let gradient_s2 =
+                    Matrix3::new(d[0], d[1], d[2], d[1], d[3], d[4], d[2], d[4], d[5]);
                 let laplacian_s2 = d[0] + d[3] + d[5];
                 FieldSample {
                     potential_m2_s2: g * (nj.potential + fj.value),

@@ -45,7 +45,9 @@ impl Layout {
     /// Every monomial `(i, j, k)` in storage order.
     pub fn monomials(&self) -> impl Iterator<Item = (usize, usize, usize)> + '_ {
         let p = self.degree;
-        (0..=p).flat_map(move |i| (0..=p - i).flat_map(move |j| (0..=p - i - j).map(move |k| (i, j, k))))
+        (0..=p).flat_map(move |i| {
+            (0..=p - i).flat_map(move |j| (0..=p - i - j).map(move |k| (i, j, k)))
+        })
     }
 }
 

@@ -50,7 +50,9 @@ fn times_w(j: &CJet, x: [f64; 3], hess: bool) -> CJet {
     for k in 0..3 {
         out.re.grad[k] = gw_re[k] * j.re.value - gw_im[k] * j.im.value + w_re * j.re.grad[k]
             - w_im * j.im.grad[k];
-        out.im.grad[k] = gw_re[k] * j.im.value + gw_im[k] * j.re.value + w_re * j.im.grad[k]
+        out.im.grad[k] = gw_re[k] * j.im.value
+            + gw_im[k] * j.re.value
+            + w_re * j.im.grad[k]
             + w_im * j.re.grad[k];
     }
     if hess {
@@ -123,7 +125,11 @@ pub(crate) fn basis_jets<const HESS: bool>(space: Space, p: usize, x: [f64; 3]) 
             // (n - m + 1) R_(n+1)^m = (2n + 1) z R_n^m - (n + m) r^2 R_(n-1)^m
             let (a, b, d) = ((2 * n + 1) as f64, (n + m) as f64, (n - m + 1) as f64);
             let cur = h[index(n, m)];
-            let prev = if n > m { h[index(n - 1, m)] } else { CJet::default() };
+            let prev = if n > m {
+                h[index(n - 1, m)]
+            } else {
+                CJet::default()
+            };
             h[index(n + 1, m)] = CJet {
                 re: step(&cur.re, &prev.re, x, r2, a, b, d, HESS),
                 im: step(&cur.im, &prev.im, x, r2, a, b, d, HESS),
@@ -140,7 +146,11 @@ pub(crate) fn basis_jets<const HESS: bool>(space: Space, p: usize, x: [f64; 3]) 
                 let mut v = Jet {
                     value: s * j.value,
                     grad: j.grad.map(|g| s * g),
-                    hess: if HESS { j.hess.map(|g| s * g) } else { [0.0; 6] },
+                    hess: if HESS {
+                        j.hess.map(|g| s * g)
+                    } else {
+                        [0.0; 6]
+                    },
                 };
                 if times_r2 {
                     // r^2 f: grad 2 x f + r^2 grad f; Hessian 2 delta f + 2 (x grad f^T +
@@ -209,7 +219,10 @@ mod tests {
         for (k, (poly, j)) in polys.iter().zip(&jets).enumerate() {
             let want = poly_eval::<true>(&layout, &poly.coef, x[0], x[1], x[2]);
             let scale = want.value.abs().max(1e-3);
-            assert!((want.value - j.value).abs() < 1e-12 * scale.max(1.0), "{k} value");
+            assert!(
+                (want.value - j.value).abs() < 1e-12 * scale.max(1.0),
+                "{k} value"
+            );
             for i in 0..3 {
                 assert!((want.grad[i] - j.grad[i]).abs() < 1e-11, "{k} grad");
             }
