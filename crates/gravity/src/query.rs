@@ -226,7 +226,7 @@ fn segment_meets_triangle(
     let h = dir.cross(&e2);
     let det = e1.dot(&h);
     let scale = e1.norm() * e2.norm() * dir.norm();
-    if !(det.abs() > 1e-12 * scale) {
+    if det.abs() <= 1e-12 * scale || !det.is_finite() {
         return false;
     }
     let inv = 1.0 / det;
