@@ -588,7 +588,10 @@ impl Scenario {
                 return Err(err(format!("{p}.id"), "must not be empty"));
             }
             if !ids.insert(l.id.as_str()) {
-                return Err(err(format!("{p}.id"), format!("duplicate id {}", excerpt(&l.id))));
+                return Err(err(
+                    format!("{p}.id"),
+                    format!("duplicate id {}", excerpt(&l.id)),
+                ));
             }
             self.validate_launch(&p, l)?;
         }

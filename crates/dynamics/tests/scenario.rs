@@ -326,7 +326,10 @@ fn generated_ids_that_collide_with_given_ids_are_refused() {
     s.validate().unwrap();
     let e = s.build_launches(&demo_body()).unwrap_err().to_string();
     assert!(e.contains("\"fan/1\""), "{e}");
-    assert!(e.contains("launches[0]") && e.contains("launches[4]"), "{e}");
+    assert!(
+        e.contains("launches[0]") && e.contains("launches[4]"),
+        "{e}"
+    );
     // A dispersion member against a given id, too.
     let mut s = Scenario::builtin_example();
     s.launches[2].id = "scatter#3".into();

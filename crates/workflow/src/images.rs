@@ -108,7 +108,11 @@ pub fn parse_size(s: &str) -> Result<(u32, u32)> {
 }
 
 /// Renders the image.
-pub fn render_image(view: &BodyView, reports: &[FlightReport], req: &ImageRequest) -> Result<Image> {
+pub fn render_image(
+    view: &BodyView,
+    reports: &[FlightReport],
+    req: &ImageRequest,
+) -> Result<Image> {
     req.check()?;
     let (w, h) = (req.width_px, req.height_px);
     let frame = match req.view {
@@ -140,7 +144,13 @@ pub fn render_image(view: &BodyView, reports: &[FlightReport], req: &ImageReques
     camera.set_viewport(w, h);
     let mut scene = frame_scene(view, reports, req.t_s, &req.options, [w, h], frame);
     add_site_markers(&mut scene, view, &req.sites, req.t_s, frame);
-    add_title(&mut scene, frame, req.t_s, view.body().spin.period_s, [w, h]);
+    add_title(
+        &mut scene,
+        frame,
+        req.t_s,
+        view.body().spin.period_s,
+        [w, h],
+    );
     let options = RenderOptions::new(w, h).with_supersample(2);
     Ok(Renderer::new().render(&scene, &camera, &options).clone())
 }
@@ -180,6 +190,9 @@ pub fn png_summary(
 
 /// Writes `image` as PNG with text chunks.
 pub fn write_png(w: &mut dyn Write, image: &Image, chunks: &[(String, String)]) -> Result<()> {
-    let refs: Vec<(&str, &str)> = chunks.iter().map(|(k, v)| (k.as_str(), v.as_str())).collect();
+    let refs: Vec<(&str, &str)> = chunks
+        .iter()
+        .map(|(k, v)| (k.as_str(), v.as_str()))
+        .collect();
     encode_png(image, &refs, w).map_err(|e| WorkflowError::output_msg("", e.to_string()))
 }

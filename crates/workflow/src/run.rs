@@ -16,14 +16,12 @@ pub struct RunReports {
     pub elapsed: Duration,
 }
 
-impl RunReports {
-    /// The launches that failed, with their reasons.
-    pub fn failures(&self) -> impl Iterator<Item = (&str, &str)> {
-        self.reports.iter().filter_map(|r| match &r.outcome {
-            Outcome::Failed { reason } => Some((r.id.as_str(), reason.as_str())),
-            _ => None,
-        })
-    }
+/// The launches that failed, with their reasons.
+pub fn failures(reports: &[FlightReport]) -> impl Iterator<Item = (&str, &str)> {
+    reports.iter().filter_map(|r| match &r.outcome {
+        Outcome::Failed { reason } => Some((r.id.as_str(), reason.as_str())),
+        _ => None,
+    })
 }
 
 /// Flies every launch of `run` (in parallel). `progress(done, total)` is called from worker

@@ -18,7 +18,9 @@ pub const RUN_FILES: [&str; 3] = ["results.json", "results.csv", "trajectories.c
 /// SHA-256 of a scenario's canonical JSON, lowercase hex.
 pub fn scenario_sha256(scenario: &Scenario) -> Option<String> {
     let text = scenario.to_json_string_pretty().ok()?;
-    Some(crate::output::manifest_hex(&Sha256::digest(text.as_bytes())))
+    Some(crate::output::manifest_hex(&Sha256::digest(
+        text.as_bytes(),
+    )))
 }
 
 /// What a run's manifest says about it.

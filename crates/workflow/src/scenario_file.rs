@@ -128,9 +128,10 @@ pub fn read_scenario(source: &ScenarioSource) -> Result<LoadedScenario> {
             };
             (Scenario::from_json_bytes(&bytes).map_err(refused)?, dir)
         }
-        ScenarioSource::Bytes { bytes, dir, .. } => {
-            (Scenario::from_json_bytes(bytes).map_err(refused)?, dir.clone())
-        }
+        ScenarioSource::Bytes { bytes, dir, .. } => (
+            Scenario::from_json_bytes(bytes).map_err(refused)?,
+            dir.clone(),
+        ),
     };
     Ok(LoadedScenario {
         scenario,
@@ -145,8 +146,7 @@ pub fn read_scenario(source: &ScenarioSource) -> Result<LoadedScenario> {
 pub fn relocated(loaded: &LoadedScenario, to_dir: &Path) -> Scenario {
     let mut scenario = loaded.scenario.clone();
     let shape = &scenario.body.shape;
-    if shape == BUILTIN_QUILLON || Path::new(shape).is_absolute() || same_dir(&loaded.dir, to_dir)
-    {
+    if shape == BUILTIN_QUILLON || Path::new(shape).is_absolute() || same_dir(&loaded.dir, to_dir) {
         return scenario;
     }
     let full = resolve(&loaded.dir, shape);

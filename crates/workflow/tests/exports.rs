@@ -71,7 +71,17 @@ fn results_and_trajectories_read_back() {
     let mut reader = csv::Reader::from_reader(csv.as_slice());
     assert_eq!(
         reader.headers().unwrap().iter().collect::<Vec<_>>(),
-        ["launch_id", "frame", "t_s", "x_m", "y_m", "z_m", "vx_m_s", "vy_m_s", "vz_m_s"]
+        [
+            "launch_id",
+            "frame",
+            "t_s",
+            "x_m",
+            "y_m",
+            "z_m",
+            "vx_m_s",
+            "vy_m_s",
+            "vz_m_s"
+        ]
     );
     let rows: Vec<csv::StringRecord> = reader.records().map(|r| r.unwrap()).collect();
     let expected: usize = reports
@@ -108,7 +118,10 @@ fn surface_map_csv_has_a_row_per_face_with_units() {
     let mut reader = csv::Reader::from_reader(csv.as_slice());
     let header: Vec<String> = reader.headers().unwrap().iter().map(String::from).collect();
     assert!(header[..2] == ["face", "centroid_x_m"]);
-    assert!(header.iter().any(|h| h == "slope_deg") && header.iter().any(|h| h == "escape_speed_min_m_s"));
+    assert!(
+        header.iter().any(|h| h == "slope_deg")
+            && header.iter().any(|h| h == "escape_speed_min_m_s")
+    );
     let rows: Vec<csv::StringRecord> = reader.records().map(|r| r.unwrap()).collect();
     assert_eq!(rows.len(), body.shape.face_count());
     assert!(rows.iter().all(|r| r.len() == header.len()));

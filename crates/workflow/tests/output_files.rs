@@ -13,7 +13,10 @@ use spinfall_workflow::output::{
 use spinfall_workflow::{ErrorKind, WorkflowError};
 
 fn text(s: &'static str) -> impl FnOnce(&mut dyn Write) -> spinfall_workflow::Result<()> + Send {
-    move |w| w.write_all(s.as_bytes()).map_err(spinfall_workflow::output::io_error)
+    move |w| {
+        w.write_all(s.as_bytes())
+            .map_err(spinfall_workflow::output::io_error)
+    }
 }
 
 fn target(p: &Path) -> OutputTarget {
@@ -61,14 +64,27 @@ fn a_symlink_is_followed_and_stays_a_symlink() {
     let link = dir.path().join("link.csv");
     std::os::unix::fs::symlink(&real, &link).unwrap();
     write_file(&target(&link), text("new")).unwrap();
-    assert!(std::fs::symlink_metadata(&link).unwrap().file_type().is_symlink());
+    assert!(
+        std::fs::symlink_metadata(&link)
+            .unwrap()
+            .file_type()
+            .is_symlink()
+    );
     assert_eq!(std::fs::read_to_string(&real).unwrap(), "new");
     // A dangling link names the file to create.
     let dangling = dir.path().join("dangling.csv");
     std::os::unix::fs::symlink("real/new.csv", &dangling).unwrap();
     write_file(&target(&dangling), text("fresh")).unwrap();
-    assert!(std::fs::symlink_metadata(&dangling).unwrap().file_type().is_symlink());
-    assert_eq!(std::fs::read_to_string(real_dir.join("new.csv")).unwrap(), "fresh");
+    assert!(
+        std::fs::symlink_metadata(&dangling)
+            .unwrap()
+            .file_type()
+            .is_symlink()
+    );
+    assert_eq!(
+        std::fs::read_to_string(real_dir.join("new.csv")).unwrap(),
+        "fresh"
+    );
 }
 
 /// Issue 9, fault 2: a device node was replaced by a plain file; now it is written in place.
@@ -124,7 +140,10 @@ fn permissions_are_kept() {
     let fresh = dir.path().join("fresh.csv");
     write_file(&target(&fresh), text("x")).unwrap();
     let mode = std::fs::metadata(&fresh).unwrap().permissions().mode() & 0o777;
-    assert_ne!(mode, 0o600, "new files must be readable by the group as usual");
+    assert_ne!(
+        mode, 0o600,
+        "new files must be readable by the group as usual"
+    );
     assert_eq!(mode & 0o600, 0o600);
 }
 
@@ -206,7 +225,10 @@ fn a_set_is_all_or_nothing_and_its_manifest_verifies() {
         )
         .unwrap_err();
     assert!(e.to_string().contains("disk full"));
-    assert_eq!(std::fs::read_to_string(out.join("a.csv")).unwrap(), "first a");
+    assert_eq!(
+        std::fs::read_to_string(out.join("a.csv")).unwrap(),
+        "first a"
+    );
     assert_eq!(listing(&out), ["a.csv", "b.csv", "m.json"]);
     read_verified(&out, "m.json").unwrap();
     // A file changed behind the manifest's back is refused by name.
@@ -216,10 +238,18 @@ fn a_set_is_all_or_nothing_and_its_manifest_verifies() {
     // Cancelled before the renames: nothing changes either.
     let cancel = AtomicBool::new(true);
     let e = folder
-        .write_set("m.json", vec![SetFile::new("a.csv", text("third"))], &info, &cancel)
+        .write_set(
+            "m.json",
+            vec![SetFile::new("a.csv", text("third"))],
+            &info,
+            &cancel,
+        )
         .unwrap_err();
     assert!(e.is_cancelled());
-    assert_eq!(std::fs::read_to_string(out.join("a.csv")).unwrap(), "first a");
+    assert_eq!(
+        std::fs::read_to_string(out.join("a.csv")).unwrap(),
+        "first a"
+    );
 }
 
 /// SHA-256 through sha256sum (coreutils), an implementation outside the project.
@@ -252,7 +282,10 @@ fn the_next_run_removes_temporary_files_that_killed_runs_left() {
         )
         .unwrap();
     assert!(!stale.exists());
-    assert!(other.exists(), "a file Spinfall did not write is never deleted");
+    assert!(
+        other.exists(),
+        "a file Spinfall did not write is never deleted"
+    );
     // The same for single files.
     std::fs::write(&stale, "again").unwrap();
     write_file(&target(&dir.path().join("single.csv")), text("s")).unwrap();
@@ -294,7 +327,11 @@ fn concurrent_sets_into_one_folder_never_mix() {
     read_verified(dir.path(), "m.json").unwrap();
     let a = std::fs::read_to_string(dir.path().join("a.csv")).unwrap();
     let b = std::fs::read_to_string(dir.path().join("b.csv")).unwrap();
-    assert_eq!(a.split(' ').nth(1), b.split(' ').nth(1), "files of two runs mixed");
+    assert_eq!(
+        a.split(' ').nth(1),
+        b.split(' ').nth(1),
+        "files of two runs mixed"
+    );
     assert_eq!(listing(dir.path()), ["a.csv", "b.csv", "m.json"]);
 }
 

@@ -64,8 +64,9 @@ fn parse_xyz(fields: &[&str], whole: &str, label: &str) -> Result<Point3<f64>> {
 
 /// Reads a CSV of points with the header `x_m,y_m,z_m`; errors name the line.
 pub fn parse_points_csv(bytes: &[u8]) -> Result<FieldPoints> {
-    let text = spinfall_gravity::text::decode_utf8(bytes, spinfall_gravity::text::InvalidBytes::Refuse)
-        .map_err(|e| WorkflowError::Invalid(e.to_string()))?;
+    let text =
+        spinfall_gravity::text::decode_utf8(bytes, spinfall_gravity::text::InvalidBytes::Refuse)
+            .map_err(|e| WorkflowError::Invalid(e.to_string()))?;
     let mut reader = csv::ReaderBuilder::new()
         .has_headers(true)
         .trim(csv::Trim::All)

@@ -30,8 +30,15 @@ pub fn write_trajectories_csv(w: &mut dyn Write, reports: &[FlightReport]) -> Re
         ] {
             for s in samples {
                 csv.serialize((
-                    &r.id, frame, s.t_s, s.pos_m[0], s.pos_m[1], s.pos_m[2], s.vel_m_s[0],
-                    s.vel_m_s[1], s.vel_m_s[2],
+                    &r.id,
+                    frame,
+                    s.t_s,
+                    s.pos_m[0],
+                    s.pos_m[1],
+                    s.pos_m[2],
+                    s.vel_m_s[0],
+                    s.vel_m_s[1],
+                    s.vel_m_s[2],
                 ))
                 .map_err(csv_error)?;
             }

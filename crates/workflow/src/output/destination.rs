@@ -82,7 +82,7 @@ impl Destination {
 }
 
 /// The folder of `path` (`.` for a bare file name).
-pub(crate) fn parent_folder(path: &Path) -> PathBuf {
+pub fn parent_folder(path: &Path) -> PathBuf {
     match path.parent() {
         Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
         _ => PathBuf::from("."),
@@ -117,8 +117,8 @@ pub(crate) fn resolve(target: &OutputTarget) -> Result<Destination> {
         };
         let kind = meta.file_type();
         if kind.is_symlink() {
-            let link = std::fs::read_link(&real)
-                .map_err(|e| WorkflowError::output(&requested, &e))?;
+            let link =
+                std::fs::read_link(&real).map_err(|e| WorkflowError::output(&requested, &e))?;
             real = if link.is_absolute() {
                 link
             } else {

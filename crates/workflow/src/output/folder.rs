@@ -12,8 +12,7 @@ use super::destination::{Destination, OutputTarget, resolve};
 use super::lock::{LOCK_WAIT, lock_folder};
 use super::manifest::{MANIFEST_FORMAT, Manifest, ManifestFile, ManifestState, RunInfo};
 use super::staging::{
-    Fill, Staged, TEMP_PREFIX, TEMP_SUFFIX, Written, hex, probe_writable, stage,
-    write_in_place,
+    Fill, Staged, TEMP_PREFIX, TEMP_SUFFIX, Written, hex, probe_writable, stage, write_in_place,
 };
 use crate::error::{Result, WorkflowError};
 

@@ -31,7 +31,11 @@ impl Drop for FolderLock {
 /// Takes the lock of `folder`, waiting (up to `wait`) while another run writes there. Returns
 /// [`WorkflowError::Busy`] when the wait runs out and [`WorkflowError::Cancelled`] when
 /// `cancel` is set meanwhile.
-pub(crate) fn lock_folder(folder: &Path, wait: Duration, cancel: &AtomicBool) -> Result<FolderLock> {
+pub(crate) fn lock_folder(
+    folder: &Path,
+    wait: Duration,
+    cancel: &AtomicBool,
+) -> Result<FolderLock> {
     let path: PathBuf = folder.join(LOCK_FILE);
     let file = OpenOptions::new()
         .create(true)

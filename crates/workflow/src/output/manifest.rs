@@ -102,8 +102,8 @@ pub fn read_verified(folder: &Path, manifest_name: &str) -> Result<VerifiedSet> 
         path: path.clone(),
         error,
     })?;
-    let manifest: Manifest = serde_json::from_slice(&bytes)
-        .map_err(|e| bad(format!("not a Spinfall manifest: {e}")))?;
+    let manifest: Manifest =
+        serde_json::from_slice(&bytes).map_err(|e| bad(format!("not a Spinfall manifest: {e}")))?;
     if manifest.format != MANIFEST_FORMAT {
         return Err(bad(format!(
             "format is {}, expected {MANIFEST_FORMAT}",

@@ -24,11 +24,11 @@ mod staging;
 
 use std::sync::atomic::AtomicBool;
 
-pub use destination::OutputTarget;
+pub use destination::{OutputTarget, parent_folder};
 pub use folder::{OutputFolder, SetFile};
 pub use lock::{LOCK_FILE, LOCK_WAIT};
-pub use manifest::{Manifest, ManifestFile, ManifestState, RUN_MANIFEST, RunInfo, VerifiedSet};
 pub use manifest::read_verified;
+pub use manifest::{Manifest, ManifestFile, ManifestState, RUN_MANIFEST, RunInfo, VerifiedSet};
 pub use staging::{Fill, TEMP_PREFIX, TEMP_SUFFIX, Written};
 
 use destination::{Destination, resolve};

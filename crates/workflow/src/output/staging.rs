@@ -61,9 +61,7 @@ fn fill_into<W: Write>(sink: W, path: &Path, fill: Fill<'_>) -> Result<(Written,
         hash: Sha256::new(),
     };
     fill(&mut tally).map_err(|e| relabel(e, path))?;
-    tally
-        .flush()
-        .map_err(|e| WorkflowError::output(path, &e))?;
+    tally.flush().map_err(|e| WorkflowError::output(path, &e))?;
     let written = Written {
         bytes: tally.bytes,
         sha256: hex(&tally.hash.finalize()),
