@@ -847,6 +847,7 @@ impl SpinfallApp {
             self.run_after_body = true;
             return;
         }
+        self.params.write_into(&mut self.scenario.body);
         let loaded = LoadedScenario::in_memory(self.scenario.clone(), self.scenario_dir.clone());
         let launches = self.run_estimate().launches;
         self.run_job = Some(Job::spawn(
