@@ -3,9 +3,8 @@
 use std::process::ExitCode;
 
 use spinfall_gravity::{MassSpec, PolyhedronGravity};
-use spinfall_workflow::WorkflowError;
 use spinfall_workflow::export::{
-    FieldPoints, evaluate_field, parse_points_csv, write_field_samples,
+    FieldPoints, evaluate_field, read_points_file, write_field_samples,
 };
 use spinfall_workflow::output::{OutputTarget, write_file};
 use spinfall_workflow::shape::open_shape;
@@ -26,14 +25,7 @@ pub fn run(args: &GravityArgs) -> CmdResult<ExitCode> {
         }
     };
     let points = match &args.points {
-        Some(path) => {
-            let bytes = std::fs::read(path).map_err(|error| WorkflowError::Read {
-                path: path.clone(),
-                error,
-            })?;
-            parse_points_csv(&bytes)
-                .map_err(|e| CliError::input(format!("points file {}: {e}", path.display())))?
-        }
+        Some(path) => read_points_file(path)?,
         None => FieldPoints::from_args(&args.at)?,
     };
     let opened = open_shape(&shape_request(&args.shape))?;

@@ -11,22 +11,8 @@ use crate::cli::InfoArgs;
 use crate::exit::CmdResult;
 
 pub fn run(args: &InfoArgs) -> CmdResult<ExitCode> {
-    if let Some(d) = args.density {
-        // Checked before the model is read.
-        shape_info_density_ok(d)?;
-    }
     let opened = open_shape(&shape_request(&args.shape))?;
     let info = shape_info(&opened, args.density)?;
     write_file(&OutputTarget::Stdout, |w| write_shape_info(w, &info))?;
     Ok(ExitCode::SUCCESS)
-}
-
-fn shape_info_density_ok(d: f64) -> CmdResult<()> {
-    if d.is_finite() && d > 0.0 {
-        Ok(())
-    } else {
-        Err(crate::exit::CliError::input(format!(
-            "--density must be a positive number of kg/m^3, got {d}"
-        )))
-    }
 }

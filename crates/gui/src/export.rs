@@ -14,7 +14,7 @@ use spinfall_scene::{BodyView, ViewOptions};
 use spinfall_workflow::export::write_surface_map_csv;
 use spinfall_workflow::images::{ImageRequest, ViewChoice, png_summary, render_image, write_png};
 use spinfall_workflow::output::{OutputFolder, SetFile};
-use spinfall_workflow::run_files::{result_files, run_info};
+use spinfall_workflow::run_files::{ResultSelection, result_files, run_info};
 use spinfall_workflow::scenario_file::scenario_json;
 
 use crate::app::SpinfallApp;
@@ -265,13 +265,12 @@ fn run_export(
         }));
     }
     let prefix = format!("{stem}_");
-    if (req.results || req.trajectories) && !s.reports.is_empty() {
-        for file in result_files(&s.reports, &prefix) {
-            let is_trajectories = file.name.ends_with("trajectories.csv");
-            if (is_trajectories && req.trajectories) || (!is_trajectories && req.results) {
-                files.push(file);
-            }
-        }
+    if !s.reports.is_empty() {
+        let selection = ResultSelection {
+            results: req.results,
+            trajectories: req.trajectories,
+        };
+        files.extend(result_files(&s.reports, &prefix, selection));
     }
     if let Some(map) = &map {
         let body = s.view.body();

@@ -31,20 +31,48 @@ pub fn run_info(scenario: Option<&Scenario>, gravity: &GravityOptions) -> RunInf
     }
 }
 
-/// The result files of `reports`, named with `prefix` (empty for a run folder, `stem_` for an
+/// Which result files to write.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct ResultSelection {
+    /// results.json and results.csv (one record per launch).
+    pub results: bool,
+    /// trajectories.csv (every sample in both frames).
+    pub trajectories: bool,
+}
+
+impl ResultSelection {
+    /// Every result file.
+    pub const ALL: ResultSelection = ResultSelection {
+        results: true,
+        trajectories: true,
+    };
+}
+
+/// The result files of `reports` named with `prefix` (empty for a run folder, `stem_` for an
 /// export).
-pub fn result_files<'a>(reports: &'a [FlightReport], prefix: &str) -> Vec<SetFile<'a>> {
-    vec![
-        SetFile::new(format!("{prefix}{}", RUN_FILES[0]), move |w| {
-            write_results_json(w, reports)
-        }),
-        SetFile::new(format!("{prefix}{}", RUN_FILES[1]), move |w| {
-            write_results_csv(w, reports)
-        }),
-        SetFile::new(format!("{prefix}{}", RUN_FILES[2]), move |w| {
-            write_trajectories_csv(w, reports)
-        }),
-    ]
+pub fn result_files<'a>(
+    reports: &'a [FlightReport],
+    prefix: &str,
+    selection: ResultSelection,
+) -> Vec<SetFile<'a>> {
+    let mut files = Vec::new();
+    if selection.results {
+        files.push(SetFile::new(
+            format!("{prefix}{}", RUN_FILES[0]),
+            move |w| write_results_json(w, reports),
+        ));
+        files.push(SetFile::new(
+            format!("{prefix}{}", RUN_FILES[1]),
+            move |w| write_results_csv(w, reports),
+        ));
+    }
+    if selection.trajectories {
+        files.push(SetFile::new(
+            format!("{prefix}{}", RUN_FILES[2]),
+            move |w| write_trajectories_csv(w, reports),
+        ));
+    }
+    files
 }
 
 /// Writes a run folder: results.json, results.csv, trajectories.csv and the manifest.
@@ -55,7 +83,7 @@ pub fn write_run_folder(
 ) -> Result<Vec<PathBuf>> {
     folder.write_set(
         RUN_MANIFEST,
-        result_files(reports, ""),
+        result_files(reports, "", ResultSelection::ALL),
         info,
         &AtomicBool::new(false),
     )

@@ -8,7 +8,7 @@ use serde_json::json;
 use spinfall_gravity::text::excerpt;
 use spinfall_gravity::{FieldSample, PolyhedronGravity};
 
-use super::{csv_error, csv_writer};
+use super::{csv_error, csv_writer, rows};
 use crate::error::{Result, WorkflowError};
 
 /// Field points with the way each was given (for messages).
@@ -60,6 +60,16 @@ fn parse_xyz(fields: &[&str], whole: &str, label: &str) -> Result<Point3<f64>> {
         }
     }
     Ok(Point3::new(xyz[0], xyz[1], xyz[2]))
+}
+
+/// Reads a CSV file of points (see [`parse_points_csv`]); errors name the file.
+pub fn read_points_file(path: &std::path::Path) -> Result<FieldPoints> {
+    let bytes = std::fs::read(path).map_err(|error| WorkflowError::Read {
+        path: path.to_path_buf(),
+        error,
+    })?;
+    parse_points_csv(&bytes)
+        .map_err(|e| WorkflowError::Invalid(format!("points file {}: {e}", path.display())))
 }
 
 /// Reads a CSV of points with the header `x_m,y_m,z_m`; errors name the line.
@@ -128,11 +138,6 @@ pub fn evaluate_field(field: &PolyhedronGravity, points: &FieldPoints) -> Result
         }
     }
     Ok(samples)
-}
-
-/// The rows of a 3x3 matrix.
-fn rows(m: &nalgebra::Matrix3<f64>) -> [[f64; 3]; 3] {
-    [0, 1, 2].map(|i| [m[(i, 0)], m[(i, 1)], m[(i, 2)]])
 }
 
 /// Writes the samples as CSV (`as_csv`) or one JSON object per line.

@@ -5,7 +5,7 @@ use std::io::Write;
 
 use serde::Serialize;
 
-use super::json_error;
+use super::{json_error, rows};
 use crate::error::{Result, WorkflowError};
 use crate::shape::OpenedShape;
 
@@ -56,10 +56,6 @@ pub struct ShapeInfo {
     /// With a density: mass and inertia.
     #[serde(flatten, skip_serializing_if = "Option::is_none")]
     pub density: Option<DensityFigures>,
-}
-
-fn rows(m: &nalgebra::Matrix3<f64>) -> [[f64; 3]; 3] {
-    [0, 1, 2].map(|i| [m[(i, 0)], m[(i, 1)], m[(i, 2)]])
 }
 
 /// The figures of `shape`, with mass and inertia when `density_kg_m3` is given. A figure that

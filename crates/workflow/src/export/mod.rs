@@ -8,13 +8,20 @@ mod results;
 mod surface_map;
 mod trajectories;
 
-pub use field::{FieldPoints, evaluate_field, parse_points_csv, write_field_samples};
+pub use field::{
+    FieldPoints, evaluate_field, parse_points_csv, read_points_file, write_field_samples,
+};
 pub use info::{ShapeInfo, shape_info, write_shape_info};
 pub use results::{outcome_text, write_results_csv, write_results_json};
 pub use surface_map::write_surface_map_csv;
 pub use trajectories::write_trajectories_csv;
 
 use crate::error::WorkflowError;
+
+/// The rows of a 3x3 matrix (for JSON).
+pub(crate) fn rows(m: &nalgebra::Matrix3<f64>) -> [[f64; 3]; 3] {
+    [0, 1, 2].map(|i| [m[(i, 0)], m[(i, 1)], m[(i, 2)]])
+}
 
 /// A CSV writer over `w` that writes the header given, not one of its own.
 pub(crate) fn csv_writer(w: &mut dyn std::io::Write) -> csv::Writer<&mut dyn std::io::Write> {
