@@ -16,10 +16,40 @@
     reason = "component loops over several parallel arrays read clearer with an index"
 )]
 
+use std::future::Future;
+use std::pin::pin;
+use std::task::{Context, Poll, Waker};
+
 /// A first-order system `y' = f(t, y)` of fixed dimension `N`.
 pub trait OdeSystem<const N: usize> {
     /// The derivative at `(t, y)`.
     fn derivative(&mut self, t: f64, y: &[f64; N]) -> [f64; N];
+}
+
+/// A first-order system whose derivative may have to wait, e.g. for a gravity evaluation that
+/// is gathered with those of other integrations into one batch (see `flight`). The integrator's
+/// `*_async` methods take these; the plain methods take an [`OdeSystem`].
+pub trait AsyncOdeSystem<const N: usize> {
+    /// The derivative at `(t, y)`, once it is available.
+    fn derivative(&mut self, t: f64, y: &[f64; N]) -> impl Future<Output = [f64; N]> + Send;
+}
+
+/// An [`OdeSystem`] seen as an [`AsyncOdeSystem`] that never waits.
+struct Ready<'a, S>(&'a mut S);
+
+impl<const N: usize, S: OdeSystem<N>> AsyncOdeSystem<N> for Ready<'_, S> {
+    fn derivative(&mut self, t: f64, y: &[f64; N]) -> impl Future<Output = [f64; N]> + Send {
+        std::future::ready(self.0.derivative(t, y))
+    }
+}
+
+/// Runs a future built on [`Ready`] systems, which completes at its first poll.
+fn now<F: Future>(f: F) -> F::Output {
+    let mut f = pin!(f);
+    match f.as_mut().poll(&mut Context::from_waker(Waker::noop())) {
+        Poll::Ready(v) => v,
+        Poll::Pending => unreachable!("a plain OdeSystem never waits"),
+    }
 }
 
 /// Why the integrator could not take a step.
@@ -321,9 +351,20 @@ impl<const N: usize> Dop853<N> {
         tol: Tolerances<N>,
         h_max: f64,
     ) -> Self {
+        now(Self::new_async(&mut Ready(sys), t0, y0, tol, h_max))
+    }
+
+    /// [`Dop853::new`] for an [`AsyncOdeSystem`].
+    pub async fn new_async<S: AsyncOdeSystem<N>>(
+        sys: &mut S,
+        t0: f64,
+        y0: [f64; N],
+        tol: Tolerances<N>,
+        h_max: f64,
+    ) -> Self {
         // The placeholder first step is replaced by the heuristic at once.
-        let mut me = Self::with_first_step(sys, t0, y0, tol, 1e-6);
-        me.h_next = me.initial_step(sys, h_max.abs());
+        let mut me = Self::with_first_step_async(sys, t0, y0, tol, 1e-6).await;
+        me.h_next = me.initial_step(sys, h_max.abs()).await;
         me
     }
 
@@ -337,7 +378,24 @@ impl<const N: usize> Dop853<N> {
         tol: Tolerances<N>,
         h_first: f64,
     ) -> Self {
-        let f0 = sys.derivative(t0, &y0);
+        now(Self::with_first_step_async(
+            &mut Ready(sys),
+            t0,
+            y0,
+            tol,
+            h_first,
+        ))
+    }
+
+    /// [`Dop853::with_first_step`] for an [`AsyncOdeSystem`].
+    pub async fn with_first_step_async<S: AsyncOdeSystem<N>>(
+        sys: &mut S,
+        t0: f64,
+        y0: [f64; N],
+        tol: Tolerances<N>,
+        h_first: f64,
+    ) -> Self {
+        let f0 = sys.derivative(t0, &y0).await;
         Dop853 {
             tol,
             t: t0,
@@ -367,7 +425,7 @@ impl<const N: usize> Dop853<N> {
         self.tol.abs[i] + self.tol.rel * a.abs().max(b.abs())
     }
 
-    fn initial_step<S: OdeSystem<N>>(&self, sys: &mut S, h_max: f64) -> f64 {
+    async fn initial_step<S: AsyncOdeSystem<N>>(&self, sys: &mut S, h_max: f64) -> f64 {
         let (mut dnf, mut dny) = (0.0, 0.0);
         for i in 0..N {
             let sk = self.sk(i, self.y[i], 0.0);
@@ -384,7 +442,7 @@ impl<const N: usize> Dop853<N> {
         for i in 0..N {
             y1[i] += h * self.f[i];
         }
-        let f1 = sys.derivative(self.t + h, &y1);
+        let f1 = sys.derivative(self.t + h, &y1).await;
         let mut der2 = 0.0;
         for i in 0..N {
             let sk = self.sk(i, self.y[i], 0.0);
@@ -444,6 +502,15 @@ impl<const N: usize> Dop853<N> {
     /// Takes one accepted step (retrying with smaller steps after rejections) without passing
     /// `t_stop`. Returns an error if the step size underflows.
     pub fn step<S: OdeSystem<N>>(&mut self, sys: &mut S, t_stop: f64) -> Result<(), StepError> {
+        now(self.step_async(&mut Ready(sys), t_stop))
+    }
+
+    /// [`Dop853::step`] for an [`AsyncOdeSystem`].
+    pub async fn step_async<S: AsyncOdeSystem<N>>(
+        &mut self,
+        sys: &mut S,
+        t_stop: f64,
+    ) -> Result<(), StepError> {
         let mut h = self.h_next;
         loop {
             let remaining = t_stop - self.t;
@@ -459,7 +526,7 @@ impl<const N: usize> Dop853<N> {
                 [&A2, &A3, &A4, &A5, &A6, &A7, &A8, &A9, &A10, &A11, &A12];
             for (s, row) in rows.iter().enumerate() {
                 let ys = combine(&self.y, h, &self.k, row);
-                self.k[s + 1] = sys.derivative(self.t + C[s + 1] * h, &ys);
+                self.k[s + 1] = sys.derivative(self.t + C[s + 1] * h, &ys).await;
             }
             let y_new = combine(&self.y, h, &self.k, &B);
             // Error estimate (Hairer's combined 5th/3rd-order norm).
@@ -512,7 +579,7 @@ impl<const N: usize> Dop853<N> {
                 self.h_acc = h;
                 self.err_acc = err.max(1e-2);
                 self.err_old = err.max(1e-4);
-                let f_new = sys.derivative(self.t + h, &y_new);
+                let f_new = sys.derivative(self.t + h, &y_new).await;
                 self.k[12] = f_new;
                 self.t_old = self.t;
                 self.y_old = self.y;
@@ -546,13 +613,18 @@ impl<const N: usize> Dop853<N> {
     /// Computes the continuous extension of the last accepted step (three more evaluations).
     /// Cheap to call twice: the second call does nothing.
     pub fn prepare_dense<S: OdeSystem<N>>(&mut self, sys: &mut S) {
+        now(self.prepare_dense_async(&mut Ready(sys)));
+    }
+
+    /// [`Dop853::prepare_dense`] for an [`AsyncOdeSystem`].
+    pub async fn prepare_dense_async<S: AsyncOdeSystem<N>>(&mut self, sys: &mut S) {
         if self.dense.is_some() || self.h_done == 0.0 {
             return;
         }
         let h = self.h_done;
         for (s, row) in [(13usize, &A14), (14, &A15), (15, &A16)] {
             let ys = combine(&self.y_old, h, &self.k, row);
-            self.k[s] = sys.derivative(self.t_old + C[s] * h, &ys);
+            self.k[s] = sys.derivative(self.t_old + C[s] * h, &ys).await;
         }
         let mut r = [[0.0; N]; 8];
         for i in 0..N {

@@ -12,6 +12,18 @@ pub trait GravityModel: Send + Sync {
     fn potential_acceleration(&self, p_body_m: &Point3<f64>) -> (f64, Vector3<f64>);
     /// Gravitational parameter GM of the whole body, m^3/s^2.
     fn gm_m3_s2(&self) -> f64;
+    /// [`GravityModel::potential_acceleration`] for many points at once (`out[k]` for
+    /// `points[k]`; the slices have equal lengths). Models with a batch kernel override it; each
+    /// entry must equal the single-point value bit for bit, whatever the batch.
+    fn potential_acceleration_batch(
+        &self,
+        points: &[Point3<f64>],
+        out: &mut [(f64, Vector3<f64>)],
+    ) {
+        for (o, p) in out.iter_mut().zip(points) {
+            *o = self.potential_acceleration(p);
+        }
+    }
 }
 
 impl GravityModel for PolyhedronGravity {
@@ -20,6 +32,13 @@ impl GravityModel for PolyhedronGravity {
     }
     fn gm_m3_s2(&self) -> f64 {
         PolyhedronGravity::gm_m3_s2(self)
+    }
+    fn potential_acceleration_batch(
+        &self,
+        points: &[Point3<f64>],
+        out: &mut [(f64, Vector3<f64>)],
+    ) {
+        self.potential_acceleration_batch_into(points, out);
     }
 }
 

@@ -16,7 +16,7 @@
 //!   minimum is `sqrt(2U) - |w x r|` (launch along `w x r`). Both are clamped at 0;
 //! - radial sign: +1 where `g_eff . n > 0` (loose material lifts off), -1 otherwise.
 
-use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
+use std::sync::atomic::{AtomicBool, Ordering};
 
 use nalgebra::{Point3, Unit, Vector3};
 use rayon::prelude::*;
@@ -32,6 +32,16 @@ pub fn escape_speeds(
     normal: &Unit<Vector3<f64>>,
 ) -> (f64, f64) {
     let (u, _) = body.gravity.potential_acceleration(p_body_m);
+    escape_speeds_from(body, u, p_body_m, normal)
+}
+
+/// [`escape_speeds`] with the potential `u_m2_s2` at `p_body_m` already known.
+fn escape_speeds_from(
+    body: &Body,
+    u: f64,
+    p_body_m: &Point3<f64>,
+    normal: &Unit<Vector3<f64>>,
+) -> (f64, f64) {
     let wxr = body.omega_body_rad_s().cross(&p_body_m.coords);
     let b = normal.dot(&wxr);
     let disc = b * b - wxr.norm_squared() + 2.0 * u;
@@ -173,8 +183,12 @@ struct FaceValues {
     sign: f64,
 }
 
-/// Computes the map over every face in parallel. `progress(done, total)` is called from worker
-/// threads now and then; setting `cancel` stops the work with [`DynamicsError::Cancelled`].
+/// Faces evaluated per batch of the field (progress and cancel are checked between batches).
+const MAP_CHUNK_FACES: usize = 4096;
+
+/// Computes the map over every face, the field at the centroids in batches (the vector kernel
+/// in parallel over points). `progress(done, total)` is called after each batch; setting
+/// `cancel` stops the work with [`DynamicsError::Cancelled`].
 pub fn surface_map(
     body: &Body,
     progress: &(dyn Fn(usize, usize) + Sync),
@@ -182,55 +196,64 @@ pub fn surface_map(
 ) -> Result<SurfaceMap> {
     let n = body.shape.face_count();
     let w = body.omega_body_rad_s();
-    let done = AtomicUsize::new(0);
-    let step = (n / 100).max(1);
-    let values: Vec<Option<FaceValues>> = (0..n)
-        .into_par_iter()
-        .map(|f| {
-            if cancel.load(Ordering::Relaxed) {
-                return None;
-            }
-            let r = body.shape.face_centroid(f);
-            let nrm = body.shape.face_normal(f);
-            let (u, grav) = body.gravity.potential_acceleration(&r);
-            let wxr = w.cross(&r.coords);
-            let centrifugal = -w.cross(&wxr);
-            let acc = grav + centrifugal;
-            let g = acc.norm();
-            let slope = if g > 0.0 {
-                (-nrm.dot(&acc) / g).clamp(-1.0, 1.0).acos().to_degrees()
-            } else {
-                0.0
-            };
-            let (esc_n, esc_min) = escape_speeds(body, &r, &nrm);
-            let k = done.fetch_add(1, Ordering::Relaxed) + 1;
-            if k.is_multiple_of(step) || k == n {
-                progress(k, n);
-            }
-            Some(FaceValues {
-                acc: [acc.x, acc.y, acc.z],
-                slope,
-                geo: -(u + 0.5 * wxr.norm_squared()),
-                g,
-                esc_n,
-                esc_min,
-                sign: if acc.dot(&nrm) > 0.0 { 1.0 } else { -1.0 },
-            })
-        })
-        .collect();
-    if cancel.load(Ordering::Relaxed) {
-        return Err(DynamicsError::Cancelled);
-    }
     let mut map = SurfaceMap::default();
-    for v in values {
-        let v = v.ok_or(DynamicsError::Cancelled)?;
-        map.effective_acceleration_m_s2.push(v.acc);
-        map.slope_deg.push(v.slope);
-        map.geopotential_m2_s2.push(v.geo);
-        map.effective_gravity_m_s2.push(v.g);
-        map.escape_speed_normal_m_s.push(v.esc_n);
-        map.escape_speed_min_m_s.push(v.esc_min);
-        map.radial_sign.push(v.sign);
+    let mut centroids = Vec::with_capacity(MAP_CHUNK_FACES);
+    let mut field = vec![(0.0, Vector3::zeros()); MAP_CHUNK_FACES];
+    for start in (0..n).step_by(MAP_CHUNK_FACES) {
+        if cancel.load(Ordering::Relaxed) {
+            return Err(DynamicsError::Cancelled);
+        }
+        let faces = start..(start + MAP_CHUNK_FACES).min(n);
+        centroids.clear();
+        centroids.extend(faces.clone().map(|f| body.shape.face_centroid(f)));
+        let out = &mut field[..centroids.len()];
+        body.gravity.potential_acceleration_batch(&centroids, out);
+        let values: Vec<FaceValues> = faces
+            .into_par_iter()
+            .zip(centroids.par_iter().zip(out.par_iter()))
+            .map(|(f, (r, &(u, grav)))| face_values(body, &w, f, r, u, &grav))
+            .collect();
+        for v in values {
+            map.effective_acceleration_m_s2.push(v.acc);
+            map.slope_deg.push(v.slope);
+            map.geopotential_m2_s2.push(v.geo);
+            map.effective_gravity_m_s2.push(v.g);
+            map.escape_speed_normal_m_s.push(v.esc_n);
+            map.escape_speed_min_m_s.push(v.esc_min);
+            map.radial_sign.push(v.sign);
+        }
+        progress(map.len(), n);
     }
     Ok(map)
+}
+
+/// The map's values at face `f` (centroid `r`) from the field there.
+fn face_values(
+    body: &Body,
+    w: &Vector3<f64>,
+    f: usize,
+    r: &Point3<f64>,
+    u: f64,
+    grav: &Vector3<f64>,
+) -> FaceValues {
+    let nrm = body.shape.face_normal(f);
+    let wxr = w.cross(&r.coords);
+    let centrifugal = -w.cross(&wxr);
+    let acc = grav + centrifugal;
+    let g = acc.norm();
+    let slope = if g > 0.0 {
+        (-nrm.dot(&acc) / g).clamp(-1.0, 1.0).acos().to_degrees()
+    } else {
+        0.0
+    };
+    let (esc_n, esc_min) = escape_speeds_from(body, u, r, &nrm);
+    FaceValues {
+        acc: [acc.x, acc.y, acc.z],
+        slope,
+        geo: -(u + 0.5 * wxr.norm_squared()),
+        g,
+        esc_n,
+        esc_min,
+        sign: if acc.dot(&nrm) > 0.0 { 1.0 } else { -1.0 },
+    }
 }

@@ -346,12 +346,53 @@ fn step_limit_gives_failed_not_a_hang() {
     )
     .unwrap();
     let mut s = FlightSettings::default();
-    s.integrator.max_steps = 5;
+    s.integrator.max_steps = 2;
     let rep = fly(&body, &launch, &s, &AtomicBool::new(false));
     match rep.outcome {
         Outcome::Failed { reason } => assert!(reason.contains("step limit"), "{reason}"),
         o => panic!("{o:?}"),
     }
+}
+
+#[test]
+fn a_failed_launch_reports_the_state_it_reached_in_both_frames() {
+    // Regression (issue 9, fault 6): a launch stopped by the step limit used to report its
+    // launch state as its final state, a frame agreement of 0 and an end time it never reached.
+    // Now: the last state reached, the time it was reached, and both frames compared there.
+    let body = point_mass_sphere(1000.0, 2, 0.5, common::spin_z(6.0 * 3600.0));
+    let start = Point3::new(3000.0, 0.0, 0.0);
+    // A bound, inclined orbit: about the circular speed sqrt(GM / r) in the inertial frame,
+    // minus the frame's rotation w x r.
+    let v_inertial = Vector3::new(0.0, 0.0125, 0.002);
+    let v_body = v_inertial - body.omega_body_rad_s().cross(&start.coords);
+    let launch = LaunchState::from_state("c", start, v_body).unwrap();
+    let mut s = FlightSettings::default();
+    s.integrator.max_steps = 3;
+    let rep = fly(&body, &launch, &s, &AtomicBool::new(false));
+    assert!(
+        matches!(rep.outcome, Outcome::Failed { .. }),
+        "{:?}",
+        rep.outcome
+    );
+    // It moved, over a time it really flew (3 steps, each at most period / 8).
+    let end = Point3::from(Vector3::from(rep.final_pos_body_m));
+    assert!(
+        (end - start).norm() > 1.0,
+        "final state is the launch state"
+    );
+    assert!(rep.end_time_s > 0.0 && rep.end_time_s <= 3.0 * body.spin.period_s / 8.0 + 1e-9);
+    assert_eq!(rep.end_time_s, rep.trajectory_body.last().unwrap().t_s);
+    // The inertial frame was integrated to the same time: its end maps onto the body-frame
+    // end within the integrator's tolerance (an independent check of both), and the reported
+    // agreement is that distance, not a placeholder.
+    let inertial_end = body.pos_body_from_inertial(
+        rep.end_time_s,
+        &Point3::from(Vector3::from(rep.final_pos_inertial_m)),
+    );
+    let d = (inertial_end - end).norm();
+    assert!(d < 1e-3, "frames disagree by {d} m");
+    assert_eq!(rep.frame_agreement_m, d);
+    assert!(rep.frame_agreement_m > 0.0);
 }
 
 #[test]

@@ -35,15 +35,20 @@ fn thread_cpu_ns() -> Option<u64> {
     text.split_whitespace().next()?.parse().ok()
 }
 
-/// Prints CPU ns per facet per point of each kernel for one point, single thread.
+/// Prints CPU ns per facet per point of each kernel for one point, single thread (a one-thread
+/// pool, so big meshes do not share the point out over threads).
 fn cpu_time_per_facet(field: &PolyhedronGravity, p: &Point3<f64>) {
+    let pool = match rayon::ThreadPoolBuilder::new().num_threads(1).build() {
+        Ok(pool) => pool,
+        Err(e) => panic!("one-thread pool: {e}"),
+    };
+    pool.install(|| cpu_time_per_facet_here(field, p));
+}
+
+fn cpu_time_per_facet_here(field: &PolyhedronGravity, p: &Point3<f64>) {
     let faces = field.face_count() as f64;
     let reps = (20_000_000.0 / faces).ceil() as usize;
-    for kernel in [
-        DirectKernel::Scalar,
-        DirectKernel::Wide,
-        DirectKernel::Compiled,
-    ] {
+    for kernel in DirectKernel::all_available() {
         let Some(t0) = thread_cpu_ns() else { return };
         for _ in 0..reps {
             black_box(field.potential_acceleration_with_kernel(black_box(p), kernel));
@@ -66,28 +71,29 @@ fn process_cpu_ns() -> Option<u64> {
     Some(ticks * 10_000_000)
 }
 
-/// Prints wall and CPU ns per facet per point of the batch, and how many cores were busy.
-fn batch_figures(field: &PolyhedronGravity, points: &[Point3<f64>]) {
+/// Prints wall and CPU ns per facet per point of a batch (`what` names it), and how many
+/// cores were busy.
+fn batch_figures(field: &PolyhedronGravity, points: &[Point3<f64>], what: &str, run: impl Fn()) {
     let work = (field.face_count() * points.len()) as f64;
     let reps = (2.0e9 / work).ceil().max(2.0) as usize;
-    black_box(field.potential_acceleration_batch(points));
+    run();
     let cpu0 = process_cpu_ns();
     let start = Instant::now();
     for _ in 0..reps {
-        black_box(field.potential_acceleration_batch(black_box(points)));
+        run();
     }
     let wall = start.elapsed().as_nanos() as f64;
     let per = |ns: f64| ns / (reps as f64 * work);
     match (cpu0, process_cpu_ns()) {
         (Some(c0), Some(c1)) => eprintln!(
-            "  batch of {}: {:.2} ns wall, {:.2} ns CPU per facet per point ({:.2} cores busy)",
+            "  {what}, batch of {}: {:.2} ns wall, {:.2} ns CPU per facet per point ({:.2} cores busy)",
             points.len(),
             per(wall),
             per((c1 - c0) as f64),
             (c1 - c0) as f64 / wall
         ),
         _ => eprintln!(
-            "  batch of {}: {:.2} ns wall per facet per point",
+            "  {what}, batch of {}: {:.2} ns wall per facet per point",
             points.len(),
             per(wall)
         ),
@@ -97,17 +103,30 @@ fn batch_figures(field: &PolyhedronGravity, points: &[Point3<f64>]) {
 fn bench_field(c: &mut Criterion) {
     // SPINFALL_BENCH_QUICK=1: print the figures above, skip criterion's statistics.
     let quick = std::env::var("SPINFALL_BENCH_QUICK").is_ok_and(|v| v == "1");
-    for subdivisions in [4u32, 6, 7] {
-        let radius_m = 1000.0;
-        let mesh = generate::icosphere(radius_m, subdivisions);
+    let radius_m = 1000.0;
+    let meshes = [
+        (
+            "icosphere, 4 subdivisions",
+            generate::icosphere(radius_m, 4),
+        ),
+        (
+            "geodesic sphere, frequency 71",
+            generate::geodesic_sphere(radius_m, 71),
+        ),
+        (
+            "icosphere, 7 subdivisions",
+            generate::icosphere(radius_m, 7),
+        ),
+    ];
+    for (name, mesh) in meshes {
         let start = Instant::now();
         let field = match PolyhedronGravity::from_mesh(&mesh, MassSpec::DensityKgM3(2000.0)) {
             Ok(f) => f,
-            Err(e) => panic!("icosphere {subdivisions}: {e}"),
+            Err(e) => panic!("{name}: {e}"),
         };
         let faces = field.face_count();
         eprintln!(
-            "icosphere subdiv {subdivisions}: {faces} faces, built in {:.3} s, {:.1} bytes/facet",
+            "{name}: {faces} faces, built in {:.3} s, {:.1} bytes/facet",
             start.elapsed().as_secs_f64(),
             field.memory_bytes() as f64 / faces as f64
         );
@@ -119,7 +138,14 @@ fn bench_field(c: &mut Criterion) {
         );
         let points = points_around(radius_m, 256);
         cpu_time_per_facet(&field, &points[17]);
-        batch_figures(&field, &points);
+        batch_figures(&field, &points, "potential + acceleration", || {
+            black_box(field.potential_acceleration_batch(black_box(&points)));
+        });
+        // The full output of `spinfall gravity --points` (gradient tensor, Laplacian, inside).
+        let points_2000 = points_around(radius_m, 2000);
+        batch_figures(&field, &points_2000, "full output (evaluate_batch)", || {
+            black_box(field.evaluate_batch(black_box(&points_2000)));
+        });
         if quick {
             continue;
         }
@@ -143,11 +169,7 @@ fn bench_field(c: &mut Criterion) {
             b.iter(|| black_box(field.potential_acceleration(black_box(&p))))
         });
         if !big {
-            for kernel in [
-                DirectKernel::Scalar,
-                DirectKernel::Wide,
-                DirectKernel::Compiled,
-            ] {
+            for kernel in DirectKernel::all_available() {
                 group.bench_function(format!("single_point_kernel_{kernel:?}"), |b| {
                     b.iter(|| {
                         black_box(field.potential_acceleration_with_kernel(black_box(&p), kernel))

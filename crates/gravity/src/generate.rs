@@ -81,6 +81,88 @@ fn unit_icosphere(subdivisions: u32) -> (Vec<Vector3<f64>>, Vec<[u32; 3]>) {
     (vertices, faces)
 }
 
+/// A unit geodesic sphere of frequency `frequency`: every face of the regular icosahedron cut
+/// into `frequency^2` triangles by a triangular grid, every grid point pushed onto the unit
+/// sphere. `20 f^2` faces and `10 f^2 + 2` vertices, so face counts between the powers of four
+/// of [`unit_icosphere`] are reachable (f = 71: 100 820 faces; f = 224: 1 003 520).
+fn unit_geodesic(frequency: u32) -> (Vec<Vector3<f64>>, Vec<[u32; 3]>) {
+    let f = frequency.max(1);
+    let (corners, ico_faces) = unit_icosphere(0);
+    /// Where a grid point lies: an icosahedron corner, a point on an icosahedron edge (the
+    /// lower corner index first, steps from it), or inside one icosahedron face.
+    #[derive(Hash, PartialEq, Eq)]
+    enum Key {
+        Corner(u32),
+        Edge(u32, u32, u32),
+        Inside(usize, u32, u32),
+    }
+    let mut index: HashMap<Key, u32> = HashMap::new();
+    let mut vertices: Vec<Vector3<f64>> = Vec::with_capacity(10 * (f * f) as usize + 2);
+    let mut faces = Vec::with_capacity(20 * (f * f) as usize);
+    for (fi, &[a, b, c]) in ico_faces.iter().enumerate() {
+        let (pa, pb, pc) = (
+            corners[a as usize],
+            corners[b as usize],
+            corners[c as usize],
+        );
+        // Grid point (i, j): i steps from a towards b, j from a towards c.
+        let mut id = |i: u32, j: u32| -> u32 {
+            let k = f - i - j;
+            let key = if i == f {
+                Key::Corner(b)
+            } else if j == f {
+                Key::Corner(c)
+            } else if k == f {
+                Key::Corner(a)
+            } else if j == 0 {
+                if a < b {
+                    Key::Edge(a, b, i)
+                } else {
+                    Key::Edge(b, a, f - i)
+                }
+            } else if i == 0 {
+                if a < c {
+                    Key::Edge(a, c, j)
+                } else {
+                    Key::Edge(c, a, f - j)
+                }
+            } else if k == 0 {
+                if b < c {
+                    Key::Edge(b, c, j)
+                } else {
+                    Key::Edge(c, b, i)
+                }
+            } else {
+                Key::Inside(fi, i, j)
+            };
+            *index.entry(key).or_insert_with(|| {
+                let p = pa * (k as f64 / f as f64)
+                    + pb * (i as f64 / f as f64)
+                    + pc * (j as f64 / f as f64);
+                vertices.push(p.normalize());
+                (vertices.len() - 1) as u32
+            })
+        };
+        for i in 0..f {
+            for j in 0..f - i {
+                faces.push([id(i, j), id(i + 1, j), id(i, j + 1)]);
+                if i + j + 1 < f {
+                    faces.push([id(i + 1, j), id(i + 1, j + 1), id(i, j + 1)]);
+                }
+            }
+        }
+    }
+    (vertices, faces)
+}
+
+/// Sphere of radius `radius_m` as a geodesic sphere of frequency `frequency`: `20 f^2` faces
+/// (f = 71: 100 820 faces). Vertices lie on the sphere.
+pub fn geodesic_sphere(radius_m: f64, frequency: u32) -> Mesh {
+    let (dirs, faces) = unit_geodesic(frequency);
+    let vertices_m = dirs.iter().map(|u| Point3::from(u * radius_m)).collect();
+    Mesh { vertices_m, faces }
+}
+
 /// Sphere of radius `radius_m` as a subdivided icosahedron: `20 * 4^subdivisions` faces
 /// (n = 4 -> 5120, n = 6 -> 81 920, n = 7 -> 327 680). Vertices lie on the sphere.
 pub fn icosphere(radius_m: f64, subdivisions: u32) -> Mesh {
@@ -226,6 +308,18 @@ fn quillon_radius_m(u: &Vector3<f64>) -> f64 {
 /// Deterministic; not symmetric; its centre of mass is near, but not at, the origin.
 pub fn demo_body(subdivisions: u32) -> Mesh {
     let (dirs, faces) = unit_icosphere(subdivisions);
+    let vertices_m = dirs
+        .iter()
+        .map(|u| Point3::from(u * quillon_radius_m(u)))
+        .collect();
+    Mesh { vertices_m, faces }
+}
+
+/// The demo body "Quillon" (see [`demo_body`]) over a geodesic sphere of frequency
+/// `frequency` instead of an icosphere: `20 f^2` faces (f = 71: 100 820; f = 224: 1 003 520),
+/// for tests and benchmarks at the sizes of real shape models.
+pub fn demo_body_geodesic(frequency: u32) -> Mesh {
+    let (dirs, faces) = unit_geodesic(frequency);
     let vertices_m = dirs
         .iter()
         .map(|u| Point3::from(u * quillon_radius_m(u)))

@@ -1,4 +1,5 @@
-//! The vectorised kernel against the portable scalar one, and batches against single points.
+//! The vectorised kernel against the portable scalar one, and batches against single points
+//! (bit for bit: a point's value must not depend on how it is batched or threaded).
 
 use nalgebra::Point3;
 use rand::{Rng, SeedableRng};
@@ -23,8 +24,8 @@ fn random_points(field: &PolyhedronGravity, n: usize, seed: u64) -> Vec<Point3<f
 
 #[test]
 fn vector_kernel_matches_scalar_kernel() {
-    // The same sums in a different order with wide's polynomial atan2/ln: agreement to ~1e-13
-    // relative is what double precision allows for sums of this many terms.
+    // The same sums with polynomial atan2/ln (Cephes, fdlibm) and fused multiply-adds:
+    // agreement to ~1e-13 relative is what double precision allows for sums of this many terms.
     let field =
         PolyhedronGravity::from_mesh(&generate::demo_body(3), MassSpec::DensityKgM3(2100.0))
             .expect("valid input");
@@ -34,11 +35,7 @@ fn vector_kernel_matches_scalar_kernel() {
     for p in random_points(&field, 200, 7) {
         let (us, as_) = field.potential_acceleration_with_kernel(&p, DirectKernel::Scalar);
         let a_scale = as_.norm().max(a_floor);
-        for kernel in [
-            DirectKernel::Auto,
-            DirectKernel::Wide,
-            DirectKernel::Compiled,
-        ] {
+        for kernel in DirectKernel::all_available() {
             let (uv, av) = field.potential_acceleration_with_kernel(&p, kernel);
             assert!(
                 (us - uv).abs() < 1e-13 * us.abs(),
@@ -70,13 +67,26 @@ fn batches_equal_single_points() {
     let samples = field.evaluate_batch(&points);
     assert_eq!(batch.len(), points.len());
     for ((p, b), s) in points.iter().zip(&batch).zip(&samples) {
-        // Batches sum several points at once (lanes over points): same terms, same order of
-        // faces and edges, so they agree with single points to rounding (~1e-14 seen).
-        let (u, a) = field.potential_acceleration(p);
-        assert!((b.0 - u).abs() <= 1e-13 * u.abs(), "{p}: {} vs {u}", b.0);
-        assert!((b.1 - a).norm() <= 1e-13 * a.norm(), "{p}: {} vs {a}", b.1);
-        assert_eq!(*s, field.evaluate(p));
+        // Every path runs the same lane-wise kernel: identical bits, not just close values.
+        assert_eq!(*b, field.potential_acceleration(p), "{p}");
+        assert_eq!(*s, field.evaluate(p), "{p}");
+        assert_eq!(b.0, s.potential_m2_s2, "{p}");
+        assert_eq!(b.1, s.acceleration_m_s2, "{p}");
+        assert_eq!(s.inside, field.is_inside(p), "{p}");
     }
+    // Any sub-batch, in any order, on any thread count gives the same bits.
+    let mut reversed = points.clone();
+    reversed.reverse();
+    let rev = field.potential_acceleration_batch(&reversed[..37]);
+    for (k, r) in rev.iter().enumerate() {
+        assert_eq!(*r, batch[points.len() - 1 - k]);
+    }
+    let one_thread = rayon::ThreadPoolBuilder::new()
+        .num_threads(1)
+        .build()
+        .expect("pool");
+    let serial = one_thread.install(|| field.potential_acceleration_batch(&points));
+    assert_eq!(serial, batch);
     // The far point comes from the expansion in both.
     assert_eq!(batch[300], field.potential_acceleration(&points[300]));
 }
@@ -103,11 +113,7 @@ fn block_kernels_match_scalar_kernel() {
     );
     let a_floor = 0.1 * field.gm_m3_s2() / field.brillouin_radius_m().powi(2);
     let scalar = field.potential_acceleration_batch_direct(&points, DirectKernel::Scalar);
-    for kernel in [
-        DirectKernel::Wide,
-        DirectKernel::Compiled,
-        DirectKernel::Auto,
-    ] {
+    for kernel in DirectKernel::all_available() {
         let got = field.potential_acceleration_batch_direct(&points, kernel);
         assert_eq!(got.len(), points.len());
         for ((p, s), g) in points.iter().zip(&scalar).zip(&got) {
@@ -133,7 +139,8 @@ fn block_kernels_match_scalar_kernel() {
 
 #[test]
 fn split_single_point_matches_unsplit_sum() {
-    // Large meshes split one point's sums over threads; same sums in another order.
+    // Large meshes split one point's sums over threads by pieces, added in piece order: the
+    // same bits as the unsplit sum and as the point inside a batch.
     let field = PolyhedronGravity::from_mesh(
         &generate::icosphere(1000.0, 6),
         MassSpec::DensityKgM3(1000.0),
@@ -143,12 +150,17 @@ fn split_single_point_matches_unsplit_sum() {
     for p in random_points(&field, 4, 3) {
         let split = field.potential_acceleration(&p);
         let whole = field.potential_acceleration_direct(&p);
-        assert!((split.0 - whole.0).abs() < 1e-13 * whole.0.abs());
-        assert!((split.1 - whole.1).norm() < 1e-13 * whole.1.norm().max(1e-6));
-        // Reproducible: the parts are added in a fixed order.
-        assert_eq!(split, field.potential_acceleration(&p));
-        let batch = field.potential_acceleration_batch(&[p]);
-        assert!((batch[0].0 - whole.0).abs() < 1e-13 * whole.0.abs());
+        assert_eq!(split, whole);
+        let batch = field.potential_acceleration_batch(&[p, p * 0.9, p * 0.8]);
+        assert_eq!(batch[0], whole);
+        let one_thread = rayon::ThreadPoolBuilder::new()
+            .num_threads(1)
+            .build()
+            .expect("pool");
+        assert_eq!(
+            one_thread.install(|| field.potential_acceleration(&p)),
+            whole
+        );
     }
 }
 

@@ -22,6 +22,40 @@ fn icosphere_face_counts_follow_20_times_4_to_the_n() {
 }
 
 #[test]
+fn geodesic_spheres_have_20_f_squared_faces_and_close_up() {
+    // Frequency-f geodesic sphere (each icosahedron face cut by a triangular grid, common
+    // practice): 20 f^2 faces; Euler's formula V - E + F = 2 with E = 3F/2 checks that grid
+    // points on shared icosahedron edges are shared, not duplicated.
+    for f in [1u32, 2, 3, 5, 7] {
+        let mesh = generate::geodesic_sphere(1.0, f);
+        let nf = mesh.faces.len();
+        assert_eq!(nf, 20 * (f * f) as usize);
+        assert_eq!(
+            mesh.vertices_m.len() as i64 - (3 * nf / 2) as i64 + nf as i64,
+            2
+        );
+        // Closed and outward: the validator repairs nothing; volume below the sphere's.
+        let shape = model(mesh);
+        let v = shape.mass_properties().volume_m3;
+        assert!(
+            v > 0.0 && v < 4.0 / 3.0 * std::f64::consts::PI,
+            "f = {f}: volume {v}"
+        );
+    }
+    // Frequency 2 is the icosphere with one subdivision (same vertex set).
+    let (g, i) = (
+        generate::geodesic_sphere(1.0, 2),
+        generate::icosphere(1.0, 1),
+    );
+    assert_eq!(g.vertices_m.len(), i.vertices_m.len());
+    assert_eq!(
+        model(generate::demo_body_geodesic(4)).face_count(),
+        20 * 16,
+        "the demo body takes any frequency"
+    );
+}
+
+#[test]
 fn generated_meshes_are_valid_and_outward() {
     for mesh in [
         generate::icosphere(1000.0, 2),

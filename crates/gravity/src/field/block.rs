@@ -1,21 +1,19 @@
-//! Several field points at once: the face and edge sums with the vector lanes running over
-//! [`BLOCK`] field points instead of over faces.
+//! Blocks of [`BLOCK`] field points, and the choice of kernel instantiation that evaluates them.
 //!
-//! Each face and edge is then read once per block of points (its constants broadcast to all
-//! lanes), so the tables stream from memory once per [`BLOCK`] points, and the per-vertex vectors
-//! of the points sit side by side in one [`Oct`] per vertex: a face reads its three corners as
-//! whole vectors with no shuffles. Same formulas and surface rules as the scalar kernel in
-//! `direct`; batches of points use this (see [`super::PolyhedronGravity::potential_acceleration_batch`]).
+//! A block holds, for every vertex of a piece of the mesh, the vectors `r = v - p` from the
+//! block's points to the vertex and their lengths ([`Oct`]). The kernel (`kernel::sums`) runs
+//! over a block with the lanes over its points: eight at once with AVX-512, four at a time with
+//! AVX2 or the portable type. A block with four points or fewer is run four lanes wide only.
 
 use multiversion::multiversion;
-use multiversion::target::match_target;
-use wide::f64x4;
 
-use super::direct::{EDGE_FLOOR, PLANE_TOL, Sums};
-use super::lanes::Lanes;
+use super::DirectKernel;
+use super::direct::Sums;
+use super::kernel;
+use super::lanes::Portable;
 use super::tables::Tables;
 
-/// Number of field points evaluated together.
+/// Number of field points in a block.
 pub(crate) const BLOCK: usize = 8;
 
 /// Vertex vectors `r = v - p` of one vertex for the [`BLOCK`] field points of a block:
@@ -24,8 +22,8 @@ pub(crate) const BLOCK: usize = 8;
 #[repr(C, align(64))]
 pub(crate) struct Oct(pub [f64; 4 * BLOCK]);
 
-/// Fills `out` with one [`Oct`] per vertex of `t` for the field points `p` (same rounding as
-/// `direct::fill_vertices`: no fused operations).
+/// Fills `out` with one [`Oct`] per vertex of `t` for the field points `p` (no fused operations,
+/// so every compiled variant rounds the same way).
 #[multiversion(targets("x86_64+avx512f+avx512dq+avx2+fma+avx", "x86_64+avx2+fma+avx"))]
 pub(crate) fn fill_block(t: &Tables, p: &[[f64; 3]; BLOCK], out: &mut Vec<Oct>) {
     out.clear();
@@ -42,122 +40,72 @@ pub(crate) fn fill_block(t: &Tables, p: &[[f64; 3]; BLOCK], out: &mut Vec<Oct>) 
     }));
 }
 
-/// Lanes `4 half .. 4 half + 4` of the vertex `i`'s block.
-#[inline(always)]
-fn vertex<L: Lanes>(q: &[Oct], i: u32, half: usize) -> [L; 4] {
-    let q = &q[i as usize].0;
-    std::array::from_fn(|k| {
-        let o = BLOCK * k + 4 * half;
-        let s = &q[o..o + 4];
-        L::from_array([s[0], s[1], s[2], s[3]])
-    })
+/// A kernel instantiation that runs blocks.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) enum Runner {
+    /// The four-lane portable type.
+    Portable,
+    /// Explicit intrinsics.
+    #[cfg(target_arch = "x86_64")]
+    X86(super::x86::Isa),
 }
 
-#[inline(always)]
-fn dot3<L: Lanes>(a: &[L], b: &[L]) -> L {
-    a[0] * b[0] + a[1] * b[1] + a[2] * b[2]
-}
-
-/// The block kernel over any [`Lanes`] type, for the points in lanes `4 half .. 4 half + 4`.
-#[inline(always)]
-fn kernel<L: Lanes>(t: &Tables, q: &[Oct], half: usize) -> [Sums; 4] {
-    let zero = L::splat(0.0);
-    let two = L::splat(2.0);
-    let plane_tol = L::splat(PLANE_TOL);
-    let mut omega_acc = zero;
-    let mut face_u = zero;
-    let mut face_a = [zero; 3];
-    for f in 0..t.face_count {
-        let r1: [L; 4] = vertex(q, t.f0[f], half);
-        let r2: [L; 4] = vertex(q, t.f1[f], half);
-        let r3: [L; 4] = vertex(q, t.f2[f], half);
-        let cx = r2[1] * r3[2] - r2[2] * r3[1];
-        let cy = r2[2] * r3[0] - r2[0] * r3[2];
-        let cz = r2[0] * r3[1] - r2[1] * r3[0];
-        let num = dot3(&r1, &[cx, cy, cz]);
-        let d12 = dot3(&r1, &r2);
-        let d23 = dot3(&r2, &r3);
-        let d31 = dot3(&r3, &r1);
-        let prod = r1[3] * r2[3] * r3[3];
-        let den = prod + r1[3] * d23 + r2[3] * d31 + r3[3] * d12;
-        let tol = plane_tol * prod;
-        let omega = L::zero_where_both_le(num.abs(), tol, den, tol, two * num.atan2(den));
-        let n = [L::splat(t.nx[f]), L::splat(t.ny[f]), L::splat(t.nz[f])];
-        let h = dot3(&n, &r1);
-        let h_omega = h * omega;
-        omega_acc += omega;
-        face_u += h * h_omega;
-        for k in 0..3 {
-            face_a[k] += n[k] * h_omega;
+impl Runner {
+    /// The instantiation a [`DirectKernel`] names (`Auto`: the widest this CPU runs), or `None`
+    /// when the CPU lacks its features. `Scalar` has no block runner.
+    pub fn for_kernel(kernel: DirectKernel) -> Option<Runner> {
+        #[cfg(target_arch = "x86_64")]
+        use super::x86::Isa;
+        match kernel {
+            DirectKernel::Scalar => None,
+            DirectKernel::Portable => Some(Runner::Portable),
+            #[cfg(target_arch = "x86_64")]
+            DirectKernel::Avx512 => Isa::Avx512.detected().then_some(Runner::X86(Isa::Avx512)),
+            #[cfg(target_arch = "x86_64")]
+            DirectKernel::Avx2 => Isa::Avx2.detected().then_some(Runner::X86(Isa::Avx2)),
+            #[cfg(not(target_arch = "x86_64"))]
+            DirectKernel::Avx512 | DirectKernel::Avx2 => None,
+            DirectKernel::Auto => Some(*best()),
         }
     }
-    let floor = L::splat(EDGE_FLOOR);
-    let mut edge_u = zero;
-    let mut edge_a = [zero; 3];
-    let d = &t.edge_dyad;
-    for e in 0..t.edge_count {
-        let ra: [L; 4] = vertex(q, t.e0[e], half);
-        let rb: [L; 4] = vertex(q, t.e1[e], half);
-        let len = L::splat(t.edge_len_m[e]);
-        let sum = ra[3] + rb[3];
-        let l = L::edge_log(sum, len, floor);
-        let m = d.get(e).map(L::splat);
-        let er = [
-            dot3(&[m[0], m[1], m[2]], &ra),
-            dot3(&[m[1], m[3], m[4]], &ra),
-            dot3(&[m[2], m[4], m[5]], &ra),
-        ];
-        edge_u += dot3(&ra, &er) * l;
-        for k in 0..3 {
-            edge_a[k] += er[k] * l;
+
+    /// Sums of the first `points` (1 to [`BLOCK`]) points of the blocks `q` over the whole of
+    /// `t`; the other entries of the result are left at their defaults.
+    pub fn run<const GRAD: bool>(self, t: &Tables, q: &[Oct], points: usize) -> [Sums; BLOCK] {
+        let mut out = [Sums::default(); BLOCK];
+        let halves = if points <= BLOCK / 2 { 1 } else { 2 };
+        match self {
+            Runner::Portable => {
+                kernel::sums::<Portable, GRAD, 0>(t, q, &mut out);
+                if halves == 2 {
+                    kernel::sums::<Portable, GRAD, 4>(t, q, &mut out);
+                }
+            }
+            #[cfg(target_arch = "x86_64")]
+            Runner::X86(isa) => {
+                if halves == 1 {
+                    isa.sums_half::<GRAD>(t, q, &mut out);
+                } else {
+                    isa.sums_block::<GRAD>(t, q, &mut out);
+                }
+            }
         }
+        out
     }
-    let omega = omega_acc.to_array();
-    let (face_u, edge_u) = (face_u.to_array(), edge_u.to_array());
-    let face_a = face_a.map(L::to_array);
-    let edge_a = edge_a.map(L::to_array);
-    std::array::from_fn(|k| Sums {
-        edge_u: edge_u[k],
-        edge_a: [edge_a[0][k], edge_a[1][k], edge_a[2][k]],
-        face_u: face_u[k],
-        face_a: [face_a[0][k], face_a[1][k], face_a[2][k]],
-        omega: omega[k],
-        ..Sums::default()
+}
+
+/// The widest instantiation this CPU runs (detected once).
+fn best() -> &'static Runner {
+    static BEST: std::sync::OnceLock<Runner> = std::sync::OnceLock::new();
+    BEST.get_or_init(|| {
+        #[cfg(target_arch = "x86_64")]
+        for isa in [super::x86::Isa::Avx512, super::x86::Isa::Avx2] {
+            if isa.detected() {
+                return Runner::X86(isa);
+            }
+        }
+        Runner::Portable
     })
-}
-
-/// Two four-point halves side by side.
-fn join(lo: [Sums; 4], hi: [Sums; 4]) -> [Sums; BLOCK] {
-    std::array::from_fn(|k| if k < 4 { lo[k] } else { hi[k - 4] })
-}
-
-/// The block kernel on `wide::f64x4` (portable), two halves.
-pub(crate) fn sums_block_wide(t: &Tables, q: &[Oct]) -> [Sums; BLOCK] {
-    join(kernel::<f64x4>(t, q, 0), kernel::<f64x4>(t, q, 1))
-}
-
-/// The block kernel with explicit AVX2+FMA (two four-lane halves) on x86-64 CPUs that have
-/// them, `wide` elsewhere.
-#[multiversion(targets("x86_64+avx2+fma+avx"))]
-pub(crate) fn sums_block_avx2(t: &Tables, q: &[Oct]) -> [Sums; BLOCK] {
-    match_target! {
-        "x86_64+avx2+fma" => join(
-            super::avx2::sums_half(t, q, 0),
-            super::avx2::sums_half(t, q, 1),
-        ),
-        _ => sums_block_wide(t, q),
-    }
-}
-
-/// Potential and acceleration sums of the [`BLOCK`] points whose vertex blocks are `q`, with the
-/// fastest kernel for this CPU (chosen at run time): explicit AVX-512 (eight lanes), else
-/// AVX2+FMA, else `wide`.
-#[multiversion(targets("x86_64+avx512f+avx512dq+avx2+fma+avx"))]
-pub(crate) fn sums_block(t: &Tables, q: &[Oct]) -> [Sums; BLOCK] {
-    match_target! {
-        "x86_64+avx512f+avx512dq" => super::avx512::sums8(t, q),
-        _ => sums_block_avx2(t, q),
-    }
 }
 
 #[cfg(test)]
@@ -165,16 +113,10 @@ mod tests {
     use super::*;
     use crate::field::direct;
 
-    #[test]
-    fn every_block_kernel_matches_the_scalar_kernel() {
-        // Each compiled variant this CPU can run (AVX-512, AVX2 halves, wide) against the
-        // portable scalar reference, point by point; a point exactly on a vertex and one on an
-        // edge midpoint exercise the surface rules.
-        let mesh = crate::generate::demo_body(2);
-        let (t, _) = Tables::build(&mesh).expect("valid");
+    fn test_points(mesh: &crate::Mesh) -> [[f64; 3]; BLOCK] {
         let [a, b, _] = mesh.triangle(5);
         let mid = (a.coords + b.coords) * 0.5;
-        let pts: [[f64; 3]; BLOCK] = [
+        [
             [3000.0, 100.0, -200.0],
             [a.x, a.y, a.z],
             [mid.x, mid.y, mid.z],
@@ -183,40 +125,96 @@ mod tests {
             [150.0, -4000.0, 60.0],
             [2500.0, 2000.0, -3000.0],
             [500.0, 500.0, 500.0],
-        ];
+        ]
+    }
+
+    fn runners() -> Vec<Runner> {
+        [
+            DirectKernel::Portable,
+            DirectKernel::Avx2,
+            DirectKernel::Avx512,
+        ]
+        .into_iter()
+        .filter_map(Runner::for_kernel)
+        .collect()
+    }
+
+    #[test]
+    fn every_instantiation_matches_the_scalar_kernel() {
+        // Each instantiation this CPU can run against the portable scalar reference, point by
+        // point; a vertex and an edge midpoint exercise the surface rules.
+        let mesh = crate::generate::demo_body(2);
+        let (t, _) = Tables::build(&mesh).expect("valid");
+        let pts = test_points(&mesh);
         let mut q = Vec::new();
         fill_block(&t, &pts, &mut q);
-        let kernels = [
-            sums_block(&t, &q),
-            sums_block_avx2(&t, &q),
-            sums_block_wide(&t, &q),
-        ];
         let mut rv = Vec::new();
-        for (k, p) in pts.iter().enumerate() {
-            direct::fill_vertices(&t, *p, &mut rv);
-            let want = direct::sums_scalar::<false>(&t, &rv);
-            let scale_u = want.edge_u.abs().max(want.face_u.abs());
-            let scale_a = want
-                .edge_a
-                .iter()
-                .chain(&want.face_a)
-                .fold(0.0f64, |m, v| m.max(v.abs()));
-            for got in &kernels {
+        for runner in runners() {
+            let got = runner.run::<true>(&t, &q, BLOCK);
+            for (k, p) in pts.iter().enumerate() {
+                direct::fill_vertices(&t, *p, &mut rv);
+                let want = direct::sums_scalar::<true>(&t, &rv);
                 let got = &got[k];
-                assert!((got.edge_u - want.edge_u).abs() <= 1e-13 * scale_u, "{p:?}");
-                assert!((got.face_u - want.face_u).abs() <= 1e-13 * scale_u, "{p:?}");
-                assert!((got.omega - want.omega).abs() <= 1e-13, "{p:?}");
+                let scale_u = want.edge_u.abs().max(want.face_u.abs());
+                let scale_a = want
+                    .edge_a
+                    .iter()
+                    .chain(&want.face_a)
+                    .fold(0.0f64, |m, v| m.max(v.abs()));
+                let scale_g = want
+                    .edge_grad
+                    .iter()
+                    .chain(&want.face_grad)
+                    .fold(0.0f64, |m, v| m.max(v.abs()));
+                let close = |a: f64, b: f64, scale: f64| (a - b).abs() <= 1e-13 * scale;
+                assert!(close(got.edge_u, want.edge_u, scale_u), "{runner:?} {p:?}");
+                assert!(close(got.face_u, want.face_u, scale_u), "{runner:?} {p:?}");
+                assert!(close(got.omega, want.omega, 1.0), "{runner:?} {p:?}");
                 for j in 0..3 {
-                    assert!(
-                        (got.edge_a[j] - want.edge_a[j]).abs() <= 1e-13 * scale_a,
-                        "{p:?}"
-                    );
-                    assert!(
-                        (got.face_a[j] - want.face_a[j]).abs() <= 1e-13 * scale_a,
-                        "{p:?}"
-                    );
+                    assert!(close(got.edge_a[j], want.edge_a[j], scale_a), "{p:?}");
+                    assert!(close(got.face_a[j], want.face_a[j], scale_a), "{p:?}");
+                }
+                for j in 0..6 {
+                    assert!(close(got.edge_grad[j], want.edge_grad[j], scale_g), "{p:?}");
+                    assert!(close(got.face_grad[j], want.face_grad[j], scale_g), "{p:?}");
                 }
             }
+        }
+    }
+
+    #[test]
+    fn a_point_gets_the_same_bits_in_any_lane_width_and_any_neighbours() {
+        // The reproducibility promise of the kernel: a point's sums are identical whether it
+        // runs eight or four lanes wide, in any lane, beside any other points.
+        let mesh = crate::generate::demo_body(2);
+        let (t, _) = Tables::build(&mesh).expect("valid");
+        let pts = test_points(&mesh);
+        let mut q = Vec::new();
+        for runner in runners() {
+            fill_block(&t, &pts, &mut q);
+            let full = runner.run::<true>(&t, &q, BLOCK);
+            for (k, p) in pts.iter().enumerate() {
+                // The same point alone, in lane 0 of a four-lane pass, neighbours all itself.
+                fill_block(&t, &[*p; BLOCK], &mut q);
+                let alone = runner.run::<true>(&t, &q, 1);
+                assert_eq!(full[k], alone[0], "{runner:?} point {k}");
+            }
+            let mut shuffled = pts;
+            shuffled.reverse();
+            fill_block(&t, &shuffled, &mut q);
+            let rev = runner.run::<true>(&t, &q, BLOCK);
+            for k in 0..BLOCK {
+                assert_eq!(full[k], rev[BLOCK - 1 - k], "{runner:?} point {k}");
+            }
+        }
+        // Across instantiations that fuse the same way (AVX2 and AVX-512) too.
+        let fused: Vec<_> = runners()
+            .into_iter()
+            .filter(|r| *r != Runner::Portable)
+            .collect();
+        fill_block(&t, &pts, &mut q);
+        if let [a, b, ..] = fused[..] {
+            assert_eq!(a.run::<true>(&t, &q, BLOCK), b.run::<true>(&t, &q, BLOCK));
         }
     }
 }

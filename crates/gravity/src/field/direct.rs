@@ -151,16 +151,3 @@ pub(crate) fn sums_scalar<const GRAD: bool>(t: &Tables, rv: &[[f64; 4]]) -> Sums
     }
     s
 }
-
-/// Sum of the solid angles only (inside test).
-pub(crate) fn omega_sum(t: &Tables, rv: &[[f64; 4]]) -> f64 {
-    (0..t.face_count)
-        .map(|f| {
-            solid_angle(
-                &rv[t.f0[f] as usize],
-                &rv[t.f1[f] as usize],
-                &rv[t.f2[f] as usize],
-            )
-        })
-        .sum()
-}

@@ -67,17 +67,15 @@
 //!
 //! Spinfall is for research and planning, not flight-certified.
 
-#[cfg(target_arch = "x86_64")]
-mod avx2;
-#[cfg(target_arch = "x86_64")]
-mod avx512;
 mod block;
 mod direct;
 pub mod exterior;
+mod kernel;
 mod lanes;
 mod mass_spec;
-mod simd;
 mod tables;
+#[cfg(target_arch = "x86_64")]
+mod x86;
 
 use nalgebra::{Matrix3, Point3, Vector3};
 use rayon::prelude::*;
@@ -116,18 +114,52 @@ pub enum FieldMethod {
     Exterior,
 }
 
-/// Implementations of the direct face/edge sums (all give the same field).
+/// Implementations of the direct face/edge sums (all give the same field to ~1e-13).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
 pub enum DirectKernel {
-    /// The fastest for this CPU (what the field uses).
+    /// The widest vector kernel this CPU runs (what the field uses).
     Auto,
-    /// Portable scalar loop, the reference.
+    /// Portable scalar loop, point by point: the reference.
     Scalar,
-    /// `wide::f64x4` explicit SIMD as compiled (SSE2 on a default x86-64 build).
-    Wide,
-    /// Chosen at run time by CPU features: explicit AVX-512 or AVX2+FMA intrinsics on x86-64
-    /// CPUs that have them, else `wide`.
-    Compiled,
+    /// The vector kernel on a portable four-lane type (vectorised for the build's target: SSE2
+    /// on a default x86-64 build); no fused multiply-adds.
+    Portable,
+    /// The vector kernel on explicit AVX2+FMA intrinsics, four lanes (x86-64 CPUs with them).
+    Avx2,
+    /// The vector kernel on explicit AVX-512 intrinsics, eight lanes (x86-64 CPUs with them).
+    Avx512,
+}
+
+impl DirectKernel {
+    /// Whether this CPU runs the kernel.
+    pub fn available(self) -> bool {
+        self == DirectKernel::Scalar || block::Runner::for_kernel(self).is_some()
+    }
+
+    /// Every kernel this CPU runs.
+    pub fn all_available() -> Vec<DirectKernel> {
+        [
+            DirectKernel::Auto,
+            DirectKernel::Scalar,
+            DirectKernel::Portable,
+            DirectKernel::Avx2,
+            DirectKernel::Avx512,
+        ]
+        .into_iter()
+        .filter(|k| k.available())
+        .collect()
+    }
+
+    /// The vector kernel [`DirectKernel::Auto`] stands for on this CPU.
+    pub fn auto_resolved() -> DirectKernel {
+        match block::Runner::for_kernel(DirectKernel::Auto) {
+            #[cfg(target_arch = "x86_64")]
+            Some(block::Runner::X86(x86::Isa::Avx512)) => DirectKernel::Avx512,
+            #[cfg(target_arch = "x86_64")]
+            Some(block::Runner::X86(x86::Isa::Avx2)) => DirectKernel::Avx2,
+            _ => DirectKernel::Portable,
+        }
+    }
 }
 
 /// Multiple of the Brillouin radius beyond which the exterior expansion replaces the direct sum.
@@ -141,6 +173,9 @@ pub const SPLIT_FACE_COUNT: usize = 32_768;
 
 /// Number of field points a batch evaluates together in one pass over the mesh.
 pub const BATCH_BLOCK: usize = block::BLOCK;
+
+/// Lanes a lone point is copied to (the kernel then runs its narrowest width, four lanes).
+const BLOCK_POINTS: usize = block::BLOCK;
 
 /// Faces per piece of the mesh: the tables of a piece (~190 bytes per face) and its per-vertex
 /// scratch for a block of eight points (~130 bytes per face) stay in a core's L2 cache while a
@@ -302,39 +337,17 @@ impl PolyhedronGravity {
         G_SI * self.density_kg_m3
     }
 
-    /// Potential (m^2/s^2) and acceleration (m/s^2) at `p` (metres, body frame): the hot path.
+    /// Potential (m^2/s^2) and acceleration (m/s^2) at `p` (metres, body frame).
     ///
-    /// On meshes of [`SPLIT_FACE_COUNT`] faces or more the face and edge sums of this one point
-    /// are split over rayon's threads (by pieces of [`PIECE_FACES`] faces, added in a fixed
-    /// order, so the result does not depend on the thread count); batches parallelise over
-    /// points instead.
+    /// Bit-for-bit equal to the same point's entry in any batch
+    /// ([`Self::potential_acceleration_batch`]): every path runs the same vector kernel with
+    /// the lanes over points (a lone point runs four lanes wide). On meshes of
+    /// [`SPLIT_FACE_COUNT`] faces or more the sums of a lone point are split over rayon's
+    /// threads by pieces of [`PIECE_FACES`] faces, added in a fixed order.
     pub fn potential_acceleration(&self, p: &Point3<f64>) -> (f64, Vector3<f64>) {
-        if self.face_count() >= SPLIT_FACE_COUNT && self.method_at(p) == FieldMethod::Direct {
-            let parts: Vec<direct::Sums> = self
-                .pieces
-                .par_iter()
-                .map_init(Vec::new, |scratch, piece| {
-                    direct::fill_vertices(piece, [p.x, p.y, p.z], scratch);
-                    simd::sums(piece, scratch)
-                })
-                .collect();
-            let s = parts
-                .iter()
-                .fold(direct::Sums::default(), |acc, s| acc.merged(s));
-            return self.combine(&s);
-        }
-        let mut scratch = Vec::new();
-        self.potential_acceleration_with(p, &mut scratch)
-    }
-
-    fn potential_acceleration_with(
-        &self,
-        p: &Point3<f64>,
-        scratch: &mut Vec<[f64; 4]>,
-    ) -> (f64, Vector3<f64>) {
         match self.method_at(p) {
             FieldMethod::Exterior => self.exterior_potential_acceleration(p),
-            FieldMethod::Direct => self.direct_simd(p, scratch),
+            FieldMethod::Direct => self.combine(&self.point_sums::<false>(p, DirectKernel::Auto)),
         }
     }
 
@@ -343,11 +356,6 @@ impl PolyhedronGravity {
             .exterior()
             .potential_acceleration(&(p - self.center_of_mass_m));
         (self.g_rho() * u, self.g_rho() * a)
-    }
-
-    fn direct_simd(&self, p: &Point3<f64>, scratch: &mut Vec<[f64; 4]>) -> (f64, Vector3<f64>) {
-        let s = self.piece_sums(p, scratch, simd::sums);
-        self.combine(&s)
     }
 
     fn combine(&self, s: &direct::Sums) -> (f64, Vector3<f64>) {
@@ -361,48 +369,72 @@ impl PolyhedronGravity {
         (u, a)
     }
 
-    /// Potential and acceleration from the direct face/edge sums at any distance, using the
-    /// vectorised kernel (for verification and accuracy studies; [`Self::potential_acceleration`]
-    /// picks the better method).
+    fn sample_from(&self, s: &direct::Sums) -> FieldSample {
+        let g = self.g_rho();
+        let (u, a) = self.combine(s);
+        let d: [f64; 6] = std::array::from_fn(|k| g * (s.edge_grad[k] - s.face_grad[k]));
+        FieldSample {
+            potential_m2_s2: u,
+            acceleration_m_s2: a,
+            gradient_s2: Matrix3::new(d[0], d[1], d[2], d[1], d[3], d[4], d[2], d[4], d[5]),
+            laplacian_s2: -g * s.omega,
+            inside: is_inside_omega(s.omega),
+        }
+    }
+
+    /// The direct sums at one point with `kernel`, piece by piece in piece order (pieces shared
+    /// out over threads on big meshes; the order of the additions stays the same).
+    fn point_sums<const GRAD: bool>(&self, p: &Point3<f64>, kernel: DirectKernel) -> direct::Sums {
+        let piece = |piece: &Tables, rv: &mut Vec<[f64; 4]>, q: &mut Vec<block::Oct>| {
+            match block::Runner::for_kernel(kernel) {
+                Some(runner) => {
+                    block::fill_block(piece, &[[p.x, p.y, p.z]; BLOCK_POINTS], q);
+                    runner.run::<GRAD>(piece, q, 1)[0]
+                }
+                None => {
+                    direct::fill_vertices(piece, [p.x, p.y, p.z], rv);
+                    direct::sums_scalar::<GRAD>(piece, rv)
+                }
+            }
+        };
+        let parts: Vec<direct::Sums> = if self.face_count >= SPLIT_FACE_COUNT {
+            self.pieces
+                .par_iter()
+                .map_init(|| (Vec::new(), Vec::new()), |(rv, q), t| piece(t, rv, q))
+                .collect()
+        } else {
+            let (mut rv, mut q) = (Vec::new(), Vec::new());
+            self.pieces
+                .iter()
+                .map(|t| piece(t, &mut rv, &mut q))
+                .collect()
+        };
+        parts
+            .iter()
+            .fold(direct::Sums::default(), |acc, s| acc.merged(s))
+    }
+
+    /// Potential and acceleration from the direct face/edge sums at any distance (for
+    /// verification and accuracy studies; [`Self::potential_acceleration`] picks the better
+    /// method).
     pub fn potential_acceleration_direct(&self, p: &Point3<f64>) -> (f64, Vector3<f64>) {
-        let mut scratch = Vec::new();
-        self.direct_simd(p, &mut scratch)
+        self.combine(&self.point_sums::<false>(p, DirectKernel::Auto))
     }
 
     /// As [`Self::potential_acceleration_direct`] with a chosen kernel (for tests and
-    /// benchmarks; all kernels agree to ~1e-14 relative).
+    /// benchmarks). Falls back to [`DirectKernel::Auto`] if this CPU lacks the kernel's
+    /// features (see [`DirectKernel::available`]).
     pub fn potential_acceleration_with_kernel(
         &self,
         p: &Point3<f64>,
         kernel: DirectKernel,
     ) -> (f64, Vector3<f64>) {
-        let mut scratch = Vec::new();
-        let s = match kernel {
-            DirectKernel::Auto => self.piece_sums(p, &mut scratch, simd::sums),
-            DirectKernel::Scalar => self.piece_sums(p, &mut scratch, direct::sums_scalar::<false>),
-            DirectKernel::Wide => self.piece_sums(p, &mut scratch, |t, rv| {
-                simd::sums_wide(t, rv, &simd::Span::all(t))
-            }),
-            DirectKernel::Compiled => self.piece_sums(p, &mut scratch, |t, rv| {
-                simd::sums_compiled(t, rv, &simd::Span::all(t))
-            }),
+        let kernel = if kernel.available() {
+            kernel
+        } else {
+            DirectKernel::Auto
         };
-        self.combine(&s)
-    }
-
-    /// `sums` of every piece of the mesh for the field point `p`, added in piece order.
-    fn piece_sums(
-        &self,
-        p: &Point3<f64>,
-        scratch: &mut Vec<[f64; 4]>,
-        sums: impl Fn(&Tables, &[[f64; 4]]) -> direct::Sums,
-    ) -> direct::Sums {
-        self.pieces
-            .iter()
-            .fold(direct::Sums::default(), |acc, piece| {
-                direct::fill_vertices(piece, [p.x, p.y, p.z], scratch);
-                acc.merged(&sums(piece, scratch))
-            })
+        self.combine(&self.point_sums::<false>(p, kernel))
     }
 
     /// Potential and acceleration from the exterior expansion at any distance (for
@@ -415,27 +447,14 @@ impl PolyhedronGravity {
     ///
     /// Beyond [`Self::switch_radius_m`] everything comes from the exterior expansion: the
     /// gradient tensor by fourth-order central differences of its acceleration (step `1e-3 r`,
-    /// relative error ~1e-11), the Laplacian is 0 and the point is outside.
+    /// relative error ~1e-11), the Laplacian is 0 and the point is outside. Bit-for-bit equal
+    /// to the point's entry in [`Self::evaluate_batch`].
     pub fn evaluate(&self, p: &Point3<f64>) -> FieldSample {
-        let mut scratch = Vec::new();
-        self.evaluate_with(p, &mut scratch)
-    }
-
-    fn evaluate_with(&self, p: &Point3<f64>, scratch: &mut Vec<[f64; 4]>) -> FieldSample {
-        if self.method_at(p) == FieldMethod::Exterior {
-            return self.evaluate_exterior(p);
-        }
-        let s = self.piece_sums(p, scratch, direct::sums_scalar::<true>);
-        let g = self.g_rho();
-        let (u, a) = self.combine(&s);
-        let d: [f64; 6] = std::array::from_fn(|k| g * (s.edge_grad[k] - s.face_grad[k]));
-        let gradient_s2 = Matrix3::new(d[0], d[1], d[2], d[1], d[3], d[4], d[2], d[4], d[5]);
-        FieldSample {
-            potential_m2_s2: u,
-            acceleration_m_s2: a,
-            gradient_s2,
-            laplacian_s2: -g * s.omega,
-            inside: is_inside_omega(s.omega),
+        match self.method_at(p) {
+            FieldMethod::Exterior => self.evaluate_exterior(p),
+            FieldMethod::Direct => {
+                self.sample_from(&self.point_sums::<true>(p, DirectKernel::Auto))
+            }
         }
     }
 
@@ -464,98 +483,155 @@ impl PolyhedronGravity {
     /// Whether `p` is strictly inside the body: the face solid angles sum to `4 pi` inside and
     /// 0 outside; the test is `sum > 2 pi + 1e-9`. Points on flat parts of the surface (sum `2
     /// pi`) and on convex edges and corners count as outside; on concave edges or corners, where
-    /// the body fills more than half the view, as inside.
+    /// the body fills more than half the view, as inside. The same rule (and the same sums) as
+    /// [`FieldSample::inside`].
     pub fn is_inside(&self, p: &Point3<f64>) -> bool {
         if self.method_at(p) == FieldMethod::Exterior {
             return false;
         }
-        let mut scratch = Vec::new();
-        let s = self.piece_sums(p, &mut scratch, |t, rv| direct::Sums {
-            omega: direct::omega_sum(t, rv),
-            ..direct::Sums::default()
-        });
-        is_inside_omega(s.omega)
+        is_inside_omega(self.point_sums::<false>(p, DirectKernel::Auto).omega)
     }
 
-    /// [`Self::potential_acceleration`] for many points, in parallel over points.
-    ///
-    /// Points needing the direct sums are evaluated [`BATCH_BLOCK`] at a time (one pass over
-    /// the face and edge tables per block, the vector lanes running over points), so the
-    /// results agree with single-point calls to rounding (~1e-14 relative), not bit for bit.
+    /// [`Self::potential_acceleration`] for many points, in parallel over points; each entry is
+    /// bit-for-bit what a lone call gives, whatever the batch and the thread count.
     pub fn potential_acceleration_batch(&self, points: &[Point3<f64>]) -> Vec<(f64, Vector3<f64>)> {
-        self.batch_with(points, DirectKernel::Auto, true)
+        let mut out = vec![(0.0, Vector3::zeros()); points.len()];
+        self.potential_acceleration_batch_into(points, &mut out);
+        out
+    }
+
+    /// [`Self::potential_acceleration_batch`] into a caller's buffer (`out.len()` must equal
+    /// `points.len()`).
+    ///
+    /// # Panics
+    /// If the lengths differ.
+    pub fn potential_acceleration_batch_into(
+        &self,
+        points: &[Point3<f64>],
+        out: &mut [(f64, Vector3<f64>)],
+    ) {
+        assert_eq!(points.len(), out.len(), "one output per point");
+        self.batch_with::<false, _>(
+            points,
+            DirectKernel::Auto,
+            true,
+            out,
+            |me, s| me.combine(s),
+            |me, p| me.exterior_potential_acceleration(p),
+        );
     }
 
     /// As [`Self::potential_acceleration_batch`], with the direct sums at every distance and a
-    /// chosen kernel (for tests and benchmarks): [`DirectKernel::Scalar`] runs point by point,
-    /// [`DirectKernel::Wide`] the block kernel on `wide`, the others the fastest block kernel.
+    /// chosen kernel (for tests and benchmarks; [`DirectKernel::Scalar`] runs point by point).
+    /// Falls back to [`DirectKernel::Auto`] if this CPU lacks the kernel.
     pub fn potential_acceleration_batch_direct(
         &self,
         points: &[Point3<f64>],
         kernel: DirectKernel,
     ) -> Vec<(f64, Vector3<f64>)> {
-        self.batch_with(points, kernel, false)
+        let kernel = if kernel.available() {
+            kernel
+        } else {
+            DirectKernel::Auto
+        };
+        let mut out = vec![(0.0, Vector3::zeros()); points.len()];
+        self.batch_with::<false, _>(
+            points,
+            kernel,
+            false,
+            &mut out,
+            |me, s| me.combine(s),
+            |me, p| me.exterior_potential_acceleration(p),
+        );
+        out
     }
 
-    fn batch_with(
+    /// [`Self::evaluate`] for many points (gradient tensor, Laplacian and inside flag with the
+    /// vector kernel), in parallel over points; bit-for-bit what lone calls give.
+    pub fn evaluate_batch(&self, points: &[Point3<f64>]) -> Vec<FieldSample> {
+        let blank = FieldSample {
+            potential_m2_s2: 0.0,
+            acceleration_m_s2: Vector3::zeros(),
+            gradient_s2: Matrix3::zeros(),
+            laplacian_s2: 0.0,
+            inside: false,
+        };
+        let mut out = vec![blank; points.len()];
+        self.batch_with::<true, _>(
+            points,
+            DirectKernel::Auto,
+            true,
+            &mut out,
+            |me, s| me.sample_from(s),
+            |me, p| me.evaluate_exterior(p),
+        );
+        out
+    }
+
+    /// Runs a batch: points beyond the switch radius (with `far_by_expansion`) through `far`,
+    /// the others through the direct sums in groups, converted by `finish`.
+    fn batch_with<const GRAD: bool, T: Send>(
         &self,
         points: &[Point3<f64>],
         kernel: DirectKernel,
         far_by_expansion: bool,
-    ) -> Vec<(f64, Vector3<f64>)> {
-        let far = |p: &Point3<f64>| far_by_expansion && self.method_at(p) == FieldMethod::Exterior;
-        let direct: Vec<usize> = (0..points.len()).filter(|&k| !far(&points[k])).collect();
-        let mut out: Vec<(f64, Vector3<f64>)> = points
-            .par_iter()
-            .map(|p| {
-                if far(p) {
-                    self.exterior_potential_acceleration(p)
-                } else {
-                    (0.0, Vector3::zeros())
-                }
-            })
-            .collect();
-        if kernel == DirectKernel::Scalar || (direct.len() == 1 && far_by_expansion) {
-            let single: Vec<_> = direct
+        out: &mut [T],
+        finish: impl Fn(&Self, &direct::Sums) -> T + Sync,
+        far: impl Fn(&Self, &Point3<f64>) -> T + Sync,
+    ) {
+        let is_far =
+            |p: &Point3<f64>| far_by_expansion && self.method_at(p) == FieldMethod::Exterior;
+        let direct_idx: Vec<usize> = (0..points.len()).filter(|&k| !is_far(&points[k])).collect();
+        out.par_iter_mut()
+            .zip(points.par_iter())
+            .filter(|(_, p)| is_far(p))
+            .for_each(|(o, p)| *o = far(self, p));
+        if direct_idx.is_empty() {
+            return;
+        }
+        let runner = block::Runner::for_kernel(kernel);
+        let sums: Vec<direct::Sums> = if direct_idx.len() == 1 || runner.is_none() {
+            // A lone point: its sums split over the threads by pieces (same bits as in a
+            // group); the scalar reference runs point by point.
+            direct_idx
                 .par_iter()
-                .map(|&k| match kernel {
-                    DirectKernel::Scalar => {
-                        self.potential_acceleration_with_kernel(&points[k], kernel)
-                    }
-                    _ => self.potential_acceleration(&points[k]),
+                .map(|&k| self.point_sums::<GRAD>(&points[k], kernel))
+                .collect()
+        } else {
+            // Groups of points small enough to keep every thread busy, large enough that each
+            // piece of the mesh is read from memory once for many points.
+            let threads = rayon::current_num_threads().max(1);
+            let group = (direct_idx.len().div_ceil(2 * threads))
+                .clamp(BATCH_BLOCK, GROUP_POINTS)
+                .next_multiple_of(BATCH_BLOCK);
+            let runner = runner.unwrap_or(block::Runner::Portable);
+            direct_idx
+                .par_chunks(group)
+                .map_init(Vec::new, |scratch, idx| {
+                    self.group_sums::<GRAD>(points, idx, runner, scratch)
                 })
-                .collect();
-            for (&k, v) in direct.iter().zip(single) {
-                out[k] = v;
-            }
-            return out;
-        }
-        // Groups of points small enough to keep both threads busy, large enough that each
-        // piece of the mesh is read from memory once for many points.
-        let threads = rayon::current_num_threads().max(1);
-        let group = (direct.len().div_ceil(2 * threads))
-            .clamp(BATCH_BLOCK, GROUP_POINTS)
-            .next_multiple_of(BATCH_BLOCK);
-        let sums: Vec<direct::Sums> = direct
-            .par_chunks(group)
-            .map_init(Vec::new, |scratch, idx| {
-                self.group_sums(points, idx, kernel, scratch)
-            })
-            .flat_map_iter(|v| v)
+                .flat_map_iter(|v| v)
+                .collect()
+        };
+        // Scatter the results back to their points.
+        let mut slots: Vec<Option<&mut T>> = out.iter_mut().map(Some).collect();
+        let targets: Vec<&mut T> = direct_idx
+            .iter()
+            .map(|&k| slots[k].take().expect("each index once"))
             .collect();
-        for (&k, s) in direct.iter().zip(&sums) {
-            out[k] = self.combine(s);
-        }
-        out
+        targets
+            .into_par_iter()
+            .zip(sums.par_iter())
+            .for_each(|(o, s)| *o = finish(self, s));
     }
 
     /// Direct sums of the points `points[idx]`, piece by piece of the mesh, [`BATCH_BLOCK`]
     /// points at a time (the lanes of the last block that have no point repeat its first one).
-    fn group_sums(
+    fn group_sums<const GRAD: bool>(
         &self,
         points: &[Point3<f64>],
         idx: &[usize],
-        kernel: DirectKernel,
+        runner: block::Runner,
         scratch: &mut Vec<block::Oct>,
     ) -> Vec<direct::Sums> {
         let mut sums = vec![direct::Sums::default(); idx.len()];
@@ -566,11 +642,7 @@ impl PolyhedronGravity {
                     [p.x, p.y, p.z]
                 });
                 block::fill_block(piece, &pts, scratch);
-                let part = if kernel == DirectKernel::Wide {
-                    block::sums_block_wide(piece, scratch)
-                } else {
-                    block::sums_block(piece, scratch)
-                };
+                let part = runner.run::<GRAD>(piece, scratch, block_idx.len());
                 let base = b * BATCH_BLOCK;
                 for (j, s) in part.iter().take(block_idx.len()).enumerate() {
                     sums[base + j] = sums[base + j].merged(s);
@@ -579,25 +651,10 @@ impl PolyhedronGravity {
         }
         sums
     }
-
-    /// [`Self::evaluate`] for many points, in parallel over points.
-    pub fn evaluate_batch(&self, points: &[Point3<f64>]) -> Vec<FieldSample> {
-        points
-            .par_iter()
-            .with_min_len(batch_min_len(self.face_count()))
-            .map_init(Vec::new, |scratch, p| self.evaluate_with(p, scratch))
-            .collect()
-    }
 }
 
 /// The inside rule shared by [`PolyhedronGravity::evaluate`] and
 /// [`PolyhedronGravity::is_inside`].
 fn is_inside_omega(omega_sum_sr: f64) -> bool {
     omega_sum_sr > 2.0 * std::f64::consts::PI + 1e-9
-}
-
-/// Smallest number of points per rayon task: enough work (~50k face evaluations) to pay for
-/// the task.
-fn batch_min_len(face_count: usize) -> usize {
-    (50_000 / face_count.max(1)).clamp(1, 1024)
 }

@@ -13,9 +13,6 @@ use nalgebra::{Matrix3, Point3, Vector3};
 use crate::error::{GravityError, Result};
 use crate::mesh::Mesh;
 
-/// Width of the vector kernels (f64 lanes).
-pub(crate) const LANES: usize = 4;
-
 /// Padding of the face and edge tables: a multiple of every kernel's width (4 or 8 lanes).
 pub(crate) const PAD: usize = 8;
 

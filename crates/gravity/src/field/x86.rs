@@ -1,0 +1,284 @@
+//! Explicit AVX2+FMA (four lanes) and AVX-512 (eight lanes) vectors for the field kernel, and
+//! the entry points compiled for those features (x86-64 only).
+//!
+//! # Safety
+//! The intrinsics are `unsafe` to call where the compiler cannot see the CPU feature. Every
+//! method of [`Avx2`] and [`Avx512`] is `#[inline(always)]` and these types are private to the
+//! field module: they are only used inside the generic kernel as instantiated by the
+//! `#[target_feature]` functions below, and those are only called (through [`Isa`]) after
+//! `is_x86_feature_detected!` confirmed the features at run time. That is the whole
+//! argument for the `unsafe` blocks of this module.
+
+#![allow(
+    unsafe_code,
+    reason = "SIMD intrinsics behind run-time feature detection; see the module's Safety section"
+)]
+
+use std::arch::x86_64::*;
+use std::ops::{Add, Div, Mul, Sub};
+
+use super::block::Oct;
+use super::direct::Sums;
+use super::kernel;
+use super::lanes::{Lanes, MAX_LANES};
+use super::tables::Tables;
+
+/// Four f64 lanes in an AVX register.
+#[derive(Debug, Clone, Copy)]
+pub(crate) struct Avx2(__m256d);
+
+/// Eight f64 lanes in an AVX-512 register.
+#[derive(Debug, Clone, Copy)]
+pub(crate) struct Avx512(__m512d);
+
+macro_rules! ops {
+    ($t:ident, $add:ident, $sub:ident, $mul:ident, $div:ident) => {
+        impl Add for $t {
+            type Output = $t;
+            #[inline(always)]
+            fn add(self, b: $t) -> $t {
+                // SAFETY: see the module's Safety section.
+                $t(unsafe { $add(self.0, b.0) })
+            }
+        }
+        impl Sub for $t {
+            type Output = $t;
+            #[inline(always)]
+            fn sub(self, b: $t) -> $t {
+                // SAFETY: see the module's Safety section.
+                $t(unsafe { $sub(self.0, b.0) })
+            }
+        }
+        impl Mul for $t {
+            type Output = $t;
+            #[inline(always)]
+            fn mul(self, b: $t) -> $t {
+                // SAFETY: see the module's Safety section.
+                $t(unsafe { $mul(self.0, b.0) })
+            }
+        }
+        impl Div for $t {
+            type Output = $t;
+            #[inline(always)]
+            fn div(self, b: $t) -> $t {
+                // SAFETY: see the module's Safety section.
+                $t(unsafe { $div(self.0, b.0) })
+            }
+        }
+    };
+}
+ops!(
+    Avx2,
+    _mm256_add_pd,
+    _mm256_sub_pd,
+    _mm256_mul_pd,
+    _mm256_div_pd
+);
+ops!(
+    Avx512,
+    _mm512_add_pd,
+    _mm512_sub_pd,
+    _mm512_mul_pd,
+    _mm512_div_pd
+);
+
+// SAFETY (every `unsafe` block below): see the module's Safety section.
+impl Lanes for Avx2 {
+    const N: usize = 4;
+    type Mask = __m256d;
+    #[inline(always)]
+    fn splat(v: f64) -> Self {
+        Avx2(unsafe { _mm256_set1_pd(v) })
+    }
+    #[inline(always)]
+    fn load(s: &[f64]) -> Self {
+        let s = &s[..4];
+        Avx2(unsafe { _mm256_loadu_pd(s.as_ptr()) })
+    }
+    #[inline(always)]
+    fn to_array(self) -> [f64; MAX_LANES] {
+        let mut out = [0.0; MAX_LANES];
+        unsafe { _mm256_storeu_pd(out.as_mut_ptr(), self.0) };
+        out
+    }
+    #[inline(always)]
+    fn mul_add(self, b: Self, c: Self) -> Self {
+        Avx2(unsafe { _mm256_fmadd_pd(self.0, b.0, c.0) })
+    }
+    #[inline(always)]
+    fn mul_sub(self, b: Self, c: Self) -> Self {
+        Avx2(unsafe { _mm256_fmsub_pd(self.0, b.0, c.0) })
+    }
+    #[inline(always)]
+    fn abs(self) -> Self {
+        Avx2(unsafe { _mm256_andnot_pd(_mm256_set1_pd(-0.0), self.0) })
+    }
+    #[inline(always)]
+    fn max(self, b: Self) -> Self {
+        Avx2(unsafe { _mm256_max_pd(self.0, b.0) })
+    }
+    #[inline(always)]
+    fn min(self, b: Self) -> Self {
+        Avx2(unsafe { _mm256_min_pd(self.0, b.0) })
+    }
+    #[inline(always)]
+    fn gt(self, b: Self) -> __m256d {
+        unsafe { _mm256_cmp_pd::<_CMP_GT_OQ>(self.0, b.0) }
+    }
+    #[inline(always)]
+    fn le(self, b: Self) -> __m256d {
+        unsafe { _mm256_cmp_pd::<_CMP_LE_OQ>(self.0, b.0) }
+    }
+    #[inline(always)]
+    fn eq(self, b: Self) -> __m256d {
+        unsafe { _mm256_cmp_pd::<_CMP_EQ_OQ>(self.0, b.0) }
+    }
+    #[inline(always)]
+    fn and(a: __m256d, b: __m256d) -> __m256d {
+        unsafe { _mm256_and_pd(a, b) }
+    }
+    #[inline(always)]
+    fn select(m: __m256d, a: Self, b: Self) -> Self {
+        Avx2(unsafe { _mm256_blendv_pd(b.0, a.0, m) })
+    }
+    #[inline(always)]
+    fn all(m: __m256d) -> bool {
+        unsafe { _mm256_movemask_pd(m) == 0b1111 }
+    }
+    #[inline(always)]
+    fn sign_set(self) -> __m256d {
+        // blendv reads only the sign bit of the mask lanes.
+        self.0
+    }
+    #[inline(always)]
+    fn flip_sign_by(self, y: Self) -> Self {
+        Avx2(unsafe { _mm256_xor_pd(self.0, _mm256_and_pd(y.0, _mm256_set1_pd(-0.0))) })
+    }
+}
+
+impl Lanes for Avx512 {
+    const N: usize = 8;
+    type Mask = __mmask8;
+    #[inline(always)]
+    fn splat(v: f64) -> Self {
+        Avx512(unsafe { _mm512_set1_pd(v) })
+    }
+    #[inline(always)]
+    fn load(s: &[f64]) -> Self {
+        let s = &s[..8];
+        Avx512(unsafe { _mm512_loadu_pd(s.as_ptr()) })
+    }
+    #[inline(always)]
+    fn to_array(self) -> [f64; MAX_LANES] {
+        let mut out = [0.0; MAX_LANES];
+        unsafe { _mm512_storeu_pd(out.as_mut_ptr(), self.0) };
+        out
+    }
+    #[inline(always)]
+    fn mul_add(self, b: Self, c: Self) -> Self {
+        Avx512(unsafe { _mm512_fmadd_pd(self.0, b.0, c.0) })
+    }
+    #[inline(always)]
+    fn mul_sub(self, b: Self, c: Self) -> Self {
+        Avx512(unsafe { _mm512_fmsub_pd(self.0, b.0, c.0) })
+    }
+    #[inline(always)]
+    fn abs(self) -> Self {
+        Avx512(unsafe { _mm512_abs_pd(self.0) })
+    }
+    #[inline(always)]
+    fn max(self, b: Self) -> Self {
+        Avx512(unsafe { _mm512_max_pd(self.0, b.0) })
+    }
+    #[inline(always)]
+    fn min(self, b: Self) -> Self {
+        Avx512(unsafe { _mm512_min_pd(self.0, b.0) })
+    }
+    #[inline(always)]
+    fn gt(self, b: Self) -> __mmask8 {
+        unsafe { _mm512_cmp_pd_mask::<_CMP_GT_OQ>(self.0, b.0) }
+    }
+    #[inline(always)]
+    fn le(self, b: Self) -> __mmask8 {
+        unsafe { _mm512_cmp_pd_mask::<_CMP_LE_OQ>(self.0, b.0) }
+    }
+    #[inline(always)]
+    fn eq(self, b: Self) -> __mmask8 {
+        unsafe { _mm512_cmp_pd_mask::<_CMP_EQ_OQ>(self.0, b.0) }
+    }
+    #[inline(always)]
+    fn and(a: __mmask8, b: __mmask8) -> __mmask8 {
+        a & b
+    }
+    #[inline(always)]
+    fn select(m: __mmask8, a: Self, b: Self) -> Self {
+        Avx512(unsafe { _mm512_mask_blend_pd(m, b.0, a.0) })
+    }
+    #[inline(always)]
+    fn all(m: __mmask8) -> bool {
+        m == 0xff
+    }
+    #[inline(always)]
+    fn sign_set(self) -> __mmask8 {
+        unsafe { _mm512_movepi64_mask(_mm512_castpd_si512(self.0)) }
+    }
+    #[inline(always)]
+    fn flip_sign_by(self, y: Self) -> Self {
+        Avx512(unsafe { _mm512_xor_pd(self.0, _mm512_and_pd(y.0, _mm512_set1_pd(-0.0))) })
+    }
+}
+
+/// The vector instruction sets the field kernel can use on this CPU.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) enum Isa {
+    Avx512,
+    Avx2,
+}
+
+impl Isa {
+    /// Whether this CPU runs `self`.
+    pub fn detected(self) -> bool {
+        match self {
+            Isa::Avx512 => {
+                is_x86_feature_detected!("avx512f")
+                    && is_x86_feature_detected!("avx512dq")
+                    && Isa::Avx2.detected()
+            }
+            Isa::Avx2 => is_x86_feature_detected!("avx2") && is_x86_feature_detected!("fma"),
+        }
+    }
+
+    /// Sums of the points in `q` (eight per block, see [`Oct`]) over the whole of `t`.
+    ///
+    /// # Panics
+    /// If this CPU lacks `self`'s features (callers check [`Isa::detected`] first).
+    pub fn sums_block<const GRAD: bool>(self, t: &Tables, q: &[Oct], out: &mut [Sums; 8]) {
+        assert!(self.detected(), "{self:?} is not available on this CPU");
+        match self {
+            // SAFETY: the features were detected just above.
+            Isa::Avx512 => unsafe { block_avx512::<GRAD>(t, q, out) },
+            // SAFETY: as above.
+            Isa::Avx2 => unsafe { block_avx2::<GRAD>(t, q, out, 2) },
+        }
+    }
+
+    /// Sums of the first four points of `q` only (one four-lane pass).
+    pub fn sums_half<const GRAD: bool>(self, t: &Tables, q: &[Oct], out: &mut [Sums; 8]) {
+        assert!(Isa::Avx2.detected(), "AVX2 is not available on this CPU");
+        // SAFETY: the features were detected just above.
+        unsafe { block_avx2::<GRAD>(t, q, out, 1) }
+    }
+}
+
+#[target_feature(enable = "avx512f,avx512dq,avx2,fma,avx")]
+fn block_avx512<const GRAD: bool>(t: &Tables, q: &[Oct], out: &mut [Sums; 8]) {
+    kernel::sums::<Avx512, GRAD, 0>(t, q, out);
+}
+
+#[target_feature(enable = "avx2,fma,avx")]
+fn block_avx2<const GRAD: bool>(t: &Tables, q: &[Oct], out: &mut [Sums; 8], halves: usize) {
+    kernel::sums::<Avx2, GRAD, 0>(t, q, out);
+    if halves == 2 {
+        kernel::sums::<Avx2, GRAD, 4>(t, q, out);
+    }
+}
