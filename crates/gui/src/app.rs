@@ -29,6 +29,9 @@ use crate::session::{BodyParams, launch_defaults, new_scenario};
 use crate::state::{PersistedState, RecentFile, RecentKind};
 use crate::views::ViewPane;
 
+/// How the session's scenario is named in messages.
+const SESSION: &str = "of this session";
+
 /// Largest model whose surface map starts by itself when a map is chosen.
 pub const AUTO_MAP_MAX_FACES: usize = 50_000;
 
@@ -749,7 +752,7 @@ impl SpinfallApp {
         };
         let dir = self.scenario_dir.clone();
         self.load_job = Some(Job::spawn(label, self.repaint.clone(), move |ctx| {
-            load_session(ctx, LoadedScenario::in_memory(scenario, dir), None)
+            load_session(ctx, LoadedScenario::in_memory(scenario, SESSION, dir), None)
         }));
     }
 
@@ -848,7 +851,7 @@ impl SpinfallApp {
             return;
         }
         self.params.write_into(&mut self.scenario.body);
-        let loaded = LoadedScenario::in_memory(self.scenario.clone(), self.scenario_dir.clone());
+        let loaded = LoadedScenario::in_memory(self.scenario.clone(), SESSION, self.scenario_dir.clone());
         let launches = self.run_estimate().launches;
         self.run_job = Some(Job::spawn(
             format!("Flying {launches} launches"),
@@ -1171,7 +1174,7 @@ impl SpinfallApp {
         let mut scenario = self.scenario.clone();
         self.params.write_into(&mut scenario.body);
         relocated(
-            &LoadedScenario::in_memory(scenario, self.scenario_dir.clone()),
+            &LoadedScenario::in_memory(scenario, SESSION, self.scenario_dir.clone()),
             folder,
         )
     }

@@ -55,19 +55,19 @@ impl ScenarioSource {
 pub struct LoadedScenario {
     /// The document.
     pub scenario: Scenario,
-    /// Where it came from.
-    pub source: ScenarioSource,
+    /// How it is named in messages (its file, or what made it).
+    pub name: String,
     /// Folder that relative shape paths are resolved against (`.` for the built-in one).
     pub dir: PathBuf,
 }
 
 impl LoadedScenario {
-    /// A scenario made in memory (the app's session), with the folder its relative shape path
-    /// is resolved against.
-    pub fn in_memory(scenario: Scenario, dir: PathBuf) -> LoadedScenario {
+    /// A scenario made in memory (the app's session, named `name` in messages), with the
+    /// folder its relative shape path is resolved against.
+    pub fn in_memory(scenario: Scenario, name: impl Into<String>, dir: PathBuf) -> LoadedScenario {
         LoadedScenario {
             scenario,
-            source: ScenarioSource::Builtin,
+            name: name.into(),
             dir,
         }
     }
@@ -90,7 +90,7 @@ impl LoadedScenario {
 
     /// A name for messages.
     pub fn describe(&self) -> String {
-        self.source.describe()
+        self.name.clone()
     }
 }
 
@@ -135,7 +135,7 @@ pub fn read_scenario(source: &ScenarioSource) -> Result<LoadedScenario> {
     };
     Ok(LoadedScenario {
         scenario,
-        source: source.clone(),
+        name: what,
         dir,
     })
 }
