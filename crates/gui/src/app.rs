@@ -851,7 +851,8 @@ impl SpinfallApp {
             return;
         }
         self.params.write_into(&mut self.scenario.body);
-        let loaded = LoadedScenario::in_memory(self.scenario.clone(), SESSION, self.scenario_dir.clone());
+        let loaded =
+            LoadedScenario::in_memory(self.scenario.clone(), SESSION, self.scenario_dir.clone());
         let launches = self.run_estimate().launches;
         self.run_job = Some(Job::spawn(
             format!("Flying {launches} launches"),
