@@ -8,7 +8,8 @@ use spinfall_gravity::LengthUnit;
 /// Where things go on spinning small bodies: polyhedron gravity, surface maps, particle flights.
 ///
 /// Run with no subcommand to open the desktop app on the built-in demo body (or on SHAPE).
-/// Research and planning tool: not flight-certified.
+/// Exit codes: 0 success, 2 bad input, 3 a launch failed, 4 output could not be written, 5 no
+/// display for the app. Research and planning tool: not flight-certified.
 #[derive(Debug, Parser)]
 #[command(name = "spinfall", version, args_conflicts_with_subcommands = true)]
 pub struct Cli {
@@ -27,7 +28,8 @@ pub enum Command {
     Info(InfoArgs),
     /// Gravity field (potential, acceleration, gradient, Laplacian) at points, as JSON lines or CSV.
     Gravity(GravityArgs),
-    /// Fly every launch of a scenario; write results.json and trajectories.csv.
+    /// Fly every launch of a scenario; write results.json, results.csv, trajectories.csv and a
+    /// manifest into a folder.
     Fly(FlyArgs),
     /// Per-face surface map of a scenario's body (slope, geopotential, ...), as CSV.
     Map(MapArgs),
@@ -83,31 +85,46 @@ pub struct GravityArgs {
     pub csv: bool,
 }
 
+/// Limits of a run.
+#[derive(Debug, Args)]
+pub struct LimitArgs {
+    /// Refuse runs with more launches than this (after fans and dispersion sets are expanded);
+    /// overrides the scenario's "limits": {"max_launches": N}; default 100000.
+    #[arg(long, value_name = "N")]
+    pub max_launches: Option<u64>,
+}
+
 #[derive(Debug, Args)]
 pub struct FlyArgs {
     /// Scenario file (JSON), or `builtin:example` for the demo scenario.
     pub scenario: String,
-    /// Output folder for results.json and trajectories.csv (created if missing).
+    /// Output folder (created with its parents if missing). Its files are replaced together
+    /// only when all are complete; spinfall-manifest.json lists them with their SHA-256.
     #[arg(long, value_name = "DIR")]
     pub out: PathBuf,
+    #[command(flatten)]
+    pub limits: LimitArgs,
 }
 
 #[derive(Debug, Args)]
 pub struct MapArgs {
-    /// Scenario file (JSON), or `builtin:example` for the demo scenario.
+    /// Scenario file (JSON), or `builtin:example` for the demo scenario (launches not needed).
     pub scenario: String,
-    /// Output CSV file.
+    /// Output CSV file, or `-` for standard output.
     #[arg(long, value_name = "FILE.csv")]
     pub out: PathBuf,
 }
 
 #[derive(Debug, Args)]
 pub struct RenderArgs {
-    /// Scenario file (JSON), or `builtin:example` for the demo scenario.
+    /// Scenario file (JSON), or `builtin:example` for the demo scenario (without launches only
+    /// the body is drawn).
     pub scenario: String,
-    /// Output PNG file.
+    /// Output PNG file, or `-` for standard output.
     #[arg(long, value_name = "FILE.png")]
     pub out: PathBuf,
+    #[command(flatten)]
+    pub limits: LimitArgs,
     /// Image size `WxH` in pixels.
     #[arg(long, default_value = "1920x1080", value_name = "WxH")]
     pub size: String,

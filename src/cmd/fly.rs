@@ -1,30 +1,43 @@
-//! `spinfall fly`: every launch of a scenario; writes results.json and trajectories.csv.
+//! `spinfall fly`: every launch of a scenario; writes results.json, results.csv,
+//! trajectories.csv and the manifest into a folder, as one set.
 
 use std::process::ExitCode;
 
-use spinfall_dynamics::export::{write_results_json, write_trajectories_csv};
+use spinfall_workflow::output::OutputFolder;
+use spinfall_workflow::prepare::{PrepareOptions, Purpose, prepare};
+use spinfall_workflow::run_files::{run_info, write_run_folder};
+use spinfall_workflow::scenario_file::{ScenarioSource, read_scenario};
 
-use super::scenario::{fly_with_progress, prepare, run_exit_code};
+use super::{announce, fly_with_progress, limits, run_exit_code};
 use crate::cli::FlyArgs;
-use crate::exit::{CliError, CmdResult};
-use crate::io::write_atomic;
+use crate::exit::{CmdResult, note};
 
 pub fn run(args: &FlyArgs) -> CmdResult<ExitCode> {
-    let prepared = prepare(&args.scenario)?;
-    std::fs::create_dir_all(&args.out).map_err(|e| {
-        CliError::output(anyhow::Error::from(e).context(format!("creating {}", args.out.display())))
-    })?;
-    let reports = fly_with_progress(&prepared);
-    write_atomic(&args.out.join("results.json"), |w| {
-        Ok(write_results_json(w, &reports)?)
-    })?;
-    write_atomic(&args.out.join("trajectories.csv"), |w| {
-        Ok(write_trajectories_csv(w, &reports)?)
-    })?;
-    eprintln!(
-        "wrote {} launches to {} (results.json, trajectories.csv)",
-        reports.len(),
-        args.out.display()
-    );
-    Ok(run_exit_code(&reports))
+    // The folder first: a bad --out is refused before any work.
+    let folder = OutputFolder::prepare(&args.out)?;
+    let loaded = read_scenario(&ScenarioSource::from_spec(&args.scenario))?;
+    let options = PrepareOptions {
+        limits: limits(&args.limits),
+        ..PrepareOptions::new(Purpose::Fly)
+    };
+    let prepared = prepare(loaded, &options)?;
+    for w in &prepared.shape.warnings {
+        note(&format!("warning: shape model: {w}"));
+    }
+    announce(&prepared.estimate);
+    folder.check_space(prepared.estimate.output_min_bytes)?;
+    let done = fly_with_progress(&prepared)?;
+    let info = run_info(Some(prepared.scenario()), &prepared.gravity);
+    let written = write_run_folder(&folder, &done.reports, &info)?;
+    let names: Vec<String> = written
+        .iter()
+        .filter_map(|p| p.file_name().map(|n| n.to_string_lossy().into_owned()))
+        .collect();
+    note(&format!(
+        "wrote {} launches to {} ({})",
+        done.reports.len(),
+        args.out.display(),
+        names.join(", ")
+    ));
+    Ok(run_exit_code(&done.reports))
 }

@@ -1,23 +1,23 @@
 //! `spinfall map`: the per-face surface map of a scenario's body, as CSV.
 
 use std::process::ExitCode;
-use std::sync::atomic::AtomicBool;
 
-use spinfall_dynamics::export::write_surface_map_csv;
-use spinfall_dynamics::surface_map::surface_map;
+use spinfall_workflow::export::write_surface_map_csv;
+use spinfall_workflow::output::{OutputTarget, check_file};
+use spinfall_workflow::prepare::{PrepareOptions, Purpose, prepare};
+use spinfall_workflow::scenario_file::{ScenarioSource, read_scenario};
+use spinfall_workflow::surface::compute_surface_map;
 
-use super::scenario::prepare;
 use crate::cli::MapArgs;
-use crate::exit::{CliError, CmdResult};
-use crate::io::write_atomic;
+use crate::exit::{CmdResult, note};
 
 pub fn run(args: &MapArgs) -> CmdResult<ExitCode> {
-    let prepared = prepare(&args.scenario)?;
-    let cancel = AtomicBool::new(false);
-    let map = surface_map(&prepared.body, &|_, _| {}, &cancel).map_err(CliError::output)?;
-    write_atomic(&args.out, |w| {
-        Ok(write_surface_map_csv(w, &prepared.body, &map)?)
-    })?;
-    eprintln!("wrote {} faces to {}", map.len(), args.out.display());
+    let out = check_file(&OutputTarget::from_arg(&args.out))?;
+    let loaded = read_scenario(&ScenarioSource::from_spec(&args.scenario))?;
+    let prepared = prepare(loaded, &PrepareOptions::new(Purpose::BodyOnly))?;
+    let cancel = spinfall_dynamics::Cancel::new(false);
+    let map = compute_surface_map(&prepared.body, &|_, _| {}, &cancel)?;
+    out.write(|w| write_surface_map_csv(w, &prepared.body, &map))?;
+    note(&format!("wrote {} faces to {}", map.len(), out.describe()));
     Ok(ExitCode::SUCCESS)
 }

@@ -1,16 +1,24 @@
-//! One module per subcommand; `run` dispatches.
+//! One module per subcommand: each turns its arguments into the workflow's options, calls it,
+//! and chooses the exit code. `run` dispatches.
 
+mod app;
 mod fly;
 mod gravity;
 mod info;
 mod map;
 mod render;
-mod scenario;
 
 use std::process::ExitCode;
+use std::sync::Mutex;
+use std::time::{Duration, Instant};
 
-use crate::cli::{Cli, Command};
-use crate::exit::{CliError, CmdResult};
+use spinfall_dynamics::FlightReport;
+use spinfall_workflow::limits::{Estimate, Limits};
+use spinfall_workflow::run::RunReports;
+use spinfall_workflow::shape::{ShapeRequest, ShapeSource};
+
+use crate::cli::{Cli, Command, LimitArgs, ShapeArgs};
+use crate::exit::{CmdResult, RUN_FAILED, note};
 
 /// Runs the command line; no subcommand opens the desktop app.
 pub fn run(cli: Cli) -> CmdResult<ExitCode> {
@@ -20,18 +28,61 @@ pub fn run(cli: Cli) -> CmdResult<ExitCode> {
         Some(Command::Fly(args)) => fly::run(&args),
         Some(Command::Map(args)) => map::run(&args),
         Some(Command::Render(args)) => render::run(&args),
-        None => {
-            let options = spinfall_gui::GuiOptions {
-                shape_path: cli.shape,
-                unit: cli.unit.into(),
-            };
-            spinfall_gui::run(options).map_err(CliError::output)?;
-            Ok(ExitCode::SUCCESS)
-        }
+        None => app::run(cli.shape, cli.unit.into()),
     }
 }
 
-/// Converts a nalgebra matrix to nested rows for JSON.
-fn rows(m: &nalgebra::Matrix3<f64>) -> [[f64; 3]; 3] {
-    [0, 1, 2].map(|i| [m[(i, 0)], m[(i, 1)], m[(i, 2)]])
+/// The shape request of the shape arguments.
+fn shape_request(args: &ShapeArgs) -> ShapeRequest {
+    ShapeRequest {
+        source: ShapeSource::from_spec(&args.shape),
+        unit: args.unit.into(),
+        recenter: args.recenter,
+    }
+}
+
+/// The limits of the limit arguments.
+fn limits(args: &LimitArgs) -> Limits {
+    Limits {
+        max_launches: args.max_launches,
+        memory_bytes: None,
+    }
+}
+
+/// Says what a run will need before it starts.
+fn announce(estimate: &Estimate) {
+    note(&format!("run: {estimate}"));
+}
+
+/// Flies a prepared run with progress on stderr (at most one line a second).
+fn fly_with_progress(prepared: &spinfall_workflow::prepare::PreparedRun) -> CmdResult<RunReports> {
+    let start = Instant::now();
+    let last = Mutex::new(Instant::now());
+    let progress = |done: usize, total: usize| {
+        if let Ok(mut last) = last.lock()
+            && (last.elapsed() >= Duration::from_secs(1) || done == total)
+        {
+            *last = Instant::now();
+            note(&format!(
+                "flying: {done}/{total} launches ({:.1} s)",
+                start.elapsed().as_secs_f64()
+            ));
+        }
+    };
+    let cancel = spinfall_dynamics::Cancel::new(false);
+    Ok(spinfall_workflow::run::run(prepared, &progress, &cancel)?)
+}
+
+/// Exit status of a run: success, or [`RUN_FAILED`] after naming each failed launch on stderr.
+fn run_exit_code(reports: &[FlightReport]) -> ExitCode {
+    let mut failed = false;
+    for (id, reason) in spinfall_workflow::run::failures(reports) {
+        note(&format!("failed: {id}: {reason}"));
+        failed = true;
+    }
+    if failed {
+        ExitCode::from(RUN_FAILED)
+    } else {
+        ExitCode::SUCCESS
+    }
 }

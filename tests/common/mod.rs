@@ -4,9 +4,17 @@
 use std::path::PathBuf;
 use std::process::{Command, Output};
 
+/// The binary under test: this build's, or the one `SPINFALL_TEST_BIN` names (to check that a
+/// regression test fails on an older build).
+pub fn bin() -> PathBuf {
+    std::env::var_os("SPINFALL_TEST_BIN")
+        .map(PathBuf::from)
+        .unwrap_or_else(|| PathBuf::from(env!("CARGO_BIN_EXE_spinfall")))
+}
+
 /// Runs the real `spinfall` binary with `args` in the workspace root.
 pub fn spinfall(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_spinfall"))
+    Command::new(bin())
         .args(args)
         .current_dir(root())
         .output()

@@ -7,11 +7,11 @@
 //! Dormand–Prince 8(5,3) integrator with dense output ([`dop853`]); flights integrated in both
 //! frames with impact location, bouncing, escape and Jacobi-integral monitoring ([`fly`],
 //! [`fly_all`] → [`FlightReport`]); per-face surface maps ([`surface_map::surface_map`]); the
-//! versioned JSON scenario format ([`scenario::Scenario`], documented in `SCENARIO.md`); and
-//! JSON/CSV exporters ([`export`]).
+//! versioned JSON scenario format ([`scenario::Scenario`], documented in `SCENARIO.md`).
 //!
-//! What it is not: no GUI, no rendering, no file I/O — scenarios parse from `&str`, shape paths
-//! are returned to the caller, exporters take `impl Write`. Long work takes a progress callback
+//! What it is not: no GUI, no rendering, no file I/O and no exporters — scenarios parse from
+//! `&str` or bytes, shape paths are returned to the caller; files are opened and written by the
+//! workflow layer (`spinfall-workflow`). Long work takes a progress callback
 //! and a cancel flag. Spinfall is a research and planning tool, **not flight-certified**.
 //!
 //! ```
@@ -41,10 +41,8 @@
 mod body;
 pub mod dop853;
 mod error;
-pub mod export;
 mod flight;
 mod gravity_model;
-mod json_path;
 pub mod launch;
 mod roots;
 pub mod scenario;

@@ -1,7 +1,10 @@
 //! The versioned JSON scenario document: everything needed to reproduce a run.
 //!
-//! Parsed from `&str` ([`Scenario::from_json_str`]); unknown keys and wrong types are errors
-//! naming the field path, line and column; semantic checks follow ([`Scenario::validate`]).
+//! Parsed from `&str` ([`Scenario::from_json_str`]) or bytes ([`Scenario::from_json_bytes`], which
+//! names a UTF-16 file as such); unknown keys and wrong types are errors naming the field path
+//! (found by `serde_path_to_error`), line and column, quoting at most about 80 characters of the
+//! offending text; semantic checks follow ([`Scenario::validate`]). A scenario may have no
+//! launches (a surface map needs none); flying one needs at least one.
 //! The shape file is *returned* ([`Scenario::shape_source`]) for the caller to open, relative to
 //! the scenario file. Every key is documented in `crates/dynamics/SCENARIO.md`.
 
@@ -9,12 +12,12 @@ use std::sync::Arc;
 
 use nalgebra::{Point3, Vector3};
 use serde::{Deserialize, Serialize};
+use spinfall_gravity::text::{InvalidBytes, decode_utf8, excerpt, shorten_quotes};
 use spinfall_gravity::{LengthUnit, MassSpec, ShapeModel, Warning};
 
 use crate::body::{Body, Spin, SpinAxis};
 use crate::error::{DynamicsError, Result};
 use crate::flight::{BounceModel, FlightSettings, IntegratorSettings, SamplingSettings};
-use crate::json_path::json_path_at;
 use crate::launch::{
     DEFAULT_START_ALTITUDE_M, Dispersion, Fan, FanQuantity, LaunchSpec, LaunchState, SpeedSigma,
 };
@@ -46,7 +49,8 @@ pub struct Scenario {
     pub seed: Option<u64>,
     /// The body.
     pub body: BodySpec,
-    /// The launches (at least one).
+    /// The launches (none for a scenario that only describes a body; flying needs one).
+    #[serde(default)]
     pub launches: Vec<LaunchEntry>,
     /// Integrator settings.
     #[serde(default)]
@@ -54,7 +58,23 @@ pub struct Scenario {
     /// Contact model.
     #[serde(default)]
     pub bounce: BounceSpec,
+    /// Limits on the size of a run.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub limits: Option<LimitsSpec>,
 }
+
+/// The `limits` section: refuse runs larger than this before any work starts.
+#[derive(Debug, Clone, PartialEq, Default, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct LimitsSpec {
+    /// Most launches (after fans and dispersion sets are expanded) a run may have
+    /// (default [`DEFAULT_MAX_LAUNCHES`]).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub max_launches: Option<u64>,
+}
+
+/// Most launches a run may have unless the scenario or the caller says otherwise.
+pub const DEFAULT_MAX_LAUNCHES: u64 = 100_000;
 
 /// The body of a scenario.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -268,6 +288,65 @@ pub enum ShapeSource {
     },
 }
 
+/// Refuses launch states with the same id, naming the entries they come from.
+fn check_unique_ids(states: &[LaunchState], entry_of: &[usize]) -> Result<()> {
+    let mut first: std::collections::HashMap<&str, usize> =
+        std::collections::HashMap::with_capacity(states.len());
+    for (k, state) in states.iter().enumerate() {
+        if let Some(&j) = first.get(state.id.as_str()) {
+            let (a, b) = (entry_of[j], entry_of[k]);
+            let what = if a == b {
+                format!("is generated twice by launches[{a}]")
+            } else {
+                format!("is used by launches[{a}] and generated again by launches[{b}]")
+            };
+            let (lo, hi) = (a.min(b), a.max(b));
+            return Err(err(
+                format!("launches[{hi}].id"),
+                format!(
+                    "launch id {} {what}; fan members are named id/k and dispersion members \
+                     id#k, so rename launches[{lo}] or launches[{hi}]",
+                    excerpt(&state.id)
+                ),
+            ));
+        }
+        first.insert(state.id.as_str(), k);
+    }
+    Ok(())
+}
+
+impl LaunchEntry {
+    /// How many launches this entry expands to (fan count times dispersion count), saturating.
+    pub fn member_count(&self) -> u64 {
+        let fan = self.fan.as_ref().map_or(1, |f| f.count as u64);
+        let dispersion = self.dispersion.as_ref().map_or(1, |d| d.count as u64);
+        fan.saturating_mul(dispersion)
+    }
+
+    /// The surface site of a launch from a site, placed on `body` (`None` for an explicit
+    /// state). Errors say why the site cannot be placed.
+    pub fn site(&self, body: &Body) -> Result<Option<Site>> {
+        let Some(site) = &self.site else {
+            return Ok(None);
+        };
+        let normal = self.normal.unwrap_or_default();
+        let placed = if let (Some(lat), Some(lon)) = (site.lat_deg, site.lon_deg) {
+            Site::from_lat_lon(body, lat, lon, normal)
+        } else if let Some(face) = site.face {
+            Site::from_face(body, face, normal)
+        } else if let Some(pt) = site.point_m {
+            let hit = body.shape.nearest_surface_point(&Point3::from(pt));
+            Site::from_surface_point(body, hit.point_m, hit.face, normal)
+        } else {
+            return Err(err(
+                "site",
+                "give exactly one of {lat_deg, lon_deg}, {face} or {point_m}",
+            ));
+        };
+        placed.map(Some)
+    }
+}
+
 /// The built-in demo body's shape, parsed from the embedded OBJ (kilometres).
 pub fn builtin_quillon() -> Result<(ShapeModel, Vec<Warning>)> {
     Ok(ShapeModel::from_obj(
@@ -294,15 +373,46 @@ fn err(path: impl Into<String>, message: impl Into<String>) -> DynamicsError {
     }
 }
 
-fn located(text: &str, e: serde_json::Error) -> DynamicsError {
-    let msg = e.to_string();
-    let container = msg.starts_with("missing field") || msg.starts_with("invalid length");
-    let path = if e.line() == 0 {
-        String::new()
+/// A located parse error: the field path from `serde_path_to_error`, serde's message with long
+/// quotes shortened, and the line and column.
+fn located(e: serde_path_to_error::Error<serde_json::Error>) -> DynamicsError {
+    let path = e.path().to_string();
+    let inner = e.into_inner();
+    let message = inner.to_string();
+    err(
+        if path == "." {
+            String::new()
+        } else if path.chars().count() > 2 * spinfall_gravity::text::EXCERPT_CHARS {
+            // A key of unbounded length is part of the path: keep its start.
+            let head: String = path
+                .chars()
+                .take(spinfall_gravity::text::EXCERPT_CHARS)
+                .collect();
+            format!("{head}…")
+        } else {
+            path
+        },
+        shorten_quotes(&message).into_owned(),
+    )
+}
+
+/// A JSON value as written, or an excerpt of it when long.
+fn json_excerpt(value: &serde_json::Value) -> String {
+    let text = value.to_string();
+    if text.chars().count() <= spinfall_gravity::text::EXCERPT_CHARS {
+        text
     } else {
-        json_path_at(text, e.line(), e.column(), container)
-    };
-    err(path, msg)
+        excerpt(&text)
+    }
+}
+
+/// Parses `text` as `T`, errors located.
+fn parse<'de, T: Deserialize<'de>>(text: &'de str) -> Result<T> {
+    let mut de = serde_json::Deserializer::from_str(text);
+    let value: T = serde_path_to_error::deserialize(&mut de).map_err(located)?;
+    de.end()
+        .map_err(|e| err("", shorten_quotes(&e.to_string()).into_owned()))?;
+    Ok(value)
 }
 
 fn finite(path: &str, v: f64) -> Result<f64> {
@@ -343,14 +453,19 @@ impl Scenario {
     /// Errors name the field path and, for parse errors, the line and column, e.g.
     /// `launches[2].speed_m_s: invalid type: string "fast", expected f64 at line 14 column 20`.
     pub fn from_json_str(text: &str) -> Result<Scenario> {
+        // A UTF-8 byte-order mark (some editors write one) is not part of the document.
+        let text = text.strip_prefix('\u{FEFF}').unwrap_or(text);
         // Format and version first, so a document of another kind or version is named as such.
-        let header: Header = serde_json::from_str(text).map_err(|e| located(text, e))?;
+        let header: Header = parse(text)?;
         match header.format {
             Some(serde_json::Value::String(s)) if s == SCENARIO_FORMAT => {}
             Some(other) => {
                 return Err(err(
                     "format",
-                    format!("expected \"{SCENARIO_FORMAT}\", got {other}"),
+                    format!(
+                        "expected \"{SCENARIO_FORMAT}\", got {}",
+                        json_excerpt(&other)
+                    ),
                 ));
             }
             None => {
@@ -366,15 +481,24 @@ impl Scenario {
                 return Err(err(
                     "version",
                     format!(
-                        "unsupported version {other}: this build reads version {SCENARIO_VERSION}"
+                        "unsupported version {}: this build reads version {SCENARIO_VERSION}",
+                        json_excerpt(&other)
                     ),
                 ));
             }
             None => return Err(err("version", "missing")),
         }
-        let scenario: Scenario = serde_json::from_str(text).map_err(|e| located(text, e))?;
+        let scenario: Scenario = parse(text)?;
         scenario.validate()?;
         Ok(scenario)
+    }
+
+    /// [`Scenario::from_json_str`] on the bytes of a file: a UTF-16 or UTF-32 file is refused by
+    /// name, a UTF-8 byte-order mark is dropped, and other bytes that are not UTF-8 are refused
+    /// with their line.
+    pub fn from_json_bytes(bytes: &[u8]) -> Result<Scenario> {
+        let text = decode_utf8(bytes, InvalidBytes::Refuse).map_err(|e| err("", e.to_string()))?;
+        Scenario::from_json_str(&text)
     }
 
     /// Pretty JSON that [`Scenario::from_json_str`] reads back to an equal scenario.
@@ -404,8 +528,8 @@ impl Scenario {
             return Err(err(
                 "body.shape",
                 format!(
-                    "unknown built-in shape {:?}: the only one is \"{BUILTIN_QUILLON}\"",
-                    b.shape
+                    "unknown built-in shape {}: the only one is \"{BUILTIN_QUILLON}\"",
+                    excerpt(&b.shape)
                 ),
             ));
         }
@@ -451,8 +575,11 @@ impl Scenario {
                 ));
             }
         }
-        if self.launches.is_empty() {
-            return Err(err("launches", "needs at least one launch"));
+        if let Some(LimitsSpec {
+            max_launches: Some(0),
+        }) = self.limits
+        {
+            return Err(err("limits.max_launches", "must be >= 1"));
         }
         let mut ids = std::collections::HashSet::new();
         for (i, l) in self.launches.iter().enumerate() {
@@ -461,7 +588,10 @@ impl Scenario {
                 return Err(err(format!("{p}.id"), "must not be empty"));
             }
             if !ids.insert(l.id.as_str()) {
-                return Err(err(format!("{p}.id"), format!("duplicate id {:?}", l.id)));
+                return Err(err(
+                    format!("{p}.id"),
+                    format!("duplicate id {}", excerpt(&l.id)),
+                ));
             }
             self.validate_launch(&p, l)?;
         }
@@ -637,27 +767,42 @@ impl Scenario {
     }
 
     /// Builds the body from the loaded shape (recentred on its centre of mass unless
-    /// `recenter` is false).
+    /// `recenter` is false) with the exact polyhedron gravity.
     pub fn build_body(&self, shape: ShapeModel) -> Result<Body> {
         let shape = if self.body.recenter {
             shape.recentered()
         } else {
             shape
         };
+        Body::new(
+            self.body_name(),
+            Arc::new(shape.clone()),
+            self.mass_spec()?,
+            self.spin_on(&shape)?,
+        )
+        .map_err(|e| err("body", e.to_string()))
+    }
+
+    /// The spin of the body on `shape` (placed as the body frame: recentred or not), with the
+    /// `"max-moment"` axis resolved on it.
+    pub fn spin_on(&self, shape: &ShapeModel) -> Result<Spin> {
         let axis = self
             .body
             .spin
             .axis
-            .resolve(&shape)
+            .resolve(shape)
             .map_err(|e| err("body.spin.axis", e.to_string()))?;
-        let spin = Spin::from_hours(
+        Spin::from_hours(
             self.body.spin.period_h,
             axis,
             self.body.spin.phase_deg.to_radians(),
         )
-        .map_err(|e| err("body.spin", e.to_string()))?;
-        let name = self
-            .body
+        .map_err(|e| err("body.spin", e.to_string()))
+    }
+
+    /// The body's display name: `body.name`, or the demo name, or the shape file's stem.
+    pub fn body_name(&self) -> String {
+        self.body
             .name
             .clone()
             .unwrap_or_else(|| match self.shape_source() {
@@ -666,9 +811,25 @@ impl Scenario {
                     .file_stem()
                     .map(|s| s.to_string_lossy().into_owned())
                     .unwrap_or(path),
-            });
-        Body::new(name, Arc::new(shape), self.mass_spec()?, spin)
-            .map_err(|e| err("body", e.to_string()))
+            })
+    }
+
+    /// The most launches a run of this scenario may have: `limits.max_launches` or
+    /// [`DEFAULT_MAX_LAUNCHES`].
+    pub fn max_launches(&self) -> u64 {
+        self.limits
+            .as_ref()
+            .and_then(|l| l.max_launches)
+            .unwrap_or(DEFAULT_MAX_LAUNCHES)
+    }
+
+    /// How many launches the entries expand to (fans times dispersion sets), counted without
+    /// building them; saturates instead of overflowing.
+    pub fn launch_count(&self) -> u64 {
+        self.launches
+            .iter()
+            .map(LaunchEntry::member_count)
+            .fold(0u64, u64::saturating_add)
     }
 
     /// Flight settings from the `integrator` and `bounce` sections.
@@ -695,8 +856,13 @@ impl Scenario {
     }
 
     /// Expands every launch entry (fans, dispersion sets) into launch states on `body`.
+    ///
+    /// Expand only after checking [`Scenario::launch_count`] against a limit: the states are
+    /// all built in memory. Generated ids (`id/k` for fan members, `id#k` for dispersion
+    /// members) that collide with another launch's id are an error naming both entries.
     pub fn build_launches(&self, body: &Body) -> Result<Vec<LaunchState>> {
         let mut out = Vec::new();
+        let mut entry_of: Vec<usize> = Vec::new();
         for (i, l) in self.launches.iter().enumerate() {
             let p = format!("launches[{i}]");
             if let Some(s) = &l.state {
@@ -708,27 +874,13 @@ impl Scenario {
                     )
                     .map_err(|e| err(format!("{p}.state"), e.to_string()))?,
                 );
+                entry_of.push(i);
                 continue;
             }
-            let Some(site) = &l.site else {
-                return Err(err(p, "needs a \"state\" or a \"site\""));
-            };
-            let normal = l.normal.unwrap_or_default();
-            let sp = format!("{p}.site");
-            let site = if let (Some(lat), Some(lon)) = (site.lat_deg, site.lon_deg) {
-                Site::from_lat_lon(body, lat, lon, normal)
-            } else if let Some(face) = site.face {
-                Site::from_face(body, face, normal)
-            } else if let Some(pt) = site.point_m {
-                let hit = body.shape.nearest_surface_point(&Point3::from(pt));
-                Site::from_surface_point(body, hit.point_m, hit.face, normal)
-            } else {
-                return Err(err(
-                    sp,
-                    "give exactly one of {lat_deg, lon_deg}, {face} or {point_m}",
-                ));
-            }
-            .map_err(|e| err(sp.clone(), e.to_string()))?;
+            let site = l
+                .site(body)
+                .map_err(|e| err(format!("{p}.site"), e.to_string()))?
+                .ok_or_else(|| err(p.clone(), "needs a \"state\" or a \"site\""))?;
             let spec = LaunchSpec {
                 id: l.id.clone(),
                 site,
@@ -764,15 +916,20 @@ impl Scenario {
                             seed: self.seed.unwrap_or(0)
                                 ^ (i as u64).wrapping_mul(0x9E37_79B9_7F4A_7C15),
                         };
-                        out.extend(
-                            m.disperse(&disp)
-                                .map_err(|e| err(format!("{p}.dispersion"), e.to_string()))?,
-                        );
+                        let states = m
+                            .disperse(&disp)
+                            .map_err(|e| err(format!("{p}.dispersion"), e.to_string()))?;
+                        entry_of.extend(std::iter::repeat_n(i, states.len()));
+                        out.extend(states);
                     }
-                    None => out.push(m.state().map_err(|e| err(p.clone(), e.to_string()))?),
+                    None => {
+                        out.push(m.state().map_err(|e| err(p.clone(), e.to_string()))?);
+                        entry_of.push(i);
+                    }
                 }
             }
         }
+        check_unique_ids(&out, &entry_of)?;
         Ok(out)
     }
 
@@ -838,6 +995,7 @@ impl Scenario {
             ],
             integrator: IntegratorSpec { max_time_s: 100_000.0, ..IntegratorSpec::default() },
             bounce: BounceSpec::default(),
+            limits: None,
         }
     }
 }

@@ -162,25 +162,68 @@ fn lat_lon_round_trips_on_a_sphere() {
     assert!(Site::from_face(&body, 1_000_000, NormalMode::Face).is_err());
 }
 
+/// A closed, outward mesh of the union of unit voxels (cells `[i, i+1] x [j, j+1] x [k, k+1]`
+/// metres): a face wherever a filled cell meets an empty one.
+fn voxel_mesh(filled: &dyn Fn(i32, i32, i32) -> bool, lo: [i32; 3], hi: [i32; 3]) -> Mesh {
+    let mut mesh = Mesh::default();
+    let mut index = std::collections::HashMap::new();
+    let mut vertex = |p: [i32; 3], mesh: &mut Mesh| -> u32 {
+        *index.entry(p).or_insert_with(|| {
+            mesh.vertices_m
+                .push(nalgebra::Point3::new(p[0] as f64, p[1] as f64, p[2] as f64));
+            (mesh.vertices_m.len() - 1) as u32
+        })
+    };
+    for i in lo[0]..hi[0] {
+        for j in lo[1]..hi[1] {
+            for k in lo[2]..hi[2] {
+                if !filled(i, j, k) {
+                    continue;
+                }
+                for axis in 0..3 {
+                    for sign in [-1, 1] {
+                        let mut n = [i, j, k];
+                        n[axis] += sign;
+                        if filled(n[0], n[1], n[2]) {
+                            continue;
+                        }
+                        // Corner p0 of the face, then the two other axes (u x v = axis).
+                        let mut p0 = [i, j, k];
+                        if sign > 0 {
+                            p0[axis] += 1;
+                        }
+                        let (u, v) = ((axis + 1) % 3, (axis + 2) % 3);
+                        let mut pu = p0;
+                        pu[u] += 1;
+                        let mut pv = p0;
+                        pv[v] += 1;
+                        let mut puv = pu;
+                        puv[v] += 1;
+                        let mut quad = [p0, pu, puv, pv].map(|p| vertex(p, &mut mesh));
+                        if sign < 0 {
+                            quad.reverse();
+                        }
+                        mesh.faces.push([quad[0], quad[1], quad[2]]);
+                        mesh.faces.push([quad[0], quad[2], quad[3]]);
+                    }
+                }
+            }
+        }
+    }
+    mesh
+}
+
 #[test]
 fn lat_lon_site_on_non_convex_body_hits_the_outermost_surface() {
-    // Two separate 2 m cubes on the x axis: the radial line at lat 0, lon 0 crosses the inner
+    // A "U" of 2 m cubes, one at the origin and one at x in [4, 6] m, joined by a bridge at
+    // y in [1, 2] m (one closed surface): the radial line at lat 0, lon 0 crosses the inner
     // cube and the outer one; the site must be on the outer face x = 6 m.
-    let mut mesh = generate::box_mesh(2.0, 2.0, 2.0);
-    let outer = generate::box_mesh(2.0, 2.0, 2.0);
-    let base = mesh.vertices_m.len() as u32;
-    mesh.vertices_m.extend(
-        outer
-            .vertices_m
-            .iter()
-            .map(|p| p + Vector3::new(5.0, 0.0, 0.0)),
-    );
-    mesh.faces.extend(
-        outer
-            .faces
-            .iter()
-            .map(|f| [f[0] + base, f[1] + base, f[2] + base]),
-    );
+    let filled = |i: i32, j: i32, k: i32| {
+        (-1..1).contains(&k)
+            && (-1..6).contains(&i)
+            && ((-1..1).contains(&j) && !(1..4).contains(&i) || j == 1)
+    };
+    let mesh = voxel_mesh(&filled, [-2, -2, -2], [7, 3, 2]);
     let body = Body::with_gravity(
         "pair",
         Arc::new(ShapeModel::new(Mesh { ..mesh }).unwrap().0),

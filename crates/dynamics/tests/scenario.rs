@@ -248,12 +248,6 @@ fn semantic_errors_name_the_field() {
         "out of range",
     );
     check_error(
-        "\"launches\": [{\"id\": \"a\", \"state\": {\"position_m\": [1,2,3], \"velocity_m_s\": [0,0,1]}}]",
-        "\"launches\": []",
-        "launches",
-        "at least one",
-    );
-    check_error(
         "\"state\": {\"position_m\": [1,2,3], \"velocity_m_s\": [0,0,1]}",
         "\"site\": {\"lat_deg\": 95, \"lon_deg\": 0}, \"speed_m_s\": 1",
         "launches[0].site.lat_deg",
@@ -312,4 +306,115 @@ fn every_json_example_in_scenario_md_parses() {
         Scenario::builtin_example(),
         "SCENARIO.md's complete example differs from Scenario::builtin_example()"
     );
+}
+
+/// The built-in demo body with the example's mass and spin (recentred).
+fn demo_body() -> spinfall_dynamics::Body {
+    let (shape, _) = spinfall_dynamics::scenario::builtin_quillon().unwrap();
+    Scenario::builtin_example().build_body(shape).unwrap()
+}
+
+/// Issue 9, fault 12: a fan `a` next to an explicit launch `a/1` used to give two launches
+/// with the same id; the collision is now an input error naming both entries.
+#[test]
+fn generated_ids_that_collide_with_given_ids_are_refused() {
+    let mut s = Scenario::builtin_example();
+    // launches[0] is the fan "fan" (members fan/0 .. fan/7); add an explicit "fan/1".
+    let mut explicit = s.launches[3].clone();
+    explicit.id = "fan/1".into();
+    s.launches.push(explicit);
+    s.validate().unwrap();
+    let e = s.build_launches(&demo_body()).unwrap_err().to_string();
+    assert!(e.contains("\"fan/1\""), "{e}");
+    assert!(
+        e.contains("launches[0]") && e.contains("launches[4]"),
+        "{e}"
+    );
+    // A dispersion member against a given id, too.
+    let mut s = Scenario::builtin_example();
+    s.launches[2].id = "scatter#3".into();
+    let e = s.build_launches(&demo_body()).unwrap_err().to_string();
+    assert!(e.contains("\"scatter#3\""), "{e}");
+}
+
+/// Issue 9, fault 14: a scenario without launches describes a body (enough for a surface map).
+#[test]
+fn a_scenario_without_launches_is_valid() {
+    let text = MINIMAL.replace(
+        r#""launches": [{"id": "a", "state": {"position_m": [1,2,3], "velocity_m_s": [0,0,1]}}],"#,
+        "",
+    );
+    let s = Scenario::from_json_str(&text).unwrap();
+    assert!(s.launches.is_empty());
+    assert_eq!(s.launch_count(), 0);
+    let back = Scenario::from_json_str(&s.to_json_string_pretty().unwrap()).unwrap();
+    assert_eq!(back, s);
+}
+
+/// Issue 9, fault 13: a UTF-8 byte-order mark is not "expected value at line 1 column 1", and
+/// UTF-16 is named.
+#[test]
+fn byte_order_marks_and_utf16_are_handled() {
+    let with_bom = format!("\u{FEFF}{MINIMAL}");
+    assert_eq!(
+        Scenario::from_json_str(&with_bom).unwrap(),
+        Scenario::from_json_str(MINIMAL).unwrap()
+    );
+    assert_eq!(
+        Scenario::from_json_bytes(with_bom.as_bytes()).unwrap(),
+        Scenario::from_json_str(MINIMAL).unwrap()
+    );
+    let mut utf16 = vec![0xFF, 0xFE];
+    utf16.extend(MINIMAL.encode_utf16().flat_map(|u| u.to_le_bytes()));
+    let e = Scenario::from_json_bytes(&utf16).unwrap_err().to_string();
+    assert!(e.contains("UTF-16"), "{e}");
+}
+
+/// Issue 9, fault 9 (scenario side): serde quotes the whole offending string; the message keeps
+/// at most about 80 characters of it.
+#[test]
+fn long_strings_are_not_echoed_whole() {
+    let long = "x".repeat(1_000_000);
+    let text = MINIMAL.replacen("2400", &format!("\"{long}\""), 1);
+    let e = Scenario::from_json_str(&text).unwrap_err().to_string();
+    assert!(e.len() < 400, "{} bytes", e.len());
+    assert!(e.contains("body.density_kg_m3"), "{e}");
+    let text = MINIMAL.replacen("\"seed\"", "", 1).replacen(
+        "\"format\"",
+        &format!("\"{long}\": 1, \"format\""),
+        1,
+    );
+    let e = Scenario::from_json_str(&text).unwrap_err().to_string();
+    assert!(e.len() < 400, "{} bytes: {}", e.len(), &e[..300]);
+}
+
+/// Issue 9, fault 5: the launch count is known before anything is built, and the limit is read
+/// from the scenario.
+#[test]
+fn launch_counts_and_limits_are_known_before_building() {
+    let s = Scenario::builtin_example();
+    assert_eq!(s.launch_count(), 16);
+    assert_eq!(
+        s.max_launches(),
+        spinfall_dynamics::scenario::DEFAULT_MAX_LAUNCHES
+    );
+    let text = MINIMAL.replacen(
+        "\"format\"",
+        "\"limits\": {\"max_launches\": 12}, \"format\"",
+        1,
+    );
+    let s = Scenario::from_json_str(&text).unwrap();
+    assert_eq!(s.max_launches(), 12);
+    let mut huge = Scenario::builtin_example();
+    huge.launches[0].fan.as_mut().unwrap().count = 100_000;
+    huge.launches[0].dispersion = huge.launches[1].dispersion.clone();
+    huge.launches[0].dispersion.as_mut().unwrap().count = 100_000;
+    assert_eq!(huge.launch_count(), 10_000_000_000 + 8);
+    let bad = MINIMAL.replacen(
+        "\"format\"",
+        "\"limits\": {\"max_launches\": 0}, \"format\"",
+        1,
+    );
+    let e = Scenario::from_json_str(&bad).unwrap_err().to_string();
+    assert!(e.contains("limits.max_launches"), "{e}");
 }

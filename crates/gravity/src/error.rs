@@ -8,9 +8,13 @@ pub type Result<T> = std::result::Result<T, GravityError>;
 /// Each message names the problem and one place where it occurs.
 #[derive(Debug, thiserror::Error)]
 pub enum GravityError {
-    /// The reader failed.
+    /// The reader failed. (The I/O error is part of the message and not also given as the
+    /// source, so that printing the error chain does not say it twice.)
     #[error("could not read the shape model: {0}")]
-    Io(#[from] std::io::Error),
+    Io(std::io::Error),
+    /// The file is not text Spinfall reads (UTF-16, UTF-32).
+    #[error(transparent)]
+    Encoding(#[from] crate::text::EncodingError),
     /// Malformed OBJ text.
     #[error("malformed OBJ at line {line}: {message}")]
     Parse {
@@ -49,4 +53,10 @@ pub enum GravityError {
         /// What is wrong with it.
         message: String,
     },
+}
+
+impl From<std::io::Error> for GravityError {
+    fn from(e: std::io::Error) -> Self {
+        GravityError::Io(e)
+    }
 }

@@ -37,6 +37,7 @@ mod mesh;
 mod obj;
 mod query;
 mod shape;
+pub mod text;
 mod validate;
 
 pub use error::{GravityError, Result};

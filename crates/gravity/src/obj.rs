@@ -18,8 +18,11 @@
 //!   texture index out of range) is located by running it on prefixes of the text (bisection;
 //!   only on that error path, about 20 extra runs on a large file).
 //!
-//! Also read: `v x y z [w]` (w ignored), `#` comments, CRLF line endings; bytes that are not
-//! UTF-8 are tolerated (replaced) outside numbers.
+//! Also read: `v x y z [w]` (w ignored), `v x y z r g b` and `v x y z w r g b` (vertex colours, a
+//! common extension; the colours are ignored and obj-rs, which refuses them, is shown the vertex
+//! without them), `#` comments, CRLF line endings, a UTF-8 byte-order mark; bytes that are not
+//! UTF-8 are tolerated (replaced) outside numbers. UTF-16 and UTF-32 files are refused by name.
+//! Error messages quote at most [`crate::text::EXCERPT_CHARS`] characters of a token.
 
 use std::borrow::Cow;
 use std::io::BufRead;
@@ -29,6 +32,7 @@ use obj::raw::object::Polygon;
 
 use crate::error::{GravityError, Result};
 use crate::mesh::{LengthUnit, Mesh};
+use crate::text::{InvalidBytes, decode_utf8, excerpt};
 use crate::validate::Warning;
 
 fn parse_error(line: usize, message: String) -> GravityError {
@@ -50,20 +54,17 @@ pub fn parse_obj(mut reader: impl BufRead, unit: LengthUnit) -> Result<(Mesh, Ve
     reader.read_to_end(&mut bytes)?;
     // Lenient: bytes that are not UTF-8 (e.g. Latin-1 comments) become U+FFFD; keywords and
     // numbers are ASCII, so a bad byte there still fails with a line-numbered error.
-    let text = match String::from_utf8(bytes) {
-        Ok(text) => text,
-        Err(e) => String::from_utf8_lossy(e.as_bytes()).into_owned(),
-    };
+    let text = decode_utf8(&bytes, InvalidBytes::Replace)?;
 
     let light = light_pass(&text, unit)?;
-    let obj_text = blank_ranges(&text, &light.ignored);
+    let obj_text = rewrite_ranges(&text, &light.rewrites);
     let raw = match obj::raw::parse_obj(obj_text.as_bytes()) {
         Ok(raw) => raw,
         Err(e) => {
             let (line, statement) = locate_obj_rs_error(&obj_text);
             return Err(parse_error(
                 line,
-                format!("{e} in `{statement}` (found by the obj-rs reader)"),
+                format!("{e} in {statement} (found by the obj-rs reader)"),
             ));
         }
     };
@@ -119,12 +120,21 @@ pub fn parse_obj(mut reader: impl BufRead, unit: LengthUnit) -> Result<(Mesh, Ve
     Ok((Mesh { vertices_m, faces }, Vec::new()))
 }
 
+/// How obj-rs is shown a statement it must not see as written.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Rewrite {
+    /// An ignored statement: only its line breaks are kept.
+    Blank,
+    /// A vertex with colours: shown as `v 0 0 0` (the light pass has its coordinates).
+    BareVertex,
+}
+
 /// What the light pass keeps: the coordinates, and where the statements that obj-rs must not see
-/// are.
+/// as written are.
 struct LightPass {
     vertices_m: Vec<Point3<f64>>,
-    /// Byte ranges (whole physical lines) of the statements that are ignored.
-    ignored: Vec<(usize, usize)>,
+    /// Byte ranges (whole physical lines) of the statements to rewrite, in order.
+    rewrites: Vec<(usize, usize, Rewrite)>,
     face_count: usize,
     line_count: usize,
 }
@@ -133,7 +143,7 @@ struct LightPass {
 fn light_pass(text: &str, unit: LengthUnit) -> Result<LightPass> {
     let scale = unit.metres_per_unit();
     let mut vertices_m: Vec<Point3<f64>> = Vec::new();
-    let mut ignored = Vec::new();
+    let mut rewrites = Vec::new();
     let mut face_count = 0usize;
     let mut statements = Statements::new(text);
     while let Some(statement) = statements.next() {
@@ -144,7 +154,13 @@ fn light_pass(text: &str, unit: LengthUnit) -> Result<LightPass> {
             continue;
         };
         match keyword {
-            "v" => vertices_m.push(read_vertex(tokens, line, vertices_m.len() + 1, scale)?),
+            "v" => {
+                let (vertex, coloured) = read_vertex(tokens, line, vertices_m.len() + 1, scale)?;
+                vertices_m.push(vertex);
+                if coloured {
+                    rewrites.push((statement.start, statement.end, Rewrite::BareVertex));
+                }
+            }
             "vt" | "vn" => {}
             "f" | "fo" => {
                 face_count += 1;
@@ -163,7 +179,10 @@ fn light_pass(text: &str, unit: LengthUnit) -> Result<LightPass> {
                     let index: i64 = first.parse().map_err(|_| {
                         parse_error(
                             line,
-                            format!("face {face_count}: vertex index {token:?} is not an integer"),
+                            format!(
+                                "face {face_count}: vertex index {} is not an integer",
+                                excerpt(token)
+                            ),
                         )
                     })?;
                     let preceding = vertices_m.len();
@@ -200,51 +219,62 @@ fn light_pass(text: &str, unit: LengthUnit) -> Result<LightPass> {
                     }
                 }
             }
-            _ => ignored.push((statement.start, statement.end)),
+            _ => rewrites.push((statement.start, statement.end, Rewrite::Blank)),
         }
     }
     Ok(LightPass {
         vertices_m,
-        ignored,
+        rewrites,
         face_count,
         line_count: statements.line,
     })
 }
 
-/// Parses the arguments of a `v` statement: x y z in f64, an optional w ignored.
+/// Parses the arguments of a `v` statement: x y z in f64; then an optional w, or colours
+/// (`x y z r g b` or `x y z w r g b`), all ignored. Returns the vertex and whether it carries
+/// colours (obj-rs refuses those).
 fn read_vertex<'a>(
     tokens: impl Iterator<Item = &'a str>,
     line: usize,
     vertex_number: usize,
     scale: f64,
-) -> Result<Point3<f64>> {
+) -> Result<(Point3<f64>, bool)> {
     let mut xyz = [0.0; 3];
     let mut n_args = 0usize;
     for arg in tokens {
         n_args += 1;
-        if n_args > 4 {
+        if n_args > 7 {
             continue;
         }
         let value: f64 = arg.parse().map_err(|_| {
             parse_error(
                 line,
-                format!("vertex {vertex_number}: coordinate {arg:?} is not a number"),
+                format!(
+                    "vertex {vertex_number}: coordinate {} is not a number",
+                    excerpt(arg)
+                ),
             )
         })?;
         if !value.is_finite() {
             return Err(parse_error(
                 line,
-                format!("vertex {vertex_number} has a non-finite coordinate {arg:?}"),
+                format!(
+                    "vertex {vertex_number} has a non-finite value {}",
+                    excerpt(arg)
+                ),
             ));
         }
         if n_args <= 3 {
             xyz[n_args - 1] = value * scale;
         }
     }
-    if n_args != 3 && n_args != 4 {
+    if !matches!(n_args, 3 | 4 | 6 | 7) {
         return Err(parse_error(
             line,
-            format!("vertex {vertex_number} needs 3 coordinates (x y z), found {n_args}"),
+            format!(
+                "vertex {vertex_number} needs 3 coordinates (x y z), optionally with w and/or \
+                 r g b colours; found {n_args} values"
+            ),
         ));
     }
     if !xyz.iter().all(|x| x.is_finite()) {
@@ -253,7 +283,7 @@ fn read_vertex<'a>(
             format!("vertex {vertex_number} overflows when converted to metres"),
         ));
     }
-    Ok(Point3::new(xyz[0], xyz[1], xyz[2]))
+    Ok((Point3::new(xyz[0], xyz[1], xyz[2]), n_args >= 6))
 }
 
 /// Counts the `v` statements left in `statements` (only for an error message).
@@ -264,15 +294,19 @@ fn count_vertex_statements(statements: &mut Statements<'_>) -> usize {
         .count()
 }
 
-/// `text` with the given byte ranges replaced by their line breaks only.
-fn blank_ranges<'a>(text: &'a str, ranges: &[(usize, usize)]) -> Cow<'a, str> {
+/// `text` with the given byte ranges (in order, not overlapping) rewritten: blanked to their
+/// line breaks, or a coloured vertex shown bare; line numbers stay the same.
+fn rewrite_ranges<'a>(text: &'a str, ranges: &[(usize, usize, Rewrite)]) -> Cow<'a, str> {
     if ranges.is_empty() {
         return Cow::Borrowed(text);
     }
     let mut out = String::with_capacity(text.len());
     let mut done = 0;
-    for &(start, end) in ranges {
+    for &(start, end, rewrite) in ranges {
         out.push_str(&text[done..start]);
+        if rewrite == Rewrite::BareVertex {
+            out.push_str("v 0 0 0");
+        }
         for _ in text[start..end].bytes().filter(|&b| b == b'\n') {
             out.push('\n');
         }
@@ -302,8 +336,8 @@ fn locate_obj_rs_error(text: &str) -> (usize, String) {
         .get(lo)
         .or(statements.last())
         .map_or((1, String::new()), |s| {
-            let words: Vec<&str> = s.content.split_whitespace().collect();
-            (s.line, words.join(" ").chars().take(80).collect())
+            let words: Vec<&str> = s.content.split_whitespace().take(16).collect();
+            (s.line, excerpt(&words.join(" ")))
         })
 }
 

@@ -206,7 +206,116 @@ fn closest_on_triangle(p: &Point3<f64>, [a, b, c]: &[Point3<f64>; 3]) -> Point3<
     a + ab * (vb * denom) + ac * (vc * denom)
 }
 
+/// Relative tolerance of the crossing test: barycentric and segment parameters within it of a
+/// boundary count as on the boundary.
+const CROSSING_TOL: f64 = 1e-9;
+
+/// Whether segment `p -> q` meets triangle `tri`. With `strict`, only a crossing through the
+/// triangle's interior away from the segment's ends counts (for triangles that share a vertex,
+/// which touch there); otherwise touching counts too. Segments in the triangle's plane never
+/// count (coplanar overlaps are not detected).
+fn segment_meets_triangle(
+    p: &Point3<f64>,
+    q: &Point3<f64>,
+    [a, b, c]: &[Point3<f64>; 3],
+    strict: bool,
+) -> bool {
+    let dir = q - p;
+    let e1 = b - a;
+    let e2 = c - a;
+    let h = dir.cross(&e2);
+    let det = e1.dot(&h);
+    let scale = e1.norm() * e2.norm() * dir.norm();
+    if det.abs() <= 1e-12 * scale || !det.is_finite() {
+        return false;
+    }
+    let inv = 1.0 / det;
+    let s = p - a;
+    let u = s.dot(&h) * inv;
+    let k = s.cross(&e1);
+    let v = dir.dot(&k) * inv;
+    let t = e2.dot(&k) * inv;
+    let tol = if strict { CROSSING_TOL } else { -CROSSING_TOL };
+    u > tol && v > tol && u + v < 1.0 - tol && t > tol && t < 1.0 - tol
+}
+
+/// Whether two triangles cross: an edge of one meets the other. Triangles sharing a vertex only
+/// count when they cross away from it.
+fn triangles_cross(t1: &[Point3<f64>; 3], t2: &[Point3<f64>; 3], share_vertex: bool) -> bool {
+    let edges = |t: &[Point3<f64>; 3]| [(t[0], t[1]), (t[1], t[2]), (t[2], t[0])];
+    edges(t1)
+        .iter()
+        .any(|(p, q)| segment_meets_triangle(p, q, t2, share_vertex))
+        || edges(t2)
+            .iter()
+            .any(|(p, q)| segment_meets_triangle(p, q, t1, share_vertex))
+}
+
 impl FaceBvh {
+    /// Calls `visit` on every face whose box overlaps the box `lo..hi`, until it returns true;
+    /// returns whether it did.
+    fn any_overlapping(
+        &self,
+        lo: &Point3<f64>,
+        hi: &Point3<f64>,
+        mut visit: impl FnMut(usize) -> bool,
+    ) -> bool {
+        if let Some(face) = self.single_face {
+            return visit(face as usize);
+        }
+        if self.nodes.is_empty() {
+            return false;
+        }
+        let overlaps = |nlo: &[f32; 3], nhi: &[f32; 3]| {
+            (0..3).all(|k| f64::from(nlo[k]) <= hi[k] && f64::from(nhi[k]) >= lo[k])
+        };
+        let mut stack: Vec<u32> = Vec::with_capacity(64);
+        stack.push(0);
+        while let Some(index) = stack.pop() {
+            if index & LEAF_BIT != 0 {
+                if visit((index & !LEAF_BIT) as usize) {
+                    return true;
+                }
+                continue;
+            }
+            let node = &self.nodes[index as usize];
+            for slot in 0..2 {
+                if overlaps(&node.lo[slot], &node.hi[slot]) {
+                    stack.push(node.child[slot]);
+                }
+            }
+        }
+        false
+    }
+
+    /// The first pair of faces `(a, b)`, `a < b`, that cross each other (lowest `a`), if any.
+    /// Faces that share an edge are not tested; faces that share a vertex only count when they
+    /// cross away from it.
+    pub(crate) fn first_crossing_pair(&self, mesh: &Mesh) -> Option<(usize, usize)> {
+        use rayon::prelude::*;
+        (0..mesh.faces.len()).into_par_iter().find_map_first(|a| {
+            let fa = mesh.faces[a];
+            let ta = mesh.triangle(a);
+            let lo = ta[0].inf(&ta[1]).inf(&ta[2]);
+            let hi = ta[0].sup(&ta[1]).sup(&ta[2]);
+            let mut found = None;
+            let mut lowest = usize::MAX;
+            self.any_overlapping(&lo, &hi, |b| {
+                if b <= a || b >= lowest {
+                    return false;
+                }
+                let fb = mesh.faces[b];
+                let shared = fa.iter().filter(|v| fb.contains(v)).count();
+                if shared < 2 && triangles_cross(&ta, &mesh.triangle(b), shared == 1) {
+                    lowest = b;
+                    found = Some((a, b));
+                }
+                false
+            });
+            found
+        })
+    }
+
     /// Builds the hierarchy over the faces of `mesh`, boxes padded by a hair (1e-9 of the mesh
     /// size) so flat boxes of axis-aligned faces keep a thickness.
     pub(crate) fn build(mesh: &Mesh) -> FaceBvh {

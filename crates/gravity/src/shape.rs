@@ -51,14 +51,28 @@ impl ShapeModel {
     /// reported as a [`Warning`]) and builds the model: normals, neighbours, mass properties
     /// and the BVH.
     ///
+    /// Faces that cross each other (a self-intersecting surface, e.g. two overlapping boxes
+    /// glued into one file) are refused too, naming the first crossing pair: such a mesh
+    /// double-counts the mass of the overlap. The test uses the BVH (pairs of faces whose boxes
+    /// overlap, then exact segment–triangle tests); faces that share an edge are not tested
+    /// against each other, and coplanar overlaps are not detected.
+    ///
     /// # Errors
     /// [`crate::GravityError::InvalidMesh`] naming the problem and one face, edge or vertex.
     pub fn new(mesh: Mesh) -> Result<(ShapeModel, Vec<Warning>)> {
         let validated = validate(mesh)?;
-        Ok((
-            ShapeModel::build(validated.mesh, validated.neighbours),
-            validated.warnings,
-        ))
+        let shape = ShapeModel::build(validated.mesh, validated.neighbours);
+        if let Some((a, b)) = shape.inner.bvh.first_crossing_pair(&shape.inner.mesh) {
+            let name = |f: usize| validated.original_face.get(f).copied().unwrap_or(f);
+            return Err(crate::GravityError::InvalidMesh(format!(
+                "self-intersecting surface: face {} and face {} (0-based) cross each other; a \
+                 shape model must be one closed surface that does not pass through itself",
+                name(a),
+                name(b)
+            )));
+        }
+        crate::validate::check_single_shell(&shape.inner.neighbours, &validated.original_face)?;
+        Ok((shape, validated.warnings))
     }
 
     /// Parses OBJ text in `unit` ([`crate::parse_obj`]) and builds the model; the warnings of

@@ -3,8 +3,11 @@
 //! faces, flipping faces that disagree with their neighbours, flipping an inward mesh) and
 //! refusing the rest with an error naming the problem and one location.
 //!
-//! Not checked: self-intersections and nested shells (too costly for every load; the gravity of
-//! such a mesh is not that of a solid body).
+//! A mesh of several separate closed surfaces (shells: two bodies side by side, or a body with an
+//! inner shell) is refused naming a face on each of two shells ([`check_single_shell`]): the
+//! constant-density polyhedron of the gravity core is one solid, and a cavity would need its own,
+//! inward-facing shell that this validation cannot tell from a second body. Faces that cross
+//! each other are found after the BVH is built (see [`crate::ShapeModel::new`]).
 
 use std::collections::HashMap;
 use std::fmt;
@@ -116,6 +119,8 @@ pub(crate) struct Validated {
     pub neighbours: Vec<[usize; 3]>,
     /// What was repaired.
     pub warnings: Vec<Warning>,
+    /// For each face, its index in the mesh as given (for messages).
+    pub original_face: Vec<usize>,
 }
 
 fn invalid(message: String) -> GravityError {
@@ -326,7 +331,48 @@ pub(crate) fn validate(mesh: Mesh) -> Result<Validated> {
         mesh: repaired,
         neighbours,
         warnings,
+        original_face: labels.face,
     })
+}
+
+/// Refuses a mesh whose faces form more than one connected closed surface, naming a face on the
+/// first shell and one on the second (`original_face` maps faces to the mesh as given).
+pub(crate) fn check_single_shell(neighbours: &[[usize; 3]], original_face: &[usize]) -> Result<()> {
+    let mut shell = vec![usize::MAX; neighbours.len()];
+    let mut shells = 0usize;
+    let mut second_shell_face = None;
+    let mut stack = Vec::new();
+    for seed in 0..neighbours.len() {
+        if shell[seed] != usize::MAX {
+            continue;
+        }
+        if shells == 1 {
+            second_shell_face = Some(seed);
+        }
+        shell[seed] = shells;
+        stack.push(seed);
+        while let Some(f) = stack.pop() {
+            for &g in &neighbours[f] {
+                if g < shell.len() && shell[g] == usize::MAX {
+                    shell[g] = shells;
+                    stack.push(g);
+                }
+            }
+        }
+        shells += 1;
+    }
+    let name = |f: usize| original_face.get(f).copied().unwrap_or(f);
+    match second_shell_face {
+        None => Ok(()),
+        Some(second) => Err(invalid(format!(
+            "the mesh is {shells} separate closed surfaces (shells), e.g. face {} and face {} \
+             (0-based) are on different ones; a shape model must be one closed surface (two \
+             bodies, or a body with an inner shell or a cavity, are not one constant-density \
+             solid here)",
+            name(0),
+            name(second)
+        ))),
+    }
 }
 
 /// How to name things in messages: indices of the mesh as given, and a note on repairs.

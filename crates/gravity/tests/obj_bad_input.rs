@@ -283,3 +283,112 @@ fn warnings_serialise_for_the_command_line() {
     let json = serde_json::to_string(&w).unwrap();
     assert!(json.contains("\"kind\":\"orientation_flipped\""), "{json}");
 }
+
+/// Two boxes as one mesh: `second` shifted by `offset_m` (0-based indices continue).
+fn two_boxes(offset_m: [f64; 3]) -> Mesh {
+    let mut mesh = generate::box_mesh(2.0, 2.0, 2.0);
+    let other = generate::box_mesh(2.0, 2.0, 2.0);
+    let base = mesh.vertices_m.len() as u32;
+    mesh.vertices_m.extend(
+        other
+            .vertices_m
+            .iter()
+            .map(|p| p + nalgebra::Vector3::from(offset_m)),
+    );
+    mesh.faces
+        .extend(other.faces.iter().map(|f| f.map(|v| v + base)));
+    mesh
+}
+
+/// Issue 9, fault 7: two overlapping boxes double-count the overlap; the mesh is refused with
+/// the first crossing pair of faces named.
+#[test]
+fn overlapping_boxes_are_refused_naming_two_crossing_faces() {
+    let e = ShapeModel::new(two_boxes([0.7, 0.4, 0.3]))
+        .unwrap_err()
+        .to_string();
+    assert!(e.contains("self-intersecting"), "{e}");
+    assert!(e.contains("face ") && e.contains("cross each other"), "{e}");
+}
+
+/// Issue 9, fault 7: two disjoint shells are two bodies, not one.
+#[test]
+fn two_disjoint_shells_are_refused() {
+    let e = ShapeModel::new(two_boxes([5.0, 0.0, 0.0]))
+        .unwrap_err()
+        .to_string();
+    assert!(e.contains("2 separate closed surfaces"), "{e}");
+    assert!(e.contains("face 0 and face 12"), "{e}");
+}
+
+/// Issue 9, fault 7: a single closed surface that passes through itself (one vertex of an
+/// icosphere pushed through to the far side) is refused too.
+#[test]
+fn a_surface_passing_through_itself_is_refused() {
+    let mut mesh = generate::icosphere(10.0, 2);
+    let v = mesh.vertices_m[0];
+    mesh.vertices_m[0] = nalgebra::Point3::from(-v.coords * 1.5);
+    let e = ShapeModel::new(mesh).unwrap_err().to_string();
+    assert!(e.contains("self-intersecting"), "{e}");
+    // Closed bodies from the generators pass, whatever their size.
+    for mesh in [
+        generate::icosphere(1000.0, 3),
+        generate::ellipsoid(3000.0, 2000.0, 1000.0, 3),
+        generate::box_mesh(2.0, 1.2, 0.8),
+    ] {
+        ShapeModel::new(mesh).unwrap();
+    }
+}
+
+/// Issue 9, fault 13: a UTF-16 file is named as such (it used to be "0 vertices and 0 faces").
+#[test]
+fn utf16_files_are_named_as_such() {
+    let text = "v 0 0 0\nv 1 0 0\nv 0 1 0\nf 1 2 3\n";
+    for bom in [&[0xFF_u8, 0xFE][..], &[]] {
+        let mut bytes = bom.to_vec();
+        bytes.extend(text.encode_utf16().flat_map(|u| u.to_le_bytes()));
+        let e = ShapeModel::from_obj(bytes.as_slice(), LengthUnit::Metre)
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("UTF-16") && e.contains("UTF-8"), "{e}");
+    }
+    // A UTF-8 byte-order mark is dropped, not read as part of the first keyword.
+    let with_bom = format!("\u{FEFF}{CUBE_QUADS}");
+    let (shape, _) = from_obj(&with_bom, LengthUnit::Metre).unwrap();
+    assert_eq!(shape.vertex_count(), 8);
+}
+
+/// Issue 9, fault 13: vertex colours (`v x y z r g b`, a common extension) are read and ignored.
+#[test]
+fn vertex_colours_are_accepted_and_ignored() {
+    let coloured = CUBE_QUADS
+        .lines()
+        .map(|l| {
+            if l.starts_with("v ") {
+                format!("{l} 0.5 0.25 1.0\n")
+            } else {
+                format!("{l}\n")
+            }
+        })
+        .collect::<String>();
+    let (shape, warnings) = from_obj(&coloured, LengthUnit::Metre).unwrap();
+    assert!(warnings.is_empty(), "{warnings:?}");
+    // The unit cube: the colours did not leak into the coordinates.
+    assert!((shape.mass_properties().volume_m3 - 1.0).abs() < 1e-12);
+    // With w too (7 values), and relative indices still resolve.
+    let text = "v 0 0 0 1 0.1 0.2 0.3\nv 1 0 0 1 0.1 0.2 0.3\nv 0 1 0\nv 0 0 1\n\
+                f -4 -2 -3\nf -4 -3 -1\nf -4 -1 -2\nf -3 -2 -1\n";
+    let (shape, _) = from_obj(text, LengthUnit::Metre).unwrap();
+    assert!((shape.mass_properties().volume_m3 - 1.0 / 6.0).abs() < 1e-12);
+    check_refused("v 0 0 0 1 1\n", &["line 1", "found 5 values"]);
+}
+
+/// Issue 9, fault 9: a 10 MB token is quoted in at most about 80 characters.
+#[test]
+fn a_huge_token_is_not_echoed_whole() {
+    let token = "9".repeat(10_000_000) + "x";
+    let e = check_refused(&format!("v 0 0 {token}\n"), &["line 1", "not a number"]);
+    assert!(e.len() < 300, "{} bytes of message", e.len());
+    let e = check_refused(&format!("v 0 0 0\nf 1 1 {token}\n"), &["line 2"]);
+    assert!(e.len() < 300, "{} bytes of message", e.len());
+}

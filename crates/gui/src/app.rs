@@ -7,17 +7,30 @@ use std::sync::mpsc::{Receiver, Sender, channel};
 use std::time::{Duration, Instant};
 
 use egui::{Context, Key, KeyboardShortcut, Modifiers};
+use spinfall_dynamics::FlightReport;
+use spinfall_dynamics::scenario::{BUILTIN_QUILLON, LaunchEntry, Scenario, SiteSpec};
 use spinfall_dynamics::surface_map::SurfaceMap;
-use spinfall_dynamics::{FlightReport, FlightSettings};
-use spinfall_gravity::{LengthUnit, ShapeModel};
+use spinfall_gravity::LengthUnit;
 use spinfall_scene::BodyView;
+use spinfall_workflow::gravity_method::GravityOptions;
+use spinfall_workflow::limits::{Estimate, estimate};
+use spinfall_workflow::output::{OutputTarget, write_file};
+use spinfall_workflow::prepare::{PrepareOptions, Purpose, build_body, prepare_with_shape};
+use spinfall_workflow::scenario_file::{
+    LoadedScenario, ScenarioSource, read_scenario, relocated, scenario_json,
+};
+use spinfall_workflow::shape::{OpenedShape, ShapeRequest, ShapeSource, open_shape};
 
 use crate::GuiOptions;
 use crate::command::Command;
+use crate::error::GuiError;
 use crate::jobs::{Job, JobContext, Poll};
-use crate::session::{BodyParams, ShapeSource, SiteEntry};
+use crate::session::{BodyParams, launch_defaults, new_scenario};
 use crate::state::{PersistedState, RecentFile, RecentKind};
 use crate::views::ViewPane;
+
+/// How the session's scenario is named in messages.
+const SESSION: &str = "of this session";
 
 /// Largest model whose surface map starts by itself when a map is chosen.
 pub const AUTO_MAP_MAX_FACES: usize = 50_000;
@@ -33,51 +46,28 @@ pub const SHORTCUT_RUN_F5: KeyboardShortcut = KeyboardShortcut::new(Modifiers::N
 /// Shortcut: export.
 pub const SHORTCUT_EXPORT: KeyboardShortcut = KeyboardShortcut::new(Modifiers::COMMAND, Key::E);
 
-/// Sites resolved on a body: `(site locations, data generation, resolved sites)`. Keyed by
-/// location only, so renaming a site or dragging its speed does not place it again.
-type SiteCache = (
-    Vec<crate::session::SiteLocation>,
-    u64,
-    Vec<Result<spinfall_dynamics::site::Site, String>>,
-);
+/// A site of the document resolved on the body: `None` for an explicit state, an error text
+/// when it cannot be placed.
+pub(crate) type ResolvedSite = Result<Option<spinfall_dynamics::site::Site>, String>;
 
-/// A shape model in use.
-#[derive(Clone)]
-pub struct LoadedShape {
-    /// Display name (file stem or the demo name).
-    pub name: String,
-    /// Where it came from.
-    pub source: ShapeSource,
-    /// The shape with its queries.
-    pub shape: Arc<ShapeModel>,
-    /// Validation warnings, as text.
-    pub warnings: Vec<String>,
-}
+/// Sites resolved on a body: `(site specs, data generation, resolved sites)`. Keyed by the
+/// site specs only, so renaming a launch or dragging its speed does not place it again.
+type SiteCache = (Vec<Option<SiteSpec>>, u64, Vec<ResolvedSite>);
 
-/// The result of a load job.
+/// The result of a load job: the document, its folder, the opened shape and its body.
 pub(crate) struct Loaded {
-    pub shape: LoadedShape,
+    pub scenario: Scenario,
+    pub dir: PathBuf,
+    pub shape: OpenedShape,
     pub view: Arc<BodyView>,
-    pub params: BodyParams,
-    /// Sites and settings when a scenario was loaded.
-    pub scenario: Option<ScenarioParts>,
-}
-
-/// The launch part of a loaded scenario.
-pub(crate) struct ScenarioParts {
-    pub sites: Vec<SiteEntry>,
-    pub extra_launches: Vec<spinfall_dynamics::scenario::LaunchEntry>,
-    pub settings: FlightSettings,
-    pub seed: u64,
-    pub path: PathBuf,
+    /// Set when a scenario file was loaded (its path).
+    pub scenario_path: Option<PathBuf>,
 }
 
 /// The result of a run job.
 pub(crate) struct RunOutput {
     pub reports: Vec<FlightReport>,
-    pub cancelled: bool,
     pub elapsed: Duration,
-    pub launches: usize,
 }
 
 /// State of the last run, for the status line.
@@ -92,11 +82,8 @@ pub enum RunState {
         /// Wall-clock time.
         elapsed_s: f64,
     },
-    /// Cancelled; `launches` finished before.
-    Cancelled {
-        /// Launches finished.
-        launches: usize,
-    },
+    /// Cancelled by the user; its partial results were dropped.
+    Cancelled,
     /// Failed with a message.
     Failed(String),
 }
@@ -138,18 +125,17 @@ pub struct SpinfallApp {
     pub(crate) test_mode: bool,
     pub(crate) repaint: Arc<dyn Fn() + Send + Sync>,
 
-    // Session.
-    pub(crate) shape: Option<LoadedShape>,
+    // Session: the scenario document (what a saved file holds and what runs fly), the folder
+    // its relative shape path means, the opened shape and the body panel's draft.
+    pub(crate) scenario: Scenario,
+    pub(crate) scenario_dir: PathBuf,
+    pub(crate) shape: Option<OpenedShape>,
     pub(crate) params: BodyParams,
     /// The parameters the current body was built with.
     pub(crate) built_params: Option<BodyParams>,
-    pub(crate) sites: Vec<SiteEntry>,
-    /// Launch entries from a loaded scenario the app cannot edit (kept and flown as they are).
-    pub(crate) extra_launches: Vec<spinfall_dynamics::scenario::LaunchEntry>,
-    /// Seed of dispersion sets.
-    pub(crate) seed: u64,
     pub(crate) selected_site: Option<usize>,
-    pub(crate) settings: FlightSettings,
+    /// Recentre shape models opened from now on (a loaded scenario says for itself).
+    pub(crate) recenter_new_shapes: bool,
     pub(crate) view: Option<Arc<BodyView>>,
     pub(crate) map: Option<Arc<SurfaceMap>>,
     pub(crate) reports: Arc<Vec<FlightReport>>,
@@ -176,6 +162,7 @@ pub struct SpinfallApp {
     pub(crate) map_job: Option<Job<SurfaceMap>>,
     pub(crate) run_job: Option<Job<RunOutput>>,
     pub(crate) export_job: Option<Job<Vec<PathBuf>>>,
+    pub(crate) save_job: Option<Job<(Scenario, PathBuf)>>,
     /// Start a run as soon as the body being rebuilt is ready.
     pub(crate) run_after_body: bool,
     pub(crate) plot_cache: Option<crate::results::PlotSeries>,
@@ -231,14 +218,18 @@ impl SpinfallApp {
             state,
             test_mode,
             repaint,
+            scenario: new_scenario(
+                BUILTIN_QUILLON.into(),
+                LengthUnit::Kilometre,
+                true,
+                &BodyParams::default(),
+            ),
+            scenario_dir: PathBuf::from("."),
             shape: None,
             params: BodyParams::default(),
             built_params: None,
-            sites: Vec::new(),
-            extra_launches: Vec::new(),
-            seed: 1,
             selected_site: None,
-            settings: FlightSettings::default(),
+            recenter_new_shapes: true,
             view: None,
             map: None,
             reports: Arc::new(Vec::new()),
@@ -260,6 +251,7 @@ impl SpinfallApp {
             map_job: None,
             run_job: None,
             export_job: None,
+            save_job: None,
             run_after_body: false,
             plot_cache: None,
             site_cache: None,
@@ -302,6 +294,7 @@ impl SpinfallApp {
             || self.map_job.is_some()
             || self.run_job.is_some()
             || self.export_job.is_some()
+            || self.save_job.is_some()
     }
 
     /// Poll jobs and handle commands until nothing is running or `timeout` passes (tests).
@@ -324,19 +317,36 @@ impl SpinfallApp {
 
     // ----- read access for tests and the status line -----
 
-    /// The loaded shape model.
-    pub fn shape(&self) -> Option<&LoadedShape> {
+    /// The opened shape model.
+    pub fn shape(&self) -> Option<&OpenedShape> {
         self.shape.as_ref()
     }
 
-    /// Launch sites.
-    pub fn sites(&self) -> &[SiteEntry] {
-        &self.sites
+    /// The scenario document of the session (body, launches, settings).
+    pub fn scenario(&self) -> &Scenario {
+        &self.scenario
     }
 
-    /// Mutable launch sites (tests and scripted use).
-    pub fn sites_mut(&mut self) -> &mut Vec<SiteEntry> {
-        &mut self.sites
+    /// The scenario document, to change (tests and scripted use; body changes take effect at
+    /// the next Apply or Run).
+    pub fn scenario_mut(&mut self) -> &mut Scenario {
+        &mut self.scenario
+    }
+
+    /// The launches of the session.
+    pub fn sites(&self) -> &[LaunchEntry] {
+        &self.scenario.launches
+    }
+
+    /// The launches, to change (tests and scripted use).
+    pub fn sites_mut(&mut self) -> &mut Vec<LaunchEntry> {
+        &mut self.scenario.launches
+    }
+
+    /// What a run of the session would need (launch count, memory, output).
+    pub fn run_estimate(&self) -> Estimate {
+        let faces = self.shape.as_ref().map_or(0, |s| s.shape.face_count());
+        estimate(&self.scenario, faces, &self.scenario.flight_settings())
     }
 
     /// Reports of the last run.
@@ -357,11 +367,6 @@ impl SpinfallApp {
     /// Body settings.
     pub fn params_mut(&mut self) -> &mut BodyParams {
         &mut self.params
-    }
-
-    /// Flight settings.
-    pub fn settings_mut(&mut self) -> &mut FlightSettings {
-        &mut self.settings
     }
 
     /// Files written by the last export.
@@ -665,8 +670,8 @@ impl SpinfallApp {
             }
             Command::AddSiteLatLon { lat_deg, lon_deg } => self.add_site_lat_lon(lat_deg, lon_deg),
             Command::RemoveSite(i) => {
-                if i < self.sites.len() {
-                    self.sites.remove(i);
+                if i < self.scenario.launches.len() {
+                    self.scenario.launches.remove(i);
                     self.selected_site = match self.selected_site {
                         Some(s) if s == i => None,
                         Some(s) if s > i => Some(s - 1),
@@ -682,6 +687,7 @@ impl SpinfallApp {
                     self.map_job.as_ref().map(|j| j as &dyn Cancel),
                     self.run_job.as_ref().map(|j| j as &dyn Cancel),
                     self.export_job.as_ref().map(|j| j as &dyn Cancel),
+                    self.save_job.as_ref().map(|j| j as &dyn Cancel),
                 ]
                 .into_iter()
                 .flatten()
@@ -714,21 +720,39 @@ impl SpinfallApp {
             self.error("a shape model is already loading; wait or cancel it first");
             return;
         }
-        let params = match &file {
-            Some(_) => self.params.clone(),
-            None => BodyParams::default(),
+        // A plain load keeps the session's body settings and settings; the demo body starts
+        // afresh. Launches stay when the same shape is opened again.
+        let (scenario, label) = match &file {
+            Some((path, unit)) => {
+                let shape = std::path::absolute(path)
+                    .unwrap_or_else(|_| path.clone())
+                    .display()
+                    .to_string();
+                let mut scenario =
+                    new_scenario(shape, *unit, self.recenter_new_shapes, &self.params);
+                if scenario.body.shape == self.scenario.body.shape
+                    && scenario.body.unit == self.scenario.body.unit
+                {
+                    scenario.launches = self.scenario.launches.clone();
+                }
+                scenario.seed = self.scenario.seed;
+                scenario.integrator = self.scenario.integrator.clone();
+                scenario.bounce = self.scenario.bounce.clone();
+                (scenario, format!("Loading {}", path.display()))
+            }
+            None => (
+                new_scenario(
+                    BUILTIN_QUILLON.into(),
+                    LengthUnit::Kilometre,
+                    true,
+                    &BodyParams::default(),
+                ),
+                format!("Loading the demo body {}", spinfall_gravity::demo::NAME),
+            ),
         };
-        let label = match &file {
-            Some((p, _)) => format!("Loading {}", p.display()),
-            None => format!("Loading the demo body {}", spinfall_gravity::demo::NAME),
-        };
+        let dir = self.scenario_dir.clone();
         self.load_job = Some(Job::spawn(label, self.repaint.clone(), move |ctx| {
-            load_shape(ctx, file, params).map(|(shape, view, params)| Loaded {
-                shape,
-                view,
-                params,
-                scenario: None,
-            })
+            load_session(ctx, LoadedScenario::in_memory(scenario, SESSION, dir), None)
         }));
     }
 
@@ -739,7 +763,9 @@ impl SpinfallApp {
         }
         let label = format!("Loading scenario {}", path.display());
         self.load_job = Some(Job::spawn(label, self.repaint.clone(), move |ctx| {
-            crate::scenario_io::load(ctx, &path)
+            ctx.progress.set_stage("reading the scenario");
+            let loaded = read_scenario(&ScenarioSource::File(path.clone()))?;
+            load_session(ctx, loaded, Some(path))
         }));
     }
 
@@ -750,13 +776,20 @@ impl SpinfallApp {
         if let Some(job) = &self.body_job {
             job.cancel();
         }
-        let params = self.params.clone();
+        self.params.write_into(&mut self.scenario.body);
+        let scenario = self.scenario.clone();
         self.body_job = Some(Job::spawn(
             "Preparing the body",
             self.repaint.clone(),
             move |ctx| {
                 ctx.progress.set_stage("preparing the gravity field");
-                let body = params.build_body(&shape.name, shape.shape.clone())?;
+                let body =
+                    build_body(&scenario, &shape, &GravityOptions::default()).map_err(|error| {
+                        spinfall_workflow::WorkflowError::Scenario {
+                            what: "body settings".into(),
+                            error,
+                        }
+                    })?;
                 Ok(Arc::new(old.with_body(Arc::new(body))))
             },
         ));
@@ -787,8 +820,11 @@ impl SpinfallApp {
                     ctx.progress.set(done, total);
                     ctx.request_repaint();
                 };
-                spinfall_dynamics::surface_map::surface_map(view.body(), &progress, &ctx.cancel)
-                    .map_err(|e| e.to_string())
+                Ok(spinfall_workflow::surface::compute_surface_map(
+                    view.body(),
+                    &progress,
+                    &ctx.cancel,
+                )?)
             },
         ));
     }
@@ -798,17 +834,14 @@ impl SpinfallApp {
             self.error("a run is in progress; cancel it first");
             return;
         }
-        let Some(view) = self.view.clone() else {
+        let (Some(view), Some(shape)) = (self.view.clone(), self.shape.clone()) else {
             self.error("no body loaded yet");
             return;
         };
-        if self.sites.is_empty() && self.extra_launches.is_empty() {
-            self.error("no launch sites: click on the body or add one by latitude/longitude");
+        if self.scenario.launches.is_empty() {
+            self.error("no launches: click on the body or add a site by latitude/longitude");
             return;
         }
-        let Some(shape) = &self.shape else {
-            return;
-        };
         if self.built_params.as_ref() != Some(&self.params) || self.body_job.is_some() {
             // Body settings were edited but not applied: apply them first, then run.
             if self.body_job.is_none() {
@@ -817,18 +850,14 @@ impl SpinfallApp {
             self.run_after_body = true;
             return;
         }
-        let scenario = crate::scenario_io::session_scenario(&self.session_parts(shape), None);
-        if let Err(e) = scenario.validate() {
-            self.error(format!("cannot run: {e}"));
-            return;
-        }
-        let settings = self.settings;
-        let launches: usize =
-            self.sites.iter().map(|s| s.launch_count()).sum::<usize>() + self.extra_launches.len();
+        self.params.write_into(&mut self.scenario.body);
+        let loaded =
+            LoadedScenario::in_memory(self.scenario.clone(), SESSION, self.scenario_dir.clone());
+        let launches = self.run_estimate().launches;
         self.run_job = Some(Job::spawn(
             format!("Flying {launches} launches"),
             self.repaint.clone(),
-            move |ctx| run_flights(ctx, &view, &scenario, &settings),
+            move |ctx| run_flights(ctx, &view, loaded, shape),
         ));
     }
 
@@ -886,7 +915,7 @@ impl SpinfallApp {
                         self.data_generation += 1;
                     }
                 }
-                Err(e) if e.contains("cancel") => {}
+                Err(e) if e.is_cancelled() => {}
                 Err(e) => self.error(format!("surface map: {e}")),
             }
         }
@@ -897,13 +926,9 @@ impl SpinfallApp {
             match result {
                 Ok(out) => {
                     let n = out.reports.len();
-                    self.run_state = if out.cancelled {
-                        RunState::Cancelled { launches: n }
-                    } else {
-                        RunState::Done {
-                            launches: out.launches,
-                            elapsed_s: out.elapsed.as_secs_f64(),
-                        }
+                    self.run_state = RunState::Done {
+                        launches: n,
+                        elapsed_s: out.elapsed.as_secs_f64(),
                     };
                     self.reports = Arc::new(out.reports);
                     self.state.view.selected_launch = (n > 0).then_some(0);
@@ -912,8 +937,9 @@ impl SpinfallApp {
                     // Show the whole flights; Play starts over from t = 0.
                     self.t_s = self.end_time_s();
                 }
+                Err(e) if e.is_cancelled() => self.run_state = RunState::Cancelled,
                 Err(e) => {
-                    self.run_state = RunState::Failed(e.clone());
+                    self.run_state = RunState::Failed(e.to_string());
                     self.error(format!("run failed: {e}"));
                 }
             }
@@ -932,61 +958,67 @@ impl SpinfallApp {
                     ));
                     self.last_exported = paths;
                 }
+                Err(e) if e.is_cancelled() => self.info("export cancelled; nothing was written"),
                 Err(e) => self.error(format!("export failed: {e}")),
+            }
+        }
+        if let Some(job) = &self.save_job
+            && let Poll::Done(result) = job.poll()
+        {
+            self.save_job = None;
+            match result {
+                Ok((saved, path)) => {
+                    self.info(format!("scenario saved to {}", path.display()));
+                    // The document now lives there: its shape path is written for that folder.
+                    self.scenario = saved;
+                    self.scenario_dir = spinfall_workflow::output::parent_folder(&path);
+                    self.state.remember(RecentFile {
+                        path,
+                        kind: RecentKind::Scenario,
+                        unit: self.state.unit,
+                    });
+                }
+                Err(e) => self.error(format!("scenario not saved: {e}")),
             }
         }
     }
 
     fn install_loaded(&mut self, loaded: Loaded) {
         let Loaded {
+            scenario,
+            dir,
             shape,
             view,
-            params,
-            scenario,
+            scenario_path,
         } = loaded;
+        let name = shape.name();
         for w in &shape.warnings {
             self.notices.push(Notice {
                 kind: NoticeKind::Info,
-                text: format!("{}: {w}", shape.name),
+                text: format!("{name}: {w}"),
             });
         }
-        if let ShapeSource::File { path, unit } = &shape.source {
+        if let ShapeSource::File(path) = &shape.request.source {
             self.state.remember(RecentFile {
                 path: path.clone(),
                 kind: RecentKind::Shape,
-                unit: *unit,
+                unit: shape.request.unit,
             });
         }
-        self.params = params;
-        match scenario {
-            Some(parts) => {
-                self.sites = parts.sites;
-                self.extra_launches = parts.extra_launches;
-                self.settings = parts.settings;
-                self.seed = parts.seed;
-                if !self.extra_launches.is_empty() {
-                    self.info(format!(
-                        "{} launch(es) of the scenario use options the app does not edit; they are kept and flown as written",
-                        self.extra_launches.len()
-                    ));
-                }
-                self.scenario_path_field = parts.path.display().to_string();
-                self.state.remember(RecentFile {
-                    path: parts.path,
-                    kind: RecentKind::Scenario,
-                    unit: self.state.unit,
-                });
-            }
-            None => {
-                // Sites picked on another shape mean nothing here.
-                let same_shape = self.shape.as_ref().map(|s| &s.source) == Some(&shape.source);
-                if !same_shape {
-                    self.sites.clear();
-                    self.extra_launches.clear();
-                }
-            }
+        if let Some(path) = scenario_path {
+            self.scenario_path_field = path.display().to_string();
+            self.state.remember(RecentFile {
+                path,
+                kind: RecentKind::Scenario,
+                unit: self.state.unit,
+            });
         }
-        self.selected_site = (!self.sites.is_empty()).then_some(0);
+        self.params = BodyParams::from_spec(&scenario.body);
+        self.params
+            .sync_derived(shape.shape.mass_properties().volume_m3);
+        self.scenario = scenario;
+        self.scenario_dir = dir;
+        self.selected_site = (!self.scenario.launches.is_empty()).then_some(0);
         self.shape = Some(shape);
         self.built_params = Some(self.params.clone());
         for pane in &mut self.panes {
@@ -1019,54 +1051,85 @@ impl SpinfallApp {
         }
     }
 
-    fn add_site_at_point(&mut self, point_body_m: nalgebra::Point3<f64>, face: usize) {
-        let n = self.sites.len() + 1;
-        let launch = self.selected_launch_params();
-        self.sites.push(SiteEntry {
-            name: format!("Site {n}"),
-            location: crate::session::SiteLocation::Point {
-                point_body_m: point_body_m.into(),
-                face,
-            },
-            launch,
-        });
-        self.selected_site = Some(self.sites.len() - 1);
+    fn add_site_at_point(&mut self, point_body_m: nalgebra::Point3<f64>, _face: usize) {
+        let site = SiteSpec {
+            point_m: Some(point_body_m.into()),
+            ..SiteSpec::default()
+        };
+        self.add_site(site);
     }
 
     fn add_site_lat_lon(&mut self, lat_deg: f64, lon_deg: f64) {
+        let site = SiteSpec {
+            lat_deg: Some(lat_deg),
+            lon_deg: Some(lon_deg),
+            ..SiteSpec::default()
+        };
         if let Some(view) = &self.view {
-            let entry = SiteEntry {
-                name: format!("Site {}", self.sites.len() + 1),
-                location: crate::session::SiteLocation::LatLon { lat_deg, lon_deg },
-                launch: self.selected_launch_params(),
+            let probe = LaunchEntry {
+                site: Some(site.clone()),
+                ..LaunchEntry::default()
             };
-            if let Err(e) = entry.site(view.body()) {
-                self.error(e);
+            if let Err(e) = probe.site(view.body()) {
+                self.error(format!("site at lat {lat_deg}, lon {lon_deg}: {e}"));
                 return;
             }
-            self.sites.push(entry);
-            self.selected_site = Some(self.sites.len() - 1);
         }
+        self.add_site(site);
     }
 
-    /// New sites copy the launch settings of the selected site.
-    fn selected_launch_params(&self) -> crate::session::LaunchParams {
-        self.selected_site
-            .and_then(|i| self.sites.get(i))
-            .map(|s| s.launch)
-            .unwrap_or_default()
+    /// Adds a launch from `site` with the launch settings of the selected launch (or the
+    /// defaults), named `Site N` with the first free N.
+    fn add_site(&mut self, site: SiteSpec) {
+        let template = self
+            .selected_site
+            .and_then(|i| self.scenario.launches.get(i))
+            .filter(|l| l.site.is_some())
+            .cloned()
+            .unwrap_or_else(|| LaunchEntry {
+                speed_m_s: Some(0.5),
+                azimuth_deg: Some(90.0),
+                elevation_deg: Some(45.0),
+                ..LaunchEntry::default()
+            });
+        let taken = |id: &str| self.scenario.launches.iter().any(|l| l.id == id);
+        let mut n = self.scenario.launches.len() + 1;
+        while taken(&format!("Site {n}")) {
+            n += 1;
+        }
+        let (speed, azimuth, elevation) = launch_defaults(&template);
+        self.scenario.launches.push(LaunchEntry {
+            id: format!("Site {n}"),
+            state: None,
+            site: Some(site),
+            speed_m_s: Some(speed),
+            azimuth_deg: Some(azimuth),
+            elevation_deg: Some(elevation),
+            ..template
+        });
+        self.selected_site = Some(self.scenario.launches.len() - 1);
     }
 
     /// The sites resolved on the current body (cached until the sites or the body change).
-    pub(crate) fn resolved_sites(&mut self) -> &[Result<spinfall_dynamics::site::Site, String>] {
-        let locations: Vec<_> = self.sites.iter().map(|s| s.location).collect();
-        let fresh = matches!(&self.site_cache, Some((l, g, _)) if *l == locations && *g == self.data_generation);
+    pub(crate) fn resolved_sites(&mut self) -> &[ResolvedSite] {
+        let specs: Vec<Option<SiteSpec>> = self
+            .scenario
+            .launches
+            .iter()
+            .map(|l| l.site.clone())
+            .collect();
+        let fresh = matches!(&self.site_cache, Some((l, g, _)) if *l == specs && *g == self.data_generation);
         if !fresh {
             let resolved = match &self.view {
-                Some(v) => self.sites.iter().map(|s| s.site(v.body())).collect(),
+                Some(v) => self
+                    .scenario
+                    .launches
+                    .iter()
+                    .map(|l| l.site(v.body()).map_err(|e| format!("{}: {e}", l.id)))
+                    .collect(),
                 None => Vec::new(),
             };
-            self.site_cache = Some((locations, self.data_generation, resolved));
+            self.site_cache = Some((specs, self.data_generation, resolved));
         }
         match &self.site_cache {
             Some((_, _, r)) => r,
@@ -1077,16 +1140,22 @@ impl SpinfallApp {
     /// Markers of the planned sites with their launch directions.
     pub(crate) fn site_markers(&mut self) -> Vec<spinfall_scene::SiteMarker> {
         let selected = self.selected_site;
-        let launches: Vec<_> = self.sites.iter().map(|s| s.launch).collect();
+        let directions: Vec<(f64, f64)> = self
+            .scenario
+            .launches
+            .iter()
+            .map(|l| {
+                let (_, az, el) = launch_defaults(l);
+                (az, el)
+            })
+            .collect();
         self.resolved_sites()
             .iter()
-            .zip(launches)
+            .zip(directions)
             .enumerate()
-            .filter_map(|(i, (r, l))| {
-                let site = r.as_ref().ok()?;
-                let d = site
-                    .frame
-                    .direction(l.azimuth_deg.to_radians(), l.elevation_deg.to_radians());
+            .filter_map(|(i, (r, (az, el)))| {
+                let site = r.as_ref().ok()?.as_ref()?;
+                let d = site.frame.direction(az.to_radians(), el.to_radians());
                 Some(spinfall_scene::SiteMarker {
                     pos_body_m: [
                         site.point_body_m.x,
@@ -1100,41 +1169,37 @@ impl SpinfallApp {
             .collect()
     }
 
-    /// The parts of the session a scenario holds.
-    pub(crate) fn session_parts<'a>(
-        &'a self,
-        shape: &'a LoadedShape,
-    ) -> crate::scenario_io::SessionParts<'a> {
-        crate::scenario_io::SessionParts {
-            shape,
-            params: &self.params,
-            sites: &self.sites,
-            extra_launches: &self.extra_launches,
-            settings: &self.settings,
-            seed: self.seed,
-        }
+    /// The session's document with the body panel's values, as a scenario ready to be written
+    /// into `folder` (its shape path rewritten for that folder when needed).
+    pub(crate) fn scenario_for(&self, folder: &Path) -> Scenario {
+        let mut scenario = self.scenario.clone();
+        self.params.write_into(&mut scenario.body);
+        relocated(
+            &LoadedScenario::in_memory(scenario, SESSION, self.scenario_dir.clone()),
+            folder,
+        )
     }
 
     fn save_scenario(&mut self, path: &Path) {
-        match crate::scenario_io::to_json_in(self, path.parent()) {
-            Ok(text) => {
-                let r = crate::atomic::write_atomic(path, |w| {
-                    w.write_all(text.as_bytes()).map_err(|e| e.to_string())
-                });
-                match r {
-                    Ok(()) => {
-                        self.info(format!("scenario saved to {}", path.display()));
-                        self.state.remember(RecentFile {
-                            path: path.to_path_buf(),
-                            kind: RecentKind::Scenario,
-                            unit: self.state.unit,
-                        });
-                    }
-                    Err(e) => self.error(format!("scenario not saved: {e}")),
-                }
-            }
-            Err(e) => self.error(format!("scenario not saved: {e}")),
+        if self.save_job.is_some() {
+            self.error("the scenario is being saved");
+            return;
         }
+        let folder = spinfall_workflow::output::parent_folder(path);
+        let scenario = self.scenario_for(&folder);
+        let path = path.to_path_buf();
+        self.save_job = Some(Job::spawn(
+            format!("Saving {}", path.display()),
+            self.repaint.clone(),
+            move |_| {
+                let text = scenario_json(&scenario)?;
+                write_file(&OutputTarget::Path(path.clone()), |w| {
+                    w.write_all(text.as_bytes())
+                        .map_err(spinfall_workflow::output::io_error)
+                })?;
+                Ok((scenario, path))
+            },
+        ));
     }
 }
 
@@ -1171,103 +1236,52 @@ impl<T: Send + 'static> Cancel for Job<T> {
     }
 }
 
-/// Read, check and prepare a shape model (or the demo body) and its body.
-pub(crate) fn load_shape(
+/// Opens the shape model of `loaded` and builds its body (worker thread).
+pub(crate) fn load_session(
     ctx: &JobContext,
-    file: Option<(PathBuf, LengthUnit)>,
-    mut params: BodyParams,
-) -> Result<(LoadedShape, Arc<BodyView>, BodyParams), String> {
-    // The scenario loader passes its own settings; a plain load keeps the current ones.
-    ctx.progress.set_stage("reading the file");
-    let (name, source, text) = match &file {
-        Some((path, unit)) => {
-            let text = std::fs::read_to_string(path)
-                .map_err(|e| format!("cannot read {}: {e}", path.display()))?;
-            let name = path
-                .file_stem()
-                .map(|s| s.to_string_lossy().into_owned())
-                .unwrap_or_else(|| "shape".into());
-            (
-                name,
-                ShapeSource::File {
-                    path: path.clone(),
-                    unit: *unit,
-                },
-                text,
-            )
-        }
-        None => (
-            spinfall_gravity::demo::NAME.to_string(),
-            ShapeSource::Demo,
-            spinfall_gravity::demo::OBJ_KM.to_string(),
-        ),
-    };
-    let unit = match &file {
-        Some((_, unit)) => *unit,
-        None => LengthUnit::Kilometre,
-    };
-    if ctx.cancelled() {
-        return Err("loading cancelled".into());
-    }
-    ctx.progress.set_stage("parsing and checking the mesh");
-    ctx.request_repaint();
-    let where_ = match &file {
-        Some((p, _)) => p.display().to_string(),
-        None => name.clone(),
-    };
-    let (mesh, mut warnings) =
-        spinfall_gravity::parse_obj(text.as_bytes(), unit).map_err(|e| format!("{where_}: {e}"))?;
+    loaded: LoadedScenario,
+    scenario_path: Option<PathBuf>,
+) -> Result<Loaded, GuiError> {
     ctx.progress
-        .set_stage("building the BVH and mass properties");
+        .set_stage("reading and checking the shape model");
     ctx.request_repaint();
-    let (shape, more) = ShapeModel::new(mesh).map_err(|e| format!("{where_}: {e}"))?;
-    warnings.extend(more);
-    let shape = shape.recentered();
-    if ctx.cancelled() {
-        return Err("loading cancelled".into());
-    }
-    params.sync_derived(shape.mass_properties().volume_m3);
+    let request: ShapeRequest = loaded.shape_request();
+    let shape = open_shape(&request)?;
+    ctx.check_cancel()?;
     ctx.progress.set_stage("preparing the gravity field");
     ctx.request_repaint();
-    let shape = Arc::new(shape);
-    let body = params
-        .build_body(&name, shape.clone())
-        .map_err(|e| format!("{where_}: {e}"))?;
-    let view = Arc::new(BodyView::new(Arc::new(body)));
-    Ok((
-        LoadedShape {
-            name,
-            source,
-            shape,
-            warnings: warnings.iter().map(|w| w.to_string()).collect(),
-        },
+    let prepared = prepare_with_shape(loaded, shape, &PrepareOptions::new(Purpose::BodyOnly))?;
+    let view = Arc::new(BodyView::new(prepared.body.clone()));
+    Ok(Loaded {
+        scenario: prepared.loaded.scenario,
+        dir: prepared.loaded.dir,
+        shape: prepared.shape,
         view,
-        params,
-    ))
+        scenario_path,
+    })
 }
 
-/// Expand the scenario's launches on the app's body and fly them.
+/// Prepares the session's scenario exactly as the command line does and flies it (worker
+/// thread).
 fn run_flights(
     ctx: &JobContext,
     view: &BodyView,
-    scenario: &spinfall_dynamics::scenario::Scenario,
-    settings: &FlightSettings,
-) -> Result<RunOutput, String> {
-    let start = Instant::now();
+    loaded: LoadedScenario,
+    shape: OpenedShape,
+) -> Result<RunOutput, GuiError> {
     ctx.progress.set_stage("placing launches");
-    let body = view.body();
-    let launches = scenario.build_launches(body).map_err(|e| e.to_string())?;
+    let prepared = prepare_with_shape(loaded, shape, &PrepareOptions::new(Purpose::Fly))?;
+    // The view shows the body the run flies around (same document, same shape).
+    debug_assert_eq!(
+        prepared.body.shape.face_count(),
+        view.body().shape.face_count()
+    );
     ctx.progress.set_stage("flying");
-    let progress = |done: usize, total: usize| {
-        ctx.progress.set(done, total);
-        ctx.request_repaint();
-    };
-    let reports = spinfall_dynamics::fly_all(body, &launches, settings, &progress, &ctx.cancel);
+    let progress = ctx.progress_fn();
+    let done = spinfall_workflow::run::run(&prepared, &progress, &ctx.cancel)?;
     Ok(RunOutput {
-        cancelled: ctx.cancelled(),
-        launches: launches.len(),
-        reports,
-        elapsed: start.elapsed(),
+        reports: done.reports,
+        elapsed: done.elapsed,
     })
 }
 

@@ -182,7 +182,7 @@ impl SpinfallApp {
             ui.horizontal(|ui| {
                 match &self.shape {
                     Some(s) => {
-                        ui.label(format!("{}: {} faces", s.name, s.shape.face_count()));
+                        ui.label(format!("{}: {} faces", s.name(), s.shape.face_count()));
                     }
                     None => {
                         ui.label("no body");
@@ -201,9 +201,7 @@ impl SpinfallApp {
                     } => {
                         format!("last run: {launches} launches in {elapsed_s:.2} s")
                     }
-                    RunState::Cancelled { launches } => {
-                        format!("last run cancelled ({launches} finished)")
-                    }
+                    RunState::Cancelled => "last run cancelled".to_string(),
                     RunState::Failed(e) => format!("last run failed: {e}"),
                 };
                 ui.label(run);
@@ -256,6 +254,7 @@ impl SpinfallApp {
         add!(self.map_job);
         add!(self.run_job);
         add!(self.export_job);
+        add!(self.save_job);
         out
     }
 
@@ -288,17 +287,22 @@ impl SpinfallApp {
         ui.heading("Shape model");
         if let Some(s) = &self.shape {
             ui.label(format!(
-                "{} — {} faces, {} vertices",
-                s.name,
+                "{} — {} faces, {} vertices, {}",
+                s.name(),
                 s.shape.face_count(),
-                s.shape.mesh().vertices_m.len()
+                s.shape.vertex_count(),
+                if s.request.recenter {
+                    "recentred"
+                } else {
+                    "as given (not recentred)"
+                }
             ));
             if !s.warnings.is_empty() {
                 ui.collapsing(
                     format!("{} validation warning(s)", s.warnings.len()),
                     |ui| {
                         for w in &s.warnings {
-                            ui.label(w);
+                            ui.label(w.to_string());
                         }
                     },
                 );
@@ -317,6 +321,11 @@ impl SpinfallApp {
             ui.label("Length unit:");
             ui.radio_value(&mut self.state.unit, LengthUnit::Kilometre, "km");
             ui.radio_value(&mut self.state.unit, LengthUnit::Metre, "m");
+            ui.checkbox(&mut self.recenter_new_shapes, "recentre")
+                .on_hover_text(
+                    "Move the next shape model opened so its centre of mass is the origin \
+                     (a scenario file says for itself)",
+                );
         });
         ui.horizontal(|ui| {
             let loading = self.load_job.is_some();
@@ -609,18 +618,19 @@ impl SpinfallApp {
 
     pub(crate) fn run_ui(&mut self, ui: &mut Ui) {
         ui.heading("Flights");
-        crate::sites::flight_settings_ui(&mut self.settings, ui);
+        let scenario = &mut self.scenario;
+        crate::sites::flight_settings_ui(&mut scenario.integrator, &mut scenario.bounce, ui);
         ui.horizontal(|ui| {
             let l = ui.label("Dispersion seed:");
-            ui.add(egui::DragValue::new(&mut self.seed))
-                .labelled_by(l.id);
+            let mut seed = scenario.seed.unwrap_or(0);
+            if ui
+                .add(egui::DragValue::new(&mut seed))
+                .labelled_by(l.id)
+                .changed()
+            {
+                scenario.seed = Some(seed);
+            }
         });
-        if !self.extra_launches.is_empty() {
-            ui.label(format!(
-                "+ {} launch(es) from the scenario file, flown as written",
-                self.extra_launches.len()
-            ));
-        }
     }
 
     /// The row of main actions under the menu: open, run/cancel, export, and job progress.
@@ -631,8 +641,8 @@ impl SpinfallApp {
                     self.commands.push(Command::BrowseShape);
                 }
                 ui.separator();
-                let launches: usize = self.sites.iter().map(|s| s.launch_count()).sum::<usize>()
-                    + self.extra_launches.len();
+                let estimate = self.run_estimate();
+                let launches = estimate.launches;
                 let can_run = self.run_job.is_none() && self.view.is_some() && launches > 0;
                 if ui
                     .add_enabled(
@@ -641,10 +651,20 @@ impl SpinfallApp {
                             RichText::new(format!("Run {launches} launch(es)")).strong(),
                         ),
                     )
-                    .on_hover_text("Fly every launch (Ctrl+R or F5)")
+                    .on_hover_text(format!(
+                        "Fly every launch (Ctrl+R or F5). Needs {estimate}; runs with more than \
+                         {} launches are refused.",
+                        self.scenario.max_launches()
+                    ))
                     .clicked()
                 {
                     self.commands.push(Command::Run);
+                }
+                if launches > 0 {
+                    ui.weak(format!(
+                        "up to {} memory",
+                        spinfall_workflow::limits::bytes_text(estimate.memory_bytes)
+                    ));
                 }
                 if self.busy() && ui.button("Cancel").clicked() {
                     self.commands.push(Command::CancelJobs);

@@ -1,21 +1,25 @@
 //! The export window and the export job: images (rendered on a worker thread), results,
-//! trajectories, surface map and scenario, each written atomically.
+//! trajectories, surface map and scenario, written through the workflow's output module as one
+//! set with a manifest (`<prefix>_manifest.json`), into a folder created if missing.
 
-use std::io::Write;
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 use std::sync::Arc;
 
 use egui::Context;
 use spinfall_dynamics::FlightReport;
+use spinfall_dynamics::scenario::Scenario;
 use spinfall_dynamics::surface_map::SurfaceMap;
-use spinfall_render::{Camera, Image, RenderOptions, Renderer, encode_png};
-use spinfall_scene::{
-    BodyView, CompositeOptions, Frame, ViewOptions, add_title, composite, frame_scene,
-};
+use spinfall_render::{Camera, Image};
+use spinfall_scene::{BodyView, ViewOptions};
+use spinfall_workflow::export::write_surface_map_csv;
+use spinfall_workflow::images::{ImageRequest, ViewChoice, png_summary, render_image, write_png};
+use spinfall_workflow::output::{OutputFolder, SetFile};
+use spinfall_workflow::run_files::{ResultSelection, result_files, run_info};
+use spinfall_workflow::scenario_file::scenario_json;
 
 use crate::app::SpinfallApp;
-use crate::atomic::write_atomic;
 use crate::command::{Command, ExportRequest};
+use crate::error::GuiError;
 use crate::jobs::{Job, JobContext};
 use crate::state::PersistedState;
 
@@ -68,8 +72,8 @@ struct ExportSnapshot {
     options: ViewOptions,
     cameras: [Option<Camera>; 2],
     t_s: f64,
-    scenario_json: Result<String, String>,
-    body_name: String,
+    scenario: Scenario,
+    title: String,
     sites: Vec<spinfall_scene::SiteMarker>,
 }
 
@@ -180,12 +184,12 @@ impl SpinfallApp {
             options: self.state.view.clone(),
             cameras: [self.panes[0].camera.clone(), self.panes[1].camera.clone()],
             t_s: self.t_s,
-            scenario_json: crate::scenario_io::to_json_in(self, Some(&req.folder)),
-            body_name: self
-                .shape
-                .as_ref()
-                .map(|s| s.name.clone())
-                .unwrap_or_default(),
+            scenario: self.scenario_for(&req.folder),
+            title: self
+                .scenario
+                .name
+                .clone()
+                .unwrap_or_else(|| self.scenario.body_name()),
         };
         self.export_job = Some(Job::spawn(
             format!("Exporting to {}", req.folder.display()),
@@ -199,192 +203,93 @@ fn run_export(
     ctx: &JobContext,
     req: &ExportRequest,
     s: &ExportSnapshot,
-) -> Result<Vec<PathBuf>, String> {
-    if !req.folder.is_dir() {
-        return Err(format!("folder {} does not exist", req.folder.display()));
-    }
-    let path = |suffix: &str| req.folder.join(format!("{}_{suffix}", req.stem));
-    let mut written = Vec::new();
+) -> Result<Vec<PathBuf>, GuiError> {
+    let folder = OutputFolder::prepare(&req.folder)?;
+    let stem = &req.stem;
     let [w, h] = req.size_px;
-    let t_text = format!("{:.3}", s.t_s);
-    let chunks = [
-        ("Software", "Spinfall"),
-        ("Body", s.body_name.as_str()),
-        ("Time_s", t_text.as_str()),
-        ("Caution", crate::body_panel::CAUTION),
-    ];
-    let write_png = |p: &Path, image: &Image| {
-        write_atomic(p, |out| {
-            encode_png(image, &chunks, out).map_err(|e| e.to_string())
-        })
-    };
-    if req.composite_png {
-        ctx.progress.set_stage("rendering the side-by-side image");
-        ctx.request_repaint();
-        let image = composite(
-            &s.view,
-            &s.reports,
-            s.t_s,
-            &s.options,
-            &CompositeOptions {
-                width_px: w,
-                height_px: h,
-                supersample: 2,
-                gap_px: 4,
-                body_camera: s.cameras[0].clone(),
-                inertial_camera: s.cameras[1].clone(),
-                sites: s.sites.clone(),
-            },
-        )
-        .map_err(|e| e.to_string())?;
-        let p = path("views.png");
-        write_png(&p, &image)?;
-        written.push(p);
-    }
-    for (wanted, frame, cam, suffix) in [
-        (
-            req.body_png,
-            Frame::BodyFixed,
-            &s.cameras[0],
-            "body_fixed.png",
-        ),
-        (
-            req.inertial_png,
-            Frame::Inertial,
-            &s.cameras[1],
-            "inertial.png",
-        ),
+    let launches = s.reports.len();
+    let chunks = png_summary(&s.title, &s.view, launches, s.t_s);
+    let mut images: Vec<(String, Image)> = Vec::new();
+    for (wanted, view, suffix) in [
+        (req.composite_png, ViewChoice::Both, "views.png"),
+        (req.body_png, ViewChoice::BodyFixed, "body_fixed.png"),
+        (req.inertial_png, ViewChoice::Inertial, "inertial.png"),
     ] {
-        if !wanted || ctx.cancelled() {
+        if !wanted {
             continue;
         }
+        ctx.check_cancel()?;
         ctx.progress.set_stage(&format!("rendering {suffix}"));
         ctx.request_repaint();
-        let mut camera = cam
-            .clone()
-            .unwrap_or_else(|| spinfall_scene::default_camera(&s.view.body().shape, w, h));
-        camera.set_viewport(w, h);
-        let mut scene = frame_scene(&s.view, &s.reports, s.t_s, &s.options, [w, h], frame);
-        spinfall_scene::add_site_markers(&mut scene, &s.view, &s.sites, s.t_s, frame);
-        add_title(
-            &mut scene,
-            frame,
-            s.t_s,
-            s.view.body().spin.period_s,
-            [w, h],
-        );
-        let mut renderer = Renderer::new();
-        let image = renderer
-            .render(
-                &scene,
-                &camera,
-                &RenderOptions::new(w, h).with_supersample(2),
-            )
-            .clone();
-        let p = path(suffix);
-        write_png(&p, &image)?;
-        written.push(p);
-    }
-    if req.results && !s.reports.is_empty() {
-        ctx.progress.set_stage("writing results");
-        let p = path("results.json");
-        write_atomic(&p, |out| {
-            spinfall_dynamics::export::write_results_json(out, &s.reports)
-                .map_err(|e| e.to_string())
-        })?;
-        written.push(p);
-        let p = path("results.csv");
-        write_atomic(&p, |out| {
-            write_results_csv(out, &s.reports).map_err(|e| e.to_string())
-        })?;
-        written.push(p);
-    }
-    if req.trajectories && !s.reports.is_empty() {
-        ctx.progress.set_stage("writing trajectories");
-        let p = path("trajectories.csv");
-        write_atomic(&p, |out| {
-            spinfall_dynamics::export::write_trajectories_csv(out, &s.reports)
-                .map_err(|e| e.to_string())
-        })?;
-        written.push(p);
-    }
-    if req.surface_map {
-        // Compute the map here when the user has not shown one yet.
-        let computed;
-        let map = match &s.map {
-            Some(m) => m.as_ref(),
-            None => {
-                ctx.progress.set_stage("computing the surface map");
-                ctx.request_repaint();
-                let progress = |done: usize, total: usize| {
-                    ctx.progress.set(done, total);
-                    ctx.request_repaint();
-                };
-                computed = spinfall_dynamics::surface_map::surface_map(
-                    s.view.body(),
-                    &progress,
-                    &ctx.cancel,
-                )
-                .map_err(|e| format!("surface map: {e}"))?;
-                &computed
-            }
+        let request = ImageRequest {
+            view,
+            width_px: w,
+            height_px: h,
+            t_s: s.t_s,
+            options: s.options.clone(),
+            cameras: s.cameras.clone(),
+            sites: s.sites.clone(),
         };
-        ctx.progress.set_stage("writing the surface map");
-        let p = path("surface_map.csv");
-        write_atomic(&p, |out| {
-            spinfall_dynamics::export::write_surface_map_csv(out, s.view.body(), map)
-                .map_err(|e| e.to_string())
-        })?;
-        written.push(p);
+        images.push((
+            format!("{stem}_{suffix}"),
+            render_image(&s.view, &s.reports, &request)?,
+        ));
     }
-    if req.scenario {
-        let text = s.scenario_json.clone()?;
-        let p = path("scenario.json");
-        write_atomic(&p, |out| {
-            out.write_all(text.as_bytes()).map_err(|e| e.to_string())
-        })?;
-        written.push(p);
-    }
-    if written.is_empty() {
-        return Err("nothing selected to export (or no results yet)".into());
-    }
-    Ok(written)
-}
-
-/// The results table as CSV (one row per launch, units in the header).
-pub fn write_results_csv(out: &mut dyn Write, reports: &[FlightReport]) -> std::io::Result<()> {
-    writeln!(
-        out,
-        "id,outcome,first_contact_time_s,rest_time_s,landing_lat_deg,landing_lon_deg,downrange_m,max_altitude_m,first_impact_speed_m_s,first_impact_angle_deg,contacts,jacobi_rel_drift,frame_agreement_m"
-    )?;
-    let f = |v: Option<f64>| v.map(|v| format!("{v}")).unwrap_or_default();
-    for r in reports {
-        let first = r.contacts.first();
-        writeln!(
-            out,
-            "{},{},{},{},{},{},{},{},{},{},{},{},{}",
-            csv_text(&r.id),
-            csv_text(&crate::results::outcome_text(&r.outcome)),
-            f(r.first_contact_time_s),
-            f(r.rest_time_s),
-            f(r.landing.as_ref().map(|l| l.lat_deg)),
-            f(r.landing.as_ref().map(|l| l.lon_deg)),
-            f(r.downrange_m),
-            r.max_altitude_m,
-            f(first.map(|c| c.impact_speed_m_s)),
-            f(first.map(|c| c.impact_angle_deg)),
-            r.contacts.len(),
-            r.jacobi_rel_drift,
-            r.frame_agreement_m
-        )?;
-    }
-    Ok(())
-}
-
-fn csv_text(s: &str) -> String {
-    if s.contains([',', '"', '\n']) {
-        format!("\"{}\"", s.replace('"', "\"\""))
+    // Compute the map here when the user has not shown one yet.
+    let map = match (&s.map, req.surface_map) {
+        (Some(m), true) => Some(m.clone()),
+        (None, true) => {
+            ctx.progress.set_stage("computing the surface map");
+            ctx.request_repaint();
+            let progress = ctx.progress_fn();
+            Some(Arc::new(spinfall_workflow::surface::compute_surface_map(
+                s.view.body(),
+                &progress,
+                &ctx.cancel,
+            )?))
+        }
+        (_, false) => None,
+    };
+    let scenario_text = if req.scenario {
+        Some(scenario_json(&s.scenario)?)
     } else {
-        s.to_string()
+        None
+    };
+    ctx.progress.set_stage("writing the files");
+    ctx.request_repaint();
+    let mut files: Vec<SetFile<'_>> = Vec::new();
+    for (name, image) in &images {
+        let chunks = &chunks;
+        files.push(SetFile::new(name.clone(), move |out| {
+            write_png(out, image, chunks)
+        }));
     }
+    let prefix = format!("{stem}_");
+    if !s.reports.is_empty() {
+        let selection = ResultSelection {
+            results: req.results,
+            trajectories: req.trajectories,
+        };
+        files.extend(result_files(&s.reports, &prefix, selection));
+    }
+    if let Some(map) = &map {
+        let body = s.view.body();
+        files.push(SetFile::new(
+            format!("{stem}_surface_map.csv"),
+            move |out| write_surface_map_csv(out, body, map),
+        ));
+    }
+    if let Some(text) = &scenario_text {
+        files.push(SetFile::new(format!("{stem}_scenario.json"), move |out| {
+            out.write_all(text.as_bytes())
+                .map_err(spinfall_workflow::output::io_error)
+        }));
+    }
+    if files.is_empty() {
+        return Err(GuiError::Refused(
+            "nothing selected to export (or no results yet)".into(),
+        ));
+    }
+    let info = run_info(Some(&s.scenario), &Default::default());
+    Ok(folder.write_set(&format!("{stem}_manifest.json"), files, &info, &ctx.cancel)?)
 }

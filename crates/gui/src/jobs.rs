@@ -9,6 +9,8 @@ use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
 use std::sync::mpsc::{Receiver, TryRecvError, channel};
 use std::sync::{Arc, Mutex, OnceLock};
 
+use crate::error::GuiError;
+
 /// The rayon pool background jobs run in (separate from the global pool the renderer uses).
 fn job_pool() -> Option<&'static rayon::ThreadPool> {
     static POOL: OnceLock<Option<rayon::ThreadPool>> = OnceLock::new();
@@ -85,6 +87,23 @@ impl JobContext {
     pub fn cancelled(&self) -> bool {
         self.cancel.load(Ordering::Relaxed)
     }
+
+    /// [`spinfall_workflow::WorkflowError::Cancelled`] once Cancel was pressed.
+    pub fn check_cancel(&self) -> Result<(), GuiError> {
+        if self.cancelled() {
+            Err(spinfall_workflow::WorkflowError::Cancelled.into())
+        } else {
+            Ok(())
+        }
+    }
+
+    /// A progress callback for the workflow: counts and a repaint.
+    pub fn progress_fn(&self) -> impl Fn(usize, usize) + Sync + '_ {
+        move |done, total| {
+            self.progress.set(done, total);
+            self.request_repaint();
+        }
+    }
 }
 
 /// One running background job producing `T`.
@@ -94,7 +113,7 @@ pub struct Job<T> {
     /// Progress shared with the worker.
     pub progress: Arc<Progress>,
     cancel: Arc<AtomicBool>,
-    rx: Receiver<Result<T, String>>,
+    rx: Receiver<Result<T, GuiError>>,
 }
 
 /// Outcome of polling a job.
@@ -102,7 +121,7 @@ pub enum Poll<T> {
     /// Still running.
     Running,
     /// Finished (with the worker's result).
-    Done(Result<T, String>),
+    Done(Result<T, GuiError>),
 }
 
 impl<T: Send + 'static> Job<T> {
@@ -110,7 +129,7 @@ impl<T: Send + 'static> Job<T> {
     pub fn spawn(
         label: impl Into<String>,
         repaint: Arc<dyn Fn() + Send + Sync>,
-        work: impl FnOnce(&JobContext) -> Result<T, String> + Send + 'static,
+        work: impl FnOnce(&JobContext) -> Result<T, GuiError> + Send + 'static,
     ) -> Self {
         let progress = Arc::new(Progress::default());
         let cancel = Arc::new(AtomicBool::new(false));
@@ -130,7 +149,14 @@ impl<T: Send + 'static> Job<T> {
                         Some(pool) => pool.install(run),
                         None => run(),
                     }))
-                    .unwrap_or_else(|_| Err("the background job failed unexpectedly".into()));
+                    .unwrap_or_else(|panic| {
+                        let what = panic
+                            .downcast_ref::<&str>()
+                            .map(|s| s.to_string())
+                            .or_else(|| panic.downcast_ref::<String>().cloned())
+                            .unwrap_or_else(|| "no message".into());
+                        Err(GuiError::WorkerFailed(what))
+                    });
                 // The receiver may be gone when the app closed; nothing to do then.
                 let _ = tx.send(result);
                 ctx.request_repaint();
@@ -139,7 +165,7 @@ impl<T: Send + 'static> Job<T> {
         let rx = match spawned {
             Ok(_) => rx,
             Err(e) => {
-                let _ = tx_err.send(Err(format!("could not start a worker thread: {e}")));
+                let _ = tx_err.send(Err(GuiError::NoWorker(e.to_string())));
                 rx_err
             }
         };
@@ -166,9 +192,7 @@ impl<T: Send + 'static> Job<T> {
         match self.rx.try_recv() {
             Ok(r) => Poll::Done(r),
             Err(TryRecvError::Empty) => Poll::Running,
-            Err(TryRecvError::Disconnected) => {
-                Poll::Done(Err("the background job ended without a result".into()))
-            }
+            Err(TryRecvError::Disconnected) => Poll::Done(Err(GuiError::WorkerLost)),
         }
     }
 }
@@ -214,6 +238,10 @@ mod tests {
             }
             std::thread::sleep(std::time::Duration::from_millis(2));
         };
-        assert!(result.unwrap_err().contains("failed unexpectedly"));
+        let e = result.unwrap_err();
+        assert!(
+            matches!(e, GuiError::WorkerFailed(ref m) if m == "worker panic"),
+            "{e}"
+        );
     }
 }

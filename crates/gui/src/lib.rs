@@ -6,9 +6,11 @@
 //! views side by side, shows a sortable results table with plots, and exports images, tables
 //! and scenario files.
 //!
-//! What it is not: no physics and no rasterizing of its own. Physics comes from
-//! `spinfall-dynamics`, pictures from `spinfall-scene` and `spinfall-render`. Results are for
-//! research and planning; Spinfall is not flight-certified.
+//! What it is not: no physics, no file reading or writing, and no rasterizing of its own. Shape
+//! models and scenarios are opened, runs prepared and flown, and every file written by
+//! `spinfall-workflow` (the same layer the command line uses, so both give the same numbers);
+//! pictures come from `spinfall-scene` and `spinfall-render`. Errors are typed ([`GuiError`]).
+//! Results are for research and planning; Spinfall is not flight-certified.
 //!
 //! Main types: [`SpinfallApp`] (the app state; [`SpinfallApp::ui`] draws one frame),
 //! [`GuiOptions`] and [`run`] (open the window), [`Command`] (everything the UI asks for,
@@ -17,29 +19,26 @@
 //! ```no_run
 //! use spinfall_gui::{run, GuiOptions};
 //! use spinfall_gravity::LengthUnit;
-//! run(GuiOptions { shape_path: None, unit: LengthUnit::Kilometre }).unwrap();
+//! run(GuiOptions { shape_path: None, unit: LengthUnit::Kilometre }).expect("a display");
 //! ```
 #![warn(missing_docs)]
 
 mod app;
-mod atomic;
 mod body_panel;
 mod command;
+mod error;
 mod export;
 mod jobs;
 mod results;
-mod scenario_io;
 mod session;
 mod sites;
 mod state;
 mod views;
 
-pub use app::{LoadedShape, Notice, NoticeKind, RunState, SpinfallApp};
-pub use atomic::write_atomic;
+pub use app::{Notice, NoticeKind, RunState, SpinfallApp};
 pub use command::{Command, ExportRequest};
-pub use session::{
-    AxisChoice, BodyParams, LaunchParams, MassInput, SiteEntry, SiteLocation, Spread,
-};
+pub use error::GuiError;
+pub use session::{AxisChoice, BodyParams, MassInput};
 pub use state::PersistedState;
 
 use std::path::PathBuf;
@@ -56,7 +55,10 @@ pub struct GuiOptions {
 }
 
 /// Open the Spinfall window and run until it is closed.
-pub fn run(options: GuiOptions) -> anyhow::Result<()> {
+///
+/// # Errors
+/// [`GuiError::Window`] when the window cannot be opened (no display, no OpenGL).
+pub fn run(options: GuiOptions) -> Result<(), GuiError> {
     let native_options = eframe::NativeOptions {
         viewport: egui::ViewportBuilder::default()
             .with_title("Spinfall")
@@ -72,5 +74,5 @@ pub fn run(options: GuiOptions) -> anyhow::Result<()> {
         native_options,
         Box::new(move |cc| Ok(Box::new(SpinfallApp::new(cc, options)))),
     )
-    .map_err(|e| anyhow::anyhow!("could not open the Spinfall window: {e}"))
+    .map_err(|e| GuiError::Window(e.to_string()))
 }

@@ -4,8 +4,9 @@
 use egui::Ui;
 use egui_extras::{Column, TableBuilder};
 use egui_plot::{Legend, Line, Plot, PlotPoints};
-use nalgebra::{Point3, Vector3};
-use spinfall_dynamics::{Body, FlightReport, Outcome};
+use spinfall_dynamics::FlightReport;
+use spinfall_workflow::export::outcome_text;
+use spinfall_workflow::series::{FlightSeries, flight_series};
 
 use crate::app::SpinfallApp;
 use crate::command::Command;
@@ -67,16 +68,6 @@ pub struct TableState {
     pub plot_kind: usize,
     /// Plot job for the selected launch.
     pub(crate) plot_job: Option<Job<PlotSeries>>,
-}
-
-/// Outcome as short text.
-pub fn outcome_text(o: &Outcome) -> String {
-    match o {
-        Outcome::Landed => "landed".into(),
-        Outcome::Escaped => "escaped".into(),
-        Outcome::StillFlying => "still flying".into(),
-        Outcome::Failed { reason } => format!("failed: {reason}"),
-    }
 }
 
 /// Numeric value of a column for sorting (NaN when absent).
@@ -150,19 +141,13 @@ fn opt(v: Option<f64>, decimals: usize) -> String {
     }
 }
 
-/// Time series of the selected launch for the plots.
+/// Time series of the selected launch for the plots (computed by the workflow on a worker).
 #[derive(Debug, Clone, Default)]
 pub struct PlotSeries {
     /// Index of the launch.
     pub launch: usize,
-    /// `[t_s, altitude_m]`.
-    pub altitude_m: Vec<[f64; 2]>,
-    /// `[t_s, speed relative to the surface m/s]`.
-    pub speed_body_m_s: Vec<[f64; 2]>,
-    /// `[t_s, inertial speed m/s]`.
-    pub speed_inertial_m_s: Vec<[f64; 2]>,
-    /// `[t_s, (C - C0)/|C0|]` of the Jacobi constant in the body frame.
-    pub jacobi_rel: Vec<[f64; 2]>,
+    /// The series.
+    pub series: FlightSeries,
 }
 
 /// A named line of a plot.
@@ -170,42 +155,6 @@ type NamedSeries<'a> = (&'a str, &'a Vec<[f64; 2]>);
 
 /// Most samples used for the plots (the trace is thinned evenly beyond that).
 const MAX_PLOT_SAMPLES: usize = 600;
-
-/// Compute the plot series (altitude needs ray casts, the Jacobi constant needs the potential:
-/// this runs on a worker thread).
-pub fn plot_series(body: &Body, report: &FlightReport, launch: usize) -> PlotSeries {
-    let samples = &report.trajectory_body;
-    let step = samples.len().div_ceil(MAX_PLOT_SAMPLES).max(1);
-    let omega = body.omega_body_rad_s();
-    let far = body.brillouin_radius_m() * 3.0 + 1.0;
-    let mut out = PlotSeries {
-        launch,
-        ..Default::default()
-    };
-    let mut c0 = None;
-    for s in samples.iter().step_by(step).chain(samples.last()) {
-        let p = Point3::from(s.pos_m);
-        let v = Vector3::from(s.vel_m_s);
-        let r = p.coords.norm();
-        if r > 0.0 {
-            let dir = p.coords / r;
-            let origin = Point3::from(dir * far);
-            if let Some(hit) = body.shape.ray_first_hit(&origin, &(-dir), far) {
-                out.altitude_m.push([s.t_s, r - (far - hit.t)]);
-            }
-        }
-        out.speed_body_m_s.push([s.t_s, v.norm()]);
-        out.speed_inertial_m_s
-            .push([s.t_s, (v + omega.cross(&p.coords)).norm()]);
-        let (u, _) = body.gravity.potential_acceleration(&p);
-        let c = 0.5 * v.norm_squared() - 0.5 * omega.cross(&p.coords).norm_squared() - u;
-        let c0v = *c0.get_or_insert(c);
-        if c0v != 0.0 {
-            out.jacobi_rel.push([s.t_s, (c - c0v) / c0v.abs()]);
-        }
-    }
-    out
-}
 
 impl SpinfallApp {
     pub(crate) fn results_ui(&mut self, ui: &mut Ui) {
@@ -359,10 +308,18 @@ impl SpinfallApp {
             let body = view.body().clone();
             let reports = self.reports.clone();
             self.table.plot_job = Some(Job::spawn("Plot", self.repaint.clone(), move |_| {
-                Ok(plot_series(&body, &reports[i], i))
+                Ok(PlotSeries {
+                    launch: i,
+                    series: flight_series(&body, &reports[i], MAX_PLOT_SAMPLES),
+                })
             }));
         }
-        let Some(series) = self.plot_cache.as_ref().filter(|p| p.launch == i) else {
+        let Some(series) = self
+            .plot_cache
+            .as_ref()
+            .filter(|p| p.launch == i)
+            .map(|p| &p.series)
+        else {
             ui.spinner();
             return;
         };

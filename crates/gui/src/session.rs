@@ -1,17 +1,18 @@
-//! The user's session: body settings and launch sites, as plain data the panels edit.
+//! The user's session: the scenario document being edited (body, launches, integrator and
+//! contact settings, seed, exactly as a scenario file holds them) and the draft of the body
+//! panel ([`BodyParams`], which also shows the derived mass figures).
 //!
-//! Converted to the dynamics crate's types in one place ([`BodyParams::build_body`],
-//! [`SiteEntry::site`]) and to and from the scenario file format (see `scenario_io`).
+//! The document is the one the command line flies: runs go through
+//! `spinfall_workflow::prepare`, and saving writes the document back, so a loaded scenario
+//! saves unchanged unless the user edited it.
 
-use std::path::PathBuf;
-use std::sync::Arc;
-
-use nalgebra::Point3;
 use serde::{Deserialize, Serialize};
-use spinfall_dynamics::launch::FanQuantity;
-use spinfall_dynamics::site::{NormalMode, Site};
-use spinfall_dynamics::{Body, Spin, SpinAxis};
-use spinfall_gravity::{G_SI, LengthUnit, MassSpec, ShapeModel};
+use spinfall_dynamics::SpinAxis;
+use spinfall_dynamics::scenario::{
+    BUILTIN_QUILLON, BodySpec, BounceSpec, IntegratorSpec, LaunchEntry, SCENARIO_FORMAT,
+    SCENARIO_VERSION, Scenario, SpinSpec,
+};
+use spinfall_gravity::{G_SI, LengthUnit, MassSpec};
 
 /// Which mass figure the user typed (the others are derived).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
@@ -93,7 +94,8 @@ impl BodyParams {
         }
     }
 
-    /// Fill the two untyped mass figures from the typed one for a body of `volume_m3`.
+    /// Fill the two untyped mass figures from the typed one for a body of `volume_m3` (the
+    /// typed figure itself is never touched, so it saves exactly as it was read).
     pub fn sync_derived(&mut self, volume_m3: f64) {
         if volume_m3.is_nan() || volume_m3 <= 0.0 {
             return;
@@ -104,140 +106,113 @@ impl BodyParams {
             MassInput::Gm => self.gm_m3_s2 / G_SI,
         };
         if mass_kg.is_finite() {
-            self.mass_kg = mass_kg;
-            self.density_kg_m3 = mass_kg / volume_m3;
-            self.gm_m3_s2 = mass_kg * G_SI;
-        }
-    }
-
-    /// The body with these settings.
-    pub fn build_body(&self, name: &str, shape: Arc<ShapeModel>) -> Result<Body, String> {
-        let axis = self
-            .spin_axis()
-            .resolve(&shape)
-            .map_err(|e| e.to_string())?;
-        let spin = Spin::from_hours(self.period_h, axis, self.phase_deg.to_radians())
-            .map_err(|e| e.to_string())?;
-        Body::new(name, shape, self.mass_spec(), spin).map_err(|e| e.to_string())
-    }
-}
-
-/// How a launch is spread into several launches.
-#[derive(Debug, Clone, Copy, PartialEq, Default, Serialize, Deserialize)]
-pub enum Spread {
-    /// One launch.
-    #[default]
-    Single,
-    /// `count` launches sweeping `vary` from the launch's value to `to` (ends included).
-    Fan {
-        /// Swept quantity.
-        vary: FanQuantity,
-        /// Final value (deg or m/s).
-        to: f64,
-        /// Number of launches.
-        count: u32,
-    },
-    /// `count` launches with Gaussian speed and direction errors (seeded by the session seed).
-    Dispersion {
-        /// Number of launches.
-        count: u32,
-        /// 1-sigma speed error, percent of the speed.
-        speed_sigma_percent: f64,
-        /// 1-sigma direction error per axis, degrees.
-        direction_sigma_deg: f64,
-    },
-}
-
-/// Launch parameters of a site.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
-#[serde(default)]
-pub struct LaunchParams {
-    /// Speed relative to the surface, m/s.
-    pub speed_m_s: f64,
-    /// Azimuth from local north toward east, degrees.
-    pub azimuth_deg: f64,
-    /// Elevation above the local horizontal, degrees.
-    pub elevation_deg: f64,
-    /// Fan or dispersion.
-    pub spread: Spread,
-}
-
-impl Default for LaunchParams {
-    fn default() -> Self {
-        Self {
-            speed_m_s: 0.5,
-            azimuth_deg: 90.0,
-            elevation_deg: 45.0,
-            spread: Spread::Single,
-        }
-    }
-}
-
-/// Where a site is.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
-pub enum SiteLocation {
-    /// A picked surface point on a face (body frame, metres).
-    Point {
-        /// Surface point, body frame, m.
-        point_body_m: [f64; 3],
-        /// Face index.
-        face: usize,
-    },
-    /// Planetocentric latitude/longitude (the outermost surface along the radial line).
-    LatLon {
-        /// Latitude, degrees.
-        lat_deg: f64,
-        /// East longitude, degrees.
-        lon_deg: f64,
-    },
-}
-
-/// A launch site in the list.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-pub struct SiteEntry {
-    /// Name shown in lists and tables.
-    pub name: String,
-    /// Where it is.
-    pub location: SiteLocation,
-    /// How to launch from it.
-    pub launch: LaunchParams,
-}
-
-impl SiteEntry {
-    /// The dynamics site on `body`.
-    pub fn site(&self, body: &Body) -> Result<Site, String> {
-        match self.location {
-            SiteLocation::Point { point_body_m, face } => {
-                Site::from_surface_point(body, Point3::from(point_body_m), face, NormalMode::Face)
+            if self.mass_input != MassInput::Mass {
+                self.mass_kg = mass_kg;
             }
-            SiteLocation::LatLon { lat_deg, lon_deg } => {
-                Site::from_lat_lon(body, lat_deg, lon_deg, NormalMode::Face)
+            if self.mass_input != MassInput::Density {
+                self.density_kg_m3 = mass_kg / volume_m3;
+            }
+            if self.mass_input != MassInput::Gm {
+                self.gm_m3_s2 = mass_kg * G_SI;
             }
         }
-        .map_err(|e| format!("site \"{}\": {e}", self.name))
     }
 
-    /// Number of launches this site expands to.
-    pub fn launch_count(&self) -> usize {
-        match self.launch.spread {
-            Spread::Single => 1,
-            Spread::Fan { count, .. } | Spread::Dispersion { count, .. } => count.max(1) as usize,
+    /// The body panel's values for a scenario body.
+    pub fn from_spec(b: &BodySpec) -> BodyParams {
+        let mut p = BodyParams::default();
+        if let Some(d) = b.density_kg_m3 {
+            p.mass_input = MassInput::Density;
+            p.density_kg_m3 = d;
+        } else if let Some(m) = b.mass_kg {
+            p.mass_input = MassInput::Mass;
+            p.mass_kg = m;
+        } else if let Some(g) = b.gm_m3_s2 {
+            p.mass_input = MassInput::Gm;
+            p.gm_m3_s2 = g;
         }
+        p.period_h = b.spin.period_h;
+        p.phase_deg = b.spin.phase_deg;
+        match b.spin.axis {
+            SpinAxis::MaxMoment => p.axis = AxisChoice::MaxMoment,
+            SpinAxis::PlusZ => p.axis = AxisChoice::PlusZ,
+            SpinAxis::Vector(v) => {
+                p.axis = AxisChoice::Custom;
+                p.custom_axis = v;
+            }
+        }
+        p
+    }
+
+    /// Writes the typed mass figure and the spin into a scenario body (the other keys, the
+    /// shape, its unit, name and `recenter`, stay as they are).
+    pub fn write_into(&self, b: &mut BodySpec) {
+        b.density_kg_m3 = (self.mass_input == MassInput::Density).then_some(self.density_kg_m3);
+        b.mass_kg = (self.mass_input == MassInput::Mass).then_some(self.mass_kg);
+        b.gm_m3_s2 = (self.mass_input == MassInput::Gm).then_some(self.gm_m3_s2);
+        b.spin = SpinSpec {
+            period_h: self.period_h,
+            axis: self.spin_axis(),
+            phase_deg: self.phase_deg,
+        };
     }
 }
 
-/// Where the current shape model came from.
-#[derive(Debug, Clone, PartialEq)]
-pub enum ShapeSource {
-    /// The built-in demo body.
-    Demo,
-    /// A file.
-    File {
-        /// Path of the OBJ file.
-        path: PathBuf,
-        /// Its length unit.
-        unit: LengthUnit,
-    },
+/// A new session's document on a shape (`shape` as a scenario writes it: a path or
+/// `builtin:quillon`), with the body panel's values and default settings.
+pub fn new_scenario(
+    shape: String,
+    unit: LengthUnit,
+    recenter: bool,
+    params: &BodyParams,
+) -> Scenario {
+    let title = if shape == BUILTIN_QUILLON {
+        spinfall_gravity::demo::NAME.to_string()
+    } else {
+        std::path::Path::new(&shape)
+            .file_stem()
+            .map_or_else(|| "shape".into(), |s| s.to_string_lossy().into_owned())
+    };
+    let mut body = BodySpec {
+        shape,
+        unit,
+        name: None,
+        density_kg_m3: None,
+        mass_kg: None,
+        gm_m3_s2: None,
+        recenter,
+        spin: SpinSpec {
+            period_h: params.period_h,
+            axis: params.spin_axis(),
+            phase_deg: params.phase_deg,
+        },
+    };
+    params.write_into(&mut body);
+    Scenario {
+        format: SCENARIO_FORMAT.into(),
+        version: SCENARIO_VERSION,
+        name: Some(format!("{title} session")),
+        notes: Some(
+            "Saved by the Spinfall app. Spinfall is for research and planning, not \
+             flight-certified."
+                .into(),
+        ),
+        seed: Some(1),
+        body,
+        launches: Vec::new(),
+        integrator: IntegratorSpec::default(),
+        bounce: BounceSpec::default(),
+        limits: None,
+    }
+}
+
+/// A launch's editable numbers, with the defaults of the scenario format filled in.
+pub fn launch_defaults(l: &LaunchEntry) -> (f64, f64, f64) {
+    (
+        l.speed_m_s.unwrap_or(0.0),
+        l.azimuth_deg.unwrap_or(0.0),
+        l.elevation_deg.unwrap_or(90.0),
+    )
 }
 
 #[cfg(test)]
@@ -261,6 +236,10 @@ mod tests {
         p.gm_m3_s2 *= 2.0;
         p.sync_derived(volume_m3);
         assert!((p.density_kg_m3 - 3000.0).abs() < 1e-6);
+        // The typed figure is never rewritten (it saves exactly as read).
+        let typed = p.gm_m3_s2;
+        p.sync_derived(volume_m3 * 3.0);
+        assert_eq!(p.gm_m3_s2.to_bits(), typed.to_bits());
         // A zero or NaN volume leaves the figures alone.
         let before = p.clone();
         p.sync_derived(f64::NAN);

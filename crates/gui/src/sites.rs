@@ -1,17 +1,19 @@
-//! Launch sites: list, rename, remove, add by latitude/longitude, launch parameters of the
-//! selected site with an escape-speed gauge; and the flight settings.
+//! Launches: list, rename, remove, add a site by latitude/longitude, the launch parameters of
+//! the selected one with an escape-speed gauge (edited in the scenario document itself, so what
+//! the app does not show is kept); and the flight settings.
 
 use egui::{Color32, RichText, Ui};
-use spinfall_dynamics::FlightSettings;
 use spinfall_dynamics::launch::FanQuantity;
+use spinfall_dynamics::scenario::{
+    BounceSpec, DispersionSpec, FanSpec, IntegratorSpec, LaunchEntry,
+};
 
 use crate::app::SpinfallApp;
 use crate::command::Command;
-use crate::session::Spread;
 
 impl SpinfallApp {
     pub(crate) fn sites_ui(&mut self, ui: &mut Ui) {
-        ui.heading("Launch sites");
+        ui.heading("Launches");
         ui.checkbox(
             &mut self.click_to_place,
             "Click on the body to place a site",
@@ -44,22 +46,23 @@ impl SpinfallApp {
                 });
             }
         });
-        if self.sites.is_empty() {
-            ui.weak("No sites yet.");
+        if self.scenario.launches.is_empty() {
+            ui.weak("No launches yet.");
         }
         let mut remove = None;
-        for i in 0..self.sites.len() {
+        for i in 0..self.scenario.launches.len() {
             ui.horizontal(|ui| {
                 let selected = self.selected_site == Some(i);
                 if ui.radio(selected, "").clicked() {
                     self.selected_site = Some(i);
                 }
-                ui.add(egui::TextEdit::singleline(&mut self.sites[i].name).desired_width(110.0));
-                let n = self.sites[i].launch_count();
+                let l = &mut self.scenario.launches[i];
+                ui.add(egui::TextEdit::singleline(&mut l.id).desired_width(110.0));
+                let n = l.member_count();
                 ui.weak(format!("{n} launch{}", if n == 1 { "" } else { "es" }));
                 if ui
                     .small_button("Remove")
-                    .on_hover_text("Remove this site")
+                    .on_hover_text("Remove this launch")
                     .clicked()
                 {
                     remove = Some(i);
@@ -69,16 +72,27 @@ impl SpinfallApp {
         if let Some(i) = remove {
             self.commands.push(Command::RemoveSite(i));
         }
-        let Some(i) = self.selected_site.filter(|&i| i < self.sites.len()) else {
+        let Some(i) = self
+            .selected_site
+            .filter(|&i| i < self.scenario.launches.len())
+        else {
             return;
         };
         // Where the selected site is and what it takes to leave.
         let site_info = self.resolved_sites().get(i).cloned();
         ui.separator();
-        ui.label(RichText::new(format!("Selected: {}", self.sites[i].name)).strong());
+        let entry = &self.scenario.launches[i];
+        ui.label(RichText::new(format!("Selected: {}", entry.id)).strong());
+        if let Some(state) = &entry.state {
+            ui.label(format!(
+                "Explicit state: position {:?} m, velocity {:?} m/s (body frame); flown as written",
+                state.position_m, state.velocity_m_s
+            ));
+            return;
+        }
         let mut escape_normal = None;
         match &site_info {
-            Some(Ok(site)) => {
+            Some(Ok(Some(site))) => {
                 ui.label(format!(
                     "lat {:.2}°, lon {:.2}°, face {}",
                     site.lat_deg, site.lon_deg, site.face
@@ -88,128 +102,166 @@ impl SpinfallApp {
             Some(Err(e)) => {
                 ui.colored_label(Color32::from_rgb(255, 110, 100), e);
             }
-            None => {}
+            _ => {}
         }
-        let launch = &mut self.sites[i].launch;
+        let launch = &mut self.scenario.launches[i];
+        let (mut speed, mut azimuth, mut elevation) = crate::session::launch_defaults(launch);
         egui::Grid::new("launch").num_columns(2).show(ui, |ui| {
             let l = ui.label("Speed:");
-            ui.add(
-                egui::DragValue::new(&mut launch.speed_m_s)
-                    .range(0.0..=1000.0)
-                    .speed(0.005)
-                    .max_decimals(4)
-                    .suffix(" m/s"),
-            )
-            .labelled_by(l.id);
+            if ui
+                .add(
+                    egui::DragValue::new(&mut speed)
+                        .range(0.0..=1000.0)
+                        .speed(0.005)
+                        .max_decimals(4)
+                        .suffix(" m/s"),
+                )
+                .labelled_by(l.id)
+                .changed()
+            {
+                launch.speed_m_s = Some(speed);
+            }
             ui.end_row();
             let l = ui.label("Azimuth (from north, east +):");
-            ui.add(
-                egui::DragValue::new(&mut launch.azimuth_deg)
-                    .range(-360.0..=360.0)
-                    .speed(1.0)
-                    .suffix(" °"),
-            )
-            .labelled_by(l.id);
+            if ui
+                .add(
+                    egui::DragValue::new(&mut azimuth)
+                        .range(-360.0..=360.0)
+                        .speed(1.0)
+                        .suffix(" °"),
+                )
+                .labelled_by(l.id)
+                .changed()
+            {
+                launch.azimuth_deg = Some(azimuth);
+            }
             ui.end_row();
             let l = ui.label("Elevation:");
-            ui.add(
-                egui::DragValue::new(&mut launch.elevation_deg)
-                    .range(-90.0..=90.0)
-                    .speed(1.0)
-                    .suffix(" °"),
-            )
-            .labelled_by(l.id);
+            if ui
+                .add(
+                    egui::DragValue::new(&mut elevation)
+                        .range(0.0..=90.0)
+                        .speed(1.0)
+                        .suffix(" °"),
+                )
+                .labelled_by(l.id)
+                .changed()
+            {
+                launch.elevation_deg = Some(elevation);
+            }
             ui.end_row();
         });
         if let Some((v_normal, v_min)) = escape_normal {
-            escape_gauge_ui(ui, launch.speed_m_s, v_normal, v_min);
+            escape_gauge_ui(ui, speed, v_normal, v_min);
         }
-        ui.horizontal(|ui| {
-            ui.label("Spread:");
-            let single = matches!(launch.spread, Spread::Single);
-            let fan = matches!(launch.spread, Spread::Fan { .. });
-            let disp = matches!(launch.spread, Spread::Dispersion { .. });
-            if ui.radio(single, "single").clicked() {
-                launch.spread = Spread::Single;
-            }
-            if ui.radio(fan, "fan").clicked() && !fan {
-                launch.spread = Spread::Fan {
-                    vary: FanQuantity::AzimuthDeg,
-                    to: launch.azimuth_deg + 315.0,
-                    count: 8,
-                };
-            }
-            if ui.radio(disp, "dispersion").clicked() && !disp {
-                launch.spread = Spread::Dispersion {
-                    count: 20,
-                    speed_sigma_percent: 10.0,
-                    direction_sigma_deg: 5.0,
-                };
-            }
-        });
-        match &mut launch.spread {
-            Spread::Single => {}
-            Spread::Fan { vary, to, count } => {
-                egui::Grid::new("fan").num_columns(2).show(ui, |ui| {
-                    ui.label("Sweep:");
-                    egui::ComboBox::from_id_salt("fan_vary")
-                        .selected_text(fan_name(*vary))
-                        .show_ui(ui, |ui| {
-                            for q in [
-                                FanQuantity::AzimuthDeg,
-                                FanQuantity::ElevationDeg,
-                                FanQuantity::SpeedMS,
-                            ] {
-                                ui.selectable_value(vary, q, fan_name(q));
-                            }
-                        });
-                    ui.end_row();
-                    let l = ui.label("Up to:");
-                    let unit = if *vary == FanQuantity::SpeedMS {
-                        " m/s"
-                    } else {
-                        " °"
-                    };
-                    ui.add(egui::DragValue::new(to).speed(0.5).suffix(unit))
-                        .labelled_by(l.id);
-                    ui.end_row();
-                    let l = ui.label("Launches:");
-                    ui.add(egui::DragValue::new(count).range(1..=500))
-                        .labelled_by(l.id);
-                    ui.end_row();
+        spread_ui(ui, launch, azimuth);
+    }
+}
+
+/// The fan and the dispersion set of a launch from a site (either, both or none).
+fn spread_ui(ui: &mut Ui, launch: &mut LaunchEntry, azimuth_deg: f64) {
+    ui.horizontal(|ui| {
+        ui.label("Spread:");
+        let mut fan = launch.fan.is_some();
+        if ui.checkbox(&mut fan, "fan").changed() {
+            launch.fan = fan.then_some(FanSpec {
+                vary: FanQuantity::AzimuthDeg,
+                to: azimuth_deg + 315.0,
+                count: 8,
+            });
+        }
+        let mut disp = launch.dispersion.is_some();
+        if ui.checkbox(&mut disp, "dispersion").changed() {
+            launch.dispersion = disp.then_some(DispersionSpec {
+                count: 20,
+                speed_sigma_m_s: None,
+                speed_sigma_percent: Some(10.0),
+                direction_sigma_deg: 5.0,
+            });
+        }
+    });
+    if let Some(FanSpec { vary, to, count }) = &mut launch.fan {
+        egui::Grid::new("fan").num_columns(2).show(ui, |ui| {
+            ui.label("Sweep:");
+            egui::ComboBox::from_id_salt("fan_vary")
+                .selected_text(fan_name(*vary))
+                .show_ui(ui, |ui| {
+                    for q in [
+                        FanQuantity::AzimuthDeg,
+                        FanQuantity::ElevationDeg,
+                        FanQuantity::SpeedMS,
+                    ] {
+                        ui.selectable_value(vary, q, fan_name(q));
+                    }
                 });
-            }
-            Spread::Dispersion {
-                count,
-                speed_sigma_percent,
-                direction_sigma_deg,
-            } => {
-                egui::Grid::new("disp").num_columns(2).show(ui, |ui| {
-                    let l = ui.label("Launches:");
-                    ui.add(egui::DragValue::new(count).range(1..=1000))
-                        .labelled_by(l.id);
-                    ui.end_row();
-                    let l = ui.label("Speed error (1 sigma):");
+            ui.end_row();
+            let l = ui.label("Up to:");
+            let unit = if *vary == FanQuantity::SpeedMS {
+                " m/s"
+            } else {
+                " °"
+            };
+            ui.add(egui::DragValue::new(to).speed(0.5).suffix(unit))
+                .labelled_by(l.id);
+            ui.end_row();
+            let l = ui.label("Launches:");
+            ui.add(egui::DragValue::new(count).range(1..=100_000))
+                .labelled_by(l.id);
+            ui.end_row();
+        });
+    }
+    if let Some(d) = &mut launch.dispersion {
+        egui::Grid::new("disp").num_columns(2).show(ui, |ui| {
+            let l = ui.label("Launches:");
+            ui.add(egui::DragValue::new(&mut d.count).range(1..=1_000_000))
+                .labelled_by(l.id);
+            ui.end_row();
+            let l = ui.label("Speed error (1 sigma):");
+            match (&mut d.speed_sigma_percent, &mut d.speed_sigma_m_s) {
+                (Some(pct), _) => {
                     ui.add(
-                        egui::DragValue::new(speed_sigma_percent)
+                        egui::DragValue::new(pct)
                             .range(0.0..=100.0)
                             .speed(0.5)
                             .suffix(" %"),
                     )
                     .labelled_by(l.id);
-                    ui.end_row();
-                    let l = ui.label("Direction error (1 sigma):");
+                }
+                (None, Some(ms)) => {
                     ui.add(
-                        egui::DragValue::new(direction_sigma_deg)
-                            .range(0.0..=45.0)
-                            .speed(0.2)
-                            .suffix(" °"),
+                        egui::DragValue::new(ms)
+                            .range(0.0..=100.0)
+                            .speed(0.001)
+                            .suffix(" m/s"),
                     )
                     .labelled_by(l.id);
-                    ui.end_row();
-                });
+                }
+                (None, None) => {
+                    let mut pct = 0.0;
+                    if ui
+                        .add(
+                            egui::DragValue::new(&mut pct)
+                                .range(0.0..=100.0)
+                                .suffix(" %"),
+                        )
+                        .labelled_by(l.id)
+                        .changed()
+                    {
+                        d.speed_sigma_percent = Some(pct);
+                    }
+                }
             }
-        }
+            ui.end_row();
+            let l = ui.label("Direction error (1 sigma):");
+            ui.add(
+                egui::DragValue::new(&mut d.direction_sigma_deg)
+                    .range(0.0..=45.0)
+                    .speed(0.2)
+                    .suffix(" °"),
+            )
+            .labelled_by(l.id);
+            ui.end_row();
+        });
     }
 }
 
@@ -269,13 +321,17 @@ fn escape_gauge_ui(ui: &mut Ui, speed_m_s: f64, v_normal_m_s: f64, v_min_m_s: f6
     ));
 }
 
-/// Flight settings (time limit, contacts).
-pub(crate) fn flight_settings_ui(settings: &mut FlightSettings, ui: &mut Ui) {
+/// Flight settings (time limit, contacts), edited in the scenario document.
+pub(crate) fn flight_settings_ui(
+    integrator: &mut IntegratorSpec,
+    bounce: &mut BounceSpec,
+    ui: &mut Ui,
+) {
     egui::CollapsingHeader::new("Flight settings")
         .default_open(false)
         .show(ui, |ui| {
             egui::Grid::new("flight").num_columns(2).show(ui, |ui| {
-                let mut hours = settings.integrator.max_time_s / 3600.0;
+                let mut hours = integrator.max_time_s / 3600.0;
                 let l = ui.label("Time limit:");
                 if ui
                     .add(
@@ -287,19 +343,19 @@ pub(crate) fn flight_settings_ui(settings: &mut FlightSettings, ui: &mut Ui) {
                     .labelled_by(l.id)
                     .changed()
                 {
-                    settings.integrator.max_time_s = hours * 3600.0;
+                    integrator.max_time_s = hours * 3600.0;
                 }
                 ui.end_row();
                 let l = ui.label("Relative tolerance:");
                 ui.add(
-                    egui::DragValue::new(&mut settings.integrator.rel_tol)
+                    egui::DragValue::new(&mut integrator.rel_tol)
                         .range(1e-14..=1e-4)
                         .speed(1e-11)
                         .custom_formatter(|v, _| format!("{v:.1e}")),
                 )
                 .labelled_by(l.id);
                 ui.end_row();
-                let b = &mut settings.bounce;
+                let b = bounce;
                 let l = ui.label("Normal restitution:");
                 ui.add(
                     egui::DragValue::new(&mut b.normal_restitution)

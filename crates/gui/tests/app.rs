@@ -68,7 +68,7 @@ fn starts_on_the_demo_body_and_renders_both_views() {
     settle(&mut harness);
     let app = harness.state();
     let shape = app.shape().expect("demo body loaded");
-    assert_eq!(shape.name, spinfall_gravity::demo::NAME);
+    assert_eq!(shape.name(), spinfall_gravity::demo::NAME);
     assert!(shape.shape.face_count() > 100);
     let renders = app.render_counts();
     assert!(renders[0] >= 1 && renders[1] >= 1, "renders: {renders:?}");
@@ -90,9 +90,9 @@ fn click_places_site_run_fills_table_and_speed_change_takes_effect() {
     {
         let app = harness.state_mut();
         let site = &mut app.sites_mut()[0];
-        site.launch.speed_m_s = 0.05;
-        site.launch.elevation_deg = 60.0;
-        app.settings_mut().integrator.max_time_s = 6.0 * 3600.0;
+        site.speed_m_s = Some(0.05);
+        site.elevation_deg = Some(60.0);
+        app.scenario_mut().integrator.max_time_s = 6.0 * 3600.0;
     }
     harness.get_by_label_contains("Run 1 launch").click();
     harness.step();
@@ -111,7 +111,7 @@ fn click_places_site_run_fills_table_and_speed_change_takes_effect() {
     let alt_slow = first[0].max_altitude_m;
 
     // A faster launch flies higher.
-    harness.state_mut().sites_mut()[0].launch.speed_m_s = 0.12;
+    harness.state_mut().sites_mut()[0].speed_m_s = Some(0.12);
     harness.state_mut().push_command(spinfall_gui::Command::Run);
     settle(&mut harness);
     let second = harness.state().reports().to_vec();
@@ -139,7 +139,7 @@ fn broken_obj_shows_error_and_keeps_old_body() {
         ));
     settle(&mut harness);
     let app = harness.state();
-    assert_eq!(app.shape().unwrap().name, spinfall_gravity::demo::NAME);
+    assert_eq!(app.shape().unwrap().name(), spinfall_gravity::demo::NAME);
     let errors: Vec<_> = app
         .notices()
         .iter()
@@ -167,8 +167,8 @@ fn export_writes_every_file_and_the_scenario_reloads() {
             lon_deg: 45.0,
         });
         app.handle_commands();
-        app.sites_mut()[0].launch.speed_m_s = 0.08;
-        app.settings_mut().integrator.max_time_s = 3.0 * 3600.0;
+        app.sites_mut()[0].speed_m_s = Some(0.08);
+        app.scenario_mut().integrator.max_time_s = 3.0 * 3600.0;
         app.push_command(spinfall_gui::Command::Run);
     }
     settle(&mut harness);
@@ -192,13 +192,16 @@ fn export_writes_every_file_and_the_scenario_reloads() {
     let mut names: Vec<String> = std::fs::read_dir(dir.path())
         .unwrap()
         .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .filter(|n| n != spinfall_workflow::output::LOCK_FILE)
         .collect();
     names.sort();
-    // The surface map is computed for the export; no temporary files are left behind.
+    // The surface map is computed for the export; no temporary files are left behind; the
+    // manifest lists the set.
     assert_eq!(
         names,
         [
             "run_body_fixed.png",
+            "run_manifest.json",
             "run_results.csv",
             "run_results.json",
             "run_scenario.json",
@@ -223,6 +226,8 @@ fn export_writes_every_file_and_the_scenario_reloads() {
     )
     .unwrap();
     assert!(json.is_object() || json.is_array());
+    let set = spinfall_workflow::output::read_verified(dir.path(), "run_manifest.json").unwrap();
+    assert_eq!(set.manifest.files.len(), 7);
 
     // The scenario reloads to the same site and launch settings.
     let sites_before = harness.state().sites().to_vec();
@@ -260,9 +265,11 @@ fn inertial_click_unrotates_the_ray() {
     harness.state_mut().handle_commands();
     let app = harness.state();
     assert_eq!(app.sites().len(), 1);
-    let spinfall_gui::SiteLocation::Point { point_body_m, .. } = app.sites()[0].location else {
-        panic!("expected a picked point");
-    };
+    let point_body_m = app.sites()[0]
+        .site
+        .as_ref()
+        .and_then(|s| s.point_m)
+        .expect("a picked point");
     // Where that body point is drawn now: turned by inertial_from_body(t), then projected.
     let body = app.body_view().unwrap().body();
     let p_inertial =
@@ -308,8 +315,8 @@ fn keyboard_shortcuts_play_and_run() {
         });
     harness.state_mut().sites_mut().clear();
     harness.state_mut().handle_commands();
-    harness.state_mut().sites_mut()[0].launch.speed_m_s = 0.05;
-    harness.state_mut().settings_mut().integrator.max_time_s = 3600.0;
+    harness.state_mut().sites_mut()[0].speed_m_s = Some(0.05);
+    harness.state_mut().scenario_mut().integrator.max_time_s = 3600.0;
     harness.key_press_modifiers(Modifiers::COMMAND, egui::Key::R);
     harness.step();
     settle(&mut harness);
@@ -354,7 +361,7 @@ fn dropped_obj_file_loads_in_the_background() {
     settle(&mut harness);
     let app = harness.state();
     let shape = app.shape().expect("a shape");
-    assert_eq!(shape.name, "brick", "{:?}", app.notices());
+    assert_eq!(shape.name(), "brick", "{:?}", app.notices());
     assert_eq!(shape.shape.face_count(), 12);
     // Mass of a 400 m x 200 m x 100 m brick of 1000 kg/m^3: 8e9 kg (rho * V).
     let mass_kg = app.body_view().unwrap().body().figures().mass_kg;
@@ -434,13 +441,14 @@ fn cancel_stops_a_run() {
         });
         app.handle_commands();
         let site = &mut app.sites_mut()[0];
-        site.launch.speed_m_s = 0.3;
-        site.launch.spread = spinfall_gui::Spread::Dispersion {
+        site.speed_m_s = Some(0.3);
+        site.dispersion = Some(spinfall_dynamics::scenario::DispersionSpec {
             count: 400,
-            speed_sigma_percent: 5.0,
+            speed_sigma_m_s: None,
+            speed_sigma_percent: Some(5.0),
             direction_sigma_deg: 5.0,
-        };
-        app.settings_mut().integrator.max_time_s = 48.0 * 3600.0;
+        });
+        app.scenario_mut().integrator.max_time_s = 48.0 * 3600.0;
         app.push_command(spinfall_gui::Command::Run);
         app.handle_commands();
         assert!(app.busy());
@@ -451,7 +459,7 @@ fn cancel_stops_a_run() {
     assert!(
         matches!(
             harness.state().run_state(),
-            spinfall_gui::RunState::Cancelled { .. }
+            spinfall_gui::RunState::Cancelled
         ),
         "{:?}",
         harness.state().run_state()
@@ -469,10 +477,10 @@ fn clicking_a_trace_selects_its_launch() {
         }
         app.handle_commands();
         for site in app.sites_mut() {
-            site.launch.speed_m_s = 0.4;
-            site.launch.elevation_deg = 70.0;
+            site.speed_m_s = Some(0.4);
+            site.elevation_deg = Some(70.0);
         }
-        app.settings_mut().integrator.max_time_s = 2.0 * 3600.0;
+        app.scenario_mut().integrator.max_time_s = 2.0 * 3600.0;
         app.push_command(spinfall_gui::Command::Run);
     }
     settle(&mut harness);

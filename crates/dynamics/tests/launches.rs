@@ -1,4 +1,4 @@
-//! Fans, dispersion sets, parallel flights and the exporters.
+//! Fans, dispersion sets and parallel flights (the exporters are tested in spinfall-workflow).
 #![allow(clippy::unwrap_used, reason = "tests unwrap freely")]
 
 mod common;
@@ -6,12 +6,8 @@ mod common;
 use std::sync::Mutex;
 use std::sync::atomic::AtomicBool;
 
-use spinfall_dynamics::export::{
-    write_results_json, write_surface_map_csv, write_trajectories_csv,
-};
 use spinfall_dynamics::launch::{Dispersion, Fan, FanQuantity, LaunchSpec, SpeedSigma};
 use spinfall_dynamics::site::{NormalMode, Site};
-use spinfall_dynamics::surface_map::surface_map;
 use spinfall_dynamics::{FlightSettings, Outcome, fly_all};
 
 fn spec() -> (spinfall_dynamics::Body, LaunchSpec) {
@@ -86,7 +82,7 @@ fn dispersion_has_the_requested_spread_and_is_reproducible() {
 }
 
 #[test]
-fn fly_all_reports_progress_and_exports_parse() {
+fn fly_all_reports_progress() {
     let (body, s) = spec();
     let launches: Vec<_> = s
         .fan(&Fan {
@@ -119,44 +115,4 @@ fn fly_all_reports_progress_and_exports_parse() {
         assert_eq!(r.id, l.id);
         assert!(r.downrange_m.unwrap() > 0.0);
     }
-
-    let mut json = Vec::new();
-    write_results_json(&mut json, &reports).unwrap();
-    let v: serde_json::Value = serde_json::from_slice(&json).unwrap();
-    assert_eq!(v["launches"].as_array().unwrap().len(), 6);
-    assert_eq!(v["launches"][0]["outcome"]["kind"], "landed");
-    assert!(v["launches"][0]["first_contact_time_s"].as_f64().unwrap() > 0.0);
-
-    let mut csv = Vec::new();
-    write_trajectories_csv(&mut csv, &reports).unwrap();
-    let text = String::from_utf8(csv).unwrap();
-    let mut lines = text.lines();
-    assert_eq!(
-        lines.next().unwrap(),
-        "launch_id,frame,t_s,x_m,y_m,z_m,vx_m_s,vy_m_s,vz_m_s"
-    );
-    let rows: Vec<&str> = lines.collect();
-    let expected: usize = reports
-        .iter()
-        .map(|r| r.trajectory_body.len() + r.trajectory_inertial.len())
-        .sum();
-    assert_eq!(rows.len(), expected);
-    assert!(
-        rows.iter()
-            .all(|r| r.split(',').count() == 9 && r.split(',').all(|c| !c.is_empty()))
-    );
-    assert!(rows.iter().any(|r| r.contains(",inertial,")));
-}
-
-#[test]
-fn surface_map_csv_has_a_row_per_face_with_units() {
-    let (body, _) = spec();
-    let map = surface_map(&body, &|_, _| {}, &AtomicBool::new(false)).unwrap();
-    let mut csv = Vec::new();
-    write_surface_map_csv(&mut csv, &body, &map).unwrap();
-    let text = String::from_utf8(csv).unwrap();
-    let header = text.lines().next().unwrap();
-    assert!(header.starts_with("face,centroid_x_m,"));
-    assert!(header.contains("slope_deg") && header.contains("escape_speed_min_m_s"));
-    assert_eq!(text.lines().count(), body.shape.face_count() + 1);
 }

@@ -1,0 +1,145 @@
+//! The manifest of a run's files: which files belong to the run, their sizes and SHA-256, the run
+//! id, the scenario's hash and the gravity kernel. Written last; readers trust only files that a
+//! complete manifest names and whose bytes match it.
+
+use std::path::{Path, PathBuf};
+
+use serde::{Deserialize, Serialize};
+
+use crate::error::{Result, WorkflowError};
+
+/// Value of the manifest's `format` key.
+pub const MANIFEST_FORMAT: &str = "spinfall-manifest";
+/// Manifest name of a `spinfall fly` output folder.
+pub const RUN_MANIFEST: &str = "spinfall-manifest.json";
+
+/// Whether every file of the set is in place.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ManifestState {
+    /// Written before the files are renamed into place: a run killed while renaming leaves
+    /// this, and the folder may hold a mix of old and new files.
+    Incomplete,
+    /// Every named file is in place.
+    Complete,
+}
+
+/// One file of a set.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
+pub struct ManifestFile {
+    /// File name in the folder.
+    pub name: String,
+    /// Size, bytes.
+    pub bytes: u64,
+    /// SHA-256, lowercase hex.
+    pub sha256: String,
+}
+
+/// A manifest.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Manifest {
+    /// Always [`MANIFEST_FORMAT`].
+    pub format: String,
+    /// Always 1.
+    pub version: u32,
+    /// See [`ManifestState`].
+    pub state: ManifestState,
+    /// Random id of the run that wrote the set.
+    pub run_id: String,
+    /// The program and its version.
+    pub software: String,
+    /// Seconds since 1970 when the set was written.
+    pub written_unix_s: u64,
+    /// SHA-256 of the scenario document (its canonical JSON) the run flew, if any.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub scenario_sha256: Option<String>,
+    /// The gravity method and kernel the run used.
+    pub kernel: String,
+    /// The caution that goes with every result.
+    pub note: String,
+    /// The files of the set.
+    pub files: Vec<ManifestFile>,
+}
+
+/// What the writer of a set says about it.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct RunInfo {
+    /// SHA-256 of the scenario document, if the set comes from a scenario.
+    pub scenario_sha256: Option<String>,
+    /// The gravity method and kernel.
+    pub kernel: String,
+}
+
+/// A set whose manifest is complete and whose files all match it.
+#[derive(Debug, Clone, PartialEq)]
+pub struct VerifiedSet {
+    /// The manifest.
+    pub manifest: Manifest,
+    /// The files, in manifest order.
+    pub files: Vec<PathBuf>,
+}
+
+impl VerifiedSet {
+    /// The path of the file called `name`, if the set has it.
+    pub fn file(&self, name: &str) -> Option<&Path> {
+        self.manifest
+            .files
+            .iter()
+            .zip(&self.files)
+            .find(|(f, _)| f.name == name)
+            .map(|(_, p)| p.as_path())
+    }
+}
+
+/// Reads the manifest `manifest_name` in `folder` and checks every file it names: it must be
+/// complete, and each file must exist with the size and SHA-256 written there. A file another
+/// run replaced, or one left from before, is refused by name.
+pub fn read_verified(folder: &Path, manifest_name: &str) -> Result<VerifiedSet> {
+    let path = folder.join(manifest_name);
+    let bad = |message: String| WorkflowError::Invalid(format!("{}: {message}", path.display()));
+    let bytes = std::fs::read(&path).map_err(|error| WorkflowError::Read {
+        path: path.clone(),
+        error,
+    })?;
+    let manifest: Manifest =
+        serde_json::from_slice(&bytes).map_err(|e| bad(format!("not a Spinfall manifest: {e}")))?;
+    if manifest.format != MANIFEST_FORMAT {
+        return Err(bad(format!(
+            "format is {}, expected {MANIFEST_FORMAT}",
+            spinfall_gravity::text::excerpt(&manifest.format)
+        )));
+    }
+    if manifest.state != ManifestState::Complete {
+        return Err(bad(
+            "the run that wrote this folder stopped while putting its files in place; the \
+             files may be a mix of two runs: run again"
+                .into(),
+        ));
+    }
+    let mut files = Vec::with_capacity(manifest.files.len());
+    for f in &manifest.files {
+        if f.name.contains(['/', '\\']) || f.name.starts_with('.') {
+            return Err(bad(format!(
+                "names {} outside the folder",
+                spinfall_gravity::text::excerpt(&f.name)
+            )));
+        }
+        let file = folder.join(&f.name);
+        let data = std::fs::read(&file).map_err(|error| WorkflowError::Read {
+            path: file.clone(),
+            error,
+        })?;
+        let sha = super::staging::hex(&sha2::Sha256::digest(&data));
+        if data.len() as u64 != f.bytes || sha != f.sha256 {
+            return Err(bad(format!(
+                "{} does not match the manifest (it was changed or written by another run)",
+                f.name
+            )));
+        }
+        files.push(file);
+    }
+    Ok(VerifiedSet { manifest, files })
+}
+
+use sha2::Digest;

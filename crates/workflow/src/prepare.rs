@@ -1,0 +1,165 @@
+//! A scenario turned into a run that is ready to fly: the shape opened, the body built, the
+//! launches expanded, after the limits were checked. The command line and the app both prepare
+//! runs here, so the same scenario flies the same way in both.
+
+use std::sync::Arc;
+
+use spinfall_dynamics::launch::LaunchState;
+use spinfall_dynamics::scenario::Scenario;
+use spinfall_dynamics::{Body, FlightSettings};
+
+use crate::error::{Result, WorkflowError};
+use crate::gravity_method::{GravityOptions, gravity_model};
+use crate::limits::{Estimate, Limits, estimate};
+use crate::scenario_file::LoadedScenario;
+use crate::shape::{OpenedShape, open_shape};
+
+/// What a run is prepared for.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Purpose {
+    /// Flying: needs at least one launch; launches are expanded.
+    Fly,
+    /// The body only (a surface map, the app's view): launches may be absent and are not
+    /// expanded.
+    BodyOnly,
+}
+
+/// How to prepare a run.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct PrepareOptions {
+    /// What for.
+    pub purpose: Purpose,
+    /// Limits checked before anything is built.
+    pub limits: Limits,
+    /// How gravity is computed.
+    pub gravity: GravityOptions,
+}
+
+impl PrepareOptions {
+    /// Options for `purpose` with default limits and gravity.
+    pub fn new(purpose: Purpose) -> Self {
+        PrepareOptions {
+            purpose,
+            limits: Limits::default(),
+            gravity: GravityOptions::default(),
+        }
+    }
+}
+
+/// A run ready to fly.
+#[derive(Debug, Clone)]
+pub struct PreparedRun {
+    /// The scenario and where it came from.
+    pub loaded: LoadedScenario,
+    /// The opened shape model.
+    pub shape: OpenedShape,
+    /// The body (shape, gravity, spin).
+    pub body: Arc<Body>,
+    /// The expanded launches (empty for [`Purpose::BodyOnly`]).
+    pub launches: Vec<LaunchState>,
+    /// Integrator, contact model and sampling.
+    pub settings: FlightSettings,
+    /// What the run needs at most.
+    pub estimate: Estimate,
+    /// How gravity is computed.
+    pub gravity: GravityOptions,
+}
+
+impl PreparedRun {
+    /// The scenario.
+    pub fn scenario(&self) -> &Scenario {
+        &self.loaded.scenario
+    }
+}
+
+/// Prepares `loaded`: checks the launch count, opens its shape model, builds the body, checks
+/// the memory estimate, and expands the launches.
+///
+/// # Errors
+/// Bad input (the scenario, its shape file, a limit) with the file and field named.
+pub fn prepare(loaded: LoadedScenario, options: &PrepareOptions) -> Result<PreparedRun> {
+    check_launch_count(&loaded, options)?;
+    let shape = open_shape(&loaded.shape_request())?;
+    prepare_with_shape(loaded, shape, options)
+}
+
+/// As [`prepare`] with the shape model already open (the app keeps it between runs). The shape
+/// must have been opened with the scenario's unit and `recenter` flag.
+pub fn prepare_with_shape(
+    loaded: LoadedScenario,
+    shape: OpenedShape,
+    options: &PrepareOptions,
+) -> Result<PreparedRun> {
+    check_launch_count(&loaded, options)?;
+    let scenario = &loaded.scenario;
+    let refused = |error| WorkflowError::Scenario {
+        what: loaded.describe(),
+        error,
+    };
+    let settings = scenario.flight_settings();
+    let est = estimate(scenario, shape.shape.face_count(), &settings);
+    if options.purpose == Purpose::Fly {
+        options.limits.check(scenario, &est)?;
+    }
+    let body = Arc::new(build_body(scenario, &shape, &options.gravity).map_err(refused)?);
+    let launches = match options.purpose {
+        Purpose::Fly => scenario.build_launches(&body).map_err(refused)?,
+        Purpose::BodyOnly => Vec::new(),
+    };
+    Ok(PreparedRun {
+        loaded,
+        shape,
+        body,
+        launches,
+        settings,
+        estimate: est,
+        gravity: options.gravity.clone(),
+    })
+}
+
+/// Fails early: no launches to fly, or more than the limit (counted without building them).
+fn check_launch_count(loaded: &LoadedScenario, options: &PrepareOptions) -> Result<()> {
+    if options.purpose != Purpose::Fly {
+        return Ok(());
+    }
+    let scenario = &loaded.scenario;
+    if scenario.launches.is_empty() {
+        return Err(WorkflowError::Invalid(format!(
+            "scenario {}: launches: nothing to fly (the scenario has no launches)",
+            loaded.describe()
+        )));
+    }
+    // The body's size is not known yet: count launches only.
+    let est = estimate(scenario, 0, &scenario.flight_settings());
+    let limit = options
+        .limits
+        .max_launches
+        .unwrap_or_else(|| scenario.max_launches());
+    if est.launches > limit {
+        return Err(WorkflowError::TooManyLaunches {
+            launches: est.launches,
+            limit,
+            estimate: est,
+        });
+    }
+    Ok(())
+}
+
+/// The body of `scenario` on the opened shape, with the gravity chosen by `gravity`.
+///
+/// # Errors
+/// The scenario's mass or spin is refused (field named).
+pub fn build_body(
+    scenario: &Scenario,
+    shape: &OpenedShape,
+    gravity: &GravityOptions,
+) -> spinfall_dynamics::Result<Body> {
+    let mass = scenario.mass_spec()?;
+    let model = gravity_model(&shape.shape, mass, gravity)?;
+    Body::with_gravity(
+        scenario.body_name(),
+        shape.shape.clone(),
+        model,
+        scenario.spin_on(&shape.shape)?,
+    )
+}

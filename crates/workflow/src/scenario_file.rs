@@ -1,0 +1,191 @@
+//! Scenario files: reading one (from a path, bytes, or the built-in example), finding its shape
+//! model relative to it, and writing one to another folder with its shape path still right.
+
+use std::path::{Path, PathBuf};
+use std::sync::Arc;
+
+use spinfall_dynamics::scenario::{BUILTIN_QUILLON, Scenario};
+
+use crate::error::{Result, WorkflowError};
+use crate::shape::{ShapeRequest, ShapeSource};
+
+/// The name that selects the built-in example scenario instead of a file.
+pub const BUILTIN_SCENARIO: &str = "builtin:example";
+
+/// Where a scenario comes from.
+#[derive(Debug, Clone, PartialEq)]
+pub enum ScenarioSource {
+    /// The built-in example on the demo body.
+    Builtin,
+    /// A JSON file; relative shape paths are resolved against its folder.
+    File(PathBuf),
+    /// JSON bytes already in memory; relative shape paths are resolved against `dir`.
+    Bytes {
+        /// Shown in messages.
+        name: String,
+        /// The document.
+        bytes: Arc<Vec<u8>>,
+        /// Folder for relative shape paths.
+        dir: PathBuf,
+    },
+}
+
+impl ScenarioSource {
+    /// A path, or [`BUILTIN_SCENARIO`] for the example.
+    pub fn from_spec(spec: &str) -> ScenarioSource {
+        if spec == BUILTIN_SCENARIO {
+            ScenarioSource::Builtin
+        } else {
+            ScenarioSource::File(PathBuf::from(spec))
+        }
+    }
+
+    /// How the source is named in messages.
+    pub fn describe(&self) -> String {
+        match self {
+            ScenarioSource::Builtin => BUILTIN_SCENARIO.into(),
+            ScenarioSource::File(p) => p.display().to_string(),
+            ScenarioSource::Bytes { name, .. } => name.clone(),
+        }
+    }
+}
+
+/// A parsed and checked scenario with the folder its relative paths mean.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LoadedScenario {
+    /// The document.
+    pub scenario: Scenario,
+    /// How it is named in messages (its file, or what made it).
+    pub name: String,
+    /// Folder that relative shape paths are resolved against (`.` for the built-in one).
+    pub dir: PathBuf,
+}
+
+impl LoadedScenario {
+    /// A scenario made in memory (the app's session, named `name` in messages), with the
+    /// folder its relative shape path is resolved against.
+    pub fn in_memory(scenario: Scenario, name: impl Into<String>, dir: PathBuf) -> LoadedScenario {
+        LoadedScenario {
+            scenario,
+            name: name.into(),
+            dir,
+        }
+    }
+
+    /// How to open the scenario's shape model: its path resolved against [`Self::dir`], its
+    /// unit, and its `recenter` flag.
+    pub fn shape_request(&self) -> ShapeRequest {
+        let body = &self.scenario.body;
+        let source = if body.shape == BUILTIN_QUILLON {
+            ShapeSource::Builtin
+        } else {
+            ShapeSource::File(resolve(&self.dir, &body.shape))
+        };
+        ShapeRequest {
+            source,
+            unit: body.unit,
+            recenter: body.recenter,
+        }
+    }
+
+    /// A name for messages.
+    pub fn describe(&self) -> String {
+        self.name.clone()
+    }
+}
+
+/// `path` as written in a scenario stored in `dir`.
+fn resolve(dir: &Path, path: &str) -> PathBuf {
+    let p = Path::new(path);
+    if p.is_absolute() {
+        p.to_path_buf()
+    } else {
+        dir.join(p)
+    }
+}
+
+/// Reads and checks a scenario.
+///
+/// # Errors
+/// [`WorkflowError::Read`] when the file cannot be read; [`WorkflowError::Scenario`] naming the
+/// file, the field path, line and column when it is malformed or inconsistent.
+pub fn read_scenario(source: &ScenarioSource) -> Result<LoadedScenario> {
+    let what = source.describe();
+    let refused = |error| WorkflowError::Scenario {
+        what: what.clone(),
+        error,
+    };
+    let (scenario, dir) = match source {
+        ScenarioSource::Builtin => (Scenario::builtin_example(), PathBuf::from(".")),
+        ScenarioSource::File(path) => {
+            let bytes = std::fs::read(path).map_err(|error| WorkflowError::Read {
+                path: path.clone(),
+                error,
+            })?;
+            let dir = match path.parent() {
+                Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
+                _ => PathBuf::from("."),
+            };
+            (Scenario::from_json_bytes(&bytes).map_err(refused)?, dir)
+        }
+        ScenarioSource::Bytes { bytes, dir, .. } => (
+            Scenario::from_json_bytes(bytes).map_err(refused)?,
+            dir.clone(),
+        ),
+    };
+    Ok(LoadedScenario {
+        scenario,
+        name: what,
+        dir,
+    })
+}
+
+/// The scenario as it must be written in folder `to_dir` so that its shape path still names
+/// the same file: unchanged when written to the folder it was read from (or when absolute or
+/// built in), otherwise relative to `to_dir` when the file is inside it, else absolute.
+pub fn relocated(loaded: &LoadedScenario, to_dir: &Path) -> Scenario {
+    let mut scenario = loaded.scenario.clone();
+    let shape = &scenario.body.shape;
+    if shape == BUILTIN_QUILLON || Path::new(shape).is_absolute() || same_dir(&loaded.dir, to_dir) {
+        return scenario;
+    }
+    let full = resolve(&loaded.dir, shape);
+    let full = std::fs::canonicalize(&full).unwrap_or(full);
+    let written = match std::fs::canonicalize(to_dir) {
+        Ok(to) => match full.strip_prefix(&to) {
+            Ok(rel) => rel.to_path_buf(),
+            Err(_) => full,
+        },
+        Err(_) => full,
+    };
+    scenario.body.shape = written.to_string_lossy().into_owned();
+    scenario
+}
+
+/// Whether two folder paths name the same folder.
+fn same_dir(a: &Path, b: &Path) -> bool {
+    let norm = |p: &Path| {
+        let p = if p.as_os_str().is_empty() {
+            Path::new(".")
+        } else {
+            p
+        };
+        std::fs::canonicalize(p).unwrap_or_else(|_| p.to_path_buf())
+    };
+    norm(a) == norm(b)
+}
+
+/// The scenario as the pretty JSON that [`read_scenario`] reads back to an equal scenario.
+///
+/// # Errors
+/// [`WorkflowError::Scenario`] if it does not pass validation (it would not read back).
+pub fn scenario_json(scenario: &Scenario) -> Result<String> {
+    let refused = |error| WorkflowError::Scenario {
+        what: "to be written".into(),
+        error,
+    };
+    scenario.validate().map_err(refused)?;
+    let mut text = scenario.to_json_string_pretty().map_err(refused)?;
+    text.push('\n');
+    Ok(text)
+}
