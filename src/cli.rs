@@ -83,6 +83,34 @@ pub struct GravityArgs {
     /// Write CSV instead of one JSON object per line.
     #[arg(long)]
     pub csv: bool,
+    #[command(flatten)]
+    pub field: FieldArgs,
+}
+
+/// How the gravity field is evaluated (overrides the scenario's "field" section).
+#[derive(Debug, Args)]
+pub struct FieldArgs {
+    /// `direct`: the exact face and edge sums (the default); `interpolated`: a field built once
+    /// per body to the error bound (--max-rel-error) and stored for later runs, then much faster.
+    #[arg(long, value_enum, value_name = "METHOD")]
+    pub field: Option<FieldArg>,
+    /// Bound of the interpolated field's relative acceleration error (fraction of the local
+    /// gravity), in [1e-12, 1e-3]; default 1e-9.
+    #[arg(long, value_name = "EPS")]
+    pub max_rel_error: Option<f64>,
+    /// Most memory the interpolated field may take, MB (default 4096).
+    #[arg(long, value_name = "MB")]
+    pub field_memory_mb: Option<u64>,
+    /// Folder of stored interpolated fields (default: $SPINFALL_CACHE_DIR, else the per-user
+    /// cache folder, ~/.cache/spinfall).
+    #[arg(long, value_name = "DIR")]
+    pub cache_dir: Option<PathBuf>,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum FieldArg {
+    Direct,
+    Interpolated,
 }
 
 /// Limits of a run.
@@ -104,6 +132,8 @@ pub struct FlyArgs {
     pub out: PathBuf,
     #[command(flatten)]
     pub limits: LimitArgs,
+    #[command(flatten)]
+    pub field: FieldArgs,
 }
 
 #[derive(Debug, Args)]
@@ -113,6 +143,8 @@ pub struct MapArgs {
     /// Output CSV file, or `-` for standard output.
     #[arg(long, value_name = "FILE.csv")]
     pub out: PathBuf,
+    #[command(flatten)]
+    pub field: FieldArgs,
 }
 
 #[derive(Debug, Args)]
@@ -125,6 +157,8 @@ pub struct RenderArgs {
     pub out: PathBuf,
     #[command(flatten)]
     pub limits: LimitArgs,
+    #[command(flatten)]
+    pub field: FieldArgs,
     /// Image size `WxH` in pixels.
     #[arg(long, default_value = "1920x1080", value_name = "WxH")]
     pub size: String,

@@ -4,11 +4,14 @@
 use std::process::ExitCode;
 
 use spinfall_workflow::output::OutputFolder;
-use spinfall_workflow::prepare::{PrepareOptions, Purpose, prepare};
+use spinfall_workflow::prepare::{PrepareOptions, Purpose, prepare_with_hooks};
 use spinfall_workflow::run_files::{run_info, write_run_folder};
 use spinfall_workflow::scenario_file::{ScenarioSource, read_scenario};
 
-use super::{announce, fly_with_progress, limits, run_exit_code};
+use super::{
+    announce, announce_field, field_hooks, fly_with_progress, gravity_options, limits,
+    run_exit_code,
+};
 use crate::cli::FlyArgs;
 use crate::exit::{CmdResult, note};
 
@@ -18,16 +21,18 @@ pub fn run(args: &FlyArgs) -> CmdResult<ExitCode> {
     let loaded = read_scenario(&ScenarioSource::from_spec(&args.scenario))?;
     let options = PrepareOptions {
         limits: limits(&args.limits),
+        gravity: gravity_options(&args.field),
         ..PrepareOptions::new(Purpose::Fly)
     };
-    let prepared = prepare(loaded, &options)?;
+    let prepared = prepare_with_hooks(loaded, &options, &field_hooks())?;
+    announce_field(&prepared.field);
     for w in &prepared.shape.warnings {
         note(&format!("warning: shape model: {w}"));
     }
     announce(&prepared.estimate);
     folder.check_space(prepared.estimate.output_min_bytes)?;
     let done = fly_with_progress(&prepared)?;
-    let info = run_info(Some(prepared.scenario()), &prepared.gravity);
+    let info = run_info(Some(prepared.scenario()), &prepared.field);
     let written = write_run_folder(&folder, &done.reports, &info)?;
     let names: Vec<String> = written
         .iter()

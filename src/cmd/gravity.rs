@@ -2,14 +2,15 @@
 
 use std::process::ExitCode;
 
-use spinfall_gravity::{MassSpec, PolyhedronGravity};
+use spinfall_gravity::MassSpec;
 use spinfall_workflow::export::{
     FieldPoints, evaluate_field, read_points_file, write_field_samples,
 };
+use spinfall_workflow::gravity_method::gravity_model;
 use spinfall_workflow::output::{OutputTarget, write_file};
 use spinfall_workflow::shape::open_shape;
 
-use super::shape_request;
+use super::{announce_field, field_hooks, gravity_options, shape_request};
 use crate::cli::GravityArgs;
 use crate::exit::{CliError, CmdResult, note};
 
@@ -32,9 +33,11 @@ pub fn run(args: &GravityArgs) -> CmdResult<ExitCode> {
     for w in &opened.warnings {
         note(&format!("warning: {w}"));
     }
-    let field = PolyhedronGravity::new(&opened.shape, mass)
-        .map_err(|e| CliError::input(format!("mass: {e}")))?;
-    let samples = evaluate_field(&field, &points)?;
+    let options = gravity_options(&args.field);
+    let spec = options.resolve(None);
+    let (field, used) = gravity_model(&opened.shape, mass, &spec, &options, &field_hooks())?;
+    announce_field(&used);
+    let samples = evaluate_field(field.as_ref(), &points)?;
     write_file(&OutputTarget::Stdout, |w| {
         write_field_samples(w, &points.points_m, &samples, args.csv)
     })?;

@@ -4,17 +4,23 @@ use std::process::ExitCode;
 
 use spinfall_workflow::export::write_surface_map_csv;
 use spinfall_workflow::output::{OutputTarget, check_file};
-use spinfall_workflow::prepare::{PrepareOptions, Purpose, prepare};
+use spinfall_workflow::prepare::{PrepareOptions, Purpose, prepare_with_hooks};
 use spinfall_workflow::scenario_file::{ScenarioSource, read_scenario};
 use spinfall_workflow::surface::compute_surface_map;
 
+use super::{announce_field, field_hooks, gravity_options};
 use crate::cli::MapArgs;
 use crate::exit::{CmdResult, note};
 
 pub fn run(args: &MapArgs) -> CmdResult<ExitCode> {
     let out = check_file(&OutputTarget::from_arg(&args.out))?;
     let loaded = read_scenario(&ScenarioSource::from_spec(&args.scenario))?;
-    let prepared = prepare(loaded, &PrepareOptions::new(Purpose::BodyOnly))?;
+    let options = PrepareOptions {
+        gravity: gravity_options(&args.field),
+        ..PrepareOptions::new(Purpose::BodyOnly)
+    };
+    let prepared = prepare_with_hooks(loaded, &options, &field_hooks())?;
+    announce_field(&prepared.field);
     let cancel = spinfall_dynamics::Cancel::new(false);
     let map = compute_surface_map(&prepared.body, &|_, _| {}, &cancel)?;
     out.write(|w| write_surface_map_csv(w, &prepared.body, &map))?;

@@ -13,11 +13,14 @@ use std::sync::Mutex;
 use std::time::{Duration, Instant};
 
 use spinfall_dynamics::FlightReport;
+use spinfall_dynamics::scenario::FieldMethodSpec;
+use spinfall_workflow::field_cache::BuildHooks;
+use spinfall_workflow::gravity_method::{FieldUsed, GravityOptions};
 use spinfall_workflow::limits::{Estimate, Limits};
 use spinfall_workflow::run::RunReports;
 use spinfall_workflow::shape::{ShapeRequest, ShapeSource};
 
-use crate::cli::{Cli, Command, LimitArgs, ShapeArgs};
+use crate::cli::{Cli, Command, FieldArg, FieldArgs, LimitArgs, ShapeArgs};
 use crate::exit::{CmdResult, RUN_FAILED, note};
 
 /// Runs the command line; no subcommand opens the desktop app.
@@ -46,6 +49,55 @@ fn limits(args: &LimitArgs) -> Limits {
     Limits {
         max_launches: args.max_launches,
         memory_bytes: None,
+    }
+}
+
+/// The gravity options of the field arguments.
+fn gravity_options(args: &FieldArgs) -> GravityOptions {
+    GravityOptions {
+        method: args.field.map(|f| match f {
+            FieldArg::Direct => FieldMethodSpec::Direct,
+            FieldArg::Interpolated => FieldMethodSpec::Interpolated,
+        }),
+        max_rel_error: args.max_rel_error,
+        max_memory_mb: args.field_memory_mb,
+        cache_dir: args.cache_dir.clone(),
+    }
+}
+
+/// The command line has no Cancel button (Ctrl-C ends the process).
+static NEVER_CANCELLED: std::sync::atomic::AtomicBool = std::sync::atomic::AtomicBool::new(false);
+
+/// Progress of an interpolated field's build on stderr (at most one line every 2 s), and its
+/// warnings.
+fn field_hooks() -> BuildHooks<'static> {
+    let last = Mutex::new(Instant::now());
+    BuildHooks {
+        progress: Box::new(move |p| {
+            let Ok(mut last) = last.lock() else { return };
+            if last.elapsed() >= Duration::from_secs(2) {
+                *last = Instant::now();
+                note(&format!(
+                    "building the interpolated gravity field: level {}, {}/{} cells, {} leaves, {:.0} s",
+                    p.level, p.cells_done, p.cells_in_level, p.leaves, p.elapsed_s
+                ));
+            }
+        }),
+        cancel: &NEVER_CANCELLED,
+        warn: Box::new(|w| note(&format!("warning: {w}"))),
+    }
+}
+
+/// Says how the gravity was computed, when it was interpolated.
+fn announce_field(field: &FieldUsed) {
+    if let (Some(stats), Some(store)) = (&field.build, &field.store) {
+        note(&format!(
+            "gravity: interpolated field (relative error bound {:e}) {store}; {} cells, {:.0} MB, built in {:.1} s",
+            field.max_rel_error.unwrap_or(0.0),
+            stats.cells,
+            stats.memory_bytes as f64 / 1e6,
+            stats.build_s
+        ));
     }
 }
 

@@ -9,7 +9,7 @@ use spinfall_workflow::images::{
     ImageRequest, ViewChoice, check_size, parse_size, png_summary, render_image, write_png,
 };
 use spinfall_workflow::output::{OutputTarget, check_file};
-use spinfall_workflow::prepare::{PrepareOptions, Purpose, prepare};
+use spinfall_workflow::prepare::{PrepareOptions, Purpose, prepare_with_hooks};
 use spinfall_workflow::scenario_file::{ScenarioSource, read_scenario};
 use spinfall_workflow::surface::compute_surface_map;
 
@@ -45,9 +45,10 @@ pub fn run(args: &RenderArgs) -> CmdResult<ExitCode> {
     };
     let options = PrepareOptions {
         limits: limits(&args.limits),
+        gravity: super::gravity_options(&args.field),
         ..PrepareOptions::new(purpose)
     };
-    let prepared = prepare(loaded, &options)?;
+    let prepared = prepare_with_hooks(loaded, &options, &super::field_hooks())?;
     let reports = if purpose == Purpose::Fly {
         announce(&prepared.estimate);
         fly_with_progress(&prepared)?.reports

@@ -1,7 +1,7 @@
 //! The gravity field seen by the dynamics: the polyhedron or an exact point mass.
 
 use nalgebra::{Point3, Vector3};
-use spinfall_gravity::PolyhedronGravity;
+use spinfall_gravity::{FieldSample, InterpolatedGravity, PolyhedronGravity};
 
 /// A gravity field in the body frame.
 ///
@@ -24,6 +24,11 @@ pub trait GravityModel: Send + Sync {
             *o = self.potential_acceleration(p);
         }
     }
+    /// Potential, acceleration, gradient tensor, Laplacian and inside flag at many points, for
+    /// models that give them (`None` otherwise).
+    fn evaluate_batch(&self, _points: &[Point3<f64>]) -> Option<Vec<FieldSample>> {
+        None
+    }
 }
 
 impl GravityModel for PolyhedronGravity {
@@ -39,6 +44,28 @@ impl GravityModel for PolyhedronGravity {
         out: &mut [(f64, Vector3<f64>)],
     ) {
         self.potential_acceleration_batch_into(points, out);
+    }
+    fn evaluate_batch(&self, points: &[Point3<f64>]) -> Option<Vec<FieldSample>> {
+        Some(PolyhedronGravity::evaluate_batch(self, points))
+    }
+}
+
+impl GravityModel for InterpolatedGravity {
+    fn potential_acceleration(&self, p_body_m: &Point3<f64>) -> (f64, Vector3<f64>) {
+        InterpolatedGravity::potential_acceleration(self, p_body_m)
+    }
+    fn gm_m3_s2(&self) -> f64 {
+        self.exact().gm_m3_s2()
+    }
+    fn potential_acceleration_batch(
+        &self,
+        points: &[Point3<f64>],
+        out: &mut [(f64, Vector3<f64>)],
+    ) {
+        self.potential_acceleration_batch_into(points, out);
+    }
+    fn evaluate_batch(&self, points: &[Point3<f64>]) -> Option<Vec<FieldSample>> {
+        Some(InterpolatedGravity::evaluate_batch(self, points))
     }
 }
 

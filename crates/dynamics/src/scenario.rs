@@ -61,6 +61,54 @@ pub struct Scenario {
     /// Limits on the size of a run.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub limits: Option<LimitsSpec>,
+    /// How the gravity field is evaluated (default: the direct sums).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub field: Option<FieldSpec>,
+}
+
+/// The `field` section: how the polyhedron's gravity is evaluated.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct FieldSpec {
+    /// `"direct"` (the exact Werner–Scheeres sums, the default) or `"interpolated"` (built once
+    /// per body to a relative error bound, then much faster).
+    #[serde(default)]
+    pub method: FieldMethodSpec,
+    /// Largest relative acceleration error of the interpolated field, as a fraction of the local
+    /// gravity, in [1e-12, 1e-3] (default [`DEFAULT_MAX_REL_ERROR`]; ignored by `direct`).
+    #[serde(default = "default_max_rel_error")]
+    pub max_rel_error: f64,
+    /// Most memory the interpolated field may take, MB (default 4096).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub max_memory_mb: Option<u64>,
+}
+
+/// How the field is evaluated.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum FieldMethodSpec {
+    /// The exact face and edge sums.
+    #[default]
+    Direct,
+    /// The interpolated field with an error bound.
+    Interpolated,
+}
+
+/// Default bound of the interpolated field's relative acceleration error.
+pub const DEFAULT_MAX_REL_ERROR: f64 = 1e-9;
+
+fn default_max_rel_error() -> f64 {
+    DEFAULT_MAX_REL_ERROR
+}
+
+impl Default for FieldSpec {
+    fn default() -> Self {
+        FieldSpec {
+            method: FieldMethodSpec::Direct,
+            max_rel_error: DEFAULT_MAX_REL_ERROR,
+            max_memory_mb: None,
+        }
+    }
 }
 
 /// The `limits` section: refuse runs larger than this before any work starts.
@@ -996,6 +1044,7 @@ impl Scenario {
             integrator: IntegratorSpec { max_time_s: 100_000.0, ..IntegratorSpec::default() },
             bounce: BounceSpec::default(),
             limits: None,
+            field: None,
         }
     }
 }

@@ -12,10 +12,11 @@ use spinfall_dynamics::scenario::{BUILTIN_QUILLON, LaunchEntry, Scenario, SiteSp
 use spinfall_dynamics::surface_map::SurfaceMap;
 use spinfall_gravity::LengthUnit;
 use spinfall_scene::BodyView;
-use spinfall_workflow::gravity_method::GravityOptions;
+use spinfall_workflow::field_cache::BuildHooks;
+use spinfall_workflow::gravity_method::{FieldUsed, GravityOptions};
 use spinfall_workflow::limits::{Estimate, estimate};
 use spinfall_workflow::output::{OutputTarget, write_file};
-use spinfall_workflow::prepare::{PrepareOptions, Purpose, build_body, prepare_with_shape};
+use spinfall_workflow::prepare::{PrepareOptions, Purpose, build_body, prepare_shape_hooks};
 use spinfall_workflow::scenario_file::{
     LoadedScenario, ScenarioSource, read_scenario, relocated, scenario_json,
 };
@@ -68,6 +69,8 @@ pub(crate) struct Loaded {
 pub(crate) struct RunOutput {
     pub reports: Vec<FlightReport>,
     pub elapsed: Duration,
+    /// How the gravity was computed.
+    pub field: FieldUsed,
 }
 
 /// State of the last run, for the status line.
@@ -139,6 +142,8 @@ pub struct SpinfallApp {
     pub(crate) view: Option<Arc<BodyView>>,
     pub(crate) map: Option<Arc<SurfaceMap>>,
     pub(crate) reports: Arc<Vec<FlightReport>>,
+    /// How the gravity of `reports` was computed.
+    pub(crate) reports_field: FieldUsed,
     pub(crate) run_state: RunState,
     /// Bumped whenever what the views show changes (body, map, reports).
     pub(crate) data_generation: u64,
@@ -233,6 +238,7 @@ impl SpinfallApp {
             view: None,
             map: None,
             reports: Arc::new(Vec::new()),
+            reports_field: FieldUsed::direct(),
             run_state: RunState::NotRun,
             data_generation: 0,
             t_s: 0.0,
@@ -783,13 +789,12 @@ impl SpinfallApp {
             self.repaint.clone(),
             move |ctx| {
                 ctx.progress.set_stage("preparing the gravity field");
-                let body =
-                    build_body(&scenario, &shape, &GravityOptions::default()).map_err(|error| {
-                        spinfall_workflow::WorkflowError::Scenario {
-                            what: "body settings".into(),
-                            error,
-                        }
-                    })?;
+                let (body, _) = build_body(
+                    &scenario,
+                    &shape,
+                    &GravityOptions::default(),
+                    &field_hooks(&ctx),
+                )?;
                 Ok(Arc::new(old.with_body(Arc::new(body))))
             },
         ));
@@ -931,6 +936,7 @@ impl SpinfallApp {
                         elapsed_s: out.elapsed.as_secs_f64(),
                     };
                     self.reports = Arc::new(out.reports);
+                    self.reports_field = out.field;
                     self.state.view.selected_launch = (n > 0).then_some(0);
                     self.plot_cache = None;
                     self.data_generation += 1;
@@ -1250,7 +1256,12 @@ pub(crate) fn load_session(
     ctx.check_cancel()?;
     ctx.progress.set_stage("preparing the gravity field");
     ctx.request_repaint();
-    let prepared = prepare_with_shape(loaded, shape, &PrepareOptions::new(Purpose::BodyOnly))?;
+    let prepared = prepare_shape_hooks(
+        loaded,
+        shape,
+        &PrepareOptions::new(Purpose::BodyOnly),
+        &field_hooks(ctx),
+    )?;
     let view = Arc::new(BodyView::new(prepared.body.clone()));
     Ok(Loaded {
         scenario: prepared.loaded.scenario,
@@ -1269,8 +1280,14 @@ fn run_flights(
     loaded: LoadedScenario,
     shape: OpenedShape,
 ) -> Result<RunOutput, GuiError> {
-    ctx.progress.set_stage("placing launches");
-    let prepared = prepare_with_shape(loaded, shape, &PrepareOptions::new(Purpose::Fly))?;
+    ctx.progress
+        .set_stage("preparing the gravity field and the launches");
+    let prepared = prepare_shape_hooks(
+        loaded,
+        shape,
+        &PrepareOptions::new(Purpose::Fly),
+        &field_hooks(ctx),
+    )?;
     // The view shows the body the run flies around (same document, same shape).
     debug_assert_eq!(
         prepared.body.shape.face_count(),
@@ -1282,7 +1299,24 @@ fn run_flights(
     Ok(RunOutput {
         reports: done.reports,
         elapsed: done.elapsed,
+        field: prepared.field.clone(),
     })
+}
+
+/// Progress and cancel of a job, for the build of an interpolated gravity field.
+fn field_hooks(ctx: &JobContext) -> BuildHooks<'_> {
+    BuildHooks {
+        progress: Box::new(move |p| {
+            ctx.progress.set_stage(&format!(
+                "building the interpolated gravity field: level {}, {} of {} cells",
+                p.level, p.cells_done, p.cells_in_level
+            ));
+            ctx.progress.set(p.cells_done, p.cells_in_level);
+            ctx.request_repaint();
+        }),
+        cancel: &ctx.cancel,
+        warn: Box::new(move |w| ctx.progress.set_stage(&w)),
+    }
 }
 
 impl eframe::App for SpinfallApp {

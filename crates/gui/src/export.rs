@@ -75,6 +75,7 @@ struct ExportSnapshot {
     scenario: Scenario,
     title: String,
     sites: Vec<spinfall_scene::SiteMarker>,
+    field: spinfall_workflow::gravity_method::FieldUsed,
 }
 
 impl SpinfallApp {
@@ -180,6 +181,7 @@ impl SpinfallApp {
             sites,
             view,
             reports: self.reports.clone(),
+            field: self.reports_field.clone(),
             map: self.map.clone(),
             options: self.state.view.clone(),
             cameras: [self.panes[0].camera.clone(), self.panes[1].camera.clone()],
@@ -257,6 +259,7 @@ fn run_export(
     };
     ctx.progress.set_stage("writing the files");
     ctx.request_repaint();
+    let info = run_info(Some(&s.scenario), &s.field);
     let mut files: Vec<SetFile<'_>> = Vec::new();
     for (name, image) in &images {
         let chunks = &chunks;
@@ -270,7 +273,7 @@ fn run_export(
             results: req.results,
             trajectories: req.trajectories,
         };
-        files.extend(result_files(&s.reports, &prefix, selection));
+        files.extend(result_files(&s.reports, &info, &prefix, selection));
     }
     if let Some(map) = &map {
         let body = s.view.body();
@@ -290,6 +293,5 @@ fn run_export(
             "nothing selected to export (or no results yet)".into(),
         ));
     }
-    let info = run_info(Some(&s.scenario), &Default::default());
     Ok(folder.write_set(&format!("{stem}_manifest.json"), files, &info, &ctx.cancel)?)
 }

@@ -203,6 +203,7 @@ pub fn new_scenario(
         integrator: IntegratorSpec::default(),
         bounce: BounceSpec::default(),
         limits: None,
+        field: None,
     }
 }
 

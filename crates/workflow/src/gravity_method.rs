@@ -1,56 +1,180 @@
 //! How a prepared run computes gravity: the one place a body's gravity model is chosen.
 //!
-//! Today there is one method, the exact constant-density polyhedron (Werner & Scheeres 1997,
-//! summed directly over faces and edges). Other methods (an interpolated field with an on-disk
-//! cache) plug in here: [`GravityOptions`] carries their settings, [`gravity_model`] builds the
-//! model, and the [`spinfall_dynamics::Body`] holds it as an `Arc<dyn GravityModel>`, so
-//! nothing downstream changes.
+//! Two methods: **direct**, the exact constant-density polyhedron (Werner & Scheeres 1997,
+//! summed over faces and edges by the vector kernel; the default), and **interpolated**, built
+//! once per body to a relative error bound (see `spinfall_gravity::InterpolatedGravity`) and
+//! kept in an on-disk store ([`crate::field_cache`]). The scenario's `field` section chooses;
+//! [`GravityOptions`] (command-line options) override it. The [`spinfall_dynamics::Body`] holds
+//! the model as an `Arc<dyn GravityModel>`, so nothing downstream changes; what was used is
+//! recorded ([`FieldUsed`]) with the results.
 
 use std::path::PathBuf;
 use std::sync::Arc;
 
+use serde::Serialize;
 use spinfall_dynamics::GravityModel;
-use spinfall_gravity::{MassSpec, PolyhedronGravity, ShapeModel};
+use spinfall_dynamics::scenario::{FieldMethodSpec, FieldSpec};
+use spinfall_gravity::{
+    BuildStats, InterpolationSettings, MassSpec, PolyhedronGravity, ShapeModel,
+};
 
-/// Settings of the gravity computation of a run.
-#[derive(Debug, Clone, Default, PartialEq, Eq)]
+use crate::error::{Result, WorkflowError};
+use crate::field_cache::{BuildHooks, StoreOutcome, default_cache_dir, load_or_build};
+
+/// Default memory limit of an interpolated field, MB.
+pub const DEFAULT_FIELD_MEMORY_MB: u64 = 4096;
+
+/// Settings of the gravity computation of a run that override the scenario's `field` section.
+#[derive(Debug, Clone, Default, PartialEq)]
 pub struct GravityOptions {
-    /// Folder for cached gravity fields, for methods that precompute one (none yet: the direct
-    /// method needs no cache and ignores it).
+    /// The method (`None`: the scenario's).
+    pub method: Option<FieldMethodSpec>,
+    /// The interpolated field's bound (`None`: the scenario's).
+    pub max_rel_error: Option<f64>,
+    /// The interpolated field's memory limit, MB (`None`: the scenario's, else 4096).
+    pub max_memory_mb: Option<u64>,
+    /// Folder of stored interpolated fields (`None`: [`default_cache_dir`]).
     pub cache_dir: Option<PathBuf>,
 }
 
-/// The gravity model of `shape` (already placed in the body frame) with `mass`.
+impl GravityOptions {
+    /// The field section in force: the scenario's, with these options applied over it.
+    pub fn resolve(&self, scenario: Option<&FieldSpec>) -> FieldSpec {
+        let mut spec = scenario.copied().unwrap_or_default();
+        if let Some(m) = self.method {
+            spec.method = m;
+        }
+        if let Some(e) = self.max_rel_error {
+            spec.max_rel_error = e;
+        }
+        if let Some(mb) = self.max_memory_mb {
+            spec.max_memory_mb = Some(mb);
+        }
+        spec
+    }
+}
+
+/// Checks a field section: the bound in [1e-12, 1e-3], a positive memory limit.
 ///
 /// # Errors
-/// The gravity core's refusal of the mass (non-positive, not finite).
+/// [`WorkflowError::Invalid`] naming the value.
+pub fn check_field(spec: &FieldSpec) -> Result<()> {
+    if spec.method == FieldMethodSpec::Interpolated {
+        let e = spec.max_rel_error;
+        if !(1e-12..=1e-3).contains(&e) {
+            return Err(WorkflowError::Invalid(format!(
+                "field: max_rel_error {e} is outside [1e-12, 1e-3] (the interpolated field's \
+                 relative acceleration error)"
+            )));
+        }
+        if spec.max_memory_mb == Some(0) {
+            return Err(WorkflowError::Invalid(
+                "field: max_memory_mb must be at least 1".into(),
+            ));
+        }
+    }
+    Ok(())
+}
+
+/// How the gravity of a run was computed, recorded with its results.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct FieldUsed {
+    /// `"direct"` or `"interpolated"`.
+    pub method: &'static str,
+    /// The interpolated field's bound of the relative acceleration error.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub max_rel_error: Option<f64>,
+    /// The vector kernel of the direct sums on this machine.
+    pub kernel: &'static str,
+    /// How the interpolated field was built (or read), and what it takes.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub build: Option<BuildStats>,
+    /// Whether it was read from the store, built and stored, or built without one.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub store: Option<String>,
+}
+
+impl FieldUsed {
+    /// The direct method.
+    pub fn direct() -> FieldUsed {
+        FieldUsed {
+            method: "direct",
+            max_rel_error: None,
+            kernel: cpu_kernel(),
+            build: None,
+            store: None,
+        }
+    }
+
+    /// One line for manifests and status bars.
+    pub fn describe(&self) -> String {
+        match self.max_rel_error {
+            Some(e) => format!(
+                "polyhedron, interpolated to a relative acceleration error of {e:e} (exact near \
+                 faces summed by the {}; Werner & Scheeres 1997)",
+                self.kernel
+            ),
+            None => format!(
+                "polyhedron, direct sum (Werner & Scheeres 1997); {}",
+                self.kernel
+            ),
+        }
+    }
+}
+
+/// The gravity model of `shape` (already placed in the body frame) with `mass`, by the method
+/// of `spec` (see [`GravityOptions::resolve`]). An interpolated field is read from the store
+/// or built there, with `hooks` for progress, cancel and warnings.
+///
+/// # Errors
+/// The mass refused, invalid field settings, a memory limit too small for the bound, or
+/// cancellation.
 pub fn gravity_model(
     shape: &ShapeModel,
     mass: MassSpec,
-    _options: &GravityOptions,
-) -> spinfall_gravity::Result<Arc<dyn GravityModel>> {
-    Ok(Arc::new(PolyhedronGravity::new(shape, mass)?))
-}
-
-/// The method and the kernel it runs on this machine, for manifests.
-pub fn kernel_description(_options: &GravityOptions) -> String {
-    format!(
-        "polyhedron, direct sum (Werner & Scheeres 1997); {}",
-        cpu_kernel()
-    )
+    spec: &FieldSpec,
+    options: &GravityOptions,
+    hooks: &BuildHooks<'_>,
+) -> Result<(Arc<dyn GravityModel>, FieldUsed)> {
+    check_field(spec)?;
+    match spec.method {
+        FieldMethodSpec::Direct => {
+            let field = PolyhedronGravity::new(shape, mass)
+                .map_err(|e| WorkflowError::Invalid(format!("gravity field: {e}")))?;
+            Ok((Arc::new(field), FieldUsed::direct()))
+        }
+        FieldMethodSpec::Interpolated => {
+            let settings = InterpolationSettings {
+                max_rel_error: spec.max_rel_error,
+                max_memory_bytes: (spec.max_memory_mb.unwrap_or(DEFAULT_FIELD_MEMORY_MB) as usize)
+                    .saturating_mul(1 << 20),
+                ..InterpolationSettings::default()
+            };
+            let folder = options.cache_dir.clone().or_else(default_cache_dir);
+            let (field, outcome) =
+                load_or_build(shape.mesh(), mass, settings, folder.as_deref(), hooks)?;
+            let store = match outcome {
+                StoreOutcome::Read(p) => format!("read from {}", p.display()),
+                StoreOutcome::Built(p) => format!("built and stored as {}", p.display()),
+                StoreOutcome::BuiltWithoutStore(why) => format!("built, not stored: {why}"),
+            };
+            let used = FieldUsed {
+                method: "interpolated",
+                max_rel_error: Some(spec.max_rel_error),
+                kernel: cpu_kernel(),
+                build: Some(field.stats().clone()),
+                store: Some(store),
+            };
+            Ok((Arc::new(field), used))
+        }
+    }
 }
 
 /// Which vectorised kernel the CPU's features select.
 fn cpu_kernel() -> &'static str {
-    #[cfg(target_arch = "x86_64")]
-    {
-        if std::arch::is_x86_feature_detected!("avx512f") {
-            return "AVX-512 kernel";
-        }
-        if std::arch::is_x86_feature_detected!("avx2") && std::arch::is_x86_feature_detected!("fma")
-        {
-            return "AVX2+FMA kernel";
-        }
+    match spinfall_gravity::field::DirectKernel::auto_resolved() {
+        spinfall_gravity::field::DirectKernel::Avx512 => "AVX-512 kernel",
+        spinfall_gravity::field::DirectKernel::Avx2 => "AVX2+FMA kernel",
+        _ => "portable SIMD kernel",
     }
-    "portable SIMD kernel"
 }

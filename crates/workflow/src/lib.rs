@@ -34,7 +34,7 @@
 //! let prepared = prepare(loaded, &PrepareOptions::new(Purpose::Fly))?;
 //! let cancel = std::sync::atomic::AtomicBool::new(false);
 //! let done = spinfall_workflow::run::run(&prepared, &|_, _| {}, &cancel)?;
-//! let info = spinfall_workflow::run_files::run_info(Some(prepared.scenario()), &prepared.gravity);
+//! let info = spinfall_workflow::run_files::run_info(Some(prepared.scenario()), &prepared.field);
 //! spinfall_workflow::run_files::write_run_folder(&folder, &done.reports, &info)?;
 //! # Ok(())
 //! # }
@@ -43,6 +43,7 @@
 
 mod error;
 pub mod export;
+pub mod field_cache;
 pub mod gravity_method;
 pub mod images;
 pub mod limits;

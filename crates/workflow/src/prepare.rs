@@ -9,7 +9,8 @@ use spinfall_dynamics::scenario::Scenario;
 use spinfall_dynamics::{Body, FlightSettings};
 
 use crate::error::{Result, WorkflowError};
-use crate::gravity_method::{GravityOptions, gravity_model};
+use crate::field_cache::BuildHooks;
+use crate::gravity_method::{FieldUsed, GravityOptions, gravity_model};
 use crate::limits::{Estimate, Limits, estimate};
 use crate::scenario_file::LoadedScenario;
 use crate::shape::{OpenedShape, open_shape};
@@ -25,7 +26,7 @@ pub enum Purpose {
 }
 
 /// How to prepare a run.
-#[derive(Debug, Clone, PartialEq, Eq)]
+#[derive(Debug, Clone, PartialEq)]
 pub struct PrepareOptions {
     /// What for.
     pub purpose: Purpose,
@@ -61,8 +62,10 @@ pub struct PreparedRun {
     pub settings: FlightSettings,
     /// What the run needs at most.
     pub estimate: Estimate,
-    /// How gravity is computed.
+    /// How gravity is computed (the options).
     pub gravity: GravityOptions,
+    /// How gravity was computed (the method in force, with the interpolated field's build).
+    pub field: FieldUsed,
 }
 
 impl PreparedRun {
@@ -78,9 +81,21 @@ impl PreparedRun {
 /// # Errors
 /// Bad input (the scenario, its shape file, a limit) with the file and field named.
 pub fn prepare(loaded: LoadedScenario, options: &PrepareOptions) -> Result<PreparedRun> {
+    prepare_with_hooks(loaded, options, &BuildHooks::default())
+}
+
+/// As [`prepare`], with progress, cancel and warnings for an interpolated field's build.
+///
+/// # Errors
+/// As [`prepare`], and [`WorkflowError::Cancelled`].
+pub fn prepare_with_hooks(
+    loaded: LoadedScenario,
+    options: &PrepareOptions,
+    hooks: &BuildHooks<'_>,
+) -> Result<PreparedRun> {
     check_launch_count(&loaded, options)?;
     let shape = open_shape(&loaded.shape_request())?;
-    prepare_with_shape(loaded, shape, options)
+    prepare_shape_hooks(loaded, shape, options, hooks)
 }
 
 /// As [`prepare`] with the shape model already open (the app keeps it between runs). The shape
@@ -89,6 +104,19 @@ pub fn prepare_with_shape(
     loaded: LoadedScenario,
     shape: OpenedShape,
     options: &PrepareOptions,
+) -> Result<PreparedRun> {
+    prepare_shape_hooks(loaded, shape, options, &BuildHooks::default())
+}
+
+/// As [`prepare_with_shape`], with hooks for an interpolated field's build.
+///
+/// # Errors
+/// As [`prepare`], and [`WorkflowError::Cancelled`].
+pub fn prepare_shape_hooks(
+    loaded: LoadedScenario,
+    shape: OpenedShape,
+    options: &PrepareOptions,
+    hooks: &BuildHooks<'_>,
 ) -> Result<PreparedRun> {
     check_launch_count(&loaded, options)?;
     let scenario = &loaded.scenario;
@@ -101,7 +129,8 @@ pub fn prepare_with_shape(
     if options.purpose == Purpose::Fly {
         options.limits.check(scenario, &est)?;
     }
-    let body = Arc::new(build_body(scenario, &shape, &options.gravity).map_err(refused)?);
+    let (body, field) = build_body(scenario, &shape, &options.gravity, hooks)?;
+    let body = Arc::new(body);
     let launches = match options.purpose {
         Purpose::Fly => scenario.build_launches(&body).map_err(refused)?,
         Purpose::BodyOnly => Vec::new(),
@@ -114,6 +143,7 @@ pub fn prepare_with_shape(
         settings,
         estimate: est,
         gravity: options.gravity.clone(),
+        field,
     })
 }
 
@@ -145,21 +175,31 @@ fn check_launch_count(loaded: &LoadedScenario, options: &PrepareOptions) -> Resu
     Ok(())
 }
 
-/// The body of `scenario` on the opened shape, with the gravity chosen by `gravity`.
+/// The body of `scenario` on the opened shape, with the gravity method of its `field` section
+/// and `gravity` (which overrides it), and what that method was.
 ///
 /// # Errors
-/// The scenario's mass or spin is refused (field named).
+/// The scenario's mass or spin is refused (field named), the field settings are invalid, or
+/// the build of an interpolated field was cancelled.
 pub fn build_body(
     scenario: &Scenario,
     shape: &OpenedShape,
     gravity: &GravityOptions,
-) -> spinfall_dynamics::Result<Body> {
-    let mass = scenario.mass_spec()?;
-    let model = gravity_model(&shape.shape, mass, gravity)?;
-    Body::with_gravity(
+    hooks: &BuildHooks<'_>,
+) -> Result<(Body, FieldUsed)> {
+    let refused = |error| WorkflowError::Scenario {
+        what: scenario.body_name(),
+        error,
+    };
+    let mass = scenario.mass_spec().map_err(refused)?;
+    let spec = gravity.resolve(scenario.field.as_ref());
+    let (model, used) = gravity_model(&shape.shape, mass, &spec, gravity, hooks)?;
+    let body = Body::with_gravity(
         scenario.body_name(),
         shape.shape.clone(),
         model,
-        scenario.spin_on(&shape.shape)?,
+        scenario.spin_on(&shape.shape).map_err(refused)?,
     )
+    .map_err(refused)?;
+    Ok((body, used))
 }

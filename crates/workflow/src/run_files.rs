@@ -9,7 +9,7 @@ use spinfall_dynamics::scenario::Scenario;
 
 use crate::error::Result;
 use crate::export::{write_results_csv, write_results_json, write_trajectories_csv};
-use crate::gravity_method::{GravityOptions, kernel_description};
+use crate::gravity_method::FieldUsed;
 use crate::output::{OutputFolder, RUN_MANIFEST, RunInfo, SetFile};
 
 /// Names of the files of a run folder (besides the manifest).
@@ -23,11 +23,13 @@ pub fn scenario_sha256(scenario: &Scenario) -> Option<String> {
     )))
 }
 
-/// What a run's manifest says about it.
-pub fn run_info(scenario: Option<&Scenario>, gravity: &GravityOptions) -> RunInfo {
+/// What a run's manifest (and results.json) say about it: the scenario's digest and how its
+/// gravity was computed.
+pub fn run_info(scenario: Option<&Scenario>, field: &FieldUsed) -> RunInfo {
     RunInfo {
         scenario_sha256: scenario.and_then(scenario_sha256),
-        kernel: kernel_description(gravity),
+        kernel: field.describe(),
+        field: Some(field.clone()),
     }
 }
 
@@ -52,6 +54,7 @@ impl ResultSelection {
 /// export).
 pub fn result_files<'a>(
     reports: &'a [FlightReport],
+    info: &'a RunInfo,
     prefix: &str,
     selection: ResultSelection,
 ) -> Vec<SetFile<'a>> {
@@ -59,7 +62,7 @@ pub fn result_files<'a>(
     if selection.results {
         files.push(SetFile::new(
             format!("{prefix}{}", RUN_FILES[0]),
-            move |w| write_results_json(w, reports),
+            move |w| write_results_json(w, reports, info.field.as_ref()),
         ));
         files.push(SetFile::new(
             format!("{prefix}{}", RUN_FILES[1]),
@@ -83,7 +86,7 @@ pub fn write_run_folder(
 ) -> Result<Vec<PathBuf>> {
     folder.write_set(
         RUN_MANIFEST,
-        result_files(reports, "", ResultSelection::ALL),
+        result_files(reports, info, "", ResultSelection::ALL),
         info,
         &AtomicBool::new(false),
     )

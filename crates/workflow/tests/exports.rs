@@ -59,7 +59,7 @@ fn results_and_trajectories_read_back() {
     assert!(reports.iter().all(|r| r.outcome == Outcome::Landed));
 
     let mut json = Vec::new();
-    write_results_json(&mut json, &reports).unwrap();
+    write_results_json(&mut json, &reports, None).unwrap();
     let v: serde_json::Value = serde_json::from_slice(&json).unwrap();
     assert_eq!(v["launches"].as_array().unwrap().len(), 6);
     assert_eq!(v["launches"][0]["outcome"]["kind"], "landed");

@@ -5,8 +5,8 @@ use std::io::Write;
 
 use nalgebra::Point3;
 use serde_json::json;
+use spinfall_gravity::FieldSample;
 use spinfall_gravity::text::excerpt;
-use spinfall_gravity::{FieldSample, PolyhedronGravity};
 
 use super::{csv_error, csv_writer, rows};
 use crate::error::{Result, WorkflowError};
@@ -115,8 +115,13 @@ pub fn parse_points_csv(bytes: &[u8]) -> Result<FieldPoints> {
 
 /// The field at every point, refusing non-finite results with the point that caused them
 /// (e.g. a point so far away that the gradient overflows f64).
-pub fn evaluate_field(field: &PolyhedronGravity, points: &FieldPoints) -> Result<Vec<FieldSample>> {
-    let samples = field.evaluate_batch(&points.points_m);
+pub fn evaluate_field(
+    field: &dyn spinfall_dynamics::GravityModel,
+    points: &FieldPoints,
+) -> Result<Vec<FieldSample>> {
+    let samples = field.evaluate_batch(&points.points_m).ok_or_else(|| {
+        WorkflowError::Invalid("this gravity model gives no gradient tensor".into())
+    })?;
     for ((s, p), label) in samples.iter().zip(&points.points_m).zip(&points.labels) {
         let bad = if !s.potential_m2_s2.is_finite() {
             Some("the potential")

@@ -8,6 +8,7 @@ use spinfall_dynamics::{Contact, FlightReport, LandingPoint, Outcome};
 
 use super::{csv_error, csv_writer, json_error};
 use crate::error::Result;
+use crate::gravity_method::FieldUsed;
 
 /// One launch in the results file: the report without its trajectories.
 #[derive(Serialize)]
@@ -30,6 +31,8 @@ struct ResultRecord<'a> {
     rejected_steps: u64,
     final_pos_body_m: [f64; 3],
     final_vel_body_m_s: [f64; 3],
+    final_pos_inertial_m: [f64; 3],
+    final_vel_inertial_m_s: [f64; 3],
 }
 
 #[derive(Serialize)]
@@ -37,16 +40,23 @@ struct ResultsFile<'a> {
     format: &'static str,
     version: u32,
     note: &'static str,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    field: Option<&'a FieldUsed>,
     launches: Vec<ResultRecord<'a>>,
 }
 
 /// Writes one JSON record per launch (SI units, keys named with units; trajectories left out,
-/// see [`super::write_trajectories_csv`]).
-pub fn write_results_json(w: &mut dyn Write, reports: &[FlightReport]) -> Result<()> {
+/// see [`super::write_trajectories_csv`]), after how the gravity was computed (`field`).
+pub fn write_results_json(
+    w: &mut dyn Write,
+    reports: &[FlightReport],
+    field: Option<&FieldUsed>,
+) -> Result<()> {
     let file = ResultsFile {
         format: "spinfall-results",
         version: 1,
         note: crate::CAUTION,
+        field,
         launches: reports
             .iter()
             .map(|r| ResultRecord {
@@ -68,6 +78,8 @@ pub fn write_results_json(w: &mut dyn Write, reports: &[FlightReport]) -> Result
                 rejected_steps: r.rejected_steps,
                 final_pos_body_m: r.final_pos_body_m,
                 final_vel_body_m_s: r.final_vel_body_m_s,
+                final_pos_inertial_m: r.final_pos_inertial_m,
+                final_vel_inertial_m_s: r.final_vel_inertial_m_s,
             })
             .collect(),
     };

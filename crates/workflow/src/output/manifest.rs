@@ -69,6 +69,8 @@ pub struct RunInfo {
     pub scenario_sha256: Option<String>,
     /// The gravity method and kernel.
     pub kernel: String,
+    /// The gravity method in detail (written into results.json).
+    pub field: Option<crate::gravity_method::FieldUsed>,
 }
 
 /// A set whose manifest is complete and whose files all match it.
