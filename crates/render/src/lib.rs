@@ -55,10 +55,13 @@
 
 #![warn(missing_docs)]
 
+mod animation;
 mod camera;
 mod color;
 mod colormap;
+pub mod cvd;
 mod error;
+mod figure;
 mod image;
 mod overlay;
 mod pipeline;
@@ -66,18 +69,41 @@ mod png_out;
 mod raster;
 mod renderer;
 mod scene;
+mod style;
+mod svg;
 pub mod testing;
 mod text;
+mod theme;
+mod ticks;
+mod vector;
 
+pub use animation::{
+    AnimationEncoder, AnimationFormat, FPS_RANGE, MAX_ANIMATION_FRAMES, MAX_ANIMATION_SIDE_PX,
+    check_animation,
+};
 pub use camera::Camera;
 pub use color::Color;
 pub use colormap::{Colormap, face_colors};
 pub use error::{RenderError, Result};
+pub use figure::{Figure, Item, Region};
 pub use image::{Image, compose_side_by_side};
-pub use overlay::{format_value, round_length_m};
+pub use overlay::{
+    Block, LegendEntry, Swatch, color_bar_block, format_value, legend_block, round_length_m,
+    scale_bar_block, text_block, triad_block,
+};
 pub use png_out::encode_png;
-pub use renderer::{FaceHit, FaceIdImage, MAX_INTERNAL_SIDE_PX, RenderOptions, Renderer, render};
+pub use renderer::{
+    FaceHit, FaceIdImage, MAX_INTERNAL_SIDE_PX, RenderOptions, Renderer, VectorView, render,
+};
 pub use scene::{
     Anchor, Arrow, Corner, FaceColors, Light, LineColor, Marker, MarkerShape, Occluded, Overlay,
     Polyline, Rect, Scene, SceneMesh, Shading,
 };
+pub use style::{
+    DPI_RANGE, FigureSize, MAX_FIGURE_SIDE_PX, MIN_FIGURE_SIDE_PX, PhysicalUnit,
+    REFERENCE_PX_PER_PT, REFERENCE_SIDE_PX, Sizing, Style, pt,
+};
+pub use svg::{svg_string, write_svg};
+pub use text::measure_text;
+pub use theme::{Theme, ThemeKind};
+pub use ticks::{Ticks, format_tick, nice_ticks};
