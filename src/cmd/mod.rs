@@ -1,9 +1,11 @@
 //! One module per subcommand; `run` dispatches.
 
+mod animate;
 mod fly;
 mod gravity;
 mod info;
 mod map;
+mod plot;
 mod render;
 mod scenario;
 
@@ -20,6 +22,8 @@ pub fn run(cli: Cli) -> CmdResult<ExitCode> {
         Some(Command::Fly(args)) => fly::run(&args),
         Some(Command::Map(args)) => map::run(&args),
         Some(Command::Render(args)) => render::run(&args),
+        Some(Command::Animate(args)) => animate::run(&args),
+        Some(Command::Plot(args)) => plot::run(&args),
         None => {
             let options = spinfall_gui::GuiOptions {
                 shape_path: cli.shape,

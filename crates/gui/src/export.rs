@@ -230,7 +230,6 @@ fn run_export(
                 width_px: w,
                 height_px: h,
                 supersample: 2,
-                gap_px: 4,
                 body_camera: s.cameras[0].clone(),
                 inertial_camera: s.cameras[1].clone(),
                 sites: s.sites.clone(),

@@ -119,6 +119,148 @@ impl Item {
     }
 }
 
+impl Item {
+    /// The parts of the item inside `clip`: lines are cut at its edges (keeping their dash
+    /// phase), polygons clipped (Sutherland–Hodgman), markers kept when their centre is
+    /// inside; rasters, rectangles, text and gradients are kept as they are.
+    pub fn clipped(self, clip: Rect) -> Vec<Item> {
+        let (x0, y0) = (clip.x_px, clip.y_px);
+        let (x1, y1) = (x0 + clip.width_px, y0 + clip.height_px);
+        let inside = |p: [f32; 2]| p[0] >= x0 && p[0] <= x1 && p[1] >= y0 && p[1] <= y1;
+        match self {
+            Item::Line {
+                points,
+                color,
+                width_px,
+                dash,
+                dash_offset_px,
+            } => {
+                let mut out = Vec::new();
+                let mut cur: Vec<[f32; 2]> = Vec::new();
+                let mut cur_offset = dash_offset_px;
+                let mut along = dash_offset_px;
+                let push = |cur: &mut Vec<[f32; 2]>, off: f32, out: &mut Vec<Item>| {
+                    if cur.len() >= 2 {
+                        out.push(Item::Line {
+                            points: std::mem::take(cur),
+                            color,
+                            width_px,
+                            dash,
+                            dash_offset_px: off,
+                        });
+                    }
+                    cur.clear();
+                };
+                for w in points.windows(2) {
+                    let (a, b) = (w[0], w[1]);
+                    let seg = ((b[0] - a[0]).powi(2) + (b[1] - a[1]).powi(2)).sqrt();
+                    match clip_segment(a, b, x0, y0, x1, y1) {
+                        Some((t0, t1)) => {
+                            let at = |t: f32| [a[0] + (b[0] - a[0]) * t, a[1] + (b[1] - a[1]) * t];
+                            if t0 > 0.0 || cur.is_empty() {
+                                push(&mut cur, cur_offset, &mut out);
+                                cur_offset = along + t0 * seg;
+                                cur.push(at(t0));
+                            }
+                            cur.push(at(t1));
+                            if t1 < 1.0 {
+                                push(&mut cur, cur_offset, &mut out);
+                            }
+                        }
+                        None => push(&mut cur, cur_offset, &mut out),
+                    }
+                    along += seg;
+                }
+                push(&mut cur, cur_offset, &mut out);
+                out
+            }
+            Item::Polygon { points, fill } => {
+                let clipped = clip_polygon(points, x0, y0, x1, y1);
+                if clipped.len() >= 3 {
+                    vec![Item::Polygon {
+                        points: clipped,
+                        fill,
+                    }]
+                } else {
+                    Vec::new()
+                }
+            }
+            Item::Marker { x_px, y_px, .. } if !inside([x_px, y_px]) => Vec::new(),
+            other => vec![other],
+        }
+    }
+}
+
+/// Liang–Barsky: the parameter range of segment `a`-`b` inside the rectangle, if any.
+fn clip_segment(
+    a: [f32; 2],
+    b: [f32; 2],
+    x0: f32,
+    y0: f32,
+    x1: f32,
+    y1: f32,
+) -> Option<(f32, f32)> {
+    let (dx, dy) = (b[0] - a[0], b[1] - a[1]);
+    let (mut t0, mut t1) = (0.0f32, 1.0f32);
+    for (p, q) in [
+        (-dx, a[0] - x0),
+        (dx, x1 - a[0]),
+        (-dy, a[1] - y0),
+        (dy, y1 - a[1]),
+    ] {
+        if p == 0.0 {
+            if q < 0.0 {
+                return None;
+            }
+        } else {
+            let r = q / p;
+            if p < 0.0 {
+                t0 = t0.max(r);
+            } else {
+                t1 = t1.min(r);
+            }
+        }
+    }
+    (t0 <= t1 && t0.is_finite() && t1.is_finite()).then_some((t0, t1))
+}
+
+/// Sutherland–Hodgman polygon clipping against an axis-aligned rectangle.
+fn clip_polygon(points: Vec<[f32; 2]>, x0: f32, y0: f32, x1: f32, y1: f32) -> Vec<[f32; 2]> {
+    let mut poly = points;
+    // (axis, bound, keep-greater)
+    for (axis, bound, greater) in [(0, x0, true), (0, x1, false), (1, y0, true), (1, y1, false)] {
+        let keep = |p: &[f32; 2]| {
+            if greater {
+                p[axis] >= bound
+            } else {
+                p[axis] <= bound
+            }
+        };
+        let mut out = Vec::with_capacity(poly.len() + 2);
+        for i in 0..poly.len() {
+            let (a, b) = (poly[(i + poly.len() - 1) % poly.len()], poly[i]);
+            let cross = |a: [f32; 2], b: [f32; 2]| {
+                let t = (bound - a[axis]) / (b[axis] - a[axis]);
+                [a[0] + (b[0] - a[0]) * t, a[1] + (b[1] - a[1]) * t]
+            };
+            match (keep(&a), keep(&b)) {
+                (true, true) => out.push(b),
+                (true, false) => out.push(cross(a, b)),
+                (false, true) => {
+                    out.push(cross(a, b));
+                    out.push(b);
+                }
+                (false, false) => {}
+            }
+        }
+        poly = out;
+        if poly.is_empty() {
+            break;
+        }
+    }
+    poly
+}
+
 /// A named area of a figure's layout (for tests and for callers that place more content).
 #[derive(Clone, Debug, PartialEq)]
 pub struct Region {
@@ -581,6 +723,37 @@ mod tests {
             .map(|s| ((s[1][0] - s[0][0]).powi(2) + (s[1][1] - s[0][1]).powi(2)).sqrt())
             .sum();
         assert!((total - 14.0).abs() < 1e-9);
+    }
+
+    #[test]
+    fn clipping_cuts_lines_at_the_rectangle_and_keeps_the_dash_phase() {
+        let line = Item::Line {
+            points: vec![[-10.0, 5.0], [30.0, 5.0], [30.0, 40.0]],
+            color: Color::BLACK,
+            width_px: 1.0,
+            dash: Some((3.0, 2.0)),
+            dash_offset_px: 1.0,
+        };
+        let parts = line.clipped(Rect::new(0.0, 0.0, 20.0, 20.0));
+        assert_eq!(parts.len(), 1);
+        let Item::Line {
+            points,
+            dash_offset_px,
+            ..
+        } = &parts[0]
+        else {
+            panic!("not a line")
+        };
+        assert_eq!(points, &vec![[0.0, 5.0], [20.0, 5.0]]);
+        assert!((dash_offset_px - 11.0).abs() < 1e-5);
+        let tri = Item::Polygon {
+            points: vec![[-5.0, -5.0], [10.0, 10.0], [-5.0, 10.0]],
+            fill: Color::BLACK,
+        };
+        let Item::Polygon { points, .. } = &tri.clipped(Rect::new(0.0, 0.0, 20.0, 20.0))[0] else {
+            panic!("not a polygon")
+        };
+        assert!(points.iter().all(|p| p[0] >= 0.0 && p[1] >= 0.0), "{points:?}");
     }
 
     #[test]

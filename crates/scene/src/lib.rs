@@ -33,7 +33,9 @@
 mod body_view;
 mod composite;
 mod error;
+mod figure;
 mod options;
+mod palette;
 mod scenes;
 pub mod trace;
 
@@ -42,10 +44,13 @@ pub use composite::{
     CompositeOptions, DEFAULT_FOV_Y_DEG, add_title, composite, default_camera, time_stamp,
 };
 pub use error::{Result, SceneError};
+pub use figure::{FigureOptions, Output, Views, build_figure, figure_metadata};
 pub use options::{HiddenTraceStyle, ViewOptions};
+pub use palette::Palette;
 pub use scenes::{
     CONTACT_COLOR, ESCAPE_COLOR, Frame, LAUNCH_COLORS, OVERLAY_COLOR, PLANNED_SITE_COLOR,
-    REST_COLOR, SITE_COLOR, SPIN_AXIS_COLOR, SiteMarker, add_site_markers, body_fixed_scene,
-    color_bar_rect, end_time_s, field_label, frame_scene, inertial_scene, launch_color,
-    pretty_unit,
+    REST_COLOR, SITE_COLOR, SPIN_AXIS_COLOR, SiteMarker, add_site_markers,
+    add_site_markers_styled, body_fixed_scene, color_bar_rect, end_time_s, field_label,
+    figure_scene, frame_scene, inertial_scene, launch_color, legend_entries, pretty_unit,
+    shown_map,
 };
