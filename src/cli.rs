@@ -141,10 +141,20 @@ pub struct RenderArgs {
     #[arg(long, value_enum)]
     pub map: Option<MapArg>,
     /// Low end of the map's colour range (field unit; with --color-max).
-    #[arg(long, value_name = "VALUE", allow_hyphen_values = true, requires = "color_max")]
+    #[arg(
+        long,
+        value_name = "VALUE",
+        allow_hyphen_values = true,
+        requires = "color_max"
+    )]
     pub color_min: Option<f64>,
     /// High end of the map's colour range (field unit; with --color-min).
-    #[arg(long, value_name = "VALUE", allow_hyphen_values = true, requires = "color_min")]
+    #[arg(
+        long,
+        value_name = "VALUE",
+        allow_hyphen_values = true,
+        requires = "color_min"
+    )]
     pub color_max: Option<f64>,
     /// Aim each view at the body and fit the body to it.
     #[arg(long)]

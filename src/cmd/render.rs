@@ -10,7 +10,9 @@ use std::sync::atomic::AtomicBool;
 use anyhow::anyhow;
 use spinfall_dynamics::surface_map::{SurfaceField, surface_map};
 use spinfall_render::{Figure, FigureSize, encode_png, write_svg};
-use spinfall_scene::{BodyView, FigureOptions, Output, ViewOptions, Views, build_figure, end_time_s};
+use spinfall_scene::{
+    BodyView, FigureOptions, Output, ViewOptions, Views, build_figure, end_time_s,
+};
 
 use super::scenario::{Prepared, fly_with_progress, prepare, run_exit_code};
 use crate::cli::{FigureArgs, MapArg, RenderArgs, ViewArg};
@@ -197,7 +199,10 @@ mod tests {
 
     #[test]
     fn formats_come_from_the_extension() {
-        assert_eq!(still_format(Path::new("a/b.PNG")).unwrap(), StillFormat::Png);
+        assert_eq!(
+            still_format(Path::new("a/b.PNG")).unwrap(),
+            StillFormat::Png
+        );
         assert_eq!(still_format(Path::new("b.svg")).unwrap(), StillFormat::Svg);
         for bad in ["b.pdf", "b.jpg", "b"] {
             assert!(still_format(Path::new(bad)).is_err(), "{bad}");

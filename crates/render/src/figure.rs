@@ -287,8 +287,10 @@ pub struct Figure {
     pub regions: Vec<Region>,
     /// `(key, value)` pairs written into the file (PNG text chunks, SVG metadata).
     pub metadata: Vec<(String, String)>,
-    /// Print resolution, when the figure has a physical size (PNG `pHYs`, SVG size in mm).
+    /// Print resolution, when the figure has a physical size.
     pub dpi: Option<f64>,
+    /// Physical width and height in millimetres, when the figure has one (the SVG's size).
+    pub size_mm: Option<[f64; 2]>,
 }
 
 impl Figure {
@@ -629,8 +631,14 @@ fn draw_gradient(img: &mut Image, rect: Rect, colormap: Colormap, vertical: bool
     let ya = (rect.y_px.round() as i64).max(0);
     let yb = ((rect.y_px + rect.height_px).round() as i64).min(img.height as i64);
     // The first and last rows (columns) of the bar get the map's end colours exactly.
-    let (y_top, y_end) = (rect.y_px.round() as i64, (rect.y_px + rect.height_px).round() as i64);
-    let (x_left, x_end) = (rect.x_px.round() as i64, (rect.x_px + rect.width_px).round() as i64);
+    let (y_top, y_end) = (
+        rect.y_px.round() as i64,
+        (rect.y_px + rect.height_px).round() as i64,
+    );
+    let (x_left, x_end) = (
+        rect.x_px.round() as i64,
+        (rect.x_px + rect.width_px).round() as i64,
+    );
     let frac = |i: i64, lo: i64, hi: i64| {
         if hi - lo > 1 {
             (i - lo) as f64 / (hi - lo - 1) as f64
@@ -753,7 +761,10 @@ mod tests {
         let Item::Polygon { points, .. } = &tri.clipped(Rect::new(0.0, 0.0, 20.0, 20.0))[0] else {
             panic!("not a polygon")
         };
-        assert!(points.iter().all(|p| p[0] >= 0.0 && p[1] >= 0.0), "{points:?}");
+        assert!(
+            points.iter().all(|p| p[0] >= 0.0 && p[1] >= 0.0),
+            "{points:?}"
+        );
     }
 
     #[test]

@@ -88,8 +88,8 @@ pub use error::{RenderError, Result};
 pub use figure::{Figure, Item, Region};
 pub use image::{Image, compose_side_by_side};
 pub use overlay::{
-    Block, LegendEntry, Swatch, color_bar_block, format_value, legend_block, round_length_m,
-    scale_bar_block, text_block, triad_block,
+    Block, LegendEntry, Swatch, color_bar_block, format_value, legend_block,
+    legend_block_in_columns, round_length_m, scale_bar_block, text_block, triad_block,
 };
 pub use png_out::encode_png;
 pub use renderer::{

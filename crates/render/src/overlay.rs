@@ -196,9 +196,21 @@ pub fn color_bar_block(
 /// A legend: swatch and text per entry, one entry per row, on a translucent panel when
 /// `panel` is set (for legends drawn over content).
 pub fn legend_block(entries: &[LegendEntry], style: &Style, panel: bool) -> Block {
+    legend_block_in_columns(entries, style, panel, 1)
+}
+
+/// A legend in `columns` columns (filled row by row).
+pub fn legend_block_in_columns(
+    entries: &[LegendEntry],
+    style: &Style,
+    panel: bool,
+    columns: usize,
+) -> Block {
     if entries.is_empty() {
         return Block::default();
     }
+    let columns = columns.clamp(1, entries.len());
+    let rows = entries.len().div_ceil(columns);
     let th = &style.theme;
     let text_px = style.px(pt::TEXT);
     let swatch_w = style.px(16.0);
@@ -209,9 +221,10 @@ pub fn legend_block(entries: &[LegendEntry], style: &Style, panel: bool) -> Bloc
         .iter()
         .map(|e| measure_text(&e.text, text_px).0)
         .fold(0.0f32, f32::max);
+    let col_w = swatch_w + 2.0 * pad + text_w + 3.0 * pad;
     let (w, h) = (
-        pad + swatch_w + 2.0 * pad + text_w + pad,
-        row_h * entries.len() as f32 + 2.0 * pad,
+        pad + col_w * columns as f32 - 2.0 * pad,
+        row_h * rows as f32 + 2.0 * pad,
     );
     let mut items = Vec::new();
     if panel {
@@ -222,8 +235,10 @@ pub fn legend_block(entries: &[LegendEntry], style: &Style, panel: bool) -> Bloc
     }
     let line_w = style.px(pt::DATA_LINE).max(1.0);
     for (i, e) in entries.iter().enumerate() {
-        let cy = pad + row_h * (i as f32 + 0.5);
-        let (x0, x1) = (pad, pad + swatch_w);
+        let (row, col) = (i / columns, i % columns);
+        let cy = pad + row_h * (row as f32 + 0.5);
+        let x0 = pad + col as f32 * col_w;
+        let x1 = x0 + swatch_w;
         match e.swatch {
             Swatch::Line | Swatch::Dashed => items.push(Item::Line {
                 points: vec![[x0, cy], [x1, cy]],
@@ -347,9 +362,6 @@ pub fn triad_block(camera: &Camera, arm_px: f32, style: &Style) -> Block {
     };
     let text_px = style.px(pt::TEXT);
     let (_, text_h) = measure_text("x", text_px);
-    let reach = arm + text_h;
-    let size = 2.0 * reach;
-    let (cx, cy) = (reach, reach);
     let right = camera.right_direction();
     let up = camera.up_on_screen();
     let view = camera.view_direction();
@@ -372,20 +384,28 @@ pub fn triad_block(camera: &Camera, arm_px: f32, style: &Style) -> Block {
     // The axis pointing farthest away first.
     axes.sort_by(|a, b| b.0.total_cmp(&a.0));
     let mut items = Vec::new();
+    let half_text = 0.5 * text_h;
+    let k = 0.55 * text_h;
+    // Tight box around the origin, the axis ends and their letters.
+    let (mut x0, mut y0, mut x1, mut y1) = (-half_text, -half_text, half_text, half_text);
     for (_, dx, dy, c, l) in axes {
         items.push(Item::Line {
-            points: vec![[cx, cy], [cx + dx, cy + dy]],
+            points: vec![[0.0, 0.0], [dx, dy]],
             color: c,
             width_px: style.px(1.5).max(1.0),
             dash: None,
             dash_offset_px: 0.0,
         });
         let n = (dx * dx + dy * dy).sqrt().max(1e-3);
-        let k = 0.55 * text_h;
+        let (lx, ly) = (dx + k * dx / n, dy + k * dy / n);
+        x0 = x0.min(lx - half_text);
+        x1 = x1.max(lx + half_text);
+        y0 = y0.min(ly - half_text);
+        y1 = y1.max(ly + half_text);
         items.push(Item::Text {
             text: l.to_string(),
-            x_px: cx + dx + k * dx / n,
-            y_px: cy + dy + k * dy / n,
+            x_px: lx,
+            y_px: ly,
             size_px: text_px,
             color: c,
             anchor: Anchor::Center,
@@ -393,9 +413,9 @@ pub fn triad_block(camera: &Camera, arm_px: f32, style: &Style) -> Block {
         });
     }
     Block {
-        items,
-        width_px: size,
-        height_px: size,
+        items: items.into_iter().map(|i| i.translated(-x0, -y0)).collect(),
+        width_px: x1 - x0,
+        height_px: y1 - y0,
     }
 }
 

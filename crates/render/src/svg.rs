@@ -29,8 +29,11 @@ pub fn write_svg(figure: &Figure, mut out: impl Write) -> Result<()> {
 pub fn svg_string(figure: &Figure) -> Result<String> {
     let (w, h) = (figure.width_px.max(1), figure.height_px.max(1));
     let mut s = String::with_capacity(64 * 1024);
-    let size = match figure.dpi {
-        Some(dpi) if dpi.is_finite() && dpi > 0.0 => {
+    let size = match (figure.size_mm, figure.dpi) {
+        (Some([mw, mh]), _) if mw > 0.0 && mh > 0.0 => {
+            format!(r#"width="{mw:.2}mm" height="{mh:.2}mm""#)
+        }
+        (_, Some(dpi)) if dpi.is_finite() && dpi > 0.0 => {
             let mm = |px: u32| px as f64 / dpi * MM_PER_IN;
             format!(r#"width="{:.2}mm" height="{:.2}mm""#, mm(w), mm(h))
         }

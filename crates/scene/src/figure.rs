@@ -8,8 +8,9 @@
 
 use spinfall_dynamics::FlightReport;
 use spinfall_render::{
-    Anchor, Camera, Figure, FigureSize, Item, Rect, Region, RenderOptions, Renderer, Sizing,
-    Style, color_bar_block, legend_block, measure_text, pt, scale_bar_block, triad_block,
+    Anchor, Camera, Figure, FigureSize, Item, Rect, Region, RenderOptions, Renderer, Sizing, Style,
+    color_bar_block, legend_block, legend_block_in_columns, measure_text, pt, scale_bar_block,
+    triad_block,
 };
 
 use crate::body_view::BodyView;
@@ -92,6 +93,33 @@ impl Default for FigureOptions {
     }
 }
 
+/// Where the colour bar and the legend go.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Arrangement {
+    /// Both in a panel right of the views, the bar above the legend.
+    Stacked,
+    /// Both in a panel right of the views, side by side.
+    SideBySide,
+    /// The bar right of the views, the legend in rows under them.
+    LegendBelow,
+}
+
+/// The arrangement that fits and the sizes it gives.
+struct Plan {
+    arrangement: Arrangement,
+    /// The legend block when it goes under the views.
+    legend_below: Option<spinfall_render::Block>,
+    views_x1: f32,
+    views_y1: f32,
+    view_w: f32,
+    view_h: f32,
+    /// Shortest colour bar worth drawing, pixels.
+    min_bar: f32,
+    /// Colour bar block width and height without the bar.
+    bar: Option<(f32, f32)>,
+    panel_w: f32,
+}
+
 /// Where everything of a figure goes, computed before anything is drawn.
 struct Layout {
     views: Vec<Rect>,
@@ -136,6 +164,18 @@ pub fn build_figure(
     opts: &ViewOptions,
     fig: &FigureOptions,
 ) -> Result<Figure> {
+    build_figure_with(&mut Renderer::new(), view, reports, t_s, opts, fig)
+}
+
+/// [`build_figure`] with a renderer kept between calls (animation frames reuse its buffers).
+pub fn build_figure_with(
+    renderer: &mut Renderer,
+    view: &BodyView,
+    reports: &[FlightReport],
+    t_s: f64,
+    opts: &ViewOptions,
+    fig: &FigureOptions,
+) -> Result<Figure> {
     let (width_px, height_px, sizing) = fig.size.resolve()?;
     let pal = Palette::of(opts.theme);
     let style = Style::new(sizing, pal.theme);
@@ -152,49 +192,124 @@ pub fn build_figure(
     let (_, title_h) = measure_text("Body-fixed frame", title_px);
     let (_, stamp_h) = measure_text(&stamp, text_px);
     let map = shown_map(view, opts);
-    let legend = (opts.show_legend && !reports.is_empty())
-        .then(|| legend_block(&legend_entries(opts), &style, false));
-    // Colour bar width does not depend on its height; measure with a nominal bar.
-    let bar_probe = map.as_ref().map(|mc| {
-        color_bar_block(
-            mc.colormap,
-            mc.min,
-            mc.max,
-            &field_label(mc.field),
-            100.0,
-            &style,
-        )
-    });
-    let panel_w = bar_probe
-        .as_ref()
-        .map(|(b, _)| b.width_px)
-        .into_iter()
-        .chain(legend.as_ref().map(|b| b.width_px))
-        .fold(0.0f32, f32::max);
-    let arm_px = style.px(8.0);
+    let entries = legend_entries(opts);
+    let with_legend = opts.show_legend && !reports.is_empty();
+    let arm_px = style.px(9.0);
+    // The triad's box depends on the camera; reserve most of its largest size.
     let triad_size = 2.0 * (arm_px + measure_text("x", text_px).1);
     let (_, scale_h) = measure_text("1 km", text_px);
-    let bottom_h = triad_size.max(scale_h + style.px(6.0));
-
+    let bottom_h = (0.75 * triad_size).max(scale_h + style.px(6.0));
     let top = margin + title_h + 0.4 * gap + stamp_h + gap;
-    let right = if panel_w > 0.0 { panel_w + 2.0 * gap } else { 0.0 };
-    let views_x0 = margin;
-    let views_x1 = w - margin - right;
-    let views_y1 = h - margin - bottom_h - gap;
     let n = frames.len() as f32;
-    let view_w = (views_x1 - views_x0 - gap * (n - 1.0)) / n;
-    let view_h = views_y1 - top;
-    if !(view_w >= 16.0 && view_h >= 16.0) {
-        return Err(SceneError::LayoutDoesNotFit {
-            width_px,
-            height_px,
-            reason: format!(
-                "the views would be {:.0} x {:.0} px after titles, colour bar and legend",
-                view_w.max(0.0),
-                view_h.max(0.0)
-            ),
+    let widest_title = frames
+        .iter()
+        .map(|f| measure_text(f.title(), title_px).0)
+        .fold(0.0f32, f32::max);
+    let stamp_w = measure_text(&stamp, text_px).0;
+    // Views narrower than this look cramped: try the next arrangement.
+    let min_view_w = widest_title.max(48.0).max(0.18 * w);
+    let too_small = |reason: String| SceneError::LayoutDoesNotFit {
+        width_px,
+        height_px,
+        reason,
+    };
+
+    // Arrangements of the colour bar and legend, tried in order: both in a panel on the
+    // right (bar above legend, then side by side), then the bar on the right and the legend in
+    // rows under the views.
+    let mut plan = None;
+    for arrangement in [
+        Arrangement::Stacked,
+        Arrangement::SideBySide,
+        Arrangement::LegendBelow,
+    ] {
+        let legend_below = arrangement == Arrangement::LegendBelow && with_legend;
+        // Legend under the views: as many columns as fit in the width left of the bar.
+        let below = legend_below.then(|| {
+            let one = legend_block(&entries, &style, false);
+            let avail = w - 2.0 * margin;
+            let cols = ((avail / one.width_px.max(1.0)).floor() as usize).clamp(1, entries.len());
+            legend_block_in_columns(&entries, &style, false, cols)
         });
+        let below_h = below.as_ref().map_or(0.0, |b| b.height_px + gap);
+        let views_y1 = h - margin - bottom_h - gap - below_h;
+        let view_h = views_y1 - top;
+        let min_bar = (2.0 * measure_text("0", text_px).1).max(0.25 * view_h);
+        let bar = map.as_ref().map(|mc| {
+            let label = field_label(mc.field);
+            let (b, _) = color_bar_block(mc.colormap, mc.min, mc.max, &label, min_bar, &style);
+            (b.width_px, b.height_px - min_bar)
+        });
+        let side_legend = (with_legend && !legend_below)
+            .then(|| legend_block(&entries, &style, false))
+            .map(|b| (b.width_px, b.height_px));
+        let fits_stacked = match (bar, side_legend) {
+            (Some((_, extra)), Some((_, lh))) => extra + min_bar + 2.0 * gap + lh <= view_h,
+            _ => true,
+        };
+        if arrangement == Arrangement::Stacked && !fits_stacked {
+            continue;
+        }
+        let panel_w = match (bar, side_legend) {
+            (Some((bw, _)), Some((lw, _))) if arrangement == Arrangement::SideBySide => {
+                bw + 2.0 * gap + lw
+            }
+            (Some((bw, _)), Some((lw, _))) => bw.max(lw),
+            (Some((bw, _)), None) => bw,
+            (None, Some((lw, _))) => lw,
+            (None, None) => 0.0,
+        };
+        let right = if panel_w > 0.0 {
+            panel_w + 2.0 * gap
+        } else {
+            0.0
+        };
+        let views_x1 = w - margin - right;
+        let view_w = (views_x1 - margin - gap * (n - 1.0)) / n;
+        let fits = view_w >= min_view_w
+            && view_h >= 48.0
+            && bar.is_none_or(|(_, extra)| extra + min_bar <= view_h)
+            && side_legend.is_none_or(|(_, lh)| lh <= view_h)
+            && below
+                .as_ref()
+                .is_none_or(|b| b.width_px <= w - 2.0 * margin)
+            && stamp_w <= w - 2.0 * margin;
+        if fits {
+            plan = Some(Plan {
+                arrangement,
+                legend_below: below,
+                views_x1,
+                views_y1,
+                view_w,
+                view_h,
+                min_bar,
+                bar,
+                panel_w,
+            });
+            break;
+        }
     }
+    let Some(Plan {
+        arrangement,
+        legend_below,
+        views_x1,
+        views_y1,
+        view_w,
+        view_h,
+        min_bar,
+        bar: bar_probe,
+        panel_w,
+    }) = plan
+    else {
+        return Err(too_small(format!(
+            "after titles ({widest_title:.0} px wide), time stamp, colour bar and legend, no \
+             arrangement leaves views at least {min_view_w:.0} px wide and 48 px tall"
+        )));
+    };
+    let views_x0 = margin;
+    let legend = (with_legend && arrangement != Arrangement::LegendBelow)
+        .then(|| legend_block(&entries, &style, false));
+    let stacked = arrangement == Arrangement::Stacked;
     let layout = Layout {
         views: (0..frames.len())
             .map(|i| {
@@ -214,30 +329,26 @@ pub fn build_figure(
 
     let mut figure = Figure::new(width_px, height_px, th.background);
     figure.dpi = fig.size.dpi();
-    let views_span = Rect::new(views_x0, 0.0, views_x1 - views_x0, h);
-    // Time stamp, centred over the views.
+    figure.size_mm = fig.size.size_mm().map(|(w, h)| [w, h]);
+    // Time stamp, centred over the views (its row is free across the whole width).
+    let stamp_x = (views_x0 + 0.5 * (views_x1 - views_x0 - stamp_w))
+        .min(w - margin - stamp_w)
+        .max(margin);
     figure.items.push(Item::Text {
         text: stamp.clone(),
-        x_px: views_span.x_px + 0.5 * views_span.width_px,
+        x_px: stamp_x,
         y_px: layout.stamp_y_px,
         size_px: text_px,
         color: th.text_muted,
-        anchor: Anchor::TopCenter,
+        anchor: Anchor::TopLeft,
         vertical: false,
     });
-    let (stamp_w, _) = measure_text(&stamp, text_px);
     figure.regions.push(Region {
         name: "time stamp".into(),
-        rect: Rect::new(
-            views_span.x_px + 0.5 * (views_span.width_px - stamp_w),
-            layout.stamp_y_px,
-            stamp_w,
-            stamp_h,
-        ),
+        rect: Rect::new(stamp_x, layout.stamp_y_px, stamp_w, stamp_h),
         content: false,
     });
 
-    let mut renderer = Renderer::new();
     let supersample = fig.supersample.clamp(1, 4);
     for (i, (&frame, rect)) in frames.iter().zip(&layout.views).enumerate() {
         let (vw, vh) = (rect.width_px as u32, rect.height_px as u32);
@@ -300,8 +411,14 @@ pub fn build_figure(
         let y = layout.bottom_y_px;
         let mut used_left = rect.x_px;
         if opts.show_triad {
-            let block = triad_block(&camera, arm_px, &style);
-            if block.width_px < 0.45 * rect.width_px {
+            let mut block = triad_block(&camera, arm_px, &style);
+            if block.height_px > bottom_h {
+                // Seen from an odd angle the axes stretch vertically: shorten them.
+                let text_h = measure_text("x", text_px).1;
+                let arm = (arm_px - (block.height_px - bottom_h)).max(text_h);
+                block = triad_block(&camera, arm, &style);
+            }
+            if block.width_px < 0.45 * rect.width_px && block.height_px <= bottom_h + 0.5 {
                 figure.regions.push(Region {
                     name: format!("triad {}", i + 1),
                     rect: Rect::new(rect.x_px, y, block.width_px, block.height_px),
@@ -327,40 +444,51 @@ pub fn build_figure(
         }
     }
 
-    // The side panel: colour bar on top, legend under it.
+    // The side panel: colour bar on top and legend under it, or side by side.
     if let Some(panel) = layout.panel {
-        let mut y = panel.y_px;
-        let legend_h = legend.as_ref().map_or(0.0, |b| b.height_px + 2.0 * gap);
-        if let Some(mc) = &map {
+        let mut legend_at = (panel.x_px, panel.y_px);
+        if let (Some(mc), Some((bar_w, bextra))) = (&map, bar_probe) {
             let label = field_label(mc.field);
+            let legend_h = match (&legend, stacked) {
+                (Some(b), true) => b.height_px + 2.0 * gap,
+                _ => 0.0,
+            };
             // The bar takes what the legend leaves, at most 60% of the view height.
-            let (probe, _) = color_bar_block(mc.colormap, mc.min, mc.max, &label, 0.0, &style);
-            let min_bar = 2.0 * measure_text("0", text_px).1;
-            let extra = probe.height_px - min_bar; // everything but the bar
-            let bar_h = (panel.height_px - legend_h - extra).min(0.6 * panel.height_px);
-            if bar_h >= min_bar {
-                let (block, _) =
-                    color_bar_block(mc.colormap, mc.min, mc.max, &label, bar_h, &style);
-                figure.regions.push(Region {
-                    name: "colour bar".into(),
-                    rect: Rect::new(panel.x_px, y, block.width_px, block.height_px),
-                    content: false,
-                });
-                let h = block.height_px;
-                figure.items.extend(block.place(panel.x_px, y));
-                y += h + 2.0 * gap;
-            }
-        }
-        if let Some(block) = legend
-            && y + block.height_px <= panel.y_px + panel.height_px + 0.5
-        {
+            let bar_h = (panel.height_px - legend_h - bextra)
+                .min(0.6 * panel.height_px)
+                .max(min_bar);
+            let (block, _) = color_bar_block(mc.colormap, mc.min, mc.max, &label, bar_h, &style);
             figure.regions.push(Region {
-                name: "legend".into(),
-                rect: Rect::new(panel.x_px, y, block.width_px, block.height_px),
+                name: "colour bar".into(),
+                rect: Rect::new(panel.x_px, panel.y_px, block.width_px, block.height_px),
                 content: false,
             });
-            figure.items.extend(block.place(panel.x_px, y));
+            legend_at = if stacked {
+                (panel.x_px, panel.y_px + block.height_px + 2.0 * gap)
+            } else {
+                (panel.x_px + bar_w + 2.0 * gap, panel.y_px)
+            };
+            figure.items.extend(block.place(panel.x_px, panel.y_px));
         }
+        if let Some(block) = legend {
+            figure.regions.push(Region {
+                name: "legend".into(),
+                rect: Rect::new(legend_at.0, legend_at.1, block.width_px, block.height_px),
+                content: false,
+            });
+            figure.items.extend(block.place(legend_at.0, legend_at.1));
+        }
+    }
+
+    if let Some(block) = legend_below {
+        let x = views_x0 + 0.5 * (views_x1 - views_x0 - block.width_px).max(0.0);
+        let y = views_y1 + gap + bottom_h + gap;
+        figure.regions.push(Region {
+            name: "legend".into(),
+            rect: Rect::new(x, y, block.width_px, block.height_px),
+            content: false,
+        });
+        figure.items.extend(block.place(x, y));
     }
 
     figure.metadata = figure_metadata(view, t_s, opts, fig, sizing);

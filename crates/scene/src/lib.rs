@@ -30,6 +30,7 @@
 //! ```
 #![warn(missing_docs)]
 
+mod animation;
 mod body_view;
 mod composite;
 mod error;
@@ -39,18 +40,18 @@ mod palette;
 mod scenes;
 pub mod trace;
 
+pub use animation::{AnimationSettings, render_frames, write_animation};
 pub use body_view::{BODY_GREY, BodyView, MapColors, value_range};
 pub use composite::{
     CompositeOptions, DEFAULT_FOV_Y_DEG, add_title, composite, default_camera, time_stamp,
 };
 pub use error::{Result, SceneError};
-pub use figure::{FigureOptions, Output, Views, build_figure, figure_metadata};
+pub use figure::{FigureOptions, Output, Views, build_figure, build_figure_with, figure_metadata};
 pub use options::{HiddenTraceStyle, ViewOptions};
 pub use palette::Palette;
 pub use scenes::{
     CONTACT_COLOR, ESCAPE_COLOR, Frame, LAUNCH_COLORS, OVERLAY_COLOR, PLANNED_SITE_COLOR,
-    REST_COLOR, SITE_COLOR, SPIN_AXIS_COLOR, SiteMarker, add_site_markers,
-    add_site_markers_styled, body_fixed_scene, color_bar_rect, end_time_s, field_label,
-    figure_scene, frame_scene, inertial_scene, launch_color, legend_entries, pretty_unit,
-    shown_map,
+    REST_COLOR, SITE_COLOR, SPIN_AXIS_COLOR, SiteMarker, add_site_markers, add_site_markers_styled,
+    body_fixed_scene, color_bar_rect, end_time_s, field_label, figure_scene, frame_scene,
+    inertial_scene, launch_color, legend_entries, pretty_unit, shown_map,
 };

@@ -9,8 +9,8 @@ use spinfall_render::{
 };
 
 use crate::body_view::{BodyView, MapColors};
-use crate::palette::Palette;
 use crate::options::ViewOptions;
+use crate::palette::Palette;
 use crate::trace::{self, FrameChange};
 
 /// Which frame a view shows.
@@ -145,11 +145,7 @@ fn build(
     };
 
     // The body.
-    let mut mesh = SceneMesh::new(
-        view.positions().clone(),
-        view.triangles().clone(),
-        pal.body,
-    );
+    let mut mesh = SceneMesh::new(view.positions().clone(), view.triangles().clone(), pal.body);
     mesh.model = world_from_body.to_homogeneous();
     mesh.shading = if opts.smooth_shading {
         Shading::Smooth
@@ -203,10 +199,11 @@ fn build(
             let moved = trace::change_frame(body, other, change);
             scene.polylines.push(Polyline {
                 points: trace::points_until(&moved, cut),
-                color: LineColor::Uniform(
-                    pal.overlay_trace
-                        .with_alpha(if dim { 90 } else { pal.overlay_trace.a }),
-                ),
+                color: LineColor::Uniform(pal.overlay_trace.with_alpha(if dim {
+                    90
+                } else {
+                    pal.overlay_trace.a
+                })),
                 width_px: (width_px * 0.6).max(1.0),
                 dash: Some((px(6.0), px(5.0))),
                 occluded,
@@ -226,15 +223,11 @@ fn build(
 /// markers (by shape).
 pub fn legend_entries(opts: &ViewOptions) -> Vec<LegendEntry> {
     let pal = Palette::of(opts.theme);
-    let mut entries = vec![LegendEntry::new(
-        pal.launch(0),
-        "trace in this frame",
-        Swatch::Line,
-    )];
+    let mut entries = vec![LegendEntry::new(pal.launch(0), "trace", Swatch::Line)];
     if opts.overlay_other_frame {
         entries.push(LegendEntry::new(
             pal.overlay_trace,
-            "other frame's trace, transformed",
+            "other frame's trace",
             Swatch::Dashed,
         ));
     }
@@ -255,7 +248,7 @@ pub fn legend_entries(opts: &ViewOptions) -> Vec<LegendEntry> {
     ));
     entries.push(LegendEntry::new(
         pal.escape,
-        "escaped (last point)",
+        "escaped",
         Swatch::Marker(MarkerShape::Diamond),
     ));
     entries

@@ -8,8 +8,8 @@ mod common;
 use nalgebra::Point3;
 use spinfall_render::{Color, Image, Scene};
 use spinfall_scene::{
-    BodyView, CompositeOptions, FigureOptions, Frame, ViewOptions, build_figure, composite,
-    default_camera, trace,
+    CompositeOptions, FigureOptions, Frame, ViewOptions, build_figure, composite, default_camera,
+    trace,
 };
 
 use common::demo_run;
@@ -58,8 +58,14 @@ fn composite_views_are_drawn_and_only_the_inertial_body_turns() {
     assert_eq!((img.width, img.height), (644, 300));
     let (left, right) = (region(&fig, "view 1"), region(&fig, "view 2"));
     assert!(left.x_px + left.width_px <= right.x_px, "views overlap");
-    assert!(coverage_in(&img, left, background()) > 0.05, "body-fixed view is blank");
-    assert!(coverage_in(&img, right, background()) > 0.05, "inertial view is blank");
+    assert!(
+        coverage_in(&img, left, background()) > 0.05,
+        "body-fixed view is blank"
+    );
+    assert!(
+        coverage_in(&img, right, background()) > 0.05,
+        "inertial view is blank"
+    );
 
     // Without flights nothing but the body's spin depends on time: the body-fixed view is the
     // same at t = 0 and t > 0 and the inertial view is not.
@@ -71,9 +77,8 @@ fn composite_views_are_drawn_and_only_the_inertial_body_turns() {
     let (t0, t1) = (render_at(0.0), render_at(1500.0));
     let in_rect = |r: spinfall_render::Rect| {
         let (x0, y0) = (r.x_px as u32, r.y_px as u32);
-        (y0..y0 + r.height_px as u32).any(|y| {
-            (x0..x0 + r.width_px as u32).any(|x| t0.get(x, y) != t1.get(x, y))
-        })
+        (y0..y0 + r.height_px as u32)
+            .any(|y| (x0..x0 + r.width_px as u32).any(|x| t0.get(x, y) != t1.get(x, y)))
     };
     assert!(!in_rect(left), "body-fixed view changed with t");
     assert!(in_rect(right), "inertial body did not turn");

@@ -42,12 +42,9 @@ pub fn demo_map_view() -> (Arc<BodyView>, Vec<FlightReport>) {
     static CELL: OnceLock<(Arc<BodyView>, Vec<FlightReport>)> = OnceLock::new();
     CELL.get_or_init(|| {
         let (body, reports) = run(&Scenario::builtin_example(), 2.0 * 3600.0);
-        let map = spinfall_dynamics::surface_map::surface_map(
-            &body,
-            &|_, _| {},
-            &AtomicBool::new(false),
-        )
-        .expect("surface map");
+        let map =
+            spinfall_dynamics::surface_map::surface_map(&body, &|_, _| {}, &AtomicBool::new(false))
+                .expect("surface map");
         let mut view = BodyView::new(body);
         view.set_map(Some(Arc::new(map)));
         (Arc::new(view), reports)
