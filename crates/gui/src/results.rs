@@ -4,8 +4,7 @@
 use egui::Ui;
 use egui_extras::{Column, TableBuilder};
 use egui_plot::{Legend, Line, Plot, PlotPoints};
-use nalgebra::{Point3, Vector3};
-use spinfall_dynamics::{Body, FlightReport, Outcome};
+use spinfall_dynamics::{FlightReport, Outcome};
 
 use crate::app::SpinfallApp;
 use crate::command::Command;
@@ -150,62 +149,10 @@ fn opt(v: Option<f64>, decimals: usize) -> String {
     }
 }
 
-/// Time series of the selected launch for the plots.
-#[derive(Debug, Clone, Default)]
-pub struct PlotSeries {
-    /// Index of the launch.
-    pub launch: usize,
-    /// `[t_s, altitude_m]`.
-    pub altitude_m: Vec<[f64; 2]>,
-    /// `[t_s, speed relative to the surface m/s]`.
-    pub speed_body_m_s: Vec<[f64; 2]>,
-    /// `[t_s, inertial speed m/s]`.
-    pub speed_inertial_m_s: Vec<[f64; 2]>,
-    /// `[t_s, (C - C0)/|C0|]` of the Jacobi constant in the body frame.
-    pub jacobi_rel: Vec<[f64; 2]>,
-}
+pub use spinfall_scene::plots::{PlotSeries, plot_series};
 
 /// A named line of a plot.
 type NamedSeries<'a> = (&'a str, &'a Vec<[f64; 2]>);
-
-/// Most samples used for the plots (the trace is thinned evenly beyond that).
-const MAX_PLOT_SAMPLES: usize = 600;
-
-/// Compute the plot series (altitude needs ray casts, the Jacobi constant needs the potential:
-/// this runs on a worker thread).
-pub fn plot_series(body: &Body, report: &FlightReport, launch: usize) -> PlotSeries {
-    let samples = &report.trajectory_body;
-    let step = samples.len().div_ceil(MAX_PLOT_SAMPLES).max(1);
-    let omega = body.omega_body_rad_s();
-    let far = body.brillouin_radius_m() * 3.0 + 1.0;
-    let mut out = PlotSeries {
-        launch,
-        ..Default::default()
-    };
-    let mut c0 = None;
-    for s in samples.iter().step_by(step).chain(samples.last()) {
-        let p = Point3::from(s.pos_m);
-        let v = Vector3::from(s.vel_m_s);
-        let r = p.coords.norm();
-        if r > 0.0 {
-            let dir = p.coords / r;
-            let origin = Point3::from(dir * far);
-            if let Some(hit) = body.shape.ray_first_hit(&origin, &(-dir), far) {
-                out.altitude_m.push([s.t_s, r - (far - hit.t)]);
-            }
-        }
-        out.speed_body_m_s.push([s.t_s, v.norm()]);
-        out.speed_inertial_m_s
-            .push([s.t_s, (v + omega.cross(&p.coords)).norm()]);
-        let (u, _) = body.gravity.potential_acceleration(&p);
-        let c = 0.5 * v.norm_squared() - 0.5 * omega.cross(&p.coords).norm_squared() - u;
-        let c0v = *c0.get_or_insert(c);
-        if c0v != 0.0 {
-            out.jacobi_rel.push([s.t_s, (c - c0v) / c0v.abs()]);
-        }
-    }
-    out
-}
 
 impl SpinfallApp {
     pub(crate) fn results_ui(&mut self, ui: &mut Ui) {

@@ -65,6 +65,7 @@ mod figure;
 mod image;
 mod overlay;
 mod pipeline;
+mod plot;
 mod png_out;
 mod raster;
 mod renderer;
@@ -91,6 +92,7 @@ pub use overlay::{
     Block, LegendEntry, Swatch, color_bar_block, format_value, legend_block,
     legend_block_in_columns, round_length_m, scale_bar_block, text_block, triad_block,
 };
+pub use plot::{PlotAxis, PlotImage, PlotMarker, PlotSpec, Series, plot_figure};
 pub use png_out::encode_png;
 pub use renderer::{
     FaceHit, FaceIdImage, MAX_INTERNAL_SIDE_PX, RenderOptions, Renderer, VectorView, render,

@@ -83,7 +83,7 @@ pub fn format_tick(v: f64, step: f64, largest: f64) -> String {
     } else {
         v.abs()
     };
-    if largest >= 1e5 || largest < 1e-3 {
+    if largest >= 1e6 || largest < 1e-3 {
         // Mantissa digits enough to tell consecutive ticks apart.
         let digits = ((largest.log10().floor() - step.log10().floor()).max(0.0) as usize).min(6);
         let s = format!("{v:.digits$e}");
@@ -129,7 +129,8 @@ mod tests {
             "{:?}",
             t.labels()
         );
-        assert_eq!(format_tick(250_000.0, 50_000.0, 250_000.0), "2.5e5");
+        assert_eq!(format_tick(2_500_000.0, 500_000.0, 2_500_000.0), "2.5e6");
+        assert_eq!(format_tick(100_000.0, 20_000.0, 100_000.0), "100000");
     }
 
     #[test]

@@ -37,6 +37,7 @@ mod error;
 mod figure;
 mod options;
 mod palette;
+pub mod plots;
 mod scenes;
 pub mod trace;
 
