@@ -178,10 +178,15 @@ pub struct AnimateArgs {
     #[arg(long, default_value_t = 12.0)]
     pub fps: f64,
     /// Time of the first frame after launch, seconds.
-    #[arg(long, value_name = "T0_S", default_value_t = 0.0)]
+    #[arg(
+        long,
+        value_name = "T0_S",
+        default_value_t = 0.0,
+        allow_hyphen_values = true
+    )]
     pub from_s: f64,
     /// Time of the last frame, seconds (default: the end of the longest flight).
-    #[arg(long, value_name = "T1_S")]
+    #[arg(long, value_name = "T1_S", allow_hyphen_values = true)]
     pub to_s: Option<f64>,
     /// Which view to draw.
     #[arg(long, value_enum, default_value_t = ViewArg::Both)]
