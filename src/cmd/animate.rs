@@ -2,18 +2,16 @@
 
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
-use std::sync::Mutex;
 use std::sync::atomic::AtomicBool;
-use std::time::{Duration, Instant};
 
 use anyhow::anyhow;
 use spinfall_render::{AnimationFormat, encode_png};
 use spinfall_scene::{
-    AnimationSettings, FigureOptions, ViewOptions, end_time_s, render_frames, write_animation,
+    AnimationSettings, FigureOptions, end_time_s, render_frames, write_animation,
 };
 
-use super::render::{body_view, figure_size, map_field, views};
-use super::scenario::{fly_with_progress, prepare, run_exit_code};
+use super::render::{body_view, figure_size, view_options, views};
+use super::scenario::{fly_with_progress, prepare, progress_printer, run_exit_code};
 use crate::cli::AnimateArgs;
 use crate::exit::{CliError, CmdResult};
 use crate::io::write_atomic;
@@ -63,11 +61,7 @@ pub fn run(args: &AnimateArgs) -> CmdResult<ExitCode> {
     let prepared = prepare(&args.scenario)?;
     let reports = fly_with_progress(&prepared);
     let view = body_view(&prepared, args.map.is_some())?;
-    let options = ViewOptions {
-        map: args.map.map(map_field),
-        theme: args.figure.theme.into(),
-        ..ViewOptions::default()
-    };
+    let options = view_options(args.map, &args.figure);
     let settings = AnimationSettings {
         frames: args.frames,
         fps: args.fps,
@@ -80,19 +74,7 @@ pub fn run(args: &AnimateArgs) -> CmdResult<ExitCode> {
         views: views(args.view),
         ..FigureOptions::default()
     };
-    let start = Instant::now();
-    let last = Mutex::new(Instant::now());
-    let progress = |done: usize, total: usize| {
-        if let Ok(mut last) = last.lock()
-            && (last.elapsed() >= Duration::from_secs(1) || done == total)
-        {
-            *last = Instant::now();
-            eprintln!(
-                "rendering: {done}/{total} frames ({:.1} s)",
-                start.elapsed().as_secs_f64()
-            );
-        }
-    };
+    let progress = progress_printer("rendering", "frames");
     let cancel = AtomicBool::new(false);
     match target {
         Target::File(format) => write_atomic(&args.out, |out| {

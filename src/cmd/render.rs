@@ -62,6 +62,15 @@ pub(super) fn map_field(m: MapArg) -> SurfaceField {
     }
 }
 
+/// What the views show: the map and the theme from the command line.
+pub(super) fn view_options(map: Option<MapArg>, figure: &FigureArgs) -> ViewOptions {
+    ViewOptions {
+        map: map.map(map_field),
+        theme: figure.theme.into(),
+        ..ViewOptions::default()
+    }
+}
+
 pub(super) fn views(v: ViewArg) -> Views {
     match v {
         ViewArg::Both => Views::Both,
@@ -162,10 +171,8 @@ pub fn run(args: &RenderArgs) -> CmdResult<ExitCode> {
     let reports = fly_with_progress(&prepared);
     let view = body_view(&prepared, args.map.is_some())?;
     let options = ViewOptions {
-        map: args.map.map(map_field),
-        theme: args.figure.theme.into(),
         color_range,
-        ..ViewOptions::default()
+        ..view_options(args.map, &args.figure)
     };
     let t_s = args.time.unwrap_or_else(|| end_time_s(&reports));
     let fig = FigureOptions {

@@ -56,21 +56,27 @@ pub fn prepare(spec: &str) -> CmdResult<Prepared> {
     })
 }
 
-/// Flies every launch with progress on stderr (at most one line a second).
-pub fn fly_with_progress(prepared: &Prepared) -> Vec<FlightReport> {
+/// A progress callback printing `"{what}: done/total {unit} (elapsed)"` on stderr, at most one
+/// line a second and always the last one.
+pub fn progress_printer(what: &'static str, unit: &'static str) -> impl Fn(usize, usize) {
     let start = Instant::now();
     let last = std::sync::Mutex::new(Instant::now());
-    let progress = |done: usize, total: usize| {
+    move |done: usize, total: usize| {
         if let Ok(mut last) = last.lock()
             && (last.elapsed() >= Duration::from_secs(1) || done == total)
         {
             *last = Instant::now();
             eprintln!(
-                "flying: {done}/{total} launches ({:.1} s)",
+                "{what}: {done}/{total} {unit} ({:.1} s)",
                 start.elapsed().as_secs_f64()
             );
         }
-    };
+    }
+}
+
+/// Flies every launch with progress on stderr (at most one line a second).
+pub fn fly_with_progress(prepared: &Prepared) -> Vec<FlightReport> {
+    let progress = progress_printer("flying", "launches");
     let cancel = spinfall_dynamics::Cancel::new(false);
     fly_all(
         &prepared.body,

@@ -3,8 +3,9 @@
 //! Draws the 3D views and every exported image of Spinfall on the CPU, so the app works without
 //! a GPU and the same scene gives the same bytes on every machine and in CI.
 //!
-//! It knows meshes, polylines, markers, arrows, colours, cameras and text. It does **not** know
-//! physics (no gravity or dynamics types) nor egui: the scene crate turns results into a
+//! It knows meshes, polylines, markers, arrows, colours, cameras, text, 2D plots and image
+//! formats (PNG, APNG, GIF, SVG). It does **not** know physics (no gravity or dynamics types),
+//! egui, or files (encoders write to any `Write`): the scene crate turns results into a
 //! [`Scene`], the GUI uploads the [`Image`] as a texture and the CLI writes it with
 //! [`encode_png`].
 //!
@@ -20,7 +21,16 @@
 //!   supersampling (box-filtered anti-aliasing for exports); [`Renderer::render_face_ids`]
 //!   gives a [`FaceIdImage`] for picking;
 //! - [`Colormap`] and [`face_colors`] for scalar fields; [`compose_side_by_side`];
-//!   [`encode_png`] with text chunks.
+//!   [`encode_png`] with text chunks;
+//! - figures for papers: [`Sizing`] (points to pixels: by the figure's shorter side, or by its
+//!   print resolution), [`FigureSize`] (`1920x1080`, `180x100mm`, `7x4in`, checked),
+//!   [`Theme`] (dark for screens, light for print; colour-blind-safe series palettes checked
+//!   with [`cvd`]), [`nice_ticks`]; a [`Figure`] is a 2D display list of [`Item`]s (rasters,
+//!   lines, polygons, markers, text, gradients) drawn by [`Figure::to_image`] or written as
+//!   SVG by [`write_svg`]; decorations are [`Block`]s measured before they are placed
+//!   ([`color_bar_block`], [`legend_block`], [`scale_bar_block`], [`triad_block`]);
+//!   [`Renderer::render_vector`] turns a 3D view into a mesh raster plus vector items;
+//!   [`plot_figure`] draws 2D plots; [`AnimationEncoder`] streams GIF or APNG.
 //!
 //! Rasterization runs in parallel over horizontal bands, each owned by one rayon task, and the
 //! triangles of each band are drawn in scene order, so output does not depend on the number of

@@ -763,7 +763,8 @@ fn setup_triangles(
     }
 }
 
-fn line_color_at(c: &LineColor, i: usize) -> Color {
+/// Colour of point `i` of a line.
+pub(crate) fn line_color_at(c: &LineColor, i: usize) -> Color {
     match c {
         LineColor::Uniform(c) => *c,
         LineColor::PerVertex(cs) => cs

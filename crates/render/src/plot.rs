@@ -322,7 +322,7 @@ pub fn plot_figure(
             fig.items.extend(line.clipped(area));
         }
     }
-    let marker_px = style.px(5.0);
+    let marker_px = style.px(7.0);
     for m in &spec.markers {
         let [px, py] = to_px(m.x, m.y);
         let item = Item::Marker {
@@ -330,7 +330,7 @@ pub fn plot_figure(
             y_px: py,
             shape: m.shape,
             size_px: marker_px,
-            stroke_px: (0.15 * marker_px).max(1.0),
+            stroke_px: (0.2 * marker_px).max(1.0),
             color: m.color,
         };
         fig.items.extend(item.clipped(area));

@@ -83,7 +83,7 @@ pub fn format_tick(v: f64, step: f64, largest: f64) -> String {
     } else {
         v.abs()
     };
-    if largest >= 1e6 || largest < 1e-3 {
+    if !(1e-3..1e6).contains(&largest) {
         // Mantissa digits enough to tell consecutive ticks apart.
         let digits = ((largest.log10().floor() - step.log10().floor()).max(0.0) as usize).min(6);
         let s = format!("{v:.digits$e}");

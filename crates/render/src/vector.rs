@@ -6,7 +6,8 @@ use nalgebra::Point3;
 use crate::color::Color;
 use crate::figure::Item;
 use crate::pipeline::{
-    Frame, arrow_head_len, marker_size_px, marker_stroke_px, point_alpha, project_point,
+    Frame, arrow_head_len, line_color_at, marker_size_px, marker_stroke_px, point_alpha,
+    project_point,
 };
 use crate::scene::{LineColor, Occluded, Scene};
 
@@ -70,17 +71,6 @@ fn faded(c: Color, alpha: f32) -> Color {
     c.with_alpha((c.a as f32 * alpha.clamp(0.0, 1.0)).round() as u8)
 }
 
-fn color_at(c: &LineColor, i: usize) -> Color {
-    match c {
-        LineColor::Uniform(c) => *c,
-        LineColor::PerVertex(cs) => cs
-            .get(i)
-            .or_else(|| cs.last())
-            .copied()
-            .unwrap_or(Color::WHITE),
-    }
-}
-
 #[allow(
     clippy::too_many_arguments,
     reason = "the fields of a polyline or arrow shaft"
@@ -128,7 +118,7 @@ fn polyline_items(
             flush(&mut run, items);
             continue;
         };
-        let c = color_at(color, i);
+        let c = line_color_at(color, i);
         let seg_len = ((pb.0 - pa.0).powi(2) + (pb.1 - pa.1).powi(2)).sqrt();
         let n = ((seg_len / (1.5 * s)).ceil() as usize).clamp(1, MAX_SAMPLES_PER_SEGMENT);
         for k in 0..=n {

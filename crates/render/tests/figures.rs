@@ -3,30 +3,14 @@
 //! where the raster render puts them; cameras keep what they showed when the aspect changes.
 #![allow(clippy::unwrap_used, reason = "tests unwrap freely")]
 
+#[path = "support/resvg_render.rs"]
+mod resvg_render;
+
 use std::sync::Arc;
 
 use nalgebra::{Point3, Vector3};
+use resvg_render::render_svg;
 use spinfall_render::*;
-
-fn render_svg(svg: &str) -> Image {
-    let mut opt = resvg::usvg::Options::default();
-    opt.fontdb_mut()
-        .load_font_data(include_bytes!("../../../assets/fonts/DejaVuSans.ttf").to_vec());
-    let tree = resvg::usvg::Tree::from_str(svg, &opt).expect("the SVG parses");
-    let size = tree.size().to_int_size();
-    let mut pixmap = resvg::tiny_skia::Pixmap::new(size.width(), size.height()).unwrap();
-    resvg::render(
-        &tree,
-        resvg::tiny_skia::Transform::default(),
-        &mut pixmap.as_mut(),
-    );
-    let mut img = Image::new(size.width(), size.height(), Color::BLACK);
-    for (i, p) in pixmap.pixels().iter().enumerate() {
-        let c = p.demultiply();
-        img.pixels[i] = Color::rgba(c.red(), c.green(), c.blue(), c.alpha());
-    }
-    img
-}
 
 /// Mean absolute difference per channel inside `r`.
 fn diff_in(a: &Image, b: &Image, r: Rect) -> f64 {

@@ -8,13 +8,23 @@
 //! composite with titles, time stamp, legend and scale bar. The GUI and the `spinfall render`
 //! command both use it, so their images match.
 //!
-//! What it is not: no egui, no file I/O, no physics of its own.
+//! What it is not: no egui, no file I/O (figures, animations and plots go to values or any
+//! `Write`), no physics of its own.
 //!
 //! Main types: [`BodyView`] (the body with its `f32` mesh and cached per-map face colours),
-//! [`ViewOptions`], [`body_fixed_scene`] / [`inertial_scene`] / [`frame_scene`] (each takes
-//! the image size so the colour bar can be placed), [`add_site_markers`] for planned launch
-//! sites, [`add_title`], [`composite`] and [`default_camera`]. [`trace`] holds the trajectory
-//! helpers (Hermite interpolation at a time, frame changes) shared with the GUI's plots.
+//! [`ViewOptions`] (also the theme and a user-fixed colour range), [`Palette`] (what each colour
+//! means, per theme), [`body_fixed_scene`] / [`inertial_scene`] / [`frame_scene`] (the app's
+//! views, overlays drawn over them) and [`figure_scene`] (a view for a figure, sized by the
+//! figure), [`add_site_markers`] for planned launch sites, [`default_camera`].
+//!
+//! Figures: [`build_figure`] lays out one or both views with titles, time stamp, colour bar,
+//! legend, triads and scale bars beside the views (never over them), every size from the
+//! figure's size ([`FigureOptions`]: pixels or a printed size, theme through the view options,
+//! raster or vector output, the app's cameras or a fit to the body); [`composite`] is the
+//! side-by-side raster. [`plots`] makes plots against time and the landing map;
+//! [`render_frames`] / [`write_animation`] make animations with progress and cancel.
+//! [`trace`] holds the trajectory helpers (Hermite interpolation at a time, frame changes)
+//! shared with the GUI's plots.
 //!
 //! Spinfall is for research and planning, not flight-certified.
 //!

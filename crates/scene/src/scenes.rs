@@ -231,26 +231,15 @@ pub fn legend_entries(opts: &ViewOptions) -> Vec<LegendEntry> {
             Swatch::Dashed,
         ));
     }
-    entries.push(LegendEntry::new(
-        pal.site,
-        "launch site",
-        Swatch::Marker(MarkerShape::Ring),
-    ));
-    entries.push(LegendEntry::new(
-        pal.contact,
-        "contact",
-        Swatch::Marker(MarkerShape::Cross),
-    ));
-    entries.push(LegendEntry::new(
-        pal.rest,
-        "at rest",
-        Swatch::Marker(MarkerShape::Square),
-    ));
-    entries.push(LegendEntry::new(
-        pal.escape,
-        "escaped",
-        Swatch::Marker(MarkerShape::Diamond),
-    ));
+    entries.extend(
+        [
+            (pal.site, "launch site", MarkerShape::Ring),
+            (pal.contact, "contact", MarkerShape::Cross),
+            (pal.rest, "at rest", MarkerShape::Square),
+            (pal.escape, "escaped", MarkerShape::Diamond),
+        ]
+        .map(|(c, text, shape)| LegendEntry::new(c, text, Swatch::Marker(shape))),
+    );
     entries
 }
 

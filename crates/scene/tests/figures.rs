@@ -4,12 +4,16 @@
 //! deterministic animations.
 #![allow(clippy::unwrap_used, reason = "tests unwrap freely")]
 
+#[path = "../../render/tests/support/resvg_render.rs"]
+mod resvg_render;
+
 mod common;
 
 use spinfall_render::{Color, Figure, FigureSize, Image, Rect, ThemeKind};
 use spinfall_scene::{FigureOptions, Output, ViewOptions, Views, build_figure};
 
 use common::{demo_map_view, demo_run};
+use resvg_render::render_svg;
 
 fn pixels(w: u32, h: u32) -> FigureSize {
     FigureSize::Pixels {
@@ -45,7 +49,7 @@ fn edge_energy(img: &Image) -> f64 {
 fn box_filter(img: &Image, factor: u32) -> Image {
     let (w, h) = (img.width / factor, img.height / factor);
     let mut out = Image::new(w, h, Color::BLACK);
-    let n = (factor * factor) as u32;
+    let n = factor * factor;
     for y in 0..h {
         for x in 0..w {
             let mut acc = [0u32; 3];
@@ -224,27 +228,6 @@ fn light_theme_has_a_white_background_and_dark_text() {
         })
         .count();
     assert!(dark > 20, "only {dark} dark text pixels in the title");
-}
-
-/// Renders SVG text with resvg (usvg parses it), with the bundled font as the only font.
-fn render_svg(svg: &str) -> Image {
-    let mut opt = resvg::usvg::Options::default();
-    opt.fontdb_mut()
-        .load_font_data(include_bytes!("../../../assets/fonts/DejaVuSans.ttf").to_vec());
-    let tree = resvg::usvg::Tree::from_str(svg, &opt).expect("the SVG parses");
-    let size = tree.size().to_int_size();
-    let mut pixmap = resvg::tiny_skia::Pixmap::new(size.width(), size.height()).unwrap();
-    resvg::render(
-        &tree,
-        resvg::tiny_skia::Transform::default(),
-        &mut pixmap.as_mut(),
-    );
-    let mut img = Image::new(size.width(), size.height(), Color::BLACK);
-    for (i, p) in pixmap.pixels().iter().enumerate() {
-        let c = p.demultiply();
-        img.pixels[i] = Color::rgba(c.red(), c.green(), c.blue(), c.alpha());
-    }
-    img
 }
 
 /// Mean absolute difference per channel (0-255) between two images of one size.
