@@ -33,8 +33,13 @@ pub enum Command {
     Fly(FlyArgs),
     /// Per-face surface map of a scenario's body (slope, geopotential, ...), as CSV.
     Map(MapArgs),
-    /// Fly a scenario and render the body-fixed and/or inertial view to a PNG.
+    /// Fly a scenario and draw the body-fixed and/or inertial view as a figure (PNG or SVG).
     Render(RenderArgs),
+    /// Fly a scenario and write the views over time as an animation (GIF, APNG or PNG frames).
+    Animate(AnimateArgs),
+    /// Fly a scenario and plot altitude, speed or Jacobi drift against time, or the landing
+    /// positions on a latitude/longitude map (PNG or SVG).
+    Plot(PlotArgs),
 }
 
 /// A shape model: a path to an OBJ file, or `builtin:quillon` for the demo body.
@@ -147,21 +152,36 @@ pub struct MapArgs {
     pub field: FieldArgs,
 }
 
+/// Size and look of a figure, shared by `render`, `animate` and `plot`.
+#[derive(Debug, Args)]
+pub struct FigureArgs {
+    /// Figure size: `WxH` in pixels (text and lines scale with the shorter side), or a printed
+    /// size such as `180x100mm` or `7x4in` (text in points at --dpi).
+    #[arg(long, default_value = "1920x1080", value_name = "SIZE")]
+    pub size: String,
+    /// Print resolution of a size in mm or in, dots per inch [default: 300].
+    #[arg(long, value_name = "DPI")]
+    pub dpi: Option<f64>,
+    /// Colours: dark for screens, light (white background) for print.
+    #[arg(long, value_enum, default_value_t = ThemeArg::Dark)]
+    pub theme: ThemeArg,
+}
+
 #[derive(Debug, Args)]
 pub struct RenderArgs {
     /// Scenario file (JSON), or `builtin:example` for the demo scenario (without launches only
     /// the body is drawn).
     pub scenario: String,
-    /// Output PNG file, or `-` for standard output.
-    #[arg(long, value_name = "FILE.png")]
+    /// Output file: `.png` (raster) or `.svg` (body as an embedded image, traces, markers and
+    /// text as vectors), or `-` for a PNG on standard output.
+    #[arg(long, value_name = "FILE")]
     pub out: PathBuf,
     #[command(flatten)]
     pub limits: LimitArgs,
     #[command(flatten)]
     pub field: FieldArgs,
-    /// Image size `WxH` in pixels.
-    #[arg(long, default_value = "1920x1080", value_name = "WxH")]
-    pub size: String,
+    #[command(flatten)]
+    pub figure: FigureArgs,
     /// Time after launch to show, seconds (default: the end of the longest flight).
     #[arg(long, value_name = "T_S")]
     pub time: Option<f64>,
@@ -171,6 +191,115 @@ pub struct RenderArgs {
     /// Colour the surface by a map.
     #[arg(long, value_enum)]
     pub map: Option<MapArg>,
+    /// Low end of the map's colour range (field unit; with --color-max).
+    #[arg(
+        long,
+        value_name = "VALUE",
+        allow_hyphen_values = true,
+        requires = "color_max"
+    )]
+    pub color_min: Option<f64>,
+    /// High end of the map's colour range (field unit; with --color-min).
+    #[arg(
+        long,
+        value_name = "VALUE",
+        allow_hyphen_values = true,
+        requires = "color_min"
+    )]
+    pub color_max: Option<f64>,
+    /// Aim each view at the body and fit the body to it.
+    #[arg(long)]
+    pub fit_body: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct AnimateArgs {
+    /// Scenario file (JSON), or `builtin:example` for the demo scenario.
+    pub scenario: String,
+    /// Output: `.gif`, `.png` (animated PNG), or a folder for `frame_0000.png`, ... (created
+    /// if missing; a path ending in `/` or without an extension is a folder).
+    #[arg(long, value_name = "FILE|DIR")]
+    pub out: PathBuf,
+    #[command(flatten)]
+    pub limits: LimitArgs,
+    #[command(flatten)]
+    pub field: FieldArgs,
+    #[command(flatten)]
+    pub figure: FigureArgs,
+    /// Number of frames (1 to 3600).
+    #[arg(long, default_value_t = 48)]
+    pub frames: u32,
+    /// Frames per second when played (0.1 to 60).
+    #[arg(long, default_value_t = 12.0)]
+    pub fps: f64,
+    /// Time of the first frame after launch, seconds.
+    #[arg(
+        long,
+        value_name = "T0_S",
+        default_value_t = 0.0,
+        allow_hyphen_values = true
+    )]
+    pub from_s: f64,
+    /// Time of the last frame, seconds (default: the end of the longest flight).
+    #[arg(long, value_name = "T1_S", allow_hyphen_values = true)]
+    pub to_s: Option<f64>,
+    /// Which view to draw.
+    #[arg(long, value_enum, default_value_t = ViewArg::Both)]
+    pub view: ViewArg,
+    /// Colour the surface by a map.
+    #[arg(long, value_enum)]
+    pub map: Option<MapArg>,
+}
+
+#[derive(Debug, Args)]
+pub struct PlotArgs {
+    /// Scenario file (JSON), or `builtin:example` for the demo scenario.
+    pub scenario: String,
+    /// What to plot.
+    #[arg(long, value_enum)]
+    pub kind: PlotKindArg,
+    /// Output file: `.png` or `.svg`.
+    #[arg(long, value_name = "FILE")]
+    pub out: PathBuf,
+    #[command(flatten)]
+    pub limits: LimitArgs,
+    #[command(flatten)]
+    pub field: FieldArgs,
+    #[command(flatten)]
+    pub figure: FigureArgs,
+    /// Plot only this launch (its id as in the results).
+    #[arg(long, value_name = "ID")]
+    pub launch: Option<String>,
+    /// Surface map behind the landing map.
+    #[arg(long, value_enum, default_value_t = MapArg::Slope)]
+    pub map: MapArg,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum PlotKindArg {
+    /// Altitude above the surface against time.
+    Altitude,
+    /// Speed against time.
+    Speed,
+    /// Relative drift of the Jacobi constant against time.
+    Jacobi,
+    /// Landing positions on a latitude/longitude map of the surface.
+    Landing,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum ThemeArg {
+    Dark,
+    Light,
+}
+
+impl From<ThemeArg> for spinfall_render::ThemeKind {
+    fn from(t: ThemeArg) -> Self {
+        match t {
+            ThemeArg::Dark => spinfall_render::ThemeKind::Dark,
+            ThemeArg::Light => spinfall_render::ThemeKind::Light,
+        }
+    }
 }
 
 #[derive(Debug, Clone, Copy, ValueEnum)]

@@ -208,7 +208,7 @@ fn render_writes_a_png_with_the_scenario_summary() {
         "--out",
         bad.to_str().unwrap(),
         "--size",
-        "64x64",
+        "320x200",
         "--view",
         "body",
     ]);

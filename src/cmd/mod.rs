@@ -1,11 +1,13 @@
 //! One module per subcommand: each turns its arguments into the workflow's options, calls it,
 //! and chooses the exit code. `run` dispatches.
 
+mod animate;
 mod app;
 mod fly;
 mod gravity;
 mod info;
 mod map;
+mod plot;
 mod render;
 
 use std::process::ExitCode;
@@ -31,6 +33,8 @@ pub fn run(cli: Cli) -> CmdResult<ExitCode> {
         Some(Command::Fly(args)) => fly::run(&args),
         Some(Command::Map(args)) => map::run(&args),
         Some(Command::Render(args)) => render::run(&args),
+        Some(Command::Animate(args)) => animate::run(&args),
+        Some(Command::Plot(args)) => plot::run(&args),
         None => app::run(cli.shape, cli.unit.into()),
     }
 }
@@ -106,21 +110,27 @@ fn announce(estimate: &Estimate) {
     note(&format!("run: {estimate}"));
 }
 
-/// Flies a prepared run with progress on stderr (at most one line a second).
-fn fly_with_progress(prepared: &spinfall_workflow::prepare::PreparedRun) -> CmdResult<RunReports> {
+/// A progress callback printing `what: done/total unit (t s)` on stderr, at most once a second
+/// and at the end.
+fn progress_printer(what: &'static str, unit: &'static str) -> impl Fn(usize, usize) + Sync {
     let start = Instant::now();
     let last = Mutex::new(Instant::now());
-    let progress = |done: usize, total: usize| {
+    move |done: usize, total: usize| {
         if let Ok(mut last) = last.lock()
             && (last.elapsed() >= Duration::from_secs(1) || done == total)
         {
             *last = Instant::now();
             note(&format!(
-                "flying: {done}/{total} launches ({:.1} s)",
+                "{what}: {done}/{total} {unit} ({:.1} s)",
                 start.elapsed().as_secs_f64()
             ));
         }
-    };
+    }
+}
+
+/// Flies a prepared run with progress on stderr (at most one line a second).
+fn fly_with_progress(prepared: &spinfall_workflow::prepare::PreparedRun) -> CmdResult<RunReports> {
+    let progress = progress_printer("flying", "launches");
     let cancel = spinfall_dynamics::Cancel::new(false);
     Ok(spinfall_workflow::run::run(prepared, &progress, &cancel)?)
 }

@@ -69,7 +69,6 @@ fn main() -> std::result::Result<(), Box<dyn std::error::Error>> {
             min: -1000.0,
             max: 1000.0,
             label: "height (m)".into(),
-            ticks: 5,
             rect: Rect::new(1180.0, 120.0, 18.0, 300.0),
         },
         Overlay::ScaleBar {
@@ -82,8 +81,8 @@ fn main() -> std::result::Result<(), Box<dyn std::error::Error>> {
         },
         Overlay::Legend {
             entries: vec![
-                (Color::ORANGE, "trace".into(), false),
-                (Color::ORANGE, "other frame".into(), true),
+                LegendEntry::new(Color::ORANGE, "trace", Swatch::Line),
+                LegendEntry::new(Color::ORANGE, "other frame", Swatch::Dashed),
             ],
             corner: Corner::TopRight,
         },

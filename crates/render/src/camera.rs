@@ -210,6 +210,26 @@ impl Camera {
         self.inner.set_viewport(Viewport::new_at_origo(w, h));
     }
 
+    /// Changes the viewport size so the new view contains everything the old one showed (the
+    /// rectangle at the target's depth, centred): a wider viewport keeps the vertical extent
+    /// and shows more at the sides; a narrower one widens the view vertically instead of
+    /// cutting the sides off. Exports use this to frame what the app's view shows.
+    pub fn set_viewport_containing(&mut self, width_px: u32, height_px: u32) {
+        let old_aspect = self.width_px as f64 / self.height_px as f64;
+        let (w, h) = (width_px.max(1), height_px.max(1));
+        let new_aspect = w as f64 / h as f64;
+        let grow = (old_aspect / new_aspect).max(1.0);
+        match &mut self.kind {
+            Kind::Perspective { fov_y_deg } => {
+                let half = (fov_y_deg.to_radians() / 2.0).tan() * grow;
+                *fov_y_deg = (2.0 * half.atan()).to_degrees().clamp(1.0, 170.0);
+            }
+            Kind::Orthographic { height_m } => *height_m *= grow,
+        }
+        self.set_viewport(w, h);
+        self.refresh_projection();
+    }
+
     /// The eye position.
     pub fn eye(&self) -> Point3<f64> {
         to_point(self.inner.position())

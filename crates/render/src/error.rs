@@ -24,6 +24,20 @@ pub enum RenderError {
         /// Why it is rejected.
         reason: &'static str,
     },
+    /// Writing output failed.
+    #[error("writing failed: {0}")]
+    Write(String),
+    /// A figure size is not acceptable.
+    #[error("figure size {text:?}: {reason}")]
+    FigureSize {
+        /// The size as given.
+        text: String,
+        /// Why it is refused.
+        reason: String,
+    },
+    /// Animation settings or frames are not acceptable.
+    #[error("animation: {0}")]
+    Animation(String),
 }
 
 /// Result alias of this crate.

@@ -1,76 +1,76 @@
-//! 2D overlays: text, colour bar, scale bar, axis triad, legend, panels.
+//! Decorations as blocks of figure items: colour bar, legend, scale bar, axis triad, text.
+//!
+//! Each builder returns a [`Block`]: items laid out from its own top-left corner with the size
+//! it needs, so a layout can measure blocks first and place them where nothing overlaps. The
+//! scene's [`Overlay`]s (the app's views) are drawn through the same builders.
+
+use nalgebra::Vector3;
 
 use crate::camera::Camera;
 use crate::color::Color;
 use crate::colormap::Colormap;
-use crate::image::Image;
-use crate::scene::{Anchor, Corner, Overlay, Rect};
-use crate::text::GlyphCache;
+use crate::figure::Item;
+use crate::scene::{Anchor, Corner, MarkerShape, Overlay, Rect};
+use crate::style::{Sizing, Style, pt};
+use crate::text::measure_text;
+use crate::theme::Theme;
+use crate::ticks::nice_ticks;
 
-/// Margin from the image edge for corner-placed overlays, pixels.
-const MARGIN_PX: f32 = 12.0;
-const LABEL_PX: f32 = 13.0;
+/// Items laid out from `(0, 0)` and the size they take.
+#[derive(Clone, Debug, Default)]
+pub struct Block {
+    /// The items, relative to the block's top-left corner.
+    pub items: Vec<Item>,
+    /// Width, pixels.
+    pub width_px: f32,
+    /// Height, pixels.
+    pub height_px: f32,
+}
 
-/// Draws every overlay of the scene in order onto `img`.
-pub(crate) fn draw_overlays(
-    img: &mut Image,
-    overlays: &[Overlay],
-    camera: &Camera,
-    glyphs: &mut GlyphCache,
-    text_color: Color,
-) {
-    for o in overlays {
-        match o {
-            Overlay::Text {
-                text,
-                x_px,
-                y_px,
-                size_px,
-                color,
-                anchor,
-            } => glyphs.draw(img, text, *x_px, *y_px, *size_px, *color, *anchor),
-            Overlay::ColorBar {
-                colormap,
-                min,
-                max,
-                label,
-                ticks,
-                rect,
-            } => color_bar(
-                img, glyphs, *colormap, *min, *max, label, *ticks, *rect, text_color,
-            ),
-            Overlay::ScaleBar { unit_label, corner } => {
-                scale_bar(img, glyphs, camera, unit_label, *corner, text_color)
-            }
-            Overlay::AxisTriad { corner, size_px } => {
-                axis_triad(img, glyphs, camera, *corner, *size_px)
-            }
-            Overlay::Legend { entries, corner } => {
-                legend(img, glyphs, entries, *corner, text_color)
-            }
-            Overlay::Panel { rect, fill } => img.fill_rect(
-                rect.x_px,
-                rect.y_px,
-                rect.x_px + rect.width_px,
-                rect.y_px + rect.height_px,
-                *fill,
-            ),
+impl Block {
+    /// The items moved so the block's top-left corner is at `(x_px, y_px)`.
+    pub fn place(self, x_px: f32, y_px: f32) -> Vec<Item> {
+        self.items
+            .into_iter()
+            .map(|i| i.translated(x_px, y_px))
+            .collect()
+    }
+}
+
+/// What a legend entry shows next to its text.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum Swatch {
+    /// A solid line.
+    Line,
+    /// A dashed line.
+    Dashed,
+    /// A marker.
+    Marker(MarkerShape),
+}
+
+/// One legend entry.
+#[derive(Clone, Debug, PartialEq)]
+pub struct LegendEntry {
+    /// Swatch colour.
+    pub color: Color,
+    /// Text.
+    pub text: String,
+    /// Swatch kind.
+    pub swatch: Swatch,
+}
+
+impl LegendEntry {
+    /// An entry.
+    pub fn new(color: Color, text: impl Into<String>, swatch: Swatch) -> LegendEntry {
+        LegendEntry {
+            color,
+            text: text.into(),
+            swatch,
         }
     }
 }
 
-/// A text colour readable on `background` (black or white by luminance).
-pub(crate) fn contrast_text(background: Color) -> Color {
-    let l =
-        0.2126 * background.r as f32 + 0.7152 * background.g as f32 + 0.0722 * background.b as f32;
-    if l > 140.0 {
-        Color::rgb(20, 20, 20)
-    } else {
-        Color::rgb(235, 235, 235)
-    }
-}
-
-/// Formats a tick value with few significant digits.
+/// Formats a value with about three significant digits (tick labels of the app's plots).
 pub fn format_value(v: f64) -> String {
     if v == 0.0 {
         return "0".to_string();
@@ -91,82 +91,186 @@ pub fn format_value(v: f64) -> String {
     }
 }
 
-/// Colour of the bar at relative height `t` (0 = bottom = min).
-fn bar_color(colormap: Colormap, t: f64) -> Color {
-    colormap.map(t)
+/// A single line (or lines) of text as a block.
+pub fn text_block(text: &str, size_px: f32, color: Color) -> Block {
+    let (w, h) = measure_text(text, size_px);
+    Block {
+        items: vec![Item::Text {
+            text: text.to_string(),
+            x_px: 0.0,
+            y_px: 0.0,
+            size_px,
+            color,
+            anchor: Anchor::TopLeft,
+            vertical: false,
+        }],
+        width_px: w,
+        height_px: h,
+    }
 }
 
-#[allow(clippy::too_many_arguments)]
-fn color_bar(
-    img: &mut Image,
-    glyphs: &mut GlyphCache,
+/// Outline of a rectangle as four thin filled rectangles (crisp in raster and vector output).
+pub(crate) fn frame_items(r: Rect, t: f32, color: Color) -> [Item; 4] {
+    let rect = |x, y, w, h| Item::Rect {
+        rect: Rect::new(x, y, w, h),
+        fill: color,
+    };
+    [
+        rect(r.x_px - t, r.y_px - t, r.width_px + 2.0 * t, t),
+        rect(r.x_px - t, r.y_px + r.height_px, r.width_px + 2.0 * t, t),
+        rect(r.x_px - t, r.y_px, t, r.height_px),
+        rect(r.x_px + r.width_px, r.y_px, t, r.height_px),
+    ]
+}
+
+/// A vertical colour bar: its title (with unit) on top, the bar `bar_height_px` tall, round
+/// tick values to its right. Returns the block and the bar's offset from the block's top.
+pub fn color_bar_block(
     colormap: Colormap,
     min: f64,
     max: f64,
     label: &str,
-    ticks: usize,
-    rect: Rect,
-    text_color: Color,
-) {
-    let (x0, y0) = (rect.x_px.round(), rect.y_px.round());
+    bar_height_px: f32,
+    style: &Style,
+) -> (Block, f32) {
+    let th = &style.theme;
+    let (text_px, label_px) = (style.px(pt::TEXT), style.px(pt::LABEL));
+    let bar_w = style.px(pt::COLOR_BAR);
+    let tick = style.px(pt::TICK);
+    let rule = style.px(pt::RULE).max(1.0);
+    let gap = style.px(2.0);
+    let (title_w, title_h) = measure_text(label, label_px);
+    let (_, text_h) = measure_text("0", text_px);
+    let bar_top = title_h + gap + 0.5 * text_h;
+    let bar_h = bar_height_px.max(2.0 * text_h);
+    let mut items = vec![Item::Text {
+        text: label.to_string(),
+        x_px: 0.0,
+        y_px: 0.0,
+        size_px: label_px,
+        color: th.text,
+        anchor: Anchor::TopLeft,
+        vertical: false,
+    }];
+    let bar = Rect::new(0.0, bar_top, bar_w, bar_h);
+    items.push(Item::Gradient {
+        rect: bar,
+        colormap,
+        vertical: true,
+    });
+    items.extend(frame_items(bar, rule, th.rule));
+    let max_ticks = ((bar_h / (2.2 * text_h)).floor() as usize).clamp(2, 9);
+    let ticks = nice_ticks(min, max, max_ticks);
+    let mut label_w: f32 = 0.0;
+    let span = max - min;
+    for (v, text) in ticks.values.iter().zip(ticks.labels()) {
+        let f = if span > 0.0 { (v - min) / span } else { 0.5 };
+        let y = bar_top + bar_h * (1.0 - f as f32);
+        items.push(Item::Rect {
+            rect: Rect::new(bar_w, y - 0.5 * rule, tick, rule),
+            fill: th.rule,
+        });
+        label_w = label_w.max(measure_text(&text, text_px).0);
+        items.push(Item::Text {
+            text,
+            x_px: bar_w + tick + gap,
+            y_px: y,
+            size_px: text_px,
+            color: th.text,
+            anchor: Anchor::CenterLeft,
+            vertical: false,
+        });
+    }
+    let width = title_w.max(bar_w + tick + gap + label_w) + rule;
+    let height = bar_top + bar_h + 0.5 * text_h + rule;
+    (
+        Block {
+            items,
+            width_px: width,
+            height_px: height,
+        },
+        bar_top,
+    )
+}
+
+/// A legend: swatch and text per entry, one entry per row, on a translucent panel when
+/// `panel` is set (for legends drawn over content).
+pub fn legend_block(entries: &[LegendEntry], style: &Style, panel: bool) -> Block {
+    legend_block_in_columns(entries, style, panel, 1)
+}
+
+/// A legend in `columns` columns (filled row by row).
+pub fn legend_block_in_columns(
+    entries: &[LegendEntry],
+    style: &Style,
+    panel: bool,
+    columns: usize,
+) -> Block {
+    if entries.is_empty() {
+        return Block::default();
+    }
+    let columns = columns.clamp(1, entries.len());
+    let rows = entries.len().div_ceil(columns);
+    let th = &style.theme;
+    let text_px = style.px(pt::TEXT);
+    let swatch_w = style.px(16.0);
+    let pad = style.px(3.0);
+    let (_, text_h) = measure_text("Ag", text_px);
+    let row_h = text_h * 1.25;
+    let text_w = entries
+        .iter()
+        .map(|e| measure_text(&e.text, text_px).0)
+        .fold(0.0f32, f32::max);
+    let col_w = swatch_w + 2.0 * pad + text_w + 3.0 * pad;
     let (w, h) = (
-        rect.width_px.round().max(1.0),
-        rect.height_px.round().max(2.0),
+        pad + col_w * columns as f32 - 2.0 * pad,
+        row_h * rows as f32 + 2.0 * pad,
     );
-    // Nothing sensible to draw for rectangles far outside any image or absurdly large.
-    let sane = |v: f32| v.is_finite() && v.abs() <= 1.0e6;
-    if !(sane(x0) && sane(y0) && sane(w) && sane(h)) {
-        return;
+    let mut items = Vec::new();
+    if panel {
+        items.push(Item::Rect {
+            rect: Rect::new(0.0, 0.0, w, h),
+            fill: th.panel,
+        });
     }
-    let rows = h as i64;
-    // Only the rows and columns inside the image are visited.
-    let r_lo = (-(y0 as i64)).clamp(0, rows);
-    let r_hi = (img.height as i64 - y0 as i64).clamp(0, rows);
-    let c_lo = (-(x0 as i64)).clamp(0, w as i64);
-    let c_hi = (img.width as i64 - x0 as i64).clamp(0, w as i64);
-    for r in r_lo..r_hi {
-        // Top row is max, bottom row is min.
-        let t = if rows > 1 {
-            1.0 - r as f64 / (rows - 1) as f64
-        } else {
-            0.5
-        };
-        let c = bar_color(colormap, t);
-        for x in c_lo..c_hi {
-            img.blend(x0 as i64 + x, y0 as i64 + r, c, 1.0);
+    let line_w = style.px(pt::DATA_LINE).max(1.0);
+    for (i, e) in entries.iter().enumerate() {
+        let (row, col) = (i / columns, i % columns);
+        let cy = pad + row_h * (row as f32 + 0.5);
+        let x0 = pad + col as f32 * col_w;
+        let x1 = x0 + swatch_w;
+        match e.swatch {
+            Swatch::Line | Swatch::Dashed => items.push(Item::Line {
+                points: vec![[x0, cy], [x1, cy]],
+                color: e.color,
+                width_px: line_w,
+                dash: (e.swatch == Swatch::Dashed).then(|| (style.px(3.5), style.px(2.5))),
+                dash_offset_px: 0.0,
+            }),
+            Swatch::Marker(shape) => items.push(Item::Marker {
+                x_px: 0.5 * (x0 + x1),
+                y_px: cy,
+                shape,
+                size_px: style.px(5.5),
+                stroke_px: style.px(0.9).max(1.0),
+                color: e.color,
+            }),
         }
+        items.push(Item::Text {
+            text: e.text.clone(),
+            x_px: x1 + 2.0 * pad,
+            y_px: cy,
+            size_px: text_px,
+            color: th.text,
+            anchor: Anchor::CenterLeft,
+            vertical: false,
+        });
     }
-    // Outline.
-    let frame = text_color.with_alpha(160);
-    img.fill_rect(x0 - 1.0, y0 - 1.0, x0 + w + 1.0, y0, frame);
-    img.fill_rect(x0 - 1.0, y0 + h, x0 + w + 1.0, y0 + h + 1.0, frame);
-    img.fill_rect(x0 - 1.0, y0, x0, y0 + h, frame);
-    img.fill_rect(x0 + w, y0, x0 + w + 1.0, y0 + h, frame);
-    let n = ticks.clamp(2, 64);
-    for i in 0..n {
-        let f = i as f64 / (n - 1) as f64;
-        let v = min + (max - min) * f;
-        let y = y0 + (h - 1.0) * (1.0 - f as f32) + 0.5;
-        img.fill_rect(x0 + w, y - 0.5, x0 + w + 5.0, y + 0.5, text_color);
-        glyphs.draw(
-            img,
-            &format_value(v),
-            x0 + w + 8.0,
-            y,
-            LABEL_PX,
-            text_color,
-            Anchor::CenterLeft,
-        );
+    Block {
+        items,
+        width_px: w,
+        height_px: h,
     }
-    glyphs.draw(
-        img,
-        label,
-        x0,
-        y0 - 8.0,
-        LABEL_PX + 1.0,
-        text_color,
-        Anchor::BottomLeft,
-    );
 }
 
 /// The round length (1, 2 or 5 times a power of ten) nearest below `target_m`.
@@ -197,185 +301,218 @@ fn length_label(len_m: f64, unit_label: &str) -> String {
     }
 }
 
-fn corner_origin(img: &Image, corner: Corner, w: f32, h: f32) -> (f32, f32) {
-    let (iw, ih) = (img.width as f32, img.height as f32);
-    match corner {
-        Corner::TopLeft => (MARGIN_PX, MARGIN_PX),
-        Corner::TopRight => (iw - MARGIN_PX - w, MARGIN_PX),
-        Corner::BottomLeft => (MARGIN_PX, ih - MARGIN_PX - h),
-        Corner::BottomRight => (iw - MARGIN_PX - w, ih - MARGIN_PX - h),
+/// A scale bar of a round length about 74 pt long for `metres_per_px` (at the camera target's
+/// depth), with its length written above. `None` when the scale is not finite.
+pub fn scale_bar_block(metres_per_px: f64, unit_label: &str, style: &Style) -> Option<Block> {
+    if !(metres_per_px.is_finite() && metres_per_px > 0.0) {
+        return None;
     }
-}
-
-fn scale_bar(
-    img: &mut Image,
-    glyphs: &mut GlyphCache,
-    camera: &Camera,
-    unit_label: &str,
-    corner: Corner,
-    text_color: Color,
-) {
-    // Metres per output pixel (the camera may have been set for another size).
-    let mpp = camera.metres_per_pixel_at_target() * camera.height_px() as f64 / img.height as f64;
-    if !(mpp.is_finite() && mpp > 0.0) {
-        return;
+    let th = &style.theme;
+    let text_px = style.px(pt::TEXT);
+    let len_m = round_length_m(style.px(74.0) as f64 * metres_per_px);
+    let len_px = (len_m / metres_per_px) as f32;
+    if !(len_px.is_finite() && len_px < 1.0e6) {
+        return None;
     }
-    let len_m = round_length_m(120.0 * mpp);
-    let len_px = (len_m / mpp) as f32;
     let label = length_label(len_m, unit_label);
-    let ts = glyphs.measure(&label, LABEL_PX);
-    let total_h = ts.height + 10.0;
-    let (x, y) = corner_origin(img, corner, len_px.max(ts.width), total_h);
-    let bar_y = y + total_h - 4.0;
-    img.fill_rect(x, bar_y, x + len_px, bar_y + 3.0, text_color);
-    img.fill_rect(x, bar_y - 6.0, x + 2.0, bar_y + 3.0, text_color);
-    img.fill_rect(
-        x + len_px - 2.0,
-        bar_y - 6.0,
-        x + len_px,
-        bar_y + 3.0,
-        text_color,
-    );
-    glyphs.draw(
-        img,
-        &label,
-        x + 0.5 * len_px,
-        bar_y - 8.0,
-        LABEL_PX,
-        text_color,
-        Anchor::BottomCenter,
-    );
+    let (tw, thh) = measure_text(&label, text_px);
+    let bar_t = style.px(1.8).max(1.0);
+    let end_h = style.px(4.0);
+    let w = len_px.max(tw);
+    let x0 = 0.5 * (w - len_px);
+    let bar_y = thh + style.px(2.0) + end_h - bar_t;
+    let items = vec![
+        Item::Text {
+            text: label,
+            x_px: 0.5 * w,
+            y_px: 0.0,
+            size_px: text_px,
+            color: th.text,
+            anchor: Anchor::TopCenter,
+            vertical: false,
+        },
+        Item::Rect {
+            rect: Rect::new(x0, bar_y, len_px, bar_t),
+            fill: th.rule,
+        },
+        Item::Rect {
+            rect: Rect::new(x0, bar_y + bar_t - end_h, bar_t, end_h),
+            fill: th.rule,
+        },
+        Item::Rect {
+            rect: Rect::new(x0 + len_px - bar_t, bar_y + bar_t - end_h, bar_t, end_h),
+            fill: th.rule,
+        },
+    ];
+    Some(Block {
+        items,
+        width_px: w,
+        height_px: bar_y + bar_t,
+    })
 }
 
-/// Draws a thick anti-aliased-free 2D line (used by the triad and legend).
-pub(crate) fn line_2d(img: &mut Image, x0: f32, y0: f32, x1: f32, y1: f32, width: f32, c: Color) {
-    let (dx, dy) = (x1 - x0, y1 - y0);
-    let len = (dx * dx + dy * dy).sqrt();
-    let hw = (0.5 * width).max(0.5);
-    let (xa, xb) = (
-        (x0.min(x1) - hw).floor() as i64,
-        (x0.max(x1) + hw).ceil() as i64,
-    );
-    let (ya, yb) = (
-        (y0.min(y1) - hw).floor() as i64,
-        (y0.max(y1) + hw).ceil() as i64,
-    );
-    for y in ya..=yb {
-        for x in xa..=xb {
-            let (px, py) = (x as f32 + 0.5 - x0, y as f32 + 0.5 - y0);
-            let t = if len > 0.0 {
-                ((px * dx + py * dy) / (len * len)).clamp(0.0, 1.0)
-            } else {
-                0.0
-            };
-            let (qx, qy) = (px - t * dx, py - t * dy);
-            let d = (qx * qx + qy * qy).sqrt();
-            // One-pixel soft edge.
-            let cov = (hw + 0.5 - d).clamp(0.0, 1.0);
-            if cov > 0.0 {
-                img.blend(x, y, c, cov);
-            }
-        }
-    }
-}
-
-fn axis_triad(
-    img: &mut Image,
-    glyphs: &mut GlyphCache,
-    camera: &Camera,
-    corner: Corner,
-    size_px: f32,
-) {
-    let size = if size_px.is_finite() {
-        size_px.clamp(8.0, 400.0)
+/// An axis triad: the world x, y, z axes as `camera` sees them, each `arm_px` long seen
+/// side-on, with their letters.
+pub fn triad_block(camera: &Camera, arm_px: f32, style: &Style) -> Block {
+    let th = &style.theme;
+    let arm = if arm_px.is_finite() {
+        arm_px.clamp(4.0, 2000.0)
     } else {
         40.0
     };
-    let box_px = 2.0 * size + 16.0;
-    let (ox, oy) = corner_origin(img, corner, box_px, box_px);
-    let (cx, cy) = (ox + 0.5 * box_px, oy + 0.5 * box_px);
+    let text_px = style.px(pt::TEXT);
+    let (_, text_h) = measure_text("x", text_px);
     let right = camera.right_direction();
     let up = camera.up_on_screen();
     let view = camera.view_direction();
     let mut axes: Vec<(f64, f32, f32, Color, &str)> = [
-        (nalgebra::Vector3::x(), Color::RED, "x"),
-        (nalgebra::Vector3::y(), Color::GREEN, "y"),
-        (nalgebra::Vector3::z(), Color::BLUE, "z"),
+        (Vector3::x(), th.axes[0], "x"),
+        (Vector3::y(), th.axes[1], "y"),
+        (Vector3::z(), th.axes[2], "z"),
     ]
     .iter()
     .map(|(a, c, l)| {
         (
             a.dot(&view),
-            (a.dot(&right) as f32) * size,
-            -(a.dot(&up) as f32) * size,
+            (a.dot(&right) as f32) * arm,
+            -(a.dot(&up) as f32) * arm,
             *c,
             *l,
         )
     })
     .collect();
-    // Draw the axis pointing farthest away first.
+    // The axis pointing farthest away first.
     axes.sort_by(|a, b| b.0.total_cmp(&a.0));
+    let mut items = Vec::new();
+    let half_text = 0.5 * text_h;
+    let k = 0.55 * text_h;
+    // Tight box around the origin, the axis ends and their letters.
+    let (mut x0, mut y0, mut x1, mut y1) = (-half_text, -half_text, half_text, half_text);
     for (_, dx, dy, c, l) in axes {
-        line_2d(img, cx, cy, cx + dx, cy + dy, 2.5, c);
+        items.push(Item::Line {
+            points: vec![[0.0, 0.0], [dx, dy]],
+            color: c,
+            width_px: style.px(1.5).max(1.0),
+            dash: None,
+            dash_offset_px: 0.0,
+        });
         let n = (dx * dx + dy * dy).sqrt().max(1e-3);
-        glyphs.draw(
-            img,
-            l,
-            cx + dx + 8.0 * dx / n,
-            cy + dy + 8.0 * dy / n,
-            LABEL_PX,
-            c,
-            Anchor::Center,
-        );
+        let (lx, ly) = (dx + k * dx / n, dy + k * dy / n);
+        x0 = x0.min(lx - half_text);
+        x1 = x1.max(lx + half_text);
+        y0 = y0.min(ly - half_text);
+        y1 = y1.max(ly + half_text);
+        items.push(Item::Text {
+            text: l.to_string(),
+            x_px: lx,
+            y_px: ly,
+            size_px: text_px,
+            color: c,
+            anchor: Anchor::Center,
+            vertical: false,
+        });
+    }
+    Block {
+        items: items.into_iter().map(|i| i.translated(-x0, -y0)).collect(),
+        width_px: x1 - x0,
+        height_px: y1 - y0,
     }
 }
 
-fn legend(
-    img: &mut Image,
-    glyphs: &mut GlyphCache,
-    entries: &[(Color, String, bool)],
-    corner: Corner,
-    text_color: Color,
-) {
-    if entries.is_empty() {
-        return;
-    }
-    let swatch = 26.0;
-    let row_h = LABEL_PX * 1.5;
-    let text_w = entries
-        .iter()
-        .map(|(_, t, _)| glyphs.measure(t, LABEL_PX).width)
-        .fold(0.0f32, f32::max);
-    let (w, h) = (
-        swatch + 14.0 + text_w + 8.0,
-        row_h * entries.len() as f32 + 8.0,
-    );
-    let (x, y) = corner_origin(img, corner, w, h);
-    let panel = if text_color.r > 128 {
-        Color::rgba(0, 0, 0, 110)
+/// The theme whose text reads on `background` (the app's views pick their overlay colours so).
+pub(crate) fn theme_for_background(background: Color) -> Theme {
+    let l =
+        0.2126 * background.r as f32 + 0.7152 * background.g as f32 + 0.0722 * background.b as f32;
+    let mut t = if l > 140.0 {
+        Theme::light()
     } else {
-        Color::rgba(255, 255, 255, 150)
+        Theme::dark()
     };
-    img.fill_rect(x, y, x + w, y + h, panel);
-    for (i, (c, t, dashed)) in entries.iter().enumerate() {
-        let cy = y + 4.0 + row_h * (i as f32 + 0.5);
-        if *dashed {
-            let mut sx = x + 6.0;
-            while sx < x + 6.0 + swatch {
-                line_2d(img, sx, cy, (sx + 5.0).min(x + 6.0 + swatch), cy, 2.0, *c);
-                sx += 9.0;
-            }
-        } else {
-            line_2d(img, x + 6.0, cy, x + 6.0 + swatch, cy, 2.0, *c);
-        }
-        glyphs.draw(
-            img,
-            t,
-            x + swatch + 14.0,
-            cy,
-            LABEL_PX,
-            text_color,
-            Anchor::CenterLeft,
-        );
+    t.background = background;
+    t
+}
+
+fn corner_origin(
+    w_img: f32,
+    h_img: f32,
+    corner: Corner,
+    margin: f32,
+    w: f32,
+    h: f32,
+) -> (f32, f32) {
+    match corner {
+        Corner::TopLeft => (margin, margin),
+        Corner::TopRight => (w_img - margin - w, margin),
+        Corner::BottomLeft => (margin, h_img - margin - h),
+        Corner::BottomRight => (w_img - margin - w, h_img - margin - h),
     }
+}
+
+/// The scene's overlays as figure items for an image of `width_px x height_px` seen by
+/// `camera` (whose viewport has that size), at the app's screen scale.
+pub(crate) fn overlay_items(
+    overlays: &[Overlay],
+    camera: &Camera,
+    width_px: u32,
+    height_px: u32,
+    background: Color,
+) -> Vec<Item> {
+    let style = Style::new(Sizing::screen(), theme_for_background(background));
+    let (w, h) = (width_px as f32, height_px as f32);
+    let margin = style.px(pt::MARGIN);
+    let mut items = Vec::new();
+    let at_corner = |block: Block, corner: Corner, items: &mut Vec<Item>| {
+        let (x, y) = corner_origin(w, h, corner, margin, block.width_px, block.height_px);
+        items.extend(block.place(x, y));
+    };
+    for o in overlays {
+        match o {
+            Overlay::Text {
+                text,
+                x_px,
+                y_px,
+                size_px,
+                color,
+                anchor,
+            } => items.push(Item::Text {
+                text: text.clone(),
+                x_px: *x_px,
+                y_px: *y_px,
+                size_px: *size_px,
+                color: *color,
+                anchor: *anchor,
+                vertical: false,
+            }),
+            Overlay::ColorBar {
+                colormap,
+                min,
+                max,
+                label,
+                rect,
+                ..
+            } => {
+                let (block, bar_top) =
+                    color_bar_block(*colormap, *min, *max, label, rect.height_px, &style);
+                items.extend(block.place(rect.x_px, rect.y_px - bar_top));
+            }
+            Overlay::ScaleBar { unit_label, corner } => {
+                let mpp = camera.metres_per_pixel_at_target() * camera.height_px() as f64
+                    / height_px.max(1) as f64;
+                if let Some(b) = scale_bar_block(mpp, unit_label, &style) {
+                    at_corner(b, *corner, &mut items);
+                }
+            }
+            Overlay::AxisTriad { corner, size_px } => {
+                at_corner(triad_block(camera, *size_px, &style), *corner, &mut items)
+            }
+            Overlay::Legend { entries, corner } => {
+                at_corner(legend_block(entries, &style, true), *corner, &mut items)
+            }
+            Overlay::Panel { rect, fill } => items.push(Item::Rect {
+                rect: *rect,
+                fill: *fill,
+            }),
+        }
+    }
+    items
 }

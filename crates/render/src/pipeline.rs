@@ -8,12 +8,11 @@ use rayon::prelude::*;
 
 use crate::camera::{Camera, Projection};
 use crate::color::Color;
+use crate::figure::marker_coverage;
 use crate::raster::{
     BAND_H, Band, DepthBias, INVALID, PointRec, SVert, SegRec, TriRec, edges, pixel_bbox, plane,
 };
-use crate::scene::{
-    FaceColors, Light, LineColor, MarkerShape, Occluded, Scene, SceneMesh, Shading,
-};
+use crate::scene::{FaceColors, Light, LineColor, Occluded, Scene, SceneMesh, Shading};
 
 /// Triangles per set-up job.
 const TRI_CHUNK: usize = 128 * CLUSTER;
@@ -764,7 +763,8 @@ fn setup_triangles(
     }
 }
 
-fn line_color_at(c: &LineColor, i: usize) -> Color {
+/// Colour of point `i` of a line.
+pub(crate) fn line_color_at(c: &LineColor, i: usize) -> Color {
     match c {
         LineColor::Uniform(c) => *c,
         LineColor::PerVertex(cs) => cs
@@ -913,7 +913,14 @@ fn setup_lines(frame: &Frame, src: &LineSrc, job: &mut LineJob, bands: usize) {
 }
 
 /// Visibility alpha of a point against the depth buffer (1 = visible).
-fn point_alpha(frame: &Frame, depth: &[f32], x: f64, y: f64, d: f64, occ: Occluded) -> f32 {
+pub(crate) fn point_alpha(
+    frame: &Frame,
+    depth: &[f32],
+    x: f64,
+    y: f64,
+    d: f64,
+    occ: Occluded,
+) -> f32 {
     let (xi, yi) = (x.floor(), y.floor());
     if xi < 0.0 || yi < 0.0 || xi >= frame.width as f64 || yi >= frame.height as f64 {
         return 1.0;
@@ -930,7 +937,7 @@ fn point_alpha(frame: &Frame, depth: &[f32], x: f64, y: f64, d: f64, occ: Occlud
     }
 }
 
-fn project_point(frame: &Frame, p: &[f64; 3]) -> Option<(f64, f64, f64)> {
+pub(crate) fn project_point(frame: &Frame, p: &[f64; 3]) -> Option<(f64, f64, f64)> {
     if !p.iter().all(|c| c.is_finite()) {
         return None;
     }
@@ -988,34 +995,45 @@ fn draw_marker(frame: &Frame, depth: &[f32], color: &mut [Color], m: &crate::sce
     if a <= 0.0 {
         return;
     }
-    let size = if m.size_px.is_finite() {
-        m.size_px.clamp(1.0, 512.0)
+    let r = 0.5 * (marker_size_px(m.size_px) * frame.scale) as f64;
+    let t = (marker_stroke_px(m.size_px) * frame.scale) as f64;
+    let (x0, x1) = ((x - r - 1.0).floor() as i64, (x + r + 1.0).ceil() as i64);
+    let (y0, y1) = ((y - r - 1.0).floor() as i64, (y + r + 1.0).ceil() as i64);
+    for py in y0..=y1 {
+        for px in x0..=x1 {
+            let cov = marker_coverage(m.shape, r, t, px as f64 + 0.5 - x, py as f64 + 0.5 - y);
+            if cov > 0.0 {
+                plot(color, frame, px, py, m.color, a * cov);
+            }
+        }
+    }
+}
+
+/// A marker's size in output pixels, sanitized.
+pub(crate) fn marker_size_px(size_px: f32) -> f32 {
+    if size_px.is_finite() {
+        size_px.clamp(1.0, 512.0)
     } else {
         6.0
-    };
-    let r = 0.5 * (size * frame.scale) as f64;
-    let t = (0.9 * frame.scale as f64).max(1.0); // stroke width, pixels
-    match m.shape {
-        MarkerShape::Dot => fill_shape(color, frame, x, y, r, m.color, a, |dx, dy| {
-            dx * dx + dy * dy <= r * r
-        }),
-        MarkerShape::Ring => fill_shape(color, frame, x, y, r, m.color, a, |dx, dy| {
-            let q = (dx * dx + dy * dy).sqrt();
-            q <= r && q >= r - t
-        }),
-        MarkerShape::Cross => fill_shape(color, frame, x, y, r, m.color, a, |dx, dy| {
-            (dx.abs() <= r && dy.abs() <= r)
-                && ((dx - dy).abs() <= t * std::f64::consts::SQRT_2 / 2.0 * 1.5
-                    || (dx + dy).abs() <= t * std::f64::consts::SQRT_2 / 2.0 * 1.5)
-        }),
-        MarkerShape::Square => fill_shape(color, frame, x, y, r, m.color, a, |dx, dy| {
-            let q = dx.abs().max(dy.abs());
-            q <= r && q >= r - t
-        }),
-        MarkerShape::Diamond => fill_shape(color, frame, x, y, r, m.color, a, |dx, dy| {
-            dx.abs() + dy.abs() <= r
-        }),
     }
+}
+
+/// Stroke width of outlined markers, output pixels: proportional to the size, so markers keep
+/// their look when a figure is exported larger.
+pub(crate) fn marker_stroke_px(size_px: f32) -> f32 {
+    (0.12 * marker_size_px(size_px)).max(0.9)
+}
+
+/// Length of an arrow head for a shaft `width_px` wide (output pixels) drawn at `scale`
+/// internal pixels per output pixel on a shaft `len` internal pixels long.
+pub(crate) fn arrow_head_len(width_px: f32, scale: f32, len: f64) -> f64 {
+    let wpx = if width_px.is_finite() {
+        width_px.clamp(1.0, 64.0)
+    } else {
+        2.0
+    };
+    let head = ((4.0 * wpx + 6.0) * scale) as f64;
+    head.min(0.5 * len.max(2.0 * scale as f64))
 }
 
 fn draw_arrow_head(frame: &Frame, depth: &[f32], color: &mut [Color], a: &crate::scene::Arrow) {
@@ -1031,13 +1049,7 @@ fn draw_arrow_head(frame: &Frame, depth: &[f32], color: &mut [Color], a: &crate:
     }
     let alpha = point_alpha(frame, depth, x1, y1, d1, Occluded::Faint(0.35));
     let (ux, uy) = (dx / len, dy / len);
-    let wpx = if a.width_px.is_finite() {
-        a.width_px.clamp(1.0, 64.0)
-    } else {
-        2.0
-    };
-    let head = ((4.0 * wpx + 6.0) * frame.scale) as f64;
-    let head = head.min(0.5 * len.max(2.0 * frame.scale as f64));
+    let head = arrow_head_len(a.width_px, frame.scale, len);
     let half = 0.5 * head;
     // Triangle: tip at (x1, y1), base centre `head` behind it.
     let (bx, by) = (x1 - ux * head, y1 - uy * head);

@@ -2,11 +2,13 @@
 
 use crate::camera::Camera;
 use crate::color::Color;
+use crate::figure::{Item, draw_items};
 use crate::image::{Image, downsample_box};
-use crate::overlay::{contrast_text, draw_overlays};
+use crate::overlay::overlay_items;
 use crate::pipeline::{Buffers, Frame};
 use crate::scene::Scene;
 use crate::text::GlyphCache;
+use crate::vector::vector_items;
 
 /// Largest internal (supersampled) image side, pixels.
 pub const MAX_INTERNAL_SIDE_PX: u32 = 16384;
@@ -148,8 +150,8 @@ impl Renderer {
         }
         let mut cam_out = camera.clone();
         cam_out.set_viewport(w, h);
-        let text = contrast_text(scene.background);
-        draw_overlays(out, &scene.overlays, &cam_out, &mut self.glyphs, text);
+        let items = overlay_items(&scene.overlays, &cam_out, w, h, scene.background);
+        draw_items(out, &items, &mut self.glyphs);
     }
 
     /// Renders only the meshes and returns which face covers each pixel (no supersampling).
@@ -177,6 +179,61 @@ impl Renderer {
             height: h,
             ids: std::mem::take(&mut self.buffers.ids),
         }
+    }
+}
+
+/// A view prepared for vector output: the meshes as a raster, the polylines, arrows, markers
+/// and overlays as figure items in output pixels (hidden parts cut away or made faint, as in
+/// the raster render).
+#[derive(Clone, Debug, Default)]
+pub struct VectorView {
+    /// The meshes on the background, no lines or markers.
+    pub raster: Image,
+    /// Everything else, in output pixels.
+    pub items: Vec<Item>,
+}
+
+impl Renderer {
+    /// Renders the meshes of `scene` to a raster and returns everything else as vector items
+    /// (for SVG output).
+    pub fn render_vector(
+        &mut self,
+        scene: &Scene,
+        camera: &Camera,
+        options: &RenderOptions,
+    ) -> VectorView {
+        let (w, h, s) = options.sanitized();
+        let mut cam = camera.clone();
+        cam.set_viewport(w * s, h * s);
+        let frame = Frame::new(&cam, scene, s, false);
+        let meshes_only = Scene {
+            meshes: scene.meshes.clone(),
+            background: scene.background,
+            light: scene.light,
+            ..Scene::default()
+        };
+        let mut raster = Image::default();
+        if s == 1 {
+            raster.resize(w, h);
+            self.buffers.draw(&meshes_only, &frame, &mut raster.pixels);
+        } else {
+            let mut big = std::mem::take(&mut self.big);
+            big.resize(w * s, h * s);
+            self.buffers.draw(&meshes_only, &frame, &mut big.pixels);
+            downsample_box(&big, s, &mut raster);
+            self.big = big;
+        }
+        let mut items = vector_items(&frame, &self.buffers.depth, scene);
+        let mut cam_out = camera.clone();
+        cam_out.set_viewport(w, h);
+        items.extend(overlay_items(
+            &scene.overlays,
+            &cam_out,
+            w,
+            h,
+            scene.background,
+        ));
+        VectorView { raster, items }
     }
 }
 

@@ -219,6 +219,24 @@ pub enum Anchor {
     BottomRight,
 }
 
+impl Anchor {
+    /// Where the anchor point sits in the text box, as fractions of its width and height from
+    /// the top-left.
+    pub fn fractions(self) -> (f32, f32) {
+        match self {
+            Anchor::TopLeft => (0.0, 0.0),
+            Anchor::TopCenter => (0.5, 0.0),
+            Anchor::TopRight => (1.0, 0.0),
+            Anchor::CenterLeft => (0.0, 0.5),
+            Anchor::Center => (0.5, 0.5),
+            Anchor::CenterRight => (1.0, 0.5),
+            Anchor::BottomLeft => (0.0, 1.0),
+            Anchor::BottomCenter => (0.5, 1.0),
+            Anchor::BottomRight => (1.0, 1.0),
+        }
+    }
+}
+
 /// A corner of the image.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]
 pub enum Corner {
@@ -286,9 +304,8 @@ pub enum Overlay {
         max: f64,
         /// Label with unit, e.g. "slope (deg)".
         label: String,
-        /// Number of tick labels (clamped to 2..=64).
-        ticks: usize,
-        /// Where the bar itself goes (labels are drawn to its right, the title above).
+        /// Where the bar itself goes (round tick values are drawn to its right, as many as fit,
+        /// and the title above).
         rect: Rect,
     },
     /// A scale bar of a round length (1, 2 or 5 times a power of ten metres) about 120 px long,
@@ -306,10 +323,10 @@ pub enum Overlay {
         /// Length of an axis seen side-on, pixels.
         size_px: f32,
     },
-    /// A legend box: colour swatch (solid or dashed line) and text per entry.
+    /// A legend box: a swatch (line, dashed line or marker) and text per entry.
     Legend {
-        /// `(colour, text, dashed)` per entry.
-        entries: Vec<(Color, String, bool)>,
+        /// The entries.
+        entries: Vec<crate::overlay::LegendEntry>,
         /// Corner of the image.
         corner: Corner,
     },

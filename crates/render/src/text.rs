@@ -36,7 +36,7 @@ fn size_key(size_px: f32) -> u32 {
     (size_px * 64.0).round() as u32
 }
 
-fn clamp_size(size_px: f32) -> f32 {
+pub(crate) fn clamp_size(size_px: f32) -> f32 {
     if size_px.is_finite() {
         size_px.clamp(4.0, 400.0)
     } else {
@@ -101,17 +101,7 @@ impl GlyphCache {
         }
         let size_px = clamp_size(size_px);
         let sz = self.measure(text, size_px);
-        let (fx, fy) = match anchor {
-            Anchor::TopLeft => (0.0, 0.0),
-            Anchor::TopCenter => (0.5, 0.0),
-            Anchor::TopRight => (1.0, 0.0),
-            Anchor::CenterLeft => (0.0, 0.5),
-            Anchor::Center => (0.5, 0.5),
-            Anchor::CenterRight => (1.0, 0.5),
-            Anchor::BottomLeft => (0.0, 1.0),
-            Anchor::BottomCenter => (0.5, 1.0),
-            Anchor::BottomRight => (1.0, 1.0),
-        };
+        let (fx, fy) = anchor.fractions();
         let top = (y - fy * sz.height).round();
         for (li, line) in text.split('\n').enumerate() {
             let lw = self.measure(line, size_px).width;
@@ -137,9 +127,21 @@ impl GlyphCache {
     }
 }
 
-fn line_metrics(size_px: f32) -> (f32, f32) {
+pub(crate) fn line_metrics(size_px: f32) -> (f32, f32) {
     match font().and_then(|f| f.horizontal_line_metrics(size_px)) {
         Some(lm) => (lm.ascent, lm.new_line_size),
         None => (size_px * 0.8, size_px * 1.2),
     }
+}
+
+/// Width and height in pixels of `text` at `size_px` (lines split on `\n`), as the renderer
+/// lays it out (bundled DejaVu Sans).
+pub fn measure_text(text: &str, size_px: f32) -> (f32, f32) {
+    thread_local! {
+        static CACHE: std::cell::RefCell<GlyphCache> = std::cell::RefCell::new(GlyphCache::default());
+    }
+    CACHE.with(|c| {
+        let s = c.borrow_mut().measure(text, size_px);
+        (s.width, s.height)
+    })
 }

@@ -276,7 +276,6 @@ fn color_bar_maps_min_and_max_to_the_colormap_ends() {
         min: 0.0,
         max: 5.0,
         label: "slope (deg)".into(),
-        ticks: 3,
         rect,
     }];
     let img = render(
@@ -361,7 +360,7 @@ fn demo_scene() -> Scene {
             size_px: 24.0,
         },
         Overlay::Legend {
-            entries: vec![(Color::YELLOW, "body-fixed".into(), false)],
+            entries: vec![LegendEntry::new(Color::YELLOW, "body-fixed", Swatch::Line)],
             corner: Corner::TopRight,
         },
     ];
@@ -1023,7 +1022,6 @@ fn random_scenes_and_cameras_never_panic() {
                 min: v(10.0),
                 max: v(10.0),
                 label: "x".into(),
-                ticks: (v(10.0).abs() * 2.0) as usize,
                 rect: Rect::new(
                     v(100.0) as f32,
                     v(100.0) as f32,

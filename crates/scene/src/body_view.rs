@@ -6,8 +6,8 @@ use spinfall_dynamics::surface_map::{SurfaceField, SurfaceMap};
 use spinfall_dynamics::{Body, BodyFigures};
 use spinfall_render::{Color, Colormap, face_colors};
 
-/// Colour of the body when no map is shown.
-pub const BODY_GREY: Color = Color::rgb(176, 170, 160);
+/// Colour of the body when no map is shown (dark theme).
+pub const BODY_GREY: Color = crate::palette::Palette::dark().body;
 
 /// Face colours of one map, with the value range they span.
 #[derive(Debug, Clone)]
@@ -22,6 +22,8 @@ pub struct MapColors {
     pub min: f64,
     /// Value at the high end of the colour map (field unit).
     pub max: f64,
+    /// Whether the range was fixed by the user (otherwise it is the data's range).
+    pub fixed_range: bool,
 }
 
 /// A body ready to draw: the `f32` mesh (shared, built once), the body (frames, spin) and the
@@ -118,23 +120,43 @@ impl BodyView {
         self.map.as_deref().map(|m| m.values(field))
     }
 
-    /// Face colours for `field` through `colormap` (cached), or `None` without a map.
+    /// Face colours for `field` through `colormap` over the data's range (cached), or `None`
+    /// without a map.
     pub fn map_colors(&self, field: SurfaceField, colormap: Colormap) -> Option<MapColors> {
+        self.map_colors_in(field, colormap, None)
+    }
+
+    /// Face colours for `field` through `colormap` over `range` (`[min, max]`, field unit;
+    /// `None` or an invalid range: the data's range), cached.
+    pub fn map_colors_in(
+        &self,
+        field: SurfaceField,
+        colormap: Colormap,
+        range: Option<[f64; 2]>,
+    ) -> Option<MapColors> {
         let values = self.field_values(field)?;
+        let fixed = range.filter(|[lo, hi]| lo.is_finite() && hi.is_finite() && hi > lo);
         if let Ok(cache) = self.colors.lock()
-            && let Some(hit) = cache
-                .iter()
-                .find(|c| c.field == field && c.colormap == colormap)
+            && let Some(hit) = cache.iter().find(|c| {
+                c.field == field
+                    && c.colormap == colormap
+                    && c.fixed_range == fixed.is_some()
+                    && fixed.is_none_or(|[lo, hi]| c.min == lo && c.max == hi)
+            })
         {
             return Some(hit.clone());
         }
-        let (min, max) = value_range(values, colormap.is_diverging());
+        let (min, max) = match fixed {
+            Some([lo, hi]) => (lo, hi),
+            None => value_range(values, colormap.is_diverging()),
+        };
         let colors = MapColors {
             field,
             colormap,
             colors: Arc::new(face_colors(values, min, max, colormap)),
             min,
             max,
+            fixed_range: fixed.is_some(),
         };
         if let Ok(mut cache) = self.colors.lock() {
             cache.push(colors.clone());

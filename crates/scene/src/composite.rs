@@ -3,14 +3,13 @@
 use nalgebra::{Point3, Vector3};
 use spinfall_dynamics::FlightReport;
 use spinfall_gravity::ShapeModel;
-use spinfall_render::{
-    Anchor, Camera, Color, Image, Overlay, RenderOptions, Renderer, compose_side_by_side,
-};
+use spinfall_render::{Anchor, Camera, Color, FigureSize, Image, Overlay};
 
 use crate::body_view::BodyView;
-use crate::error::{Result, SceneError};
+use crate::error::Result;
+use crate::figure::{FigureOptions, Output, Views, build_figure};
 use crate::options::ViewOptions;
-use crate::scenes::{Frame, SiteMarker, add_site_markers, frame_scene};
+use crate::scenes::{Frame, SiteMarker};
 
 /// Vertical field of view of the default camera, degrees.
 pub const DEFAULT_FOV_Y_DEG: f64 = 30.0;
@@ -46,19 +45,18 @@ pub fn default_camera(shape: &ShapeModel, width_px: u32, height_px: u32) -> Came
 /// Settings of [`composite`].
 #[derive(Debug, Clone)]
 pub struct CompositeOptions {
-    /// Width of the whole image, pixels (two halves and the gap).
+    /// Width of the whole image, pixels.
     pub width_px: u32,
     /// Height, pixels.
     pub height_px: u32,
     /// Supersampling per axis (1 = none).
     pub supersample: u32,
-    /// Gap between the halves, pixels.
-    pub gap_px: u32,
-    /// Camera of the body-fixed half (`None`: [`default_camera`]); its viewport is resized.
+    /// Camera of the body-fixed view (`None`: [`default_camera`]); the image shows at least
+    /// what it shows.
     pub body_camera: Option<Camera>,
-    /// Camera of the inertial half (`None`: [`default_camera`]).
+    /// Camera of the inertial view (`None`: [`default_camera`]).
     pub inertial_camera: Option<Camera>,
-    /// Planned launch sites to mark in both halves.
+    /// Planned launch sites to mark in both views.
     pub sites: Vec<SiteMarker>,
 }
 
@@ -68,7 +66,6 @@ impl Default for CompositeOptions {
             width_px: 1920,
             height_px: 1080,
             supersample: 2,
-            gap_px: 4,
             body_camera: None,
             inertial_camera: None,
             sites: Vec::new(),
@@ -114,8 +111,9 @@ pub fn add_title(
     });
 }
 
-/// Renders the two views of one view at time `t_s` side by side: body-fixed on the left,
-/// inertial on the right, each with its title and the time stamp.
+/// Renders both views at time `t_s` side by side (body-fixed on the left, inertial on the
+/// right) as a raster figure laid out by [`build_figure`]: titles, time stamp, colour bar,
+/// legend, triads and scale bars around the views, sized from the image size.
 pub fn composite(
     view: &BodyView,
     reports: &[FlightReport],
@@ -123,39 +121,20 @@ pub fn composite(
     opts: &ViewOptions,
     settings: &CompositeOptions,
 ) -> Result<Image> {
-    let half_w = settings.width_px.saturating_sub(settings.gap_px) / 2;
-    let h = settings.height_px;
-    if half_w < 16 || h < 16 {
-        return Err(SceneError::InvalidSize {
+    let fig = FigureOptions {
+        size: FigureSize::Pixels {
             width_px: settings.width_px,
             height_px: settings.height_px,
-        });
-    }
-    let period_s = view.body().spin.period_s;
-    let mut renderer = Renderer::new();
-    let render_opts = RenderOptions::new(half_w, h).with_supersample(settings.supersample.max(1));
-    let mut halves = Vec::with_capacity(2);
-    for (frame, cam) in [
-        (Frame::BodyFixed, &settings.body_camera),
-        (Frame::Inertial, &settings.inertial_camera),
-    ] {
-        let mut camera = cam
-            .clone()
-            .unwrap_or_else(|| default_camera(&view.body().shape, half_w, h));
-        camera.set_viewport(half_w, h);
-        let mut half_opts = opts.clone();
-        // One legend is enough: keep it on the left half.
-        half_opts.show_legend = opts.show_legend && frame == Frame::BodyFixed;
-        let mut scene = frame_scene(view, reports, t_s, &half_opts, [half_w, h], frame);
-        add_site_markers(&mut scene, view, &settings.sites, t_s, frame);
-        add_title(&mut scene, frame, t_s, period_s, [half_w, h]);
-        halves.push(renderer.render(&scene, &camera, &render_opts).clone());
-    }
-    let background = spinfall_render::Scene::default().background;
-    Ok(compose_side_by_side(
-        &halves[0],
-        &halves[1],
-        settings.gap_px,
-        background,
-    ))
+        },
+        views: Views::Both,
+        cameras: [
+            settings.body_camera.clone(),
+            settings.inertial_camera.clone(),
+        ],
+        fit_body: false,
+        sites: settings.sites.clone(),
+        supersample: settings.supersample,
+        output: Output::Raster,
+    };
+    Ok(build_figure(view, reports, t_s, opts, &fig)?.to_image())
 }

@@ -16,4 +16,37 @@ pub enum SceneError {
         /// Requested height, pixels.
         height_px: u32,
     },
+    /// The figure is too small for its views after titles, colour bar and legend.
+    #[error("a {width_px} x {height_px} px figure is too small: {reason}")]
+    LayoutDoesNotFit {
+        /// Figure width, pixels.
+        width_px: u32,
+        /// Figure height, pixels.
+        height_px: u32,
+        /// What did not fit.
+        reason: String,
+    },
+    /// The renderer refused something (size, encoding).
+    #[error("{0}")]
+    Render(String),
+    /// Animation or plot settings are not acceptable.
+    #[error("{0}")]
+    Settings(String),
+    /// The work was cancelled.
+    #[error("cancelled")]
+    Cancelled,
+    /// A frame could not be handed on (the caller's sink failed).
+    #[error("frame {frame}: {message}")]
+    Sink {
+        /// Index of the frame.
+        frame: u32,
+        /// The sink's message.
+        message: String,
+    },
+}
+
+impl From<spinfall_render::RenderError> for SceneError {
+    fn from(e: spinfall_render::RenderError) -> Self {
+        SceneError::Render(e.to_string())
+    }
 }

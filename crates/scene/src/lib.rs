@@ -8,13 +8,23 @@
 //! composite with titles, time stamp, legend and scale bar. The GUI and the `spinfall render`
 //! command both use it, so their images match.
 //!
-//! What it is not: no egui, no file I/O, no physics of its own.
+//! What it is not: no egui, no file I/O (figures, animations and plots go to values or any
+//! `Write`), no physics of its own.
 //!
 //! Main types: [`BodyView`] (the body with its `f32` mesh and cached per-map face colours),
-//! [`ViewOptions`], [`body_fixed_scene`] / [`inertial_scene`] / [`frame_scene`] (each takes
-//! the image size so the colour bar can be placed), [`add_site_markers`] for planned launch
-//! sites, [`add_title`], [`composite`] and [`default_camera`]. [`trace`] holds the trajectory
-//! helpers (Hermite interpolation at a time, frame changes) shared with the GUI's plots.
+//! [`ViewOptions`] (also the theme and a user-fixed colour range), [`Palette`] (what each colour
+//! means, per theme), [`body_fixed_scene`] / [`inertial_scene`] / [`frame_scene`] (the app's
+//! views, overlays drawn over them) and [`figure_scene`] (a view for a figure, sized by the
+//! figure), [`add_site_markers`] for planned launch sites, [`default_camera`].
+//!
+//! Figures: [`build_figure`] lays out one or both views with titles, time stamp, colour bar,
+//! legend, triads and scale bars beside the views (never over them), every size from the
+//! figure's size ([`FigureOptions`]: pixels or a printed size, theme through the view options,
+//! raster or vector output, the app's cameras or a fit to the body); [`composite`] is the
+//! side-by-side raster. [`plots`] makes plots against time and the landing map;
+//! [`render_frames`] / [`write_animation`] make animations with progress and cancel.
+//! [`trace`] holds the trajectory helpers (Hermite interpolation at a time, frame changes)
+//! shared with the GUI's plots.
 //!
 //! Spinfall is for research and planning, not flight-certified.
 //!
@@ -30,22 +40,29 @@
 //! ```
 #![warn(missing_docs)]
 
+mod animation;
 mod body_view;
 mod composite;
 mod error;
+mod figure;
 mod options;
+mod palette;
+pub mod plots;
 mod scenes;
 pub mod trace;
 
+pub use animation::{AnimationSettings, render_frames, write_animation};
 pub use body_view::{BODY_GREY, BodyView, MapColors, value_range};
 pub use composite::{
     CompositeOptions, DEFAULT_FOV_Y_DEG, add_title, composite, default_camera, time_stamp,
 };
 pub use error::{Result, SceneError};
+pub use figure::{FigureOptions, Output, Views, build_figure, build_figure_with, figure_metadata};
 pub use options::{HiddenTraceStyle, ViewOptions};
+pub use palette::Palette;
 pub use scenes::{
     CONTACT_COLOR, ESCAPE_COLOR, Frame, LAUNCH_COLORS, OVERLAY_COLOR, PLANNED_SITE_COLOR,
-    REST_COLOR, SITE_COLOR, SPIN_AXIS_COLOR, SiteMarker, add_site_markers, body_fixed_scene,
-    color_bar_rect, end_time_s, field_label, frame_scene, inertial_scene, launch_color,
-    pretty_unit,
+    REST_COLOR, SITE_COLOR, SPIN_AXIS_COLOR, SiteMarker, add_site_markers, add_site_markers_styled,
+    body_fixed_scene, color_bar_rect, end_time_s, field_label, figure_scene, frame_scene,
+    inertial_scene, launch_color, legend_entries, pretty_unit, shown_map,
 };

@@ -2,7 +2,7 @@
 
 use serde::{Deserialize, Serialize};
 use spinfall_dynamics::surface_map::SurfaceField;
-use spinfall_render::{Colormap, Occluded};
+use spinfall_render::{Colormap, Occluded, ThemeKind};
 
 /// How trace segments hidden behind the body are drawn.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
@@ -53,6 +53,12 @@ pub struct ViewOptions {
     pub hidden_trace_style: HiddenTraceStyle,
     /// Smooth (Gouraud) shading instead of flat facets.
     pub smooth_shading: bool,
+    /// Colours: dark (screen) or light (print).
+    #[serde(with = "theme_by_name")]
+    pub theme: ThemeKind,
+    /// Colour range `[min, max]` of the surface map fixed by the user (field unit); `None`:
+    /// the data's range.
+    pub color_range: Option<[f64; 2]>,
 }
 
 impl Default for ViewOptions {
@@ -70,6 +76,8 @@ impl Default for ViewOptions {
             show_scale_bar: true,
             hidden_trace_style: HiddenTraceStyle::Faint,
             smooth_shading: false,
+            theme: ThemeKind::Dark,
+            color_range: None,
         }
     }
 }
@@ -92,6 +100,21 @@ mod colormap_by_name {
     }
 }
 
+/// Serialises a [`ThemeKind`] by its name.
+mod theme_by_name {
+    use serde::{Deserialize, Deserializer, Serializer};
+    use spinfall_render::ThemeKind;
+
+    pub fn serialize<S: Serializer>(t: &ThemeKind, s: S) -> Result<S::Ok, S::Error> {
+        s.serialize_str(t.name())
+    }
+
+    pub fn deserialize<'de, D: Deserializer<'de>>(d: D) -> Result<ThemeKind, D::Error> {
+        let name = String::deserialize(d)?;
+        Ok(name.parse().unwrap_or_default())
+    }
+}
+
 #[cfg(test)]
 #[allow(clippy::unwrap_used, reason = "tests unwrap freely")]
 mod tests {
@@ -103,6 +126,8 @@ mod tests {
             colormap: Colormap::Magma,
             show_wireframe: true,
             selected_launch: Some(3),
+            theme: ThemeKind::Light,
+            color_range: Some([0.0, 40.0]),
             ..ViewOptions::default()
         };
         let text = serde_json::to_string(&opts).unwrap();

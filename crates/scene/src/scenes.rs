@@ -4,12 +4,13 @@ use nalgebra::{Point3, Rotation3};
 use spinfall_dynamics::surface_map::SurfaceField;
 use spinfall_dynamics::{FlightReport, Outcome};
 use spinfall_render::{
-    Arrow, Color, Corner, FaceColors, LineColor, Marker, MarkerShape, Occluded, Overlay, Polyline,
-    Rect, Scene, SceneMesh, Shading,
+    Arrow, Color, Corner, FaceColors, LegendEntry, LineColor, Marker, MarkerShape, Occluded,
+    Overlay, Polyline, Rect, Scene, SceneMesh, Shading, Sizing, Swatch, Theme,
 };
 
-use crate::body_view::{BODY_GREY, BodyView};
+use crate::body_view::{BodyView, MapColors};
 use crate::options::ViewOptions;
+use crate::palette::Palette;
 use crate::trace::{self, FrameChange};
 
 /// Which frame a view shows.
@@ -31,30 +32,21 @@ impl Frame {
     }
 }
 
-/// Colours of the launches (cycled), chosen to stand out on grey and on the colour maps.
-pub const LAUNCH_COLORS: [Color; 8] = [
-    Color::rgb(255, 120, 60),
-    Color::rgb(80, 200, 255),
-    Color::rgb(255, 220, 60),
-    Color::rgb(240, 90, 200),
-    Color::rgb(120, 240, 120),
-    Color::rgb(255, 255, 255),
-    Color::rgb(160, 130, 255),
-    Color::rgb(255, 160, 160),
-];
+/// Colours of the launches on the dark theme (cycled): the dark theme's series palette.
+pub const LAUNCH_COLORS: [Color; 8] = Theme::dark().series;
 
-/// Colour of the overlaid other-frame trace.
-pub const OVERLAY_COLOR: Color = Color::rgb(245, 245, 245);
-/// Colour of contact markers.
-pub const CONTACT_COLOR: Color = Color::rgb(255, 235, 80);
-/// Colour of launch-site markers.
-pub const SITE_COLOR: Color = Color::rgb(255, 255, 255);
-/// Colour of rest-point markers.
-pub const REST_COLOR: Color = Color::rgb(60, 230, 120);
-/// Colour of escape markers (last computed point).
-pub const ESCAPE_COLOR: Color = Color::rgb(255, 70, 70);
-/// Colour of the spin axis arrow.
-pub const SPIN_AXIS_COLOR: Color = Color::rgb(120, 200, 255);
+/// Colour of the overlaid other-frame trace (dark theme).
+pub const OVERLAY_COLOR: Color = Palette::dark().overlay_trace;
+/// Colour of contact markers (dark theme).
+pub const CONTACT_COLOR: Color = Palette::dark().contact;
+/// Colour of launch-site markers (dark theme).
+pub const SITE_COLOR: Color = Palette::dark().site;
+/// Colour of rest-point markers (dark theme).
+pub const REST_COLOR: Color = Palette::dark().rest;
+/// Colour of escape markers (last computed point, dark theme).
+pub const ESCAPE_COLOR: Color = Palette::dark().escape;
+/// Colour of the spin axis arrow (dark theme).
+pub const SPIN_AXIS_COLOR: Color = Palette::dark().spin_axis;
 
 /// A unit for display: `m^2/s^2` becomes `m²/s²`, the dimensionless `1` becomes empty.
 pub fn pretty_unit(unit: &str) -> String {
@@ -77,9 +69,9 @@ pub fn launch_color(index: usize) -> Color {
     LAUNCH_COLORS[index % LAUNCH_COLORS.len()]
 }
 
-/// The body-fixed view at time `t_s` for an image of `size_px` (width, height): the body at rest, traces as seen on the rotating body,
-/// markers for launch sites, contacts, rest points and particles, the spin axis and a colour bar
-/// when a map is shown.
+/// The body-fixed view at time `t_s` for an image of `size_px` (width, height): the body at
+/// rest, traces as seen on the rotating body, markers for launch sites, contacts, rest points
+/// and particles, the spin axis and a colour bar when a map is shown.
 pub fn body_fixed_scene(
     view: &BodyView,
     reports: &[FlightReport],
@@ -87,11 +79,11 @@ pub fn body_fixed_scene(
     opts: &ViewOptions,
     size_px: [u32; 2],
 ) -> Scene {
-    build(view, reports, t_s, opts, size_px, Frame::BodyFixed)
+    frame_scene(view, reports, t_s, opts, size_px, Frame::BodyFixed)
 }
 
-/// The inertial view at time `t_s` for an image of `size_px`: the body turned to its spin phase at `t_s`, traces as seen
-/// from space, particle positions at `t_s`.
+/// The inertial view at time `t_s` for an image of `size_px`: the body turned to its spin
+/// phase at `t_s`, traces as seen from space, particle positions at `t_s`.
 pub fn inertial_scene(
     view: &BodyView,
     reports: &[FlightReport],
@@ -99,10 +91,11 @@ pub fn inertial_scene(
     opts: &ViewOptions,
     size_px: [u32; 2],
 ) -> Scene {
-    build(view, reports, t_s, opts, size_px, Frame::Inertial)
+    frame_scene(view, reports, t_s, opts, size_px, Frame::Inertial)
 }
 
-/// The view of `frame` at time `t_s`.
+/// The view of `frame` at time `t_s` at the screen scale, with its 2D overlays (colour bar,
+/// triad, scale bar, legend) drawn over the view, as the app shows it.
 pub fn frame_scene(
     view: &BodyView,
     reports: &[FlightReport],
@@ -111,7 +104,22 @@ pub fn frame_scene(
     size_px: [u32; 2],
     frame: Frame,
 ) -> Scene {
-    build(view, reports, t_s, opts, size_px, frame)
+    let mut scene = build(view, reports, t_s, opts, frame, Sizing::screen());
+    add_overlays(&mut scene, view, reports, opts, size_px);
+    scene
+}
+
+/// The view of `frame` at time `t_s` for a figure: lines and markers sized by `sizing`, no 2D
+/// overlays (the figure's layout puts colour bar, legend, triad and scale bar beside the view).
+pub fn figure_scene(
+    view: &BodyView,
+    reports: &[FlightReport],
+    t_s: f64,
+    opts: &ViewOptions,
+    frame: Frame,
+    sizing: Sizing,
+) -> Scene {
+    build(view, reports, t_s, opts, frame, sizing)
 }
 
 fn build(
@@ -119,34 +127,35 @@ fn build(
     reports: &[FlightReport],
     t_s: f64,
     opts: &ViewOptions,
-    size_px: [u32; 2],
     frame: Frame,
+    sizing: Sizing,
 ) -> Scene {
     let body = view.body();
+    let pal = Palette::of(opts.theme);
+    let px = |reference_px: f32| sizing.scale_px(reference_px);
     let t_s = if t_s.is_finite() { t_s } else { 0.0 };
     // World-from-body rotation of this view at t.
     let world_from_body: Rotation3<f64> = match frame {
         Frame::BodyFixed => Rotation3::identity(),
         Frame::Inertial => body.inertial_from_body(t_s),
     };
-    let mut scene = Scene::default();
+    let mut scene = Scene {
+        background: pal.theme.background,
+        ..Scene::default()
+    };
 
     // The body.
-    let mut mesh = SceneMesh::new(
-        view.positions().clone(),
-        view.triangles().clone(),
-        BODY_GREY,
-    );
+    let mut mesh = SceneMesh::new(view.positions().clone(), view.triangles().clone(), pal.body);
     mesh.model = world_from_body.to_homogeneous();
     mesh.shading = if opts.smooth_shading {
         Shading::Smooth
     } else {
         Shading::Flat
     };
-    mesh.wireframe = opts.show_wireframe.then_some(Color::rgba(30, 30, 30, 110));
+    mesh.wireframe = opts.show_wireframe.then_some(pal.wireframe);
     let map_colors = opts
         .map
-        .and_then(|field| view.map_colors(field, opts.colormap));
+        .and_then(|field| view.map_colors_in(field, opts.colormap, opts.color_range));
     if let Some(mc) = &map_colors {
         mesh.colors = FaceColors::PerFace(mc.colors.clone());
     }
@@ -158,8 +167,8 @@ fn build(
         scene.arrows.push(Arrow {
             from: (-axis * radius_m * 1.25).into(),
             to: (axis * radius_m * 1.6).into(),
-            color: SPIN_AXIS_COLOR,
-            width_px: 2.5,
+            color: pal.spin_axis,
+            width_px: px(2.5),
         });
     }
 
@@ -168,9 +177,9 @@ fn build(
     for (i, report) in reports.iter().enumerate() {
         let selected = opts.selected_launch == Some(i);
         let dim = opts.selected_launch.is_some() && !selected;
-        let base = launch_color(i);
+        let base = pal.launch(i);
         let color = if dim { base.with_alpha(110) } else { base };
-        let width_px = if selected { 3.0 } else { 1.8 };
+        let width_px = px(if selected { 3.0 } else { 1.8 });
         let (own, other) = match frame {
             Frame::BodyFixed => (&report.trajectory_body, &report.trajectory_inertial),
             Frame::Inertial => (&report.trajectory_inertial, &report.trajectory_body),
@@ -190,24 +199,70 @@ fn build(
             let moved = trace::change_frame(body, other, change);
             scene.polylines.push(Polyline {
                 points: trace::points_until(&moved, cut),
-                color: LineColor::Uniform(OVERLAY_COLOR.with_alpha(if dim { 90 } else { 220 })),
+                color: LineColor::Uniform(pal.overlay_trace.with_alpha(if dim {
+                    90
+                } else {
+                    pal.overlay_trace.a
+                })),
                 width_px: (width_px * 0.6).max(1.0),
-                dash: Some((6.0, 5.0)),
+                dash: Some((px(6.0), px(5.0))),
                 occluded,
             });
         }
-        add_markers(&mut scene, view, report, t_s, frame, color, selected);
+        let look = MarkerLook {
+            pal: &pal,
+            color,
+            scale: px(if selected { 1.3 } else { 1.0 }),
+        };
+        add_markers(&mut scene, view, report, t_s, frame, &look);
     }
+    scene
+}
 
-    // 2D overlays.
-    if let Some(mc) = &map_colors {
+/// The legend entries of a view: traces, the other frame's trace, contact, rest and escape
+/// markers (by shape).
+pub fn legend_entries(opts: &ViewOptions) -> Vec<LegendEntry> {
+    let pal = Palette::of(opts.theme);
+    let mut entries = vec![LegendEntry::new(pal.launch(0), "trace", Swatch::Line)];
+    if opts.overlay_other_frame {
+        entries.push(LegendEntry::new(
+            pal.overlay_trace,
+            "other frame's trace",
+            Swatch::Dashed,
+        ));
+    }
+    entries.extend(
+        [
+            (pal.site, "launch site", MarkerShape::Ring),
+            (pal.contact, "contact", MarkerShape::Cross),
+            (pal.rest, "at rest", MarkerShape::Square),
+            (pal.escape, "escaped", MarkerShape::Diamond),
+        ]
+        .map(|(c, text, shape)| LegendEntry::new(c, text, Swatch::Marker(shape))),
+    );
+    entries
+}
+
+/// The colour map, range and label of the map shown with `opts`, if any.
+pub fn shown_map(view: &BodyView, opts: &ViewOptions) -> Option<MapColors> {
+    opts.map
+        .and_then(|field| view.map_colors_in(field, opts.colormap, opts.color_range))
+}
+
+fn add_overlays(
+    scene: &mut Scene,
+    view: &BodyView,
+    reports: &[FlightReport],
+    opts: &ViewOptions,
+    size_px: [u32; 2],
+) {
+    if let Some(mc) = &shown_map(view, opts) {
         let field = mc.field;
         scene.overlays.push(Overlay::ColorBar {
             colormap: mc.colormap,
             min: mc.min,
             max: mc.max,
             label: field_label(field),
-            ticks: 5,
             rect: color_bar_rect(size_px),
         });
     }
@@ -224,23 +279,19 @@ fn build(
         });
     }
     if opts.show_legend && !reports.is_empty() {
-        let mut entries = vec![(launch_color(0), "trace in this frame".to_string(), false)];
-        if opts.overlay_other_frame {
-            entries.push((
-                OVERLAY_COLOR,
-                "other frame's trace, transformed".to_string(),
-                true,
-            ));
-        }
-        entries.push((CONTACT_COLOR, "contact: cross".to_string(), false));
-        entries.push((REST_COLOR, "at rest: square".to_string(), false));
-        entries.push((ESCAPE_COLOR, "escaped: diamond".to_string(), false));
         scene.overlays.push(Overlay::Legend {
-            entries,
+            entries: legend_entries(opts),
             corner: Corner::TopLeft,
         });
     }
-    scene
+}
+
+/// Colours and size of one launch's markers.
+struct MarkerLook<'a> {
+    pal: &'a Palette,
+    color: Color,
+    /// Size factor (figure scale times the selection highlight).
+    scale: f32,
 }
 
 fn add_markers(
@@ -249,9 +300,9 @@ fn add_markers(
     report: &FlightReport,
     t_s: f64,
     frame: Frame,
-    color: Color,
-    selected: bool,
+    look: &MarkerLook,
 ) {
+    let (pal, color, scale) = (look.pal, look.color, look.scale);
     let body = view.body();
     let Some(first) = report.trajectory_body.first() else {
         return;
@@ -264,12 +315,11 @@ fn add_markers(
             Frame::Inertial => body.pos_inertial_from_body(at_s, p).into(),
         }
     };
-    let scale = if selected { 1.3 } else { 1.0 };
     scene.markers.push(Marker {
         position: on_body(&site_body, t_s),
         shape: MarkerShape::Ring,
         size_px: 11.0 * scale,
-        color: SITE_COLOR,
+        color: pal.site,
         occluded: Occluded::Faint(0.35),
     });
     // Contacts happen at a body point at a time; once passed they stay with the body.
@@ -282,7 +332,7 @@ fn add_markers(
             position: on_body(&p, t_s),
             shape: MarkerShape::Cross,
             size_px: 9.0 * scale,
-            color: CONTACT_COLOR,
+            color: pal.contact,
             occluded: Occluded::Faint(0.35),
         });
     }
@@ -296,9 +346,9 @@ fn add_markers(
     let end_t = last.t_s;
     if t_s >= end_t {
         let (shape, marker_color) = match &report.outcome {
-            Outcome::Escaped => (MarkerShape::Diamond, ESCAPE_COLOR),
-            Outcome::Landed => (MarkerShape::Square, REST_COLOR),
-            _ => (MarkerShape::Square, Color::LIGHT_GREY),
+            Outcome::Escaped => (MarkerShape::Diamond, pal.escape),
+            Outcome::Landed => (MarkerShape::Square, pal.rest),
+            _ => (MarkerShape::Square, pal.other_outcome),
         };
         let position = match (frame, report.trajectory_body.last()) {
             // A particle at rest rides on the body.
@@ -342,11 +392,12 @@ pub struct SiteMarker {
     pub selected: bool,
 }
 
-/// Colour of planned-site markers and launch arrows.
-pub const PLANNED_SITE_COLOR: Color = Color::rgb(255, 90, 200);
+/// Colour of planned-site markers and launch arrows (dark theme).
+pub const PLANNED_SITE_COLOR: Color = Palette::dark().planned_site;
 
 /// Marks planned launch sites (and the launch direction of those that have one) in a view of
-/// `frame` at `t_s`. The arrow is a tenth of the Brillouin radius long.
+/// `frame` at `t_s`, at the screen scale in the dark theme's colours. The arrow is a tenth of
+/// the Brillouin radius long.
 pub fn add_site_markers(
     scene: &mut Scene,
     view: &BodyView,
@@ -354,6 +405,28 @@ pub fn add_site_markers(
     t_s: f64,
     frame: Frame,
 ) {
+    add_site_markers_styled(
+        scene,
+        view,
+        sites,
+        t_s,
+        frame,
+        Sizing::screen(),
+        &Palette::dark(),
+    );
+}
+
+/// [`add_site_markers`] with a figure's sizing and palette.
+pub fn add_site_markers_styled(
+    scene: &mut Scene,
+    view: &BodyView,
+    sites: &[SiteMarker],
+    t_s: f64,
+    frame: Frame,
+    sizing: Sizing,
+    pal: &Palette,
+) {
+    let px = |reference_px: f32| sizing.scale_px(reference_px);
     let body = view.body();
     let world_from_body: Rotation3<f64> = match frame {
         Frame::BodyFixed => Rotation3::identity(),
@@ -365,8 +438,8 @@ pub fn add_site_markers(
         scene.markers.push(Marker {
             position: [p.x, p.y, p.z],
             shape: MarkerShape::Diamond,
-            size_px: if site.selected { 13.0 } else { 9.0 },
-            color: PLANNED_SITE_COLOR,
+            size_px: px(if site.selected { 13.0 } else { 9.0 }),
+            color: pal.planned_site,
             occluded: Occluded::Faint(0.4),
         });
         if let Some(d) = site.launch_dir_body {
@@ -375,8 +448,8 @@ pub fn add_site_markers(
             scene.arrows.push(Arrow {
                 from: [p.x, p.y, p.z],
                 to: [q.x, q.y, q.z],
-                color: PLANNED_SITE_COLOR,
-                width_px: if site.selected { 3.0 } else { 2.0 },
+                color: pal.planned_site,
+                width_px: px(if site.selected { 3.0 } else { 2.0 }),
             });
         }
     }

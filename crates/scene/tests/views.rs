@@ -3,105 +3,100 @@
 //! composite's halves.
 #![allow(clippy::unwrap_used, reason = "tests unwrap freely")]
 
-use std::sync::Arc;
-use std::sync::atomic::AtomicBool;
+mod common;
 
 use nalgebra::Point3;
-use spinfall_dynamics::scenario::Scenario;
-use spinfall_dynamics::{Body, FlightReport, FlightSettings, fly_all};
 use spinfall_render::{Color, Image, Scene};
 use spinfall_scene::{
-    BodyView, CompositeOptions, Frame, ViewOptions, composite, default_camera, trace,
+    CompositeOptions, FigureOptions, Frame, ViewOptions, build_figure, composite, default_camera,
+    trace,
 };
 
-/// The demo body with one launch from mid-latitudes, flown for at most two hours.
-fn demo_run() -> (Arc<BodyView>, Vec<FlightReport>) {
-    let mut scenario = Scenario::builtin_example();
-    scenario.launches.truncate(1);
-    scenario.launches[0].fan = None;
-    scenario.launches[0].dispersion = None;
-    scenario.launches[0].speed_m_s = Some(0.3);
-    let (shape, _) = spinfall_dynamics::scenario::builtin_quillon().unwrap();
-    let body: Body = scenario.build_body(shape).unwrap();
-    let launches = scenario.build_launches(&body).unwrap();
-    let mut settings = FlightSettings::default();
-    settings.integrator.max_time_s = 2.0 * 3600.0;
-    let body = Arc::new(body);
-    let reports = fly_all(
-        &body,
-        &launches,
-        &settings,
-        &|_, _| {},
-        &AtomicBool::new(false),
-    );
-    (Arc::new(BodyView::new(body)), reports)
-}
+use common::demo_run;
 
 fn background() -> Color {
     Scene::default().background
 }
 
-/// Fraction of pixels of `img` in columns `x0..x1` and rows `y0..` that differ from the
-/// background.
-fn coverage(img: &Image, x0: u32, x1: u32, y0: u32) -> f64 {
-    let bg = background();
-    let mut n = 0;
-    let mut hit = 0;
-    for y in y0..img.height {
-        for x in x0..x1 {
-            n += 1;
-            if img.get(x, y) != Some(bg) {
-                hit += 1;
-            }
-        }
-    }
-    hit as f64 / n as f64
+/// The rectangle of layout region `name`.
+fn region(fig: &spinfall_render::Figure, name: &str) -> spinfall_render::Rect {
+    fig.regions
+        .iter()
+        .find(|r| r.name == name)
+        .map(|r| r.rect)
+        .unwrap_or_else(|| panic!("no region {name}"))
 }
 
-/// Whether two images differ anywhere in columns `x0..x1`, rows `y0..`.
-fn differs(a: &Image, b: &Image, x0: u32, x1: u32, y0: u32) -> bool {
-    (y0..a.height).any(|y| (x0..x1).any(|x| a.get(x, y) != b.get(x, y)))
+/// Fraction of pixels of `img` inside `r` that differ from `bg`.
+fn coverage_in(img: &Image, r: spinfall_render::Rect, bg: Color) -> f64 {
+    let (x0, y0) = (r.x_px as u32, r.y_px as u32);
+    let (x1, y1) = (x0 + r.width_px as u32, y0 + r.height_px as u32);
+    let hit = (y0..y1)
+        .flat_map(|y| (x0..x1).map(move |x| (x, y)))
+        .filter(|&(x, y)| img.get(x, y) != Some(bg))
+        .count();
+    hit as f64 / ((x1 - x0) * (y1 - y0)) as f64
 }
 
 #[test]
-fn composite_halves_are_drawn_and_only_the_inertial_body_turns() {
+fn composite_views_are_drawn_and_only_the_inertial_body_turns() {
     let (view, reports) = demo_run();
     let opts = ViewOptions {
         trail_to_time: false,
         ..ViewOptions::default()
     };
-    let settings = CompositeOptions {
-        width_px: 644,
-        height_px: 300,
+    let fig_opts = FigureOptions {
+        size: spinfall_render::FigureSize::Pixels {
+            width_px: 644,
+            height_px: 300,
+        },
         supersample: 1,
-        gap_px: 4,
-        ..CompositeOptions::default()
+        ..FigureOptions::default()
     };
-    let (w, half) = (settings.width_px, (settings.width_px - settings.gap_px) / 2);
-    let img = composite(&view, &reports, 1200.0, &opts, &settings).unwrap();
-    assert_eq!((img.width, img.height), (w, 300));
+    let fig = build_figure(&view, &reports, 1200.0, &opts, &fig_opts).unwrap();
+    let img = fig.to_image();
+    assert_eq!((img.width, img.height), (644, 300));
+    let (left, right) = (region(&fig, "view 1"), region(&fig, "view 2"));
+    assert!(left.x_px + left.width_px <= right.x_px, "views overlap");
     assert!(
-        coverage(&img, 0, half, 0) > 0.05,
-        "body-fixed half is blank"
+        coverage_in(&img, left, background()) > 0.05,
+        "body-fixed view is blank"
     );
     assert!(
-        coverage(&img, half + 4, w, 0) > 0.05,
-        "inertial half is blank"
+        coverage_in(&img, right, background()) > 0.05,
+        "inertial view is blank"
     );
 
-    // Without flights nothing but the body's spin depends on time: below the title and time
-    // stamp, the body-fixed half is the same at t = 0 and t > 0 and the inertial half is not.
-    let t0 = composite(&view, &[], 0.0, &opts, &settings).unwrap();
-    let t1 = composite(&view, &[], 1500.0, &opts, &settings).unwrap();
-    let below_titles = 60;
-    assert!(
-        !differs(&t0, &t1, 0, half, below_titles),
-        "body-fixed half changed with t"
-    );
-    assert!(
-        differs(&t0, &t1, half + 4, w, below_titles),
-        "inertial body did not turn"
-    );
+    // Without flights nothing but the body's spin depends on time: the body-fixed view is the
+    // same at t = 0 and t > 0 and the inertial view is not.
+    let render_at = |t: f64| {
+        build_figure(&view, &[], t, &opts, &fig_opts)
+            .unwrap()
+            .to_image()
+    };
+    let (t0, t1) = (render_at(0.0), render_at(1500.0));
+    let in_rect = |r: spinfall_render::Rect| {
+        let (x0, y0) = (r.x_px as u32, r.y_px as u32);
+        (y0..y0 + r.height_px as u32)
+            .any(|y| (x0..x0 + r.width_px as u32).any(|x| t0.get(x, y) != t1.get(x, y)))
+    };
+    assert!(!in_rect(left), "body-fixed view changed with t");
+    assert!(in_rect(right), "inertial body did not turn");
+    // The composite helper draws the same figure.
+    let c = composite(
+        &view,
+        &reports,
+        1200.0,
+        &opts,
+        &CompositeOptions {
+            width_px: 644,
+            height_px: 300,
+            supersample: 1,
+            ..CompositeOptions::default()
+        },
+    )
+    .unwrap();
+    assert_eq!(c, img);
 }
 
 #[test]
@@ -207,6 +202,6 @@ fn too_small_composite_is_an_error() {
         },
     )
     .unwrap_err();
-    assert!(err.to_string().contains("20 x 10"), "{err}");
+    assert!(err.to_string().contains("20x10"), "{err}");
     let _ = Frame::BodyFixed.title();
 }

@@ -148,7 +148,7 @@ impl WorkflowError {
     }
 
     /// An output error for `path` with a message.
-    pub(crate) fn output_msg(path: impl Into<PathBuf>, message: impl Into<String>) -> Self {
+    pub fn output_msg(path: impl Into<PathBuf>, message: impl Into<String>) -> Self {
         WorkflowError::Output {
             path: path.into(),
             message: message.into(),

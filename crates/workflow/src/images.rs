@@ -126,7 +126,6 @@ pub fn render_image(
                     width_px: w,
                     height_px: h,
                     supersample: 2,
-                    gap_px: GAP_PX,
                     body_camera: req.cameras[0].clone(),
                     inertial_camera: req.cameras[1].clone(),
                     sites: req.sites.clone(),

@@ -66,3 +66,28 @@ pub fn flight_series(body: &Body, report: &FlightReport, max_samples: usize) -> 
     }
     out
 }
+
+/// The series of the launches `launches` of `reports`, for the plot figures of
+/// `spinfall_scene::plots` (the same numbers as the app's plots).
+pub fn plot_series(
+    body: &Body,
+    reports: &[FlightReport],
+    launches: &[usize],
+    max_samples: usize,
+) -> Vec<spinfall_scene::plots::PlotSeries> {
+    use rayon::prelude::*;
+    launches
+        .par_iter()
+        .filter(|&&i| i < reports.len())
+        .map(|&i| {
+            let s = flight_series(body, &reports[i], max_samples);
+            spinfall_scene::plots::PlotSeries {
+                launch: i,
+                altitude_m: s.altitude_m,
+                speed_body_m_s: s.speed_body_m_s,
+                speed_inertial_m_s: s.speed_inertial_m_s,
+                jacobi_rel: s.jacobi_rel,
+            }
+        })
+        .collect()
+}

@@ -1,0 +1,311 @@
+//! Plots of flights: altitude, speed and Jacobi-constant drift against time, and landing
+//! positions on a latitude/longitude map of the body with a surface map behind. The time
+//! series ([`PlotSeries`]) are computed by the caller (the workflow's `series`, which the app
+//! uses too): this crate draws, it does no physics of its own.
+
+use std::sync::Arc;
+
+use nalgebra::Point3;
+use spinfall_dynamics::site::{direction_from_lat_lon, lat_lon_deg};
+use spinfall_dynamics::surface_map::SurfaceField;
+use spinfall_dynamics::FlightReport;
+use spinfall_render::{
+    Color, Figure, FigureSize, Image, LegendEntry, MarkerShape, PlotAxis, PlotImage, PlotMarker,
+    PlotSpec, Series, Style, Swatch, plot_figure,
+};
+
+use crate::body_view::BodyView;
+use crate::error::{Result, SceneError};
+use crate::palette::Palette;
+use crate::scenes::field_label;
+
+/// Time series of one launch.
+#[derive(Debug, Clone, Default)]
+pub struct PlotSeries {
+    /// Index of the launch.
+    pub launch: usize,
+    /// `[t_s, altitude_m]`.
+    pub altitude_m: Vec<[f64; 2]>,
+    /// `[t_s, speed relative to the surface m/s]`.
+    pub speed_body_m_s: Vec<[f64; 2]>,
+    /// `[t_s, inertial speed m/s]`.
+    pub speed_inertial_m_s: Vec<[f64; 2]>,
+    /// `[t_s, (C - C0)/|C0|]` of the Jacobi constant in the body frame.
+    pub jacobi_rel: Vec<[f64; 2]>,
+}
+
+/// Which plot.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum PlotKind {
+    /// Altitude above the surface (along the radial line) against time.
+    Altitude,
+    /// Speed relative to the surface (and inertial speed for a single launch) against time.
+    Speed,
+    /// Relative drift of the Jacobi constant against time.
+    JacobiDrift,
+    /// Landing (rest) positions on a latitude/longitude map with a surface map behind.
+    Landing,
+}
+
+/// Most launches drawn with their own legend entry (more get one entry for all).
+const MAX_LEGEND_LAUNCHES: usize = 8;
+
+fn launch_legend(reports: &[FlightReport], chosen: &[usize], pal: &Palette) -> Vec<LegendEntry> {
+    if chosen.len() > MAX_LEGEND_LAUNCHES {
+        return vec![LegendEntry::new(
+            pal.launch(0),
+            format!("{} launches (colours cycle)", chosen.len()),
+            Swatch::Line,
+        )];
+    }
+    chosen
+        .iter()
+        .map(|&i| LegendEntry::new(pal.launch(i), reports[i].id.clone(), Swatch::Line))
+        .collect()
+}
+
+/// The data of a time plot of `kind` for the launches `chosen`.
+fn time_plot(
+    series: &[PlotSeries],
+    reports: &[FlightReport],
+    chosen: &[usize],
+    kind: PlotKind,
+    pal: &Palette,
+) -> PlotSpec {
+    let series: Vec<&PlotSeries> = chosen
+        .iter()
+        .filter_map(|&i| series.iter().find(|s| s.launch == i))
+        .collect();
+    let mut spec = PlotSpec {
+        x: PlotAxis {
+            label: "time after launch (s)".into(),
+            ..PlotAxis::default()
+        },
+        legend: launch_legend(reports, chosen, pal),
+        ..PlotSpec::default()
+    };
+    let line = |i: usize, points: &[[f64; 2]], dashed: bool| Series {
+        color: pal.launch(i),
+        points: points.to_vec(),
+        dashed,
+    };
+    match kind {
+        PlotKind::Altitude => {
+            spec.title = "Altitude above the surface".into();
+            spec.y.label = "altitude (m)".into();
+            spec.series = series
+                .iter()
+                .map(|s| line(s.launch, &s.altitude_m, false))
+                .collect();
+        }
+        PlotKind::Speed => {
+            spec.title = "Speed".into();
+            spec.y.label = "speed (m/s)".into();
+            spec.series = series
+                .iter()
+                .map(|s| line(s.launch, &s.speed_body_m_s, false))
+                .collect();
+            if chosen.len() == 1 {
+                spec.series.extend(
+                    series
+                        .iter()
+                        .map(|s| line(s.launch, &s.speed_inertial_m_s, true)),
+                );
+                spec.legend = vec![
+                    LegendEntry::new(
+                        pal.launch(chosen[0]),
+                        "relative to the surface",
+                        Swatch::Line,
+                    ),
+                    LegendEntry::new(pal.launch(chosen[0]), "inertial", Swatch::Dashed),
+                ];
+            } else {
+                spec.notes
+                    .push("speed relative to the rotating surface".into());
+            }
+        }
+        // (The landing map is drawn by `landing_plot`.)
+        PlotKind::JacobiDrift | PlotKind::Landing => {
+            spec.title = "Jacobi constant drift".into();
+            spec.y.label = "(C − C₀) / |C₀|".into();
+            spec.series = series
+                .iter()
+                .map(|s| line(s.launch, &s.jacobi_rel, false))
+                .collect();
+            if chosen.iter().any(|&i| !reports[i].contacts.is_empty()) {
+                spec.notes.push(
+                    "steps at contacts are energy lost in bounces, not integration error".into(),
+                );
+            }
+        }
+    }
+    spec
+}
+
+/// A latitude/longitude raster of `field` on the body: for each pixel the face met coming in
+/// along the radial line at that latitude and longitude, coloured through the map.
+fn lat_lon_image(
+    view: &BodyView,
+    field: SurfaceField,
+    colormap: spinfall_render::Colormap,
+    range: Option<[f64; 2]>,
+    width_px: u32,
+) -> Option<(Image, f64, f64)> {
+    let colors = view.map_colors_in(field, colormap, range)?;
+    let body = view.body();
+    let (w, h) = (width_px.clamp(16, 2048), (width_px / 2).clamp(8, 1024));
+    let far = body.brillouin_radius_m() * 2.0 + 1.0;
+    let mut img = Image::new(w, h, Color::GREY);
+    for y in 0..h {
+        let lat = 90.0 - (y as f64 + 0.5) * 180.0 / h as f64;
+        for x in 0..w {
+            let lon = -180.0 + (x as f64 + 0.5) * 360.0 / w as f64;
+            let d = direction_from_lat_lon(body, lat, lon);
+            let origin = Point3::from(d * far);
+            if let Some(hit) = body.shape.ray_first_hit(&origin, &(-d), far)
+                && let Some(c) = colors.colors.get(hit.face)
+            {
+                img.set(x, y, *c);
+            }
+        }
+    }
+    Some((img, colors.min, colors.max))
+}
+
+fn landing_plot(
+    view: &BodyView,
+    reports: &[FlightReport],
+    chosen: &[usize],
+    field: SurfaceField,
+    pal: &Palette,
+) -> PlotSpec {
+    let body = view.body();
+    let mut markers = Vec::new();
+    let mut landed = 0;
+    for &i in chosen {
+        let r = &reports[i];
+        let launch = lat_lon_deg(body, &Point3::from(r.launch_pos_body_m));
+        markers.push(PlotMarker {
+            x: launch.1,
+            y: launch.0,
+            shape: MarkerShape::Ring,
+            color: pal.site,
+        });
+        if let Some(l) = &r.landing {
+            landed += 1;
+            markers.push(PlotMarker {
+                x: l.lon_deg,
+                y: l.lat_deg,
+                shape: MarkerShape::Square,
+                color: pal.launch(i),
+            });
+        }
+    }
+    let colormap = spinfall_render::Colormap::Viridis;
+    let image = lat_lon_image(view, field, colormap, None, 720).map(|(img, min, max)| PlotImage {
+        image: Arc::new(img),
+        colormap,
+        min,
+        max,
+        label: field_label(field),
+    });
+    let degrees =
+        |lo: f64, hi: f64| Some((0..=12).map(|k| lo + (hi - lo) * k as f64 / 12.0).collect());
+    PlotSpec {
+        title: "Landing positions".into(),
+        notes: vec![format!(
+            "{landed} of {} launches came to rest (squares, launch colours); rings: launch sites",
+            chosen.len()
+        )],
+        x: PlotAxis {
+            label: "longitude (deg)".into(),
+            range: Some([-180.0, 180.0]),
+            ticks: degrees(-180.0, 180.0),
+        },
+        y: PlotAxis {
+            label: "latitude (deg)".into(),
+            range: Some([-90.0, 90.0]),
+            ticks: degrees(-90.0, 90.0).map(|v: Vec<f64>| v.into_iter().step_by(2).collect()),
+        },
+        markers,
+        image,
+        legend: launch_legend(reports, chosen, pal)
+            .into_iter()
+            .map(|e| LegendEntry {
+                swatch: Swatch::Marker(MarkerShape::Square),
+                ..e
+            })
+            .chain([LegendEntry::new(
+                pal.site,
+                "launch site",
+                Swatch::Marker(MarkerShape::Ring),
+            )])
+            .collect(),
+        ..PlotSpec::default()
+    }
+}
+
+/// Settings of a plot figure.
+#[derive(Debug, Clone)]
+pub struct PlotOptions {
+    /// Which plot.
+    pub kind: PlotKind,
+    /// Size.
+    pub size: FigureSize,
+    /// Colours.
+    pub theme: spinfall_render::ThemeKind,
+    /// Only this launch (index into the reports); `None`: all.
+    pub launch: Option<usize>,
+    /// Surface field behind the landing map (needs the body view's map).
+    pub field: SurfaceField,
+}
+
+/// The plot as a figure (PNG through [`Figure::to_image`], SVG through
+/// [`spinfall_render::write_svg`]); time plots draw `series` (one per launch plotted, matched by
+/// [`PlotSeries::launch`]).
+pub fn plot(
+    view: &BodyView,
+    reports: &[FlightReport],
+    series: &[PlotSeries],
+    opts: &PlotOptions,
+) -> Result<Figure> {
+    let (w, h, sizing) = opts.size.resolve()?;
+    let pal = Palette::of(opts.theme);
+    let chosen: Vec<usize> = match opts.launch {
+        Some(i) if i < reports.len() => vec![i],
+        Some(i) => {
+            return Err(SceneError::Settings(format!(
+                "launch {i} does not exist ({} launches)",
+                reports.len()
+            )));
+        }
+        None => (0..reports.len()).collect(),
+    };
+    if chosen.is_empty() {
+        return Err(SceneError::Settings("no launches to plot".into()));
+    }
+    let spec = match opts.kind {
+        PlotKind::Landing => {
+            if view.map().is_none() {
+                return Err(SceneError::Settings(
+                    "the landing map needs the surface map of the body".into(),
+                ));
+            }
+            landing_plot(view, reports, &chosen, opts.field, &pal)
+        }
+        kind => time_plot(series, reports, &chosen, kind, &pal),
+    };
+    let mut fig = plot_figure(&spec, w, h, &Style::new(sizing, pal.theme))?;
+    fig.dpi = opts.size.dpi();
+    fig.size_mm = opts.size.size_mm().map(|(a, b)| [a, b]);
+    fig.metadata = vec![
+        (
+            "Software".into(),
+            "Spinfall (research and planning tool, not flight-certified)".into(),
+        ),
+        ("Title".into(), spec.title.clone()),
+        ("Theme".into(), opts.theme.name().into()),
+        ("Launches".into(), chosen.len().to_string()),
+    ];
+    Ok(fig)
+}
