@@ -108,9 +108,11 @@ pub fn run(args: &AnimateArgs) -> CmdResult<ExitCode> {
             // Each frame written completely as it is rendered (never all held in memory).
             let mut write_frame = |i: u32, image: &spinfall_render::Image| {
                 let path = folder.path().join(frame_name(i));
-                write_file(&OutputTarget::Path(path.clone()), |w| write_png(w, image, &[]))
-                    .map(|_| ())
-                    .map_err(|e| e.to_string())
+                write_file(&OutputTarget::Path(path.clone()), |w| {
+                    write_png(w, image, &[])
+                })
+                .map(|_| ())
+                .map_err(|e| e.to_string())
             };
             render_frames(
                 &view,

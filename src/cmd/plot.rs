@@ -53,7 +53,8 @@ pub fn run(args: &PlotArgs) -> CmdResult<ExitCode> {
         launch,
         field: map_field(args.map),
     };
-    let figure = plot(&view, &reports, &series, &opts).map_err(|e| CliError::input(e.to_string()))?;
+    let figure =
+        plot(&view, &reports, &series, &opts).map_err(|e| CliError::input(e.to_string()))?;
     write_figure(&out, format, &figure)?;
     note(&format!(
         "wrote {}x{} plot to {}",

@@ -173,7 +173,11 @@ pub(super) fn check_figure_output(path: &Path) -> CmdResult<(CheckedFile, StillF
 }
 
 /// Writes a still figure as PNG (raster, metadata in text chunks) or SVG.
-pub(super) fn write_figure(out: &CheckedFile, format: StillFormat, figure: &Figure) -> CmdResult<()> {
+pub(super) fn write_figure(
+    out: &CheckedFile,
+    format: StillFormat,
+    figure: &Figure,
+) -> CmdResult<()> {
     match format {
         StillFormat::Png => {
             let image = figure.to_image();

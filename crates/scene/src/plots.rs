@@ -6,9 +6,9 @@
 use std::sync::Arc;
 
 use nalgebra::Point3;
+use spinfall_dynamics::FlightReport;
 use spinfall_dynamics::site::{direction_from_lat_lon, lat_lon_deg};
 use spinfall_dynamics::surface_map::SurfaceField;
-use spinfall_dynamics::FlightReport;
 use spinfall_render::{
     Color, Figure, FigureSize, Image, LegendEntry, MarkerShape, PlotAxis, PlotImage, PlotMarker,
     PlotSpec, Series, Style, Swatch, plot_figure,

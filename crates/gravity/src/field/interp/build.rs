@@ -130,7 +130,11 @@ struct Source {
 }
 
 struct Poly {
+    /// Basis coefficients (constant first), evaluated by the recurrences of `solid` when
+    /// `monomials` is `None` (degrees above `MONOMIAL_MAX_DEGREE`).
     coef: Vec<f64>,
+    /// The same polynomial in monomials, for fast evaluation.
+    monomials: Option<Vec<f64>>,
     space: Space,
     degree: usize,
     center: [f64; 3],
@@ -146,7 +150,11 @@ impl Poly {
             (p.y - self.center[1]) / h,
             (p.z - self.center[2]) / h,
         ];
-        let j = solid::eval::<true>(self.space, self.degree, &self.coef, xi);
+        let solver = Solver::get(self.space, self.degree);
+        let j = match (&self.monomials, solver.layout()) {
+            (Some(m), Some(layout)) => super::fit::monomial_jet::<true>(layout, m, xi),
+            _ => solid::eval::<true>(self.space, self.degree, &self.coef, xi),
+        };
         SetJet {
             potential: j.value,
             grad: j.grad.map(|g| g / h),
@@ -419,9 +427,12 @@ impl Builder<'_> {
         }
         let source = if let Some(i) = source {
             let (p, err) = errors[i];
+            let coef = full(i);
+            let monomials = Solver::get(space, p).monomials(&coef);
             Arc::new(Source {
                 poly: Some(Poly {
-                    coef: full(i),
+                    monomials,
+                    coef,
                     space,
                     degree: p,
                     center: cell.center,
