@@ -177,7 +177,7 @@ pub(super) fn scenario_metadata(prepared: &PreparedRun, launches: usize) -> Vec<
                 spin.phase_rad.to_degrees()
             ),
         ),
-        ("Gravity".into(), prepared.field.describe()),
+        ("Gravity".into(), prepared.field.describe_method()),
         ("Launches".into(), launches.to_string()),
     ]
 }

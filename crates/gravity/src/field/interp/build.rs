@@ -673,6 +673,18 @@ pub fn build_interpolated(
                 _ => None,
             })
             .collect();
+        if std::env::var("SPINFALL_TRACE_LEVELS").is_ok() {
+            let fitted = outcomes.iter().flatten().count();
+            eprintln!(
+                "level {depth}: {} cells ({} from the exact field, {} from a source), {:.1} s,                  {} full evaluations, {:.2e} ring terms so far",
+                level.len(),
+                exact_cells.len(),
+                fitted.saturating_sub(exact_cells.len()),
+                start.elapsed().as_secs_f64(),
+                builder.full_evaluations.load(Ordering::Relaxed),
+                builder.ring_face_terms.load(Ordering::Relaxed) as f64
+            );
+        }
         let mut next = Vec::new();
         for (cell, out) in level.into_iter().zip(outcomes) {
             let Some(out) = out else {
