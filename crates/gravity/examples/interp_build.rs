@@ -126,6 +126,24 @@ fn main() {
         }
         worst_u = worst_u.max((g.0 - w.0).abs() / w.0.abs());
     }
+    // Query time near the surface (the first 600 points) and away from it (the rest), each
+    // point queried 20 times.
+    let time_of = |set: &[Point3<f64>]| {
+        let t = Instant::now();
+        let mut acc = 0.0;
+        for _ in 0..20 {
+            for p in set {
+                acc += field.potential_acceleration(p).0;
+            }
+        }
+        std::hint::black_box(acc);
+        t.elapsed().as_secs_f64() * 1e6 / (20 * set.len().max(1)) as f64
+    };
+    println!(
+        "query: {:.2} us/point within 5 facets of the surface, {:.2} us/point in the volume",
+        time_of(&pts[..600]),
+        time_of(&pts[600..])
+    );
     println!(
         "{} test points: worst relative acceleration error {worst:.2e} (bound {bound:e}), potential {worst_u:.2e}; \
          exact batch {:.1} us/point (2 cores), interpolated {:.2} us/point (1 core)",

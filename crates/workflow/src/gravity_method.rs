@@ -59,19 +59,19 @@ impl GravityOptions {
 /// # Errors
 /// [`WorkflowError::Invalid`] naming the value.
 pub fn check_field(spec: &FieldSpec) -> Result<()> {
-    if spec.method == FieldMethodSpec::Interpolated {
-        let e = spec.max_rel_error;
-        if !(1e-12..=1e-3).contains(&e) {
-            return Err(WorkflowError::Invalid(format!(
-                "field: max_rel_error {e} is outside [1e-12, 1e-3] (the interpolated field's \
-                 relative acceleration error)"
-            )));
-        }
-        if spec.max_memory_mb == Some(0) {
-            return Err(WorkflowError::Invalid(
-                "field: max_memory_mb must be at least 1".into(),
-            ));
-        }
+    // Checked whatever the method: a value out of range is a mistake even while unused, and
+    // would surface only when the method is switched.
+    let e = spec.max_rel_error;
+    if !(1e-12..=1e-3).contains(&e) {
+        return Err(WorkflowError::Invalid(format!(
+            "field: max_rel_error {e} is outside [1e-12, 1e-3] (the interpolated field's \
+             relative acceleration error)"
+        )));
+    }
+    if spec.max_memory_mb == Some(0) {
+        return Err(WorkflowError::Invalid(
+            "field: max_memory_mb must be at least 1".into(),
+        ));
     }
     Ok(())
 }

@@ -10,7 +10,7 @@ use rayon::prelude::*;
 use super::face_set::{FaceGeometry, SetJet, set_jets};
 use super::fit::{MONOMIAL_MAX_DEGREE, Pattern, ROWS_PER_POINT, Solver, Space};
 use super::solid;
-use super::{BuildStats, InterpolatedGravity, InterpolationSettings, Node};
+use super::{BuildStats, InterpolatedGravity, InterpolationSettings, Node, lattice_point};
 use crate::error::{GravityError, Result};
 use crate::field::exterior::Exterior;
 use crate::field::tables::Tables;
@@ -62,7 +62,6 @@ const EXTERIOR_DEGREES: [usize; 5] = [12, 16, 20, 24, 28];
 /// Switch radius aimed at, Brillouin radii: beyond it the octree would hold many cells far from
 /// the body that the expansion covers more cheaply.
 const SWITCH_TARGET: f64 = 3.0;
-
 
 /// The near-set radius of a leaf, in cell half-widths, for a bound: larger for tighter bounds
 /// (the fit's error falls like `(corner distance / near radius)^p`), small for fast leaves.
@@ -168,6 +167,8 @@ impl Poly {
 /// A cell waiting to be fitted.
 struct Pending {
     node: usize,
+    /// Lattice index of the cell among those of its depth (see [`lattice_point`]).
+    index: [i64; 3],
     center: [f64; 3],
     half_m: f64,
     depth: usize,
@@ -191,19 +192,33 @@ impl Pending {
         }
     }
 
-    /// The cell's fit and check points, in metres.
-    fn template_points(&self) -> Vec<Point3<f64>> {
+    /// The cell's fit and check points, in metres, placed on the lattice so that the fit
+    /// points on a side shared with a neighbour are the same to the bit in both cells.
+    fn template_points(&self, b: &Builder<'_>) -> Vec<Point3<f64>> {
         let t = Pattern::get(self.space());
         t.fit_points
             .iter()
             .chain(&t.check_points)
             .map(|xi| {
-                Point3::new(
-                    self.center[0] + self.half_m * xi[0],
-                    self.center[1] + self.half_m * xi[1],
-                    self.center[2] + self.half_m * xi[2],
-                )
+                let p = lattice_point(
+                    b.root_center,
+                    b.root_half_m,
+                    self.half_m,
+                    self.index,
+                    xi.map(|x| 0.5 * (1.0 + x)),
+                );
+                Point3::new(p[0], p[1], p[2])
             })
+            .collect()
+    }
+
+    /// Lattice keys of the fit points (same order as [`Pending::template_points`]): equal
+    /// keys, equal points, within one depth.
+    fn fit_keys(&self) -> Vec<[i64; 3]> {
+        let t = Pattern::get(self.space());
+        t.fit_keys
+            .iter()
+            .map(|k| std::array::from_fn(|a| self.index[a] * t.key_stride + k[a]))
             .collect()
     }
 }
@@ -257,6 +272,8 @@ struct Builder<'a> {
     leaf_kappa: f64,
     source_kappa: f64,
     com: [f64; 3],
+    root_center: [f64; 3],
+    root_half_m: f64,
     switch_radius_m: f64,
     all_faces: Arc<Vec<u32>>,
     full_evaluations: AtomicU64,
@@ -310,7 +327,7 @@ impl Builder<'_> {
     fn prepare(&self, cell: &Pending, exact_at: Option<&[SetJet]>) -> Prepared {
         let t = Pattern::get(cell.space());
         let h = cell.half_m;
-        let points = cell.template_points();
+        let points = cell.template_points(self);
         let mut scratch = Vec::new();
         let near_tables = Tables::from_face_set(self.geometry, &cell.fit_near);
         let near = set_jets::<true>(&near_tables, &points, &mut scratch);
@@ -560,19 +577,37 @@ pub fn build_interpolated(
     let com = exact.center_of_mass_m();
     let r_b = exact.brillouin_radius_m();
     // Switch radius and exterior degree: where the expansion's rigorous bound is a quarter of
-    // the budget, relative to the smallest gravity on that sphere (sampled with the exact
-    // field in 256 directions, less a tenth for the directions between them).
-    let dirs = sphere_directions(256);
+    // the budget, relative to the smallest gravity on that sphere. That smallest gravity is
+    // sampled once, with the exact field in 128 directions on spheres of 1 to 12 Brillouin
+    // radii (a tenth taken off for the directions between); between two spheres the smaller
+    // of their values is used.
+    let dirs = sphere_directions(128);
     let gm_per = exact.gm_m3_s2();
+    let radii: Vec<f64> = (0..=24).map(|k| 12f64.powf(k as f64 / 24.0)).collect();
+    let sample_points: Vec<Point3<f64>> = radii
+        .iter()
+        .flat_map(|m| dirs.iter().map(move |d| com + d * (m * r_b)))
+        .collect();
+    let sampled = exact.potential_acceleration_batch(&sample_points);
+    let ratios: Vec<f64> = radii
+        .iter()
+        .enumerate()
+        .map(|(k, m)| {
+            let r = m * r_b;
+            let min = sampled[k * dirs.len()..(k + 1) * dirs.len()]
+                .iter()
+                .map(|(_, a)| a.norm())
+                .fold(f64::INFINITY, f64::min);
+            0.9 * min * r * r / gm_per
+        })
+        .collect();
     let g_ratio = |r_multiple: f64| -> f64 {
-        let r = r_multiple * r_b;
-        let pts: Vec<Point3<f64>> = dirs.iter().map(|d| com + d * r).collect();
-        let min = exact
-            .potential_acceleration_batch(&pts)
-            .iter()
-            .map(|(_, a)| a.norm())
-            .fold(f64::INFINITY, f64::min);
-        0.9 * min * r * r / gm_per
+        match radii.iter().position(|m| *m >= r_multiple) {
+            Some(0) => ratios[0],
+            Some(k) => ratios[k].min(ratios[k - 1]),
+            // Beyond the last sphere gravity is within a few per cent of a point mass's.
+            None => ratios[radii.len() - 1].min(0.9),
+        }
     };
     let (exterior_degree, switch_multiple) = exterior_choice(settings.max_rel_error, &g_ratio);
     let switch_radius_m = switch_multiple * r_b;
@@ -586,6 +621,8 @@ pub fn build_interpolated(
         leaf_kappa: leaf_kappa(settings.max_rel_error),
         source_kappa: source_kappa(settings.max_rel_error),
         com: [com.x, com.y, com.z],
+        root_center: [com.x, com.y, com.z],
+        root_half_m: switch_radius_m,
         switch_radius_m,
         all_faces: Arc::clone(&all_faces),
         full_evaluations: AtomicU64::new(0),
@@ -602,9 +639,17 @@ pub fn build_interpolated(
         near: Arc::clone(&all_faces),
         error: 0.0,
     });
+    let root_center = [com.x, com.y, com.z];
     let mut level = vec![Pending {
         node: 0,
-        center: [com.x, com.y, com.z],
+        index: [0; 3],
+        center: lattice_point(
+            root_center,
+            switch_radius_m,
+            switch_radius_m,
+            [0; 3],
+            [0.5; 3],
+        ),
         half_m: switch_radius_m,
         depth: 0,
         near: Arc::clone(&all_faces),
@@ -624,18 +669,38 @@ pub fn build_interpolated(
         let exact_cells: Vec<usize> = (0..level.len())
             .filter(|&k| kinds[k].is_none() && level[k].source.poly.is_none())
             .collect();
+        // Fit points on sides shared by two such cells are evaluated once.
         let mut exact_points = Vec::new();
-        let mut offsets = Vec::with_capacity(exact_cells.len() + 1);
+        let mut point_of_key: std::collections::HashMap<[i64; 3], u32> =
+            std::collections::HashMap::new();
+        let mut gather: Vec<Vec<u32>> = Vec::with_capacity(exact_cells.len());
         for &k in &exact_cells {
-            offsets.push(exact_points.len());
-            exact_points.extend(level[k].template_points());
+            let cell = &level[k];
+            let points = cell.template_points(&builder);
+            let keys = cell.fit_keys();
+            let mut idx = Vec::with_capacity(points.len());
+            for (j, p) in points.iter().enumerate() {
+                let mut push = || {
+                    exact_points.push(*p);
+                    (exact_points.len() - 1) as u32
+                };
+                idx.push(match keys.get(j) {
+                    Some(key) => *point_of_key.entry(*key).or_insert_with(push),
+                    None => push(),
+                });
+            }
+            gather.push(idx);
         }
-        offsets.push(exact_points.len());
+        drop(point_of_key);
         let g_rho = crate::field::G_SI * exact.density_kg_m3();
-        let exact_jets: Vec<SetJet> = exact
-            .evaluate_batch(&exact_points)
-            .iter()
-            .map(|s| {
+        let mut exact_jets: Vec<SetJet> = Vec::with_capacity(exact_points.len());
+        // In chunks, so that a cancel is seen within a second or so on large meshes.
+        let chunk = (4_000_000 / nf.max(1)).clamp(16, 4096);
+        for points in exact_points.chunks(chunk) {
+            if cancel.load(Ordering::Relaxed) {
+                return Err(GravityError::Cancelled);
+            }
+            exact_jets.extend(exact.evaluate_batch(points).iter().map(|s| {
                 let g = s.gradient_s2 / g_rho;
                 SetJet {
                     potential: s.potential_m2_s2 / g_rho,
@@ -654,15 +719,16 @@ pub fn build_interpolated(
                     ],
                     omega: 0.0,
                 }
-            })
-            .collect();
+            }));
+        }
         builder
             .full_evaluations
             .fetch_add(exact_points.len() as u64, Ordering::Relaxed);
-        let mut exact_slice: Vec<Option<&[SetJet]>> = vec![None; level.len()];
-        for (i, &k) in exact_cells.iter().enumerate() {
-            exact_slice[k] = Some(&exact_jets[offsets[i]..offsets[i + 1]]);
+        let mut exact_of: Vec<Option<Vec<SetJet>>> = vec![None; level.len()];
+        for (idx, &k) in gather.iter().zip(&exact_cells) {
+            exact_of[k] = Some(idx.iter().map(|&i| exact_jets[i as usize]).collect());
         }
+        drop(exact_jets);
         if cancel.load(Ordering::Relaxed) {
             return Err(GravityError::Cancelled);
         }
@@ -682,12 +748,12 @@ pub fn build_interpolated(
         let preps: Vec<Option<Prepared>> = level
             .par_iter()
             .zip(kinds.par_iter())
-            .zip(exact_slice.par_iter())
+            .zip(exact_of.par_iter())
             .map(|((cell, kind), ex)| {
                 if kind.is_some() || cancel.load(Ordering::Relaxed) {
                     return None;
                 }
-                let p = builder.prepare(cell, *ex);
+                let p = builder.prepare(cell, ex.as_deref());
                 report(1);
                 Some(p)
             })
@@ -702,7 +768,7 @@ pub fn build_interpolated(
         for (i, &k) in fitted.iter().enumerate() {
             fit_of[k] = Some(&fits[i]);
         }
-        let outcomes: Vec<Option<Outcome>> = kinds
+        let mut outcomes: Vec<Option<Outcome>> = kinds
             .into_par_iter()
             .zip(level.par_iter())
             .zip(preps.par_iter().zip(fit_of.par_iter()))
@@ -712,6 +778,56 @@ pub fn build_interpolated(
                 _ => None,
             })
             .collect();
+        drop(preps);
+        // Cells that failed as leaves feed their children from the same source unless they
+        // become one: fitted again without the faces out to the source radius (a smoother
+        // remainder), a pass that lets their children sum those faces instead of the whole mesh.
+        let retry: Vec<usize> = (0..level.len())
+            .filter(|&k| {
+                let cell = &level[k];
+                matches!(&outcomes[k], Some(Outcome::Split { source })
+                    if Arc::ptr_eq(source, &cell.source))
+                    && cell.leaf_candidate
+                    && cell.near.len() > cell.fit_near.len()
+            })
+            .collect();
+        if !retry.is_empty() {
+            let cells: Vec<Pending> = retry
+                .iter()
+                .map(|&k| {
+                    let c = &level[k];
+                    Pending {
+                        node: c.node,
+                        index: c.index,
+                        center: c.center,
+                        half_m: c.half_m,
+                        depth: c.depth,
+                        near: Arc::clone(&c.near),
+                        fit_near: Arc::clone(&c.near),
+                        leaf_candidate: false,
+                        source: Arc::clone(&c.source),
+                    }
+                })
+                .collect();
+            let preps: Vec<Prepared> = cells
+                .par_iter()
+                .zip(retry.par_iter())
+                .map(|(cell, &k)| builder.prepare(cell, exact_of[k].as_deref()))
+                .collect();
+            let refs: Vec<&Prepared> = preps.iter().collect();
+            let fits = fit_all(&refs);
+            let decided: Vec<Outcome> = cells
+                .par_iter()
+                .zip(preps.par_iter().zip(fits.par_iter()))
+                .map(|(cell, (prep, coefs))| builder.decide(cell, prep, coefs))
+                .collect();
+            for (&k, out) in retry.iter().zip(decided) {
+                if let Outcome::Split { source } = out {
+                    outcomes[k] = Some(Outcome::Split { source });
+                }
+            }
+        }
+        drop(exact_of);
         if std::env::var("SPINFALL_TRACE_LEVELS").is_ok() {
             let fitted = outcomes.iter().flatten().count();
             eprintln!(
@@ -762,16 +878,16 @@ pub fn build_interpolated(
                     let h = 0.5 * cell.half_m;
                     for k in 0..8 {
                         nodes.push(Node::Exact);
-                        let center = [
-                            cell.center[0] + if k & 1 != 0 { h } else { -h },
-                            cell.center[1] + if k & 2 != 0 { h } else { -h },
-                            cell.center[2] + if k & 4 != 0 { h } else { -h },
-                        ];
+                        let index: [i64; 3] =
+                            std::array::from_fn(|a| 2 * cell.index[a] + ((k >> a) & 1) as i64);
+                        let center =
+                            lattice_point(root_center, switch_radius_m, h, index, [0.5; 3]);
                         if !builder.in_region(center, h) {
                             continue;
                         }
                         next.push((
                             first + k,
+                            index,
                             center,
                             h,
                             cell.depth + 1,
@@ -786,7 +902,7 @@ pub fn build_interpolated(
         level = next
             .into_par_iter()
             .map(
-                |(node, center, half_m, depth, parent_near, source)| {
+                |(node, index, center, half_m, depth, parent_near, source)| {
                     let (near, fit, leaf_candidate) =
                         builder.near_sets(&parent_near, center, half_m);
                     let near = Arc::new(near);
@@ -797,6 +913,7 @@ pub fn build_interpolated(
                     };
                     Pending {
                         node,
+                        index,
                         center,
                         half_m,
                         depth,

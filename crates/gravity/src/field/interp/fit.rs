@@ -78,6 +78,12 @@ impl Space {
 pub(crate) struct Pattern {
     /// Fit points in cell coordinates (Chebyshev–Lobatto grid, corners included).
     pub fit_points: Vec<[f64; 3]>,
+    /// Node indices of the fit points per axis (`0..GRID`): a fit point of the cell with
+    /// lattice index `i` has the lattice key `key_stride * i + fit_keys[k]` per axis, and the
+    /// last node of a cell is the first of its neighbour's.
+    pub fit_keys: Vec<[i64; 3]>,
+    /// `GRID - 1`.
+    pub key_stride: i64,
     /// Points used only to check a fit (none of them a fit point).
     pub check_points: Vec<[f64; 3]>,
     /// Values of the non-constant basis functions (highest degree) at the fit points.
@@ -95,10 +101,12 @@ impl Pattern {
             .map(|k| -(std::f64::consts::PI * k as f64 / (GRID - 1) as f64).cos())
             .collect();
         let mut fit_points = Vec::with_capacity(GRID * GRID * GRID);
-        for &x in &nodes {
-            for &y in &nodes {
-                for &z in &nodes {
+        let mut fit_keys = Vec::with_capacity(GRID * GRID * GRID);
+        for (i, &x) in nodes.iter().enumerate() {
+            for (j, &y) in nodes.iter().enumerate() {
+                for (k, &z) in nodes.iter().enumerate() {
                     fit_points.push([x, y, z]);
+                    fit_keys.push([i as i64, j as i64, k as i64]);
                 }
             }
         }
@@ -127,6 +135,8 @@ impl Pattern {
         }
         Pattern {
             fit_points,
+            fit_keys,
+            key_stride: GRID as i64 - 1,
             check_points,
             fit_values,
             check_grads,

@@ -37,8 +37,8 @@ pub(crate) mod basis;
 mod build;
 mod codec;
 pub(crate) mod face_set;
-pub(crate) mod near;
 pub(crate) mod fit;
+pub(crate) mod near;
 pub(crate) mod poly3;
 mod solid;
 
@@ -144,6 +144,20 @@ pub struct InterpolatedGravity {
     pub(crate) stats: BuildStats,
 }
 
+/// A point of the cell with lattice `index` (per axis, counted from the root's low corner) and
+/// half-width `h`: `offset` 0 is the cell's low side, 0.5 its centre, 1 its high side. The build
+/// and the queries place cells with this one formula, so they agree to the bit, and the high
+/// side of a cell is the low side of its neighbour to the bit.
+pub(crate) fn lattice_point(
+    root_center: [f64; 3],
+    root_half_m: f64,
+    h: f64,
+    index: [i64; 3],
+    offset: [f64; 3],
+) -> [f64; 3] {
+    std::array::from_fn(|a| root_center[a] - root_half_m + 2.0 * h * (index[a] as f64 + offset[a]))
+}
+
 impl InterpolatedGravity {
     /// The exact field it was built from (and falls back to inside the body).
     pub fn exact(&self) -> &PolyhedronGravity {
@@ -171,16 +185,18 @@ impl InterpolatedGravity {
 
     /// The leaf cell holding `p`: its node, centre and half-width.
     fn locate(&self, p: &Point3<f64>) -> (Node, [f64; 3], f64) {
-        let mut c = self.root_center;
         let mut h = self.root_half_m;
+        let mut index = [0i64; 3];
+        let mut c = lattice_point(self.root_center, h, h, index, [0.5; 3]);
         let mut node = self.nodes[0];
         while let Node::Branch { first_child } = node {
             let q = [p.x > c[0], p.y > c[1], p.z > c[2]];
             let k = q[0] as usize | (q[1] as usize) << 1 | (q[2] as usize) << 2;
             h *= 0.5;
             for a in 0..3 {
-                c[a] += if q[a] { h } else { -h };
+                index[a] = 2 * index[a] + q[a] as i64;
             }
+            c = lattice_point(self.root_center, self.root_half_m, h, index, [0.5; 3]);
             node = self.nodes[first_child as usize + k];
         }
         (node, c, h)
