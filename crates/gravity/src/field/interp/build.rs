@@ -831,7 +831,7 @@ pub fn build_interpolated(
         if std::env::var("SPINFALL_TRACE_LEVELS").is_ok() {
             let fitted = outcomes.iter().flatten().count();
             eprintln!(
-                "level {depth}: {} cells ({} from the exact field, {} from a source), {:.1} s,                  {} full evaluations, {:.2e} ring terms so far",
+                "level {depth}: {} cells ({} from the exact field, {} from a source), {:.1} s, {} full evaluations, {:.2e} ring terms so far",
                 level.len(),
                 exact_cells.len(),
                 fitted.saturating_sub(exact_cells.len()),
