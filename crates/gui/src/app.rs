@@ -793,7 +793,7 @@ impl SpinfallApp {
                     &scenario,
                     &shape,
                     &GravityOptions::default(),
-                    &field_hooks(&ctx),
+                    &field_hooks(ctx),
                 )?;
                 Ok(Arc::new(old.with_body(Arc::new(body))))
             },

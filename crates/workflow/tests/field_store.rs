@@ -1,6 +1,7 @@
 //! The on-disk store of interpolated fields, as a run uses it: build once, read back the same
 //! field, rebuild (never trust) a damaged, truncated or foreign file, share one build between
 //! concurrent callers, and run on without a store when the folder cannot be used.
+#![allow(clippy::unwrap_used, reason = "tests unwrap known-good values")]
 
 use std::path::{Path, PathBuf};
 use std::sync::{Arc, Barrier, Mutex};

@@ -211,11 +211,11 @@ pub(crate) fn set_jet<const HESS: bool>(
         let mut s_f = -h * omega;
         let mut grad_s = scale(n, omega);
         let mut logs = [0.0; 3];
-        for k in 0..3 {
+        for (k, log) in logs.iter_mut().enumerate() {
             let a = k;
             let b = (k + 1) % 3;
             let l = edge_log(len[a], len[b], g.edge_len_m[f][k]);
-            logs[k] = l;
+            *log = l;
             let nu = g.edge_normals[f][k];
             s_f += dot(nu, r[a]) * l;
             for c in 0..3 {
@@ -328,6 +328,7 @@ pub(crate) fn grad_vec(j: &SetJet) -> nalgebra::Vector3<f64> {
 }
 
 #[cfg(test)]
+#[allow(clippy::unwrap_used, reason = "tests unwrap known-good values")]
 mod tests {
     use super::*;
     use crate::field::{G_SI, MassSpec, PolyhedronGravity};

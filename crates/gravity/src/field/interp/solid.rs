@@ -73,17 +73,17 @@ fn times_w(j: &CJet, x: [f64; 3], hess: bool) -> CJet {
     out
 }
 
-/// `(a z J1 - b r^2 J0) / d` for jets of real functions.
-fn step(j1: &Jet, j0: &Jet, x: [f64; 3], r2: f64, a: f64, b: f64, d: f64, hess: bool) -> Jet {
+/// `(a z J1 - b r^2 J0) / d` for jets of real functions, with `[a, b, d] = abd`.
+fn step(j1: &Jet, j0: &Jet, x: [f64; 3], r2: f64, abd: [f64; 3], hess: bool) -> Jet {
+    let [a, b, d] = abd;
     let z = x[2];
     let mut out = Jet {
         value: (a * z * j1.value - b * r2 * j0.value) / d,
         ..Jet::default()
     };
-    for k in 0..3 {
+    for (k, &xk) in x.iter().enumerate() {
         let dz = if k == 2 { j1.value } else { 0.0 };
-        out.grad[k] =
-            (a * (dz + z * j1.grad[k]) - b * (2.0 * x[k] * j0.value + r2 * j0.grad[k])) / d;
+        out.grad[k] = (a * (dz + z * j1.grad[k]) - b * (2.0 * xk * j0.value + r2 * j0.grad[k])) / d;
     }
     if hess {
         for (h, &(p, q)) in PAIRS.iter().enumerate() {
@@ -131,8 +131,8 @@ pub(crate) fn basis_jets<const HESS: bool>(space: Space, p: usize, x: [f64; 3]) 
                 CJet::default()
             };
             h[index(n + 1, m)] = CJet {
-                re: step(&cur.re, &prev.re, x, r2, a, b, d, HESS),
-                im: step(&cur.im, &prev.im, x, r2, a, b, d, HESS),
+                re: step(&cur.re, &prev.re, x, r2, [a, b, d], HESS),
+                im: step(&cur.im, &prev.im, x, r2, [a, b, d], HESS),
             };
         }
     }
@@ -157,8 +157,8 @@ pub(crate) fn basis_jets<const HESS: bool>(space: Space, p: usize, x: [f64; 3]) 
                     // grad f x^T) + r^2 Hess f.
                     let f = v;
                     v.value = r2 * f.value;
-                    for k in 0..3 {
-                        v.grad[k] = 2.0 * x[k] * f.value + r2 * f.grad[k];
+                    for (k, &xk) in x.iter().enumerate() {
+                        v.grad[k] = 2.0 * xk * f.value + r2 * f.grad[k];
                     }
                     if HESS {
                         for (hh, &(a, b)) in PAIRS.iter().enumerate() {
