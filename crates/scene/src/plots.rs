@@ -18,6 +18,7 @@ use crate::body_view::BodyView;
 use crate::error::{Result, SceneError};
 use crate::palette::Palette;
 use crate::scenes::field_label;
+use crate::units::DisplayUnits;
 
 /// Time series of one launch.
 #[derive(Debug, Clone, Default)]
@@ -71,6 +72,7 @@ fn time_plot(
     chosen: &[usize],
     kind: PlotKind,
     pal: &Palette,
+    units: DisplayUnits,
 ) -> PlotSpec {
     let series: Vec<&PlotSeries> = chosen
         .iter()
@@ -78,24 +80,38 @@ fn time_plot(
         .collect();
     let mut spec = PlotSpec {
         x: PlotAxis {
-            label: "time after launch (s)".into(),
+            label: format!("time after launch ({})", units.time_symbol()),
             ..PlotAxis::default()
         },
         legend: launch_legend(reports, chosen, pal),
         ..PlotSpec::default()
     };
+    // Times (and altitudes) in the shown units; speeds and the drift have one unit.
+    let (t_per, y_per) = (
+        units.seconds_per_time_unit(),
+        units.metres_per_length_unit(),
+    );
+    let scaled = |points: &[[f64; 2]], y_scale: f64| -> Vec<[f64; 2]> {
+        points
+            .iter()
+            .map(|p| [p[0] / t_per, p[1] / y_scale])
+            .collect()
+    };
     let line = |i: usize, points: &[[f64; 2]], dashed: bool| Series {
         color: pal.launch(i),
-        points: points.to_vec(),
+        points: scaled(points, 1.0),
         dashed,
     };
     match kind {
         PlotKind::Altitude => {
             spec.title = "Altitude above the surface".into();
-            spec.y.label = "altitude (m)".into();
+            spec.y.label = format!("altitude ({})", units.length_symbol());
             spec.series = series
                 .iter()
-                .map(|s| line(s.launch, &s.altitude_m, false))
+                .map(|s| Series {
+                    points: scaled(&s.altitude_m, y_per),
+                    ..line(s.launch, &[], false)
+                })
                 .collect();
         }
         PlotKind::Speed => {
@@ -258,6 +274,8 @@ pub struct PlotOptions {
     pub launch: Option<usize>,
     /// Surface field behind the landing map (needs the body view's map).
     pub field: SurfaceField,
+    /// Units of time and altitude.
+    pub units: DisplayUnits,
 }
 
 /// The plot as a figure (PNG through [`Figure::to_image`], SVG through
@@ -293,7 +311,7 @@ pub fn plot(
             }
             landing_plot(view, reports, &chosen, opts.field, &pal)
         }
-        kind => time_plot(series, reports, &chosen, kind, &pal),
+        kind => time_plot(series, reports, &chosen, kind, &pal, opts.units),
     };
     let mut fig = plot_figure(&spec, w, h, &Style::new(sizing, pal.theme))?;
     fig.dpi = opts.size.dpi();
