@@ -31,6 +31,7 @@ pub struct Progress {
     done: AtomicUsize,
     total: AtomicUsize,
     stage: Mutex<String>,
+    notes: Mutex<Vec<String>>,
 }
 
 impl Progress {
@@ -64,6 +65,21 @@ impl Progress {
     /// The current stage text.
     pub fn stage(&self) -> String {
         self.stage.lock().map(|s| s.clone()).unwrap_or_default()
+    }
+
+    /// A warning for the user that does not stop the job (shown as a notice).
+    pub fn push_note(&self, note: String) {
+        if let Ok(mut n) = self.notes.lock() {
+            n.push(note);
+        }
+    }
+
+    /// The warnings pushed since the last call.
+    pub fn take_notes(&self) -> Vec<String> {
+        self.notes
+            .lock()
+            .map(|mut n| std::mem::take(&mut *n))
+            .unwrap_or_default()
     }
 }
 
@@ -185,6 +201,11 @@ impl<T: Send + 'static> Job<T> {
     /// Whether Cancel was pressed.
     pub fn is_cancelled(&self) -> bool {
         self.cancel.load(Ordering::Relaxed)
+    }
+
+    /// The job's cancel flag.
+    pub fn cancel_flag(&self) -> &AtomicBool {
+        &self.cancel
     }
 
     /// Check without waiting.

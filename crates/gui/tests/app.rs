@@ -179,14 +179,20 @@ fn export_writes_every_file_and_the_scenario_reloads() {
         .push_command(spinfall_gui::Command::Export(spinfall_gui::ExportRequest {
             folder: dir.path().to_path_buf(),
             stem: "run".into(),
-            composite_png: true,
-            body_png: true,
-            inertial_png: false,
-            size_px: [400, 200],
+            composite: true,
+            body_view: true,
+            figure: spinfall_gui::FigureChoice {
+                size: spinfall_render::FigureSize::Pixels {
+                    width_px: 400,
+                    height_px: 240,
+                },
+                ..Default::default()
+            },
             results: true,
             trajectories: true,
             surface_map: true,
             scenario: true,
+            ..Default::default()
         }));
     settle(&mut harness);
     let mut names: Vec<String> = std::fs::read_dir(dir.path())
@@ -459,7 +465,7 @@ fn cancel_stops_a_run() {
     assert!(
         matches!(
             harness.state().run_state(),
-            spinfall_gui::RunState::Cancelled
+            spinfall_gui::RunState::Cancelled { .. }
         ),
         "{:?}",
         harness.state().run_state()
