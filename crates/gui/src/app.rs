@@ -208,6 +208,8 @@ pub struct SpinfallApp {
     pub(crate) last_exported: Vec<PathBuf>,
     pub(crate) dialog_tx: Sender<DialogAnswer>,
     pub(crate) dialog_rx: Receiver<DialogAnswer>,
+    /// The cache folder of a test app (removed with the app).
+    test_cache: Option<tempfile::TempDir>,
 }
 
 impl SpinfallApp {
@@ -232,13 +234,23 @@ impl SpinfallApp {
 
     /// The app for tests: no persistence, no file dialogs. Starts loading `options` (the demo
     /// body when `shape_path` is `None`); use [`SpinfallApp::wait_for_jobs`] to await it.
-    /// Without a `cache_dir`, fields and maps are stored in a folder of this process under the
-    /// temporary folder, never in the user's cache.
+    /// Without a `cache_dir`, fields and maps are stored in a temporary folder of this app,
+    /// never in the user's cache.
     pub fn new_for_test(options: GuiOptions) -> Self {
-        let cache_dir = options.cache_dir.clone().or_else(|| {
-            Some(std::env::temp_dir().join(format!("spinfall-gui-test-{}", std::process::id())))
-        });
+        // A cache folder of this app alone (removed with it), so tests never share stored maps.
+        let own = match options.cache_dir {
+            Some(_) => None,
+            None => tempfile::Builder::new()
+                .prefix("spinfall-gui-test-cache-")
+                .tempdir()
+                .ok(),
+        };
+        let cache_dir = options
+            .cache_dir
+            .clone()
+            .or_else(|| own.as_ref().map(|d| d.path().to_path_buf()));
         let mut app = Self::with_state(PersistedState::default(), Arc::new(|| {}), true, cache_dir);
+        app.test_cache = own;
         app.start(options);
         app.handle_commands();
         app
@@ -325,6 +337,7 @@ impl SpinfallApp {
             last_exported: Vec::new(),
             dialog_tx,
             dialog_rx,
+            test_cache: None,
         }
     }
 
@@ -354,6 +367,7 @@ impl SpinfallApp {
             || self.export_job.is_some()
             || self.animation_job.is_some()
             || self.save_job.is_some()
+            || self.plot.busy()
     }
 
     /// Poll jobs and handle commands until nothing is running or `timeout` passes (tests).
@@ -435,6 +449,12 @@ impl SpinfallApp {
         &self.body_field
     }
 
+    /// `(done, total)` launches of the run in progress, once it is flying.
+    pub fn run_progress_counts(&self) -> Option<(usize, usize)> {
+        let job = self.run_job.as_ref()?;
+        (job.progress.stage() == "flying").then(|| job.progress.counts())
+    }
+
     /// State of the last run.
     pub fn run_state(&self) -> &RunState {
         &self.run_state
@@ -513,6 +533,11 @@ impl SpinfallApp {
     /// Choose the units lengths and times are shown in (everywhere on screen and in figures).
     pub fn set_units(&mut self, units: DisplayUnits) {
         self.state.view.units = units;
+    }
+
+    /// Colour the body by a surface map field (`None`: plain).
+    pub fn set_shown_map(&mut self, field: Option<SurfaceField>) {
+        self.state.view.map = field;
     }
 
     /// Whether an edit can be undone / redone.

@@ -16,6 +16,11 @@ use crate::app::SpinfallApp;
 use crate::jobs::{Job, Poll};
 use crate::views::to_color_image;
 
+/// What the Jacobi plot shows (the figure says the second half itself when there are contacts).
+pub const JACOBI_NOTE: &str = "Between contacts the drift measures integration error (the \
+     table's Jacobi column, typically 1e-9 or less). Steps at contacts are energy lost in \
+     bounces, not integration error.";
+
 /// Resolution the plot is drawn at per point of the screen: 1.5 pixels per typographic point.
 const SCREEN_DPI: f64 = 108.0;
 
@@ -26,7 +31,7 @@ const MAX_PLOT_SAMPLES: usize = 600;
 const KINDS: [(PlotKind, &str); 4] = [
     (PlotKind::Altitude, "Altitude"),
     (PlotKind::Speed, "Speed"),
-    (PlotKind::JacobiDrift, "Jacobi drift"),
+    (PlotKind::JacobiDrift, "Jacobi"),
     (PlotKind::Landing, "Landing map"),
 ];
 
@@ -71,6 +76,23 @@ impl Default for PlotPanel {
 }
 
 impl PlotPanel {
+    /// Whether the series of a plot are being computed.
+    pub fn busy(&self) -> bool {
+        self.job.is_some()
+    }
+
+    /// Collects the series when they are ready.
+    pub fn poll(&mut self) {
+        if let Some((launch, g, job)) = &self.job
+            && let Poll::Done(result) = job.poll()
+        {
+            if let Ok(series) = result {
+                self.series = Some((*launch, *g, Arc::new(series)));
+            }
+            self.job = None;
+        }
+    }
+
     /// Forget the series and the picture (new results).
     pub fn clear(&mut self) {
         self.job = None;
@@ -129,14 +151,7 @@ impl SpinfallApp {
         };
         let generation = self.data_generation;
         // Collect or start the series of the selected launch.
-        if let Some((launch, g, job)) = &self.plot.job
-            && let Poll::Done(result) = job.poll()
-        {
-            if let Ok(series) = result {
-                self.plot.series = Some((*launch, *g, Arc::new(series)));
-            }
-            self.plot.job = None;
-        }
+        self.plot.poll();
         let have = matches!(&self.plot.series, Some((l, g, _)) if *l == i && *g == generation);
         let running = matches!(&self.plot.job, Some((l, g, _)) if *l == i && *g == generation);
         if !have && !running {
@@ -156,10 +171,12 @@ impl SpinfallApp {
                     enabled,
                     egui::Button::selectable(self.plot.kind == kind, name),
                 );
-                let r = if enabled {
-                    r
-                } else {
-                    r.on_disabled_hover_text("Needs the surface map")
+                let r = match kind {
+                    PlotKind::Landing if !enabled => {
+                        r.on_disabled_hover_text("Needs the surface map")
+                    }
+                    PlotKind::JacobiDrift => r.on_hover_text(JACOBI_NOTE),
+                    _ => r,
                 };
                 if r.clicked() {
                     self.plot.kind = kind;
@@ -170,19 +187,6 @@ impl SpinfallApp {
             self.plot.kind = PlotKind::Altitude;
         }
         let kind = self.plot.kind;
-        if kind == PlotKind::JacobiDrift {
-            ui.add(
-                egui::Label::new(
-                    egui::RichText::new(
-                        "Between contacts the drift measures integration error (the table's \
-                         Jacobi column, typically 1e-9 or less). Steps at contacts are energy \
-                         lost in bounces, not integration error.",
-                    )
-                    .weak(),
-                )
-                .wrap(),
-            );
-        }
         let Some((_, _, series)) = self
             .plot
             .series

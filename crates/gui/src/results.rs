@@ -214,7 +214,7 @@ impl SpinfallApp {
         let width = ui.available_width();
         ui.horizontal_top(|ui| {
             ui.vertical(|ui| {
-                ui.set_width((width * 0.55).max(300.0));
+                ui.set_width((width * 0.45).max(300.0));
                 self.table_ui(ui);
             });
             ui.separator();

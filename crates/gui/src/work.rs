@@ -361,6 +361,7 @@ impl SpinfallApp {
 
     pub(crate) fn poll_jobs(&mut self) {
         self.collect_job_notes();
+        self.plot.poll();
         if let Some(job) = &self.load_job
             && let Poll::Done(result) = job.poll()
         {
