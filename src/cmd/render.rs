@@ -58,9 +58,25 @@ pub(super) fn still_format(path: &Path) -> CmdResult<StillFormat> {
     }
 }
 
-/// The figure size from `--size` and `--dpi`.
+/// Smallest figure that holds the views with their titles, colour bar and legend, pixels: a
+/// size below is refused before any work (the layout itself, after the flights, refuses what
+/// still does not fit).
+const MIN_FIGURE_PX: (u32, u32) = (160, 90);
+
+/// The figure size from `--size` and `--dpi`, checked against [`MIN_FIGURE_PX`].
 pub(super) fn figure_size(args: &FigureArgs) -> CmdResult<FigureSize> {
-    FigureSize::parse(&args.size, args.dpi).map_err(|e| CliError::input(e.to_string()))
+    let size =
+        FigureSize::parse(&args.size, args.dpi).map_err(|e| CliError::input(e.to_string()))?;
+    let (w, h, _) = size
+        .resolve()
+        .map_err(|e| CliError::input(e.to_string()))?;
+    if w < MIN_FIGURE_PX.0 || h < MIN_FIGURE_PX.1 {
+        return Err(CliError::input(format!(
+            "--size {}: a {w}x{h} px figure is too small for the views with their titles,              colour bar and legend (at least {}x{} px)",
+            args.size, MIN_FIGURE_PX.0, MIN_FIGURE_PX.1
+        )));
+    }
+    Ok(size)
 }
 
 pub(super) fn map_field(m: MapArg) -> SurfaceField {
@@ -161,7 +177,7 @@ pub(super) fn scenario_metadata(prepared: &PreparedRun, launches: usize) -> Vec<
                 spin.phase_rad.to_degrees()
             ),
         ),
-        ("Gravity".into(), prepared.field.describe()),
+        ("Gravity".into(), prepared.field.describe_method()),
         ("Launches".into(), launches.to_string()),
     ]
 }

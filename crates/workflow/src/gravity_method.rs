@@ -112,6 +112,18 @@ impl FieldUsed {
         }
     }
 
+    /// The method without the machine's kernel (for figures, which must not depend on the
+    /// machine).
+    pub fn describe_method(&self) -> String {
+        match self.max_rel_error {
+            Some(e) => format!(
+                "polyhedron, interpolated to a relative acceleration error of {e:e} (Werner & \
+                 Scheeres 1997)"
+            ),
+            None => "polyhedron, direct sum (Werner & Scheeres 1997)".into(),
+        }
+    }
+
     /// One line for manifests and status bars.
     pub fn describe(&self) -> String {
         match self.max_rel_error {

@@ -46,6 +46,7 @@ pub(crate) trait Lanes:
     /// `self * b - c`, rounded as [`Lanes::mul_add`].
     fn mul_sub(self, b: Self, c: Self) -> Self;
     fn abs(self) -> Self;
+    fn sqrt(self) -> Self;
     fn max(self, b: Self) -> Self;
     fn min(self, b: Self) -> Self;
     fn gt(self, b: Self) -> Self::Mask;
@@ -110,6 +111,10 @@ impl Lanes for Portable {
     #[inline(always)]
     fn abs(self) -> Self {
         Portable(self.0.abs())
+    }
+    #[inline(always)]
+    fn sqrt(self) -> Self {
+        Portable(self.0.sqrt())
     }
     #[inline(always)]
     fn max(self, b: Self) -> Self {

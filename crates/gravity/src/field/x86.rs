@@ -18,6 +18,8 @@ use std::arch::x86_64::*;
 use std::ops::{Add, Div, Mul, Sub};
 
 use super::block::Oct;
+use super::interp::face_set::FaceGeometry;
+use super::interp::near::{self, NearSums};
 use super::direct::Sums;
 use super::kernel;
 use super::lanes::{Lanes, MAX_LANES};
@@ -114,6 +116,10 @@ impl Lanes for Avx2 {
         Avx2(unsafe { _mm256_andnot_pd(_mm256_set1_pd(-0.0), self.0) })
     }
     #[inline(always)]
+    fn sqrt(self) -> Self {
+        Avx2(unsafe { _mm256_sqrt_pd(self.0) })
+    }
+    #[inline(always)]
     fn max(self, b: Self) -> Self {
         Avx2(unsafe { _mm256_max_pd(self.0, b.0) })
     }
@@ -185,6 +191,10 @@ impl Lanes for Avx512 {
     #[inline(always)]
     fn abs(self) -> Self {
         Avx512(unsafe { _mm512_abs_pd(self.0) })
+    }
+    #[inline(always)]
+    fn sqrt(self) -> Self {
+        Avx512(unsafe { _mm512_sqrt_pd(self.0) })
     }
     #[inline(always)]
     fn max(self, b: Self) -> Self {
@@ -278,6 +288,32 @@ impl Isa {
         // SAFETY: the features were detected just above.
         unsafe { block_avx2::<GRAD, OPEN>(t, q, out, 1) }
     }
+}
+
+impl Isa {
+    /// The interpolated field's near sums at one point, lanes over faces.
+    ///
+    /// # Panics
+    /// If this CPU lacks `self`'s features.
+    pub fn near(self, g: &FaceGeometry, faces: &[u32], p: [f64; 3]) -> NearSums {
+        assert!(self.detected(), "{self:?} is not available on this CPU");
+        match self {
+            // SAFETY: the features were detected just above.
+            Isa::Avx512 => unsafe { near_avx512(g, faces, p) },
+            // SAFETY: as above.
+            Isa::Avx2 => unsafe { near_avx2(g, faces, p) },
+        }
+    }
+}
+
+#[target_feature(enable = "avx512f,avx512dq,avx2,fma,avx")]
+fn near_avx512(g: &FaceGeometry, faces: &[u32], p: [f64; 3]) -> NearSums {
+    near::near_sums::<Avx512>(g, faces, p)
+}
+
+#[target_feature(enable = "avx2,fma,avx")]
+fn near_avx2(g: &FaceGeometry, faces: &[u32], p: [f64; 3]) -> NearSums {
+    near::near_sums::<Avx2>(g, faces, p)
 }
 
 #[target_feature(enable = "avx512f,avx512dq,avx2,fma,avx")]

@@ -63,15 +63,10 @@ const EXTERIOR_DEGREES: [usize; 5] = [12, 16, 20, 24, 28];
 /// the body that the expansion covers more cheaply.
 const SWITCH_TARGET: f64 = 3.0;
 
-/// The near-set radius, in cell half-widths, for a bound: larger for tighter bounds (the fit's
-/// error falls like `(corner distance / near radius)^p`).
-fn kappa_for(max_rel_error: f64) -> f64 {
-    if let Some(k) = std::env::var("SPINFALL_KAPPA")
-        .ok()
-        .and_then(|v| v.parse().ok())
-    {
-        return k;
-    }
+
+/// The near-set radius of a leaf, in cell half-widths, for a bound: larger for tighter bounds
+/// (the fit's error falls like `(corner distance / near radius)^p`), small for fast leaves.
+fn leaf_kappa(max_rel_error: f64) -> f64 {
     if max_rel_error >= 1e-7 {
         3.0
     } else if max_rel_error >= 2e-9 {
@@ -79,6 +74,12 @@ fn kappa_for(max_rel_error: f64) -> f64 {
     } else {
         5.0
     }
+}
+
+/// The near-set radius of a cell that feeds its children, in half-widths: large, so its fit
+/// leaves room in the bound for theirs (a source's error is in all its descendants').
+fn source_kappa(max_rel_error: f64) -> f64 {
+    if max_rel_error >= 2e-9 { 5.0 } else { 6.0 }
 }
 
 /// Rigorous bound of the exterior expansion's acceleration error, relative to `GM / r^2`, at
@@ -170,14 +171,20 @@ struct Pending {
     center: [f64; 3],
     half_m: f64,
     depth: usize,
+    /// Faces within the source radius (a superset of every descendant's near sets).
     near: Arc<Vec<u32>>,
+    /// The faces summed exactly in this cell's fit: those within the leaf radius when the cell
+    /// may be a leaf (few enough of them), else `near`.
+    fit_near: Arc<Vec<u32>>,
+    /// Whether the cell may become a leaf.
+    leaf_candidate: bool,
     source: Arc<Source>,
 }
 
 impl Pending {
     /// The function space of the cell's fit: harmonic where no face is near.
     fn space(&self) -> Space {
-        if self.near.is_empty() {
+        if self.fit_near.is_empty() {
             Space::Harmonic
         } else {
             Space::Biharmonic
@@ -247,7 +254,8 @@ struct Builder<'a> {
     exact: &'a PolyhedronGravity,
     geometry: &'a FaceGeometry,
     settings: InterpolationSettings,
-    kappa: f64,
+    leaf_kappa: f64,
+    source_kappa: f64,
     com: [f64; 3],
     switch_radius_m: f64,
     all_faces: Arc<Vec<u32>>,
@@ -260,14 +268,28 @@ struct Builder<'a> {
 }
 
 impl Builder<'_> {
-    /// Faces of `parent_near` within `kappa h` of `center`.
-    fn near_of(&self, parent_near: &[u32], center: [f64; 3], half_m: f64) -> Vec<u32> {
-        let r = self.kappa * half_m;
-        parent_near
-            .iter()
-            .copied()
-            .filter(|&f| self.geometry.distance_to_face(f as usize, center) <= r)
-            .collect()
+    /// The source-radius and fit near sets of a cell (sorted) from its parent's source-radius
+    /// set, and whether the cell may be a leaf.
+    fn near_sets(
+        &self,
+        parent_near: &[u32],
+        center: [f64; 3],
+        half_m: f64,
+    ) -> (Vec<u32>, Vec<u32>, bool) {
+        let (rs, rl) = (self.source_kappa * half_m, self.leaf_kappa * half_m);
+        let mut near = Vec::new();
+        let mut leaf = Vec::new();
+        for &f in parent_near {
+            let d = self.geometry.distance_to_face(f as usize, center);
+            if d <= rs {
+                near.push(f);
+                if d <= rl {
+                    leaf.push(f);
+                }
+            }
+        }
+        let candidate = leaf.len() <= self.settings.leaf_near_faces;
+        (near, leaf, candidate)
     }
 
     /// Whether the cell box meets the ball where the octree is used.
@@ -290,7 +312,7 @@ impl Builder<'_> {
         let h = cell.half_m;
         let points = cell.template_points();
         let mut scratch = Vec::new();
-        let near_tables = Tables::from_face_set(self.geometry, &cell.near);
+        let near_tables = Tables::from_face_set(self.geometry, &cell.fit_near);
         let near = set_jets::<true>(&near_tables, &points, &mut scratch);
         let (data, total): (Vec<SetJet>, Vec<[f64; 3]>) = match (&cell.source.poly, exact_at) {
             (None, Some(exact)) => exact
@@ -303,18 +325,32 @@ impl Builder<'_> {
                 })
                 .unzip(),
             (source_poly, _) => {
-                let ring = difference(&cell.source.near, &cell.near);
-                self.ring_face_terms
-                    .fetch_add((ring.len() * points.len()) as u64, Ordering::Relaxed);
-                let ring_tables = Tables::from_face_set(self.geometry, &ring);
-                let ring_jets = set_jets::<true>(&ring_tables, &points, &mut scratch);
+                // F_cell = F_source + (faces near the source but not here) - (faces near here
+                // but not near the source).
+                let plus = difference(&cell.source.near, &cell.fit_near);
+                let minus = difference(&cell.fit_near, &cell.source.near);
+                self.ring_face_terms.fetch_add(
+                    ((plus.len() + minus.len()) * points.len()) as u64,
+                    Ordering::Relaxed,
+                );
+                let plus = set_jets::<true>(
+                    &Tables::from_face_set(self.geometry, &plus),
+                    &points,
+                    &mut scratch,
+                );
+                let minus = set_jets::<true>(
+                    &Tables::from_face_set(self.geometry, &minus),
+                    &points,
+                    &mut scratch,
+                );
                 points
                     .iter()
-                    .zip(ring_jets)
+                    .zip(plus.iter().zip(&minus))
                     .zip(&near)
-                    .map(|((p, r), n)| {
+                    .map(|((p, (a, b)), n)| {
                         let mut f = source_poly.as_ref().map(|s| s.jet(p)).unwrap_or_default();
-                        f.add(&r, 1.0);
+                        f.add(a, 1.0);
+                        f.add(b, -1.0);
                         let mut tot = f;
                         tot.add(n, 1.0);
                         (f, tot.grad)
@@ -354,7 +390,7 @@ impl Builder<'_> {
         let pattern = Pattern::get(space);
         let h = cell.half_m;
         let remaining = (self.settings.max_rel_error - cell.source.error).max(0.0);
-        let small = cell.near.len() <= self.settings.leaf_near_faces;
+        let small = cell.leaf_candidate;
         let leaf_budget = remaining * LEAF_SHARE;
         let source_budget = remaining * SOURCE_SHARE;
         // Error of each degree at the check points.
@@ -393,7 +429,7 @@ impl Builder<'_> {
                 "depth {} h {:.0} near {} src {} srcerr {:.1e} leaf {:?} source {:?} best {best:.2e} r {:.2}",
                 cell.depth,
                 h,
-                cell.near.len(),
+                cell.fit_near.len(),
                 if cell.source.poly.is_some() {
                     "poly"
                 } else {
@@ -438,7 +474,7 @@ impl Builder<'_> {
                     center: cell.center,
                     half_m: h,
                 }),
-                near: Arc::clone(&cell.near),
+                near: Arc::clone(&cell.fit_near),
                 error: cell.source.error + err,
             })
         } else if remaining < 0.25 * self.settings.max_rel_error && cell.source.poly.is_some() {
@@ -547,7 +583,8 @@ pub fn build_interpolated(
         exact: &exact,
         geometry: &geometry,
         settings,
-        kappa: kappa_for(settings.max_rel_error),
+        leaf_kappa: leaf_kappa(settings.max_rel_error),
+        source_kappa: source_kappa(settings.max_rel_error),
         com: [com.x, com.y, com.z],
         switch_radius_m,
         all_faces: Arc::clone(&all_faces),
@@ -571,6 +608,8 @@ pub fn build_interpolated(
         half_m: switch_radius_m,
         depth: 0,
         near: Arc::clone(&all_faces),
+        fit_near: Arc::clone(&all_faces),
+        leaf_candidate: nf <= settings.leaf_near_faces,
         source: root_source,
     }];
     let fixed_bytes = nf * std::mem::size_of::<[f64; 3]>() * 9 + exact.memory_bytes();
@@ -673,6 +712,18 @@ pub fn build_interpolated(
                 _ => None,
             })
             .collect();
+        if std::env::var("SPINFALL_TRACE_LEVELS").is_ok() {
+            let fitted = outcomes.iter().flatten().count();
+            eprintln!(
+                "level {depth}: {} cells ({} from the exact field, {} from a source), {:.1} s,                  {} full evaluations, {:.2e} ring terms so far",
+                level.len(),
+                exact_cells.len(),
+                fitted.saturating_sub(exact_cells.len()),
+                start.elapsed().as_secs_f64(),
+                builder.full_evaluations.load(Ordering::Relaxed),
+                builder.ring_face_terms.load(Ordering::Relaxed) as f64
+            );
+        }
         let mut next = Vec::new();
         for (cell, out) in level.into_iter().zip(outcomes) {
             let Some(out) = out else {
@@ -694,11 +745,11 @@ pub fn build_interpolated(
                         space,
                         degree: degree as u8,
                         near: near_faces.len() as u32,
-                        near_len: cell.near.len() as u32,
+                        near_len: cell.fit_near.len() as u32,
                     };
                     coefs.extend_from_slice(&coef);
-                    near_faces.extend_from_slice(&cell.near);
-                    near_total += cell.near.len();
+                    near_faces.extend_from_slice(&cell.fit_near);
+                    near_total += cell.fit_near.len();
                     stats.leaves += 1;
                     stats.worst_leaf_bound = stats.worst_leaf_bound.max(error);
                     stats.max_degree = stats.max_degree.max(degree);
@@ -735,13 +786,25 @@ pub fn build_interpolated(
         level = next
             .into_par_iter()
             .map(
-                |(node, center, half_m, depth, parent_near, source)| Pending {
-                    node,
-                    center,
-                    half_m,
-                    depth,
-                    near: Arc::new(builder.near_of(&parent_near, center, half_m)),
-                    source,
+                |(node, center, half_m, depth, parent_near, source)| {
+                    let (near, fit, leaf_candidate) =
+                        builder.near_sets(&parent_near, center, half_m);
+                    let near = Arc::new(near);
+                    let fit_near = if leaf_candidate {
+                        Arc::new(fit)
+                    } else {
+                        Arc::clone(&near)
+                    };
+                    Pending {
+                        node,
+                        center,
+                        half_m,
+                        depth,
+                        near,
+                        fit_near,
+                        leaf_candidate,
+                        source,
+                    }
                 },
             )
             .collect();
@@ -802,8 +865,9 @@ fn classify(b: &Builder<'_>, cell: &Pending) -> Option<Outcome> {
             return Some(Outcome::Exact);
         }
     }
-    let top = cell.source.poly.is_none() && cell.near.len() as f64 > TOP_FRACTION * nf as f64;
-    if cell.near.len() == nf || (top && cell.near.len() > b.settings.leaf_near_faces) {
+    let fit = cell.fit_near.len();
+    let top = cell.source.poly.is_none() && fit as f64 > TOP_FRACTION * nf as f64;
+    if fit == nf || (top && fit > b.settings.leaf_near_faces) {
         // Every face (or most) is near: nothing worth fitting; split unless the whole mesh is
         // small enough to sum in a leaf.
         if nf <= b.settings.leaf_near_faces || cell.depth >= MAX_DEPTH {

@@ -37,6 +37,7 @@ pub(crate) mod basis;
 mod build;
 mod codec;
 pub(crate) mod face_set;
+pub(crate) mod near;
 pub(crate) mod fit;
 pub(crate) mod poly3;
 mod solid;
@@ -236,7 +237,7 @@ impl InterpolatedGravity {
                 h,
             ) => {
                 let faces = &self.near_faces[near as usize..(near + near_len) as usize];
-                let nj = set_jet::<false>(&self.geometry, faces, p);
+                let nj = near::near(&self.geometry, faces, [p.x, p.y, p.z]);
                 let fj = self.poly_jet::<false>(coef, space, degree, c, h, p);
                 let g = self.g_rho();
                 (
