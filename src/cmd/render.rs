@@ -67,9 +67,7 @@ const MIN_FIGURE_PX: (u32, u32) = (160, 90);
 pub(super) fn figure_size(args: &FigureArgs) -> CmdResult<FigureSize> {
     let size =
         FigureSize::parse(&args.size, args.dpi).map_err(|e| CliError::input(e.to_string()))?;
-    let (w, h, _) = size
-        .resolve()
-        .map_err(|e| CliError::input(e.to_string()))?;
+    let (w, h, _) = size.resolve().map_err(|e| CliError::input(e.to_string()))?;
     if w < MIN_FIGURE_PX.0 || h < MIN_FIGURE_PX.1 {
         return Err(CliError::input(format!(
             "--size {}: a {w}x{h} px figure is too small for the views with their titles,              colour bar and legend (at least {}x{} px)",

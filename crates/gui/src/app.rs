@@ -18,7 +18,7 @@ use spinfall_workflow::limits::{Estimate, estimate};
 use crate::GuiOptions;
 use crate::command::Command;
 use crate::history::{DocState, History};
-use crate::jobs::Job;
+use crate::jobs::{Job, JobKind, RunningJob};
 use crate::notify::Notice;
 use crate::session::{BodyParams, new_scenario};
 use crate::state::PersistedState;
@@ -360,14 +360,25 @@ impl SpinfallApp {
 
     /// Whether any background job is running.
     pub fn busy(&self) -> bool {
-        self.load_job.is_some()
-            || self.body_job.is_some()
-            || self.map_job.is_some()
-            || self.run_job.is_some()
-            || self.export_job.is_some()
-            || self.animation_job.is_some()
-            || self.save_job.is_some()
-            || self.plot.busy()
+        !self.running_jobs().is_empty() || self.plot.busy()
+    }
+
+    /// The background jobs running now.
+    pub(crate) fn running_jobs(&self) -> Vec<RunningJob<'_>> {
+        [
+            self.load_job.as_ref().map(|j| j.running(JobKind::Load)),
+            self.body_job.as_ref().map(|j| j.running(JobKind::Body)),
+            self.map_job.as_ref().map(|j| j.running(JobKind::Map)),
+            self.run_job.as_ref().map(|j| j.running(JobKind::Run)),
+            self.export_job.as_ref().map(|j| j.running(JobKind::Export)),
+            self.animation_job
+                .as_ref()
+                .map(|j| j.running(JobKind::Animation)),
+            self.save_job.as_ref().map(|j| j.running(JobKind::Save)),
+        ]
+        .into_iter()
+        .flatten()
+        .collect()
     }
 
     /// Poll jobs and handle commands until nothing is running or `timeout` passes (tests).
@@ -591,10 +602,10 @@ impl SpinfallApp {
                     .show(ui, |ui| self.side_panel_ui(ui));
             });
         if self.state.show_results {
-            let min_h = if self.reports.is_empty() { 80.0 } else { 230.0 };
+            let min_h = if self.reports.is_empty() { 80.0 } else { 260.0 };
             egui::Panel::bottom("results")
                 .resizable(true)
-                .default_size(300.0)
+                .default_size(340.0)
                 .min_size(min_h)
                 .show(ui, |ui| self.results_ui(ui));
         }

@@ -162,7 +162,10 @@ impl SpinfallApp {
             .resizable(false)
             .default_pos([420.0, 120.0])
             .show(ctx, |ui| {
-                egui::ScrollArea::vertical().max_height(ctx.content_rect().height() - 140.0).show(ui, |ui| {
+                egui::ScrollArea::vertical()
+                    .max_height(ctx.content_rect().height() - 140.0)
+                    .min_scrolled_height((ctx.content_rect().height() - 200.0).clamp(200.0, 720.0))
+                    .show(ui, |ui| {
                     let form = &mut self.export_form;
                     egui::Grid::new("export_where").num_columns(2).show(ui, |ui| {
                         let l = ui.label("Folder:");

@@ -76,7 +76,7 @@ impl Snapshot {
     /// Text chunks of a PNG: the session and the figure's own metadata.
     fn metadata(&self, figure: &Figure) -> Vec<(String, String)> {
         let mut m = png_summary(&self.title, &self.view, self.reports.len(), self.t_s);
-        m.push(("Gravity".into(), self.field.describe()));
+        m.push(("Gravity".into(), self.field.describe_method()));
         m.extend(
             figure
                 .metadata
@@ -121,21 +121,28 @@ impl SpinfallApp {
         })
     }
 
-    /// Checks the folder and prefix of an export; `None` (with a notice) when unusable.
-    fn export_target_ok(&mut self, folder: &Path, stem: &str) -> bool {
-        if self.view.is_none() {
-            self.error("nothing to export: no body loaded");
-            return false;
+    /// What an export into `folder` with `stem` needs, or `None` (with a notice) when there is
+    /// no body, no folder or no plain prefix.
+    fn export_snapshot(
+        &mut self,
+        folder: &Path,
+        stem: &str,
+        figure: &FigureChoice,
+    ) -> Option<Snapshot> {
+        let refused = if self.view.is_none() {
+            Some("nothing to export: no body loaded")
+        } else if folder.as_os_str().is_empty() {
+            Some("export: type a folder (or use Browse…)")
+        } else if stem.is_empty() || stem.contains(['/', '\\']) {
+            Some("export: the file name prefix must be a plain name")
+        } else {
+            None
+        };
+        if let Some(why) = refused {
+            self.error(why);
+            return None;
         }
-        if folder.as_os_str().is_empty() {
-            self.error("export: type a folder (or use Browse…)");
-            return false;
-        }
-        if stem.is_empty() || stem.contains(['/', '\\']) {
-            self.error("export: the file name prefix must be a plain name");
-            return false;
-        }
-        true
+        self.snapshot(figure, folder)
     }
 
     pub(crate) fn start_export(&mut self, req: ExportRequest) {
@@ -143,17 +150,13 @@ impl SpinfallApp {
             self.error("an export is in progress");
             return;
         }
-        if !self.export_target_ok(&req.folder, &req.stem) {
-            return;
+        if let Some(snapshot) = self.export_snapshot(&req.folder, &req.stem, &req.figure) {
+            self.export_job = Some(Job::spawn(
+                format!("Exporting to {}", req.folder.display()),
+                self.repaint.clone(),
+                move |ctx| run_export(ctx, &req, &snapshot),
+            ));
         }
-        let Some(snapshot) = self.snapshot(&req.figure, &req.folder) else {
-            return;
-        };
-        self.export_job = Some(Job::spawn(
-            format!("Exporting to {}", req.folder.display()),
-            self.repaint.clone(),
-            move |ctx| run_export(ctx, &req, &snapshot),
-        ));
     }
 
     pub(crate) fn start_animation(&mut self, req: AnimationRequest) {
@@ -161,17 +164,13 @@ impl SpinfallApp {
             self.error("an animation is being exported");
             return;
         }
-        if !self.export_target_ok(&req.folder, &req.stem) {
-            return;
+        if let Some(snapshot) = self.export_snapshot(&req.folder, &req.stem, &req.figure) {
+            self.animation_job = Some(Job::spawn(
+                format!("Animation into {}", req.folder.display()),
+                self.repaint.clone(),
+                move |ctx| run_animation(ctx, &req, &snapshot),
+            ));
         }
-        let Some(snapshot) = self.snapshot(&req.figure, &req.folder) else {
-            return;
-        };
-        self.animation_job = Some(Job::spawn(
-            format!("Animation into {}", req.folder.display()),
-            self.repaint.clone(),
-            move |ctx| run_animation(ctx, &req, &snapshot),
-        ));
     }
 
     pub(crate) fn poll_export_jobs(&mut self) {

@@ -64,8 +64,7 @@ impl SpinfallApp {
             Command::SaveScenario(path) => self.save_scenario(&path),
             Command::RebuildBody => self.start_rebuild_body(),
             Command::ComputeMap => self.start_map(true),
-            Command::AddSiteAtPoint { point_body_m, face } => {
-                let _ = face;
+            Command::AddSiteAtPoint { point_body_m, .. } => {
                 self.add_site(SiteSpec {
                     point_m: Some(point_body_m.into()),
                     ..SiteSpec::default()
@@ -99,19 +98,8 @@ impl SpinfallApp {
     }
 
     fn cancel_jobs(&mut self) {
-        for cancel in [
-            self.load_job.as_ref().map(Job::cancel_flag),
-            self.body_job.as_ref().map(Job::cancel_flag),
-            self.map_job.as_ref().map(Job::cancel_flag),
-            self.run_job.as_ref().map(Job::cancel_flag),
-            self.export_job.as_ref().map(Job::cancel_flag),
-            self.animation_job.as_ref().map(Job::cancel_flag),
-            self.save_job.as_ref().map(Job::cancel_flag),
-        ]
-        .into_iter()
-        .flatten()
-        {
-            cancel.store(true, std::sync::atomic::Ordering::Relaxed);
+        for job in self.running_jobs() {
+            job.cancel.store(true, std::sync::atomic::Ordering::Relaxed);
         }
     }
 

@@ -122,6 +122,49 @@ impl JobContext {
     }
 }
 
+/// Which background job.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum JobKind {
+    /// Opening a shape model or a scenario.
+    Load,
+    /// Rebuilding the body (mass, spin, gravity method).
+    Body,
+    /// The surface map.
+    Map,
+    /// A run.
+    Run,
+    /// An export of files.
+    Export,
+    /// An animation.
+    Animation,
+    /// Saving the scenario.
+    Save,
+}
+
+/// A running job as the status line and Cancel see it.
+pub struct RunningJob<'a> {
+    /// Which job.
+    pub kind: JobKind,
+    /// What it does.
+    pub label: &'a str,
+    /// Its progress.
+    pub progress: &'a Progress,
+    /// Its cancel flag.
+    pub cancel: &'a AtomicBool,
+}
+
+impl<T: Send + 'static> Job<T> {
+    /// This job as a [`RunningJob`] of `kind`.
+    pub fn running(&self, kind: JobKind) -> RunningJob<'_> {
+        RunningJob {
+            kind,
+            label: &self.label,
+            progress: &self.progress,
+            cancel: &self.cancel,
+        }
+    }
+}
+
 /// One running background job producing `T`.
 pub struct Job<T> {
     /// What the job does, for the status line ("Flying 12 launches").
@@ -201,11 +244,6 @@ impl<T: Send + 'static> Job<T> {
     /// Whether Cancel was pressed.
     pub fn is_cancelled(&self) -> bool {
         self.cancel.load(Ordering::Relaxed)
-    }
-
-    /// The job's cancel flag.
-    pub fn cancel_flag(&self) -> &AtomicBool {
-        &self.cancel
     }
 
     /// Check without waiting.

@@ -8,6 +8,7 @@ use crate::app::{
     SHORTCUT_UNDO, SpinfallApp,
 };
 use crate::command::Command;
+use crate::jobs::JobKind;
 use crate::state::RecentKind;
 
 /// The caution shown in the status line and the About text.
@@ -239,27 +240,19 @@ impl SpinfallApp {
 
     /// `(label with stage, fraction)` of every running job but the run (the toolbar shows it).
     pub(crate) fn job_progress(&self) -> Vec<(String, Option<f32>)> {
-        let mut out = Vec::new();
-        macro_rules! add {
-            ($job:expr) => {
-                if let Some(j) = &$job {
-                    let stage = j.progress.stage();
-                    let label = if stage.is_empty() {
-                        j.label.clone()
-                    } else {
-                        format!("{}: {stage}", j.label)
-                    };
-                    out.push((label, j.progress.fraction()));
-                }
-            };
-        }
-        add!(self.load_job);
-        add!(self.body_job);
-        add!(self.map_job);
-        add!(self.export_job);
-        add!(self.animation_job);
-        add!(self.save_job);
-        out
+        self.running_jobs()
+            .into_iter()
+            .filter(|j| j.kind != JobKind::Run)
+            .map(|j| {
+                let stage = j.progress.stage();
+                let label = if stage.is_empty() {
+                    j.label.to_string()
+                } else {
+                    format!("{}: {stage}", j.label)
+                };
+                (label, j.progress.fraction())
+            })
+            .collect()
     }
 
     /// The run's progress text: the launches known from the start, never "0 / 0".

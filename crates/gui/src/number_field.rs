@@ -5,7 +5,8 @@
 //! the value back into the field.
 //!
 //! Values are kept in the unit the document stores them in; `scale` shows them in another
-//! (shown = stored / scale), so a typed value in the stored unit is kept exactly.
+//! (shown = stored / scale), so a typed value in the stored unit is kept exactly. A field left
+//! with the text it showed changes nothing (a value shown rounded keeps its digits).
 
 use egui::text::{CCursor, CCursorRange};
 use egui::{Color32, IdSalt, Key, Response, RichText, Stroke, Ui};
@@ -120,6 +121,7 @@ pub struct NumberField<'a, T: FieldNumber> {
     unit: String,
     width: f32,
     enabled: bool,
+    decimals: Option<usize>,
 }
 
 impl<'a, T: FieldNumber> NumberField<'a, T> {
@@ -134,6 +136,29 @@ impl<'a, T: FieldNumber> NumberField<'a, T> {
             unit: String::new(),
             width: 90.0,
             enabled: true,
+            decimals: None,
+        }
+    }
+
+    /// Show at most `decimals` decimals (the value keeps its digits unless the text is edited).
+    pub fn decimals(mut self, decimals: usize) -> Self {
+        self.decimals = Some(decimals);
+        self
+    }
+
+    /// The text shown for the value.
+    fn shown(&self) -> String {
+        let text = self.value.shown_text(self.scale);
+        match (self.decimals, text.parse::<f64>()) {
+            (Some(d), Ok(v)) if !text.contains('e') => {
+                let t = format!("{v:.d$}");
+                if t.contains('.') {
+                    t.trim_end_matches('0').trim_end_matches('.').to_string()
+                } else {
+                    t
+                }
+            }
+            _ => text,
         }
     }
 
@@ -191,9 +216,10 @@ impl<'a, T: FieldNumber> NumberField<'a, T> {
         let id = ui.make_persistent_id(self.id_salt);
         let edit_id = id.with("text");
         let draft: Option<Draft> = ui.data(|d| d.get_temp(id));
+        let shown = self.shown();
         let mut text = draft
             .as_ref()
-            .map_or_else(|| self.value.shown_text(self.scale), |d| d.text.clone());
+            .map_or_else(|| shown.clone(), |d| d.text.clone());
         let error = draft.as_ref().and_then(|d| d.error.clone());
         let inner = ui.horizontal(|ui| {
             let mut edit = egui::TextEdit::singleline(&mut text)
@@ -232,7 +258,8 @@ impl<'a, T: FieldNumber> NumberField<'a, T> {
         response.flags.remove(egui::response::Flags::CHANGED);
         let escape = ui.input(|i| i.key_pressed(Key::Escape));
         if response.lost_focus() {
-            if escape {
+            if escape || text.trim() == shown {
+                // Put back, or left as shown: the value keeps all its digits.
                 ui.data_mut(|d| d.remove::<Draft>(id));
             } else {
                 match self.check(&text) {

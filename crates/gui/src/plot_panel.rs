@@ -255,7 +255,8 @@ impl SpinfallApp {
         }
         let Some(drawn) = &self.plot.drawn else {
             if let Some(e) = &self.plot.error {
-                ui.weak(format!("(no room for the plot: {e})"));
+                ui.weak("No room for the plot: drag the top edge of the results panel up.")
+                    .on_hover_text(e);
             }
             return;
         };

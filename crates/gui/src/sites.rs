@@ -127,10 +127,20 @@ impl SpinfallApp {
             .num_columns(2)
             .show(ui, |ui| {
                 // Site: a picked point becomes a latitude/longitude site once either is edited.
-                let (mut lat, mut lon) = where_deg.unwrap_or((0.0, 0.0));
+                // The document's own numbers for a latitude/longitude site (so editing one keeps
+                // the other exactly), else where the site was placed.
+                let (mut lat, mut lon) = match &launch.site {
+                    Some(SiteSpec {
+                        lat_deg: Some(a),
+                        lon_deg: Some(o),
+                        ..
+                    }) => (*a, *o),
+                    _ => where_deg.unwrap_or((0.0, 0.0)),
+                };
                 let l = ui.label("Latitude:");
                 let lat_changed = NumberField::new(&mut lat, ("site_lat", i))
                     .range(-90.0, 90.0)
+                    .decimals(6)
                     .unit("°", 1.0)
                     .show(ui)
                     .labelled_by(l.id)
@@ -142,6 +152,7 @@ impl SpinfallApp {
                 let l = ui.label("Longitude:");
                 let lon_changed = NumberField::new(&mut lon, ("site_lon", i))
                     .range(-360.0, 360.0)
+                    .decimals(6)
                     .unit("° east", 1.0)
                     .show(ui)
                     .labelled_by(l.id)

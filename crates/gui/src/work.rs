@@ -340,20 +340,11 @@ impl SpinfallApp {
 
     /// Warnings the jobs pushed, as notices.
     fn collect_job_notes(&mut self) {
-        let mut notes = Vec::new();
-        macro_rules! take {
-            ($job:expr) => {
-                if let Some(j) = &$job {
-                    notes.extend(j.progress.take_notes());
-                }
-            };
-        }
-        take!(self.load_job);
-        take!(self.body_job);
-        take!(self.map_job);
-        take!(self.run_job);
-        take!(self.export_job);
-        take!(self.animation_job);
+        let notes: Vec<String> = self
+            .running_jobs()
+            .iter()
+            .flat_map(|j| j.progress.take_notes())
+            .collect();
         for n in notes {
             self.notify(Notice::new(NoticeKind::Info, n));
         }

@@ -94,13 +94,18 @@ fn cancel_keeps_the_previous_results_with_true_counts_and_no_times_for_unflown_l
     assert_eq!(h.state().reports().len(), finished);
     for r in h.state().reports() {
         assert!(
-            !matches!(&r.outcome, Outcome::Failed { reason } if reason == "cancelled"),
-            "a cancelled launch is listed: {}",
-            r.id
+            !matches!(&r.outcome, Outcome::Failed { reason } if reason.contains("cancelled")),
+            "a cancelled launch is listed: {} {:?}",
+            r.id,
+            r.outcome
         );
     }
     h.get_by_label_contains("Partial run (cancelled)");
-    assert!(labels_containing(&h, "failed: cancelled").is_empty());
+    assert!(
+        labels_containing(&h, "cancelled")
+            .iter()
+            .all(|l| !l.starts_with("failed"))
+    );
     h.get_by_label_contains("Back to the previous complete results")
         .click();
     h.step();
@@ -359,6 +364,14 @@ fn a_placed_site_can_be_moved_raised_and_given_the_smoothed_vertical() {
             .point_m
             .is_some()
     );
+    // Passing through the fields (shown rounded) moves nothing.
+    focus_field(&mut h, "Latitude:");
+    h.key_press(Key::Tab);
+    h.step();
+    h.key_press(Key::Tab);
+    h.step();
+    let site = h.state().sites()[0].site.clone().unwrap();
+    assert!(site.point_m.is_some() && site.lat_deg.is_none(), "{site:?}");
     type_fast(&mut h, "Latitude:", "12.5");
     type_fast(&mut h, "Longitude:", "-40");
     type_fast(&mut h, "Start height:", "2");

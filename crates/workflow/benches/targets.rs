@@ -16,9 +16,7 @@ use spinfall_dynamics::launch::{Dispersion, LaunchSpec, LaunchState, SpeedSigma}
 use spinfall_dynamics::site::{NormalMode, Site};
 use spinfall_dynamics::surface_map::surface_map;
 use spinfall_dynamics::{Body, FlightReport, FlightSettings, GravityModel, Spin, fly_all};
-use spinfall_gravity::{
-    InterpolationSettings, MassSpec, PolyhedronGravity, ShapeModel, generate,
-};
+use spinfall_gravity::{InterpolationSettings, MassSpec, PolyhedronGravity, ShapeModel, generate};
 use spinfall_workflow::field_cache::{BuildHooks, load_or_build};
 
 const DENSITY: f64 = 2100.0;
@@ -144,7 +142,8 @@ fn test_points(body: &Body, n: usize) -> (Vec<Point3<f64>>, Vec<Point3<f64>>) {
     let near: Vec<Point3<f64>> = (0..n)
         .map(|k| {
             let f = (k * 7919) % nf;
-            body.shape.face_centroid(f) + body.shape.face_normal(f).into_inner() * (0.5 * (k % 7) as f64)
+            body.shape.face_centroid(f)
+                + body.shape.face_normal(f).into_inner() * (0.5 * (k % 7) as f64)
         })
         .collect();
     let r = body.brillouin_radius_m();
@@ -264,8 +263,14 @@ fn fly(body: &Body, launches: &[LaunchState]) -> (Vec<FlightReport>, f64) {
 fn summary(reports: &[FlightReport]) -> String {
     let evals: u64 = reports.iter().map(|r| r.gravity_evaluations).sum();
     let landed = reports.iter().filter(|r| r.landed()).count();
-    let worst_drift = reports.iter().map(|r| r.jacobi_rel_drift).fold(0.0, f64::max);
-    let worst_agree = reports.iter().map(|r| r.frame_agreement_m).fold(0.0, f64::max);
+    let worst_drift = reports
+        .iter()
+        .map(|r| r.jacobi_rel_drift)
+        .fold(0.0, f64::max);
+    let worst_agree = reports
+        .iter()
+        .map(|r| r.frame_agreement_m)
+        .fold(0.0, f64::max);
     format!(
         "{landed} landed of {}, {:.0} evaluations per launch, worst Jacobi drift {worst_drift:.1e}, worst frame agreement {worst_agree:.2e} m",
         reports.len(),
@@ -291,10 +296,7 @@ fn case_flights(freq: u32, dir: &std::path::Path, compare: bool, n: usize) {
     }
     let db = direct(&shape);
     let (exact, s) = fly(&db, &launches);
-    println!(
-        "{n} launches, direct: {s:.1} s ({})",
-        summary(&exact)
-    );
+    println!("{n} launches, direct: {s:.1} s ({})", summary(&exact));
     // First contacts within one rotation: position and time differences.
     let period = ib.spin.period_s;
     let mut worst_m = 0.0f64;

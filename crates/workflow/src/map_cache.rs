@@ -14,6 +14,7 @@ use std::path::{Path, PathBuf};
 use sha2::{Digest, Sha256};
 use spinfall_dynamics::surface_map::SurfaceMap;
 use spinfall_dynamics::{Body, Cancel};
+use spinfall_gravity::{InterpolationSettings, MassSpec, cache_key};
 
 use crate::error::Result;
 use crate::gravity_method::FieldUsed;
@@ -29,29 +30,26 @@ pub const MAP_EXTENSION: &str = "surface-map";
 /// The key of the surface map of `body` (mesh, GM, spin rate and axis), recentred or not, with
 /// gravity computed as `field` says.
 pub fn map_key(body: &Body, recentred: bool, field: &FieldUsed) -> String {
+    // The mesh and the mass as the stored fields key them (with the bound of an interpolated
+    // field, or none), then what the map adds: the spin, the recentring, the method.
+    let settings = InterpolationSettings {
+        max_rel_error: field.max_rel_error.unwrap_or(0.0),
+        ..InterpolationSettings::default()
+    };
+    let field_key = cache_key(
+        body.shape.mesh(),
+        MassSpec::GmM3S2(body.gm_m3_s2()),
+        &settings,
+    );
     let mut h = Sha256::new();
     h.update(MAGIC);
-    let mesh = body.shape.mesh();
-    h.update((mesh.vertices_m.len() as u64).to_le_bytes());
-    for v in &mesh.vertices_m {
-        for c in [v.x, v.y, v.z] {
-            h.update(c.to_bits().to_le_bytes());
-        }
-    }
-    h.update((mesh.faces.len() as u64).to_le_bytes());
-    for f in &mesh.faces {
-        for i in f {
-            h.update(i.to_le_bytes());
-        }
-    }
-    h.update(body.gm_m3_s2().to_bits().to_le_bytes());
+    h.update(field_key.as_bytes());
     h.update(body.spin.period_s.to_bits().to_le_bytes());
     for c in body.spin.axis_body.iter() {
         h.update(c.to_bits().to_le_bytes());
     }
     h.update([u8::from(recentred)]);
     h.update(field.method.as_bytes());
-    h.update(field.max_rel_error.unwrap_or(0.0).to_bits().to_le_bytes());
     manifest_hex(&h.finalize())
 }
 
@@ -230,7 +228,7 @@ mod tests {
     use std::sync::atomic::AtomicBool;
 
     use spinfall_dynamics::{Body, Spin, SpinAxis};
-    use spinfall_gravity::{MassSpec, ShapeModel, generate};
+    use spinfall_gravity::{ShapeModel, generate};
 
     use super::*;
 

@@ -41,10 +41,16 @@ pub enum RunEnd {
     },
 }
 
-/// Whether `report` is a launch stopped by a cancel (rather than ended on its own).
+/// Whether `report` is a launch stopped by a cancel (rather than ended on its own): its
+/// failure reason is "cancelled", or ends with it when the cancel stopped the inertial frame
+/// ("inertial frame stopped at t = … s: cancelled").
 pub fn stopped_by_cancel(report: &FlightReport) -> bool {
-    matches!(&report.outcome, Outcome::Failed { reason } if reason == "cancelled")
+    matches!(&report.outcome, Outcome::Failed { reason }
+        if reason == CANCELLED || reason.ends_with(&format!(": {CANCELLED}")))
 }
+
+/// The failure reason of a launch stopped by a cancel.
+const CANCELLED: &str = "cancelled";
 
 /// As [`run`], but a cancelled run keeps the launches that had ended before the cancel.
 pub fn run_keeping_finished(
@@ -119,7 +125,29 @@ mod tests {
             } => {
                 assert_eq!(launches, total);
                 assert!(!finished.is_empty() && finished.len() < total);
-                assert!(finished.iter().all(|r| !stopped_by_cancel(r)));
+                // Every way a cancel ends a launch is told apart from a failure of its own.
+                let mut r = finished[0].clone();
+                for (reason, cancelled) in [
+                    ("cancelled", true),
+                    ("inertial frame stopped at t = 12.5 s: cancelled", true),
+                    (
+                        "step limit; the inertial frame then stopped at t = 3 s: cancelled",
+                        true,
+                    ),
+                    ("wall-clock limit of 60 s reached", false),
+                ] {
+                    r.outcome = Outcome::Failed {
+                        reason: reason.into(),
+                    };
+                    assert_eq!(stopped_by_cancel(&r), cancelled, "{reason}");
+                }
+                for r in &finished {
+                    assert!(
+                        !matches!(&r.outcome, Outcome::Failed { reason } if reason.contains("cancelled")),
+                        "{:?}",
+                        r.outcome
+                    );
+                }
             }
             RunEnd::Complete(_) => panic!("the run was not cancelled"),
         }

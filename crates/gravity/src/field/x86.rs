@@ -18,9 +18,9 @@ use std::arch::x86_64::*;
 use std::ops::{Add, Div, Mul, Sub};
 
 use super::block::Oct;
+use super::direct::Sums;
 use super::interp::face_set::FaceGeometry;
 use super::interp::near::{self, NearSums};
-use super::direct::Sums;
 use super::kernel;
 use super::lanes::{Lanes, MAX_LANES};
 use super::tables::Tables;

@@ -63,7 +63,6 @@ const EXTERIOR_DEGREES: [usize; 5] = [12, 16, 20, 24, 28];
 /// the body that the expansion covers more cheaply.
 const SWITCH_TARGET: f64 = 3.0;
 
-
 /// The near-set radius of a leaf, in cell half-widths, for a bound: larger for tighter bounds
 /// (the fit's error falls like `(corner distance / near radius)^p`), small for fast leaves.
 fn leaf_kappa(max_rel_error: f64) -> f64 {
@@ -785,28 +784,25 @@ pub fn build_interpolated(
         // Near sets of the next level, in parallel (each from its parent's).
         level = next
             .into_par_iter()
-            .map(
-                |(node, center, half_m, depth, parent_near, source)| {
-                    let (near, fit, leaf_candidate) =
-                        builder.near_sets(&parent_near, center, half_m);
-                    let near = Arc::new(near);
-                    let fit_near = if leaf_candidate {
-                        Arc::new(fit)
-                    } else {
-                        Arc::clone(&near)
-                    };
-                    Pending {
-                        node,
-                        center,
-                        half_m,
-                        depth,
-                        near,
-                        fit_near,
-                        leaf_candidate,
-                        source,
-                    }
-                },
-            )
+            .map(|(node, center, half_m, depth, parent_near, source)| {
+                let (near, fit, leaf_candidate) = builder.near_sets(&parent_near, center, half_m);
+                let near = Arc::new(near);
+                let fit_near = if leaf_candidate {
+                    Arc::new(fit)
+                } else {
+                    Arc::clone(&near)
+                };
+                Pending {
+                    node,
+                    center,
+                    half_m,
+                    depth,
+                    near,
+                    fit_near,
+                    leaf_candidate,
+                    source,
+                }
+            })
             .collect();
         let memory = fixed_bytes
             + coefs.len() * 8

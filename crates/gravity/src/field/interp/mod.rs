@@ -37,8 +37,8 @@ pub(crate) mod basis;
 mod build;
 mod codec;
 pub(crate) mod face_set;
-pub(crate) mod near;
 pub(crate) mod fit;
+pub(crate) mod near;
 pub(crate) mod poly3;
 mod solid;
 

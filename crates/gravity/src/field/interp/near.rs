@@ -133,10 +133,19 @@ mod tests {
                 let faces: Vec<u32> = (0..len as u32).map(|k| k * 7 % 320).collect();
                 let want = set_jet::<false>(&g, &faces, &p);
                 let mut got = vec![near(&g, &faces, [p.x, p.y, p.z])];
-                got.push(near_sums::<super::super::super::lanes::Portable>(&g, &faces, [p.x, p.y, p.z]));
+                got.push(near_sums::<super::super::super::lanes::Portable>(
+                    &g,
+                    &faces,
+                    [p.x, p.y, p.z],
+                ));
                 let scale = want.potential.abs().max(1.0);
                 for s in got {
-                    assert!((s.potential - want.potential).abs() < 1e-12 * scale, "{len}: {} vs {}", s.potential, want.potential);
+                    assert!(
+                        (s.potential - want.potential).abs() < 1e-12 * scale,
+                        "{len}: {} vs {}",
+                        s.potential,
+                        want.potential
+                    );
                     for k in 0..3 {
                         assert!((s.grad[k] - want.grad[k]).abs() < 1e-12 * scale, "{len}");
                     }
