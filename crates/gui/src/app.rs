@@ -206,6 +206,8 @@ pub struct SpinfallApp {
     pub(crate) export_form: crate::export::ExportForm,
     pub(crate) table: crate::results::TableState,
     pub(crate) last_exported: Vec<PathBuf>,
+    /// How the last export or animation ended, shown in the export window.
+    pub(crate) export_status: Option<(crate::notify::NoticeKind, String)>,
     pub(crate) dialog_tx: Sender<DialogAnswer>,
     pub(crate) dialog_rx: Receiver<DialogAnswer>,
     /// The cache folder of a test app (removed with the app).
@@ -335,6 +337,7 @@ impl SpinfallApp {
             export_form,
             table: Default::default(),
             last_exported: Vec::new(),
+            export_status: None,
             dialog_tx,
             dialog_rx,
             test_cache: None,

@@ -257,12 +257,13 @@ impl SpinfallApp {
             }
         });
         if let Some(job) = &self.body_job {
+            ui.add(egui::Label::new(RichText::new(job.progress.stage()).weak()).wrap());
             ui.horizontal(|ui| {
                 ui.spinner();
                 ui.add(
                     egui::ProgressBar::new(job.progress.fraction().unwrap_or(0.0))
-                        .desired_width(150.0)
-                        .text(job.progress.stage()),
+                        .desired_width(180.0)
+                        .show_percentage(),
                 );
                 if ui
                     .button("Cancel")

@@ -403,6 +403,13 @@ impl SpinfallApp {
                             }
                         }
                     });
+                    if let Some((kind, text)) = &self.export_status {
+                        let color = match kind {
+                            crate::notify::NoticeKind::Error => crate::number_field::ERROR_RED,
+                            crate::notify::NoticeKind::Info => egui::Color32::from_rgb(150, 200, 255),
+                        };
+                        ui.add(egui::Label::new(RichText::new(format!("Last: {text}")).color(color)).wrap());
+                    }
                     ui.weak("Files are written under a temporary name and renamed when complete; a folder that does not exist is created.");
                     if self.reports.is_empty() {
                         ui.colored_label(AMBER, "No results yet: figures show the body and the planned sites.");

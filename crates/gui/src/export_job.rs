@@ -29,6 +29,7 @@ use crate::app::SpinfallApp;
 use crate::command::{AnimationRequest, AnimationTarget, ExportRequest, FigureChoice, ImageFormat};
 use crate::error::GuiError;
 use crate::jobs::{Job, JobContext, Poll};
+use crate::notify::NoticeKind;
 use crate::work::{AnimationDone, ExportDone};
 
 /// Samples per plotted series in exported plots.
@@ -195,16 +196,26 @@ impl SpinfallApp {
                         Some(f) => format!("created the folder {} and ", f.display()),
                         None => String::new(),
                     };
-                    self.info(format!(
+                    let text = format!(
                         "{created}exported {} file(s) into {}: {}",
                         done.paths.len(),
                         folder.display(),
                         list.join(", ")
-                    ));
+                    );
+                    self.export_status = Some((NoticeKind::Info, text.clone()));
+                    self.info(text);
                     self.last_exported = done.paths;
                 }
-                Err(e) if e.is_cancelled() => self.info("export cancelled; nothing was written"),
-                Err(e) => self.error(format!("export failed: {e}")),
+                Err(e) if e.is_cancelled() => {
+                    let text = "export cancelled; nothing was written".to_string();
+                    self.export_status = Some((NoticeKind::Info, text.clone()));
+                    self.info(text);
+                }
+                Err(e) => {
+                    let text = format!("export failed: {e}");
+                    self.export_status = Some((NoticeKind::Error, text.clone()));
+                    self.error(text);
+                }
             }
         }
         if let Some(job) = &self.animation_job
@@ -218,18 +229,28 @@ impl SpinfallApp {
                         Some(f) => format!("created the folder {} and ", f.display()),
                         None => String::new(),
                     };
-                    self.info(format!(
+                    let text = format!(
                         "{created}wrote an animation of {} frames: {}",
                         done.frames,
                         done.path.display()
-                    ));
+                    );
+                    self.export_status = Some((NoticeKind::Info, text.clone()));
+                    self.info(text);
                     self.last_exported = vec![done.path];
                 }
-                Err(e) if e.is_cancelled() => self.info(format!(
-                    "animation cancelled after {frames_so_far} frame(s); no animation file was \
-                     written (frames already written to a frames folder stay)"
-                )),
-                Err(e) => self.error(format!("animation not written: {e}")),
+                Err(e) if e.is_cancelled() => {
+                    let text = format!(
+                        "animation cancelled after {frames_so_far} frame(s); no animation file \
+                         was written (frames already written to a frames folder stay)"
+                    );
+                    self.export_status = Some((NoticeKind::Info, text.clone()));
+                    self.info(text);
+                }
+                Err(e) => {
+                    let text = format!("animation not written: {e}");
+                    self.export_status = Some((NoticeKind::Error, text.clone()));
+                    self.error(text);
+                }
             }
         }
     }

@@ -324,12 +324,8 @@ impl SpinfallApp {
                     self.commands.push(Command::CancelJobs);
                 }
                 if let Some((text, f)) = self.run_progress() {
-                    ui.add(
-                        egui::ProgressBar::new(f)
-                            .desired_width(300.0)
-                            .text(text)
-                            .animate(true),
-                    );
+                    ui.spinner();
+                    ui.add(egui::ProgressBar::new(f).desired_width(300.0).text(text));
                 }
                 ui.separator();
                 if ui.button("Export…").on_hover_text("Ctrl+E").clicked() {

@@ -244,12 +244,24 @@ fn export_into_a_missing_folder_creates_it_and_says_so_where_the_user_looks() {
     settle(&mut h);
     assert!(folder.join("spinfall_views.png").is_file());
     let text = format!("created the folder {}", folder.display());
-    let toast = h.get_by_label_contains(&text);
+    // The toast (the export window repeats it after "Last: ").
+    let toast = h
+        .query_all_by_label_contains(&text)
+        .find(|n| {
+            use egui_kittest::kittest::NodeT;
+            let n = n.accesskit_node();
+            n.value()
+                .or(n.label())
+                .is_some_and(|t| t.starts_with("created"))
+        })
+        .expect("a toast");
     // In the window, above everything (the export window included).
     let screen = egui::Rect::from_min_size(egui::Pos2::ZERO, egui::vec2(1400.0, 900.0));
     assert!(screen.contains_rect(toast.rect()), "{:?}", toast.rect());
     let notice = h.state().notices().last().unwrap();
     assert_eq!(notice.kind, NoticeKind::Info);
+    // And in the export window, beside its buttons, until the next export.
+    h.get_by_label_contains(&format!("Last: {text}"));
 
     // An error stays until dismissed; information fades.
     let blocker = dir.path().join("a file");
