@@ -108,14 +108,9 @@ fn the_command_line_and_the_app_report_the_same_numbers() {
     app.push_command(Command::Export(ExportRequest {
         folder: app_out.clone(),
         stem: "run".into(),
-        composite_png: false,
-        body_png: false,
-        inertial_png: false,
-        size_px: [200, 100],
         results: true,
         trajectories: true,
-        surface_map: false,
-        scenario: false,
+        ..ExportRequest::default()
     }));
     settle(&mut app);
 

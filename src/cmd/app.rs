@@ -37,6 +37,7 @@ pub fn run(shape: Option<PathBuf>, unit: LengthUnit) -> CmdResult<ExitCode> {
     let options = spinfall_gui::GuiOptions {
         shape_path: shape,
         unit,
+        cache_dir: None,
     };
     spinfall_gui::run(options).map_err(|e| CliError::with_code(NO_DISPLAY, e.to_string()))?;
     Ok(ExitCode::SUCCESS)

@@ -52,6 +52,8 @@ pub fn run(args: &PlotArgs) -> CmdResult<ExitCode> {
         theme: args.figure.theme.into(),
         launch,
         field: map_field(args.map),
+        // The command line draws in metres and seconds, as its data files are written.
+        units: spinfall_scene::DisplayUnits::SI,
     };
     let figure =
         plot(&view, &reports, &series, &opts).map_err(|e| CliError::input(e.to_string()))?;

@@ -5,6 +5,7 @@ use std::path::PathBuf;
 
 use nalgebra::Point3;
 use spinfall_gravity::LengthUnit;
+use spinfall_render::{FigureSize, ThemeKind};
 
 /// A request from the UI.
 #[derive(Debug, Clone, PartialEq)]
@@ -25,9 +26,10 @@ pub enum Command {
     SaveScenario(PathBuf),
     /// Show the dialog to choose the export folder.
     BrowseExportFolder,
-    /// Rebuild the body (mass or spin changed).
+    /// Rebuild the body (mass, spin or gravity method changed).
     RebuildBody,
-    /// Compute the surface map for the current body in the background.
+    /// Compute the surface map for the current body in the background (or read it from the
+    /// cache).
     ComputeMap,
     /// Add a launch site at a body-fixed surface point (metres) on face `face`.
     AddSiteAtPoint {
@@ -43,12 +45,19 @@ pub enum Command {
         /// East longitude, degrees.
         lon_deg: f64,
     },
-    /// Remove launch site `index`.
+    /// Remove launch `index` (undoable).
     RemoveSite(usize),
+    /// Undo the last site or body edit.
+    Undo,
+    /// Redo the last undone edit.
+    Redo,
     /// Fly every launch of every site in the background.
     Run,
     /// Stop the running job(s).
     CancelJobs,
+    /// Show the other set of results after a cancel (the previous complete run or the
+    /// finished part of the cancelled one).
+    SwitchResults,
     /// Select a launch in the table and the views.
     SelectLaunch(Option<usize>),
     /// Play or pause the animation.
@@ -59,29 +68,115 @@ pub enum Command {
     ShowExport,
     /// Export files in the background.
     Export(ExportRequest),
+    /// Export an animation of the views in the background.
+    ExportAnimation(AnimationRequest),
+}
+
+/// Still image formats.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum ImageFormat {
+    /// PNG (raster, metadata in text chunks).
+    #[default]
+    Png,
+    /// SVG (bodies embedded as rasters, traces, markers and text as vectors).
+    Svg,
+}
+
+impl ImageFormat {
+    /// The file extension.
+    pub fn extension(self) -> &'static str {
+        match self {
+            ImageFormat::Png => "png",
+            ImageFormat::Svg => "svg",
+        }
+    }
+}
+
+/// How figures look: theme, size, colour range, framing.
+#[derive(Debug, Clone, PartialEq)]
+pub struct FigureChoice {
+    /// Dark (screen) or light (print).
+    pub theme: ThemeKind,
+    /// Pixels, or millimetres/inches at a resolution.
+    pub size: FigureSize,
+    /// Colour range of the surface map `[min, max]` in the field's unit (`None`: the data's).
+    pub color_range: Option<[f64; 2]>,
+    /// Re-aim the views at the body instead of framing them as on screen.
+    pub fit_body: bool,
+}
+
+impl Default for FigureChoice {
+    fn default() -> Self {
+        Self {
+            theme: ThemeKind::Dark,
+            size: FigureSize::Pixels {
+                width_px: 1920,
+                height_px: 1080,
+            },
+            color_range: None,
+            fit_body: false,
+        }
+    }
 }
 
 /// What to export, where.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, Default)]
 pub struct ExportRequest {
-    /// Target folder (must exist).
+    /// Target folder (created if missing).
     pub folder: PathBuf,
     /// File name stem, e.g. `spinfall` gives `spinfall_results.json`.
     pub stem: String,
-    /// Side-by-side PNG of both views at the current time.
-    pub composite_png: bool,
-    /// PNG of the body-fixed view alone.
-    pub body_png: bool,
-    /// PNG of the inertial view alone.
-    pub inertial_png: bool,
-    /// Image size in pixels (the composite; single views use it too).
-    pub size_px: [u32; 2],
+    /// Figure of both views side by side at the current time.
+    pub composite: bool,
+    /// Figure of the body-fixed view alone.
+    pub body_view: bool,
+    /// Figure of the inertial view alone.
+    pub inertial_view: bool,
+    /// Plots of the selected launch (altitude, speed, Jacobi drift).
+    pub plots: bool,
+    /// Format of the figures and plots.
+    pub format: ImageFormat,
+    /// Look and size of the figures and plots.
+    pub figure: FigureChoice,
     /// Per-launch results, JSON and CSV.
     pub results: bool,
     /// Trajectory samples, CSV.
     pub trajectories: bool,
-    /// Surface map per face, CSV (when a map was computed).
+    /// Surface map per face, CSV.
     pub surface_map: bool,
     /// The scenario JSON.
     pub scenario: bool,
+}
+
+/// Where the frames of an animation go.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum AnimationTarget {
+    /// One animated GIF.
+    #[default]
+    Gif,
+    /// One animated PNG.
+    Apng,
+    /// A folder of numbered PNG frames (`frame_0000.png`, ...), for video encoders.
+    Frames,
+}
+
+/// An animation of the views over time.
+#[derive(Debug, Clone, PartialEq)]
+pub struct AnimationRequest {
+    /// Target folder (created if missing).
+    pub folder: PathBuf,
+    /// File name stem: `<stem>_animation.gif`, `.png`, or the folder `<stem>_frames`.
+    pub stem: String,
+    /// Format.
+    pub target: AnimationTarget,
+    /// Number of frames.
+    pub frames: u32,
+    /// Frames per second when played.
+    pub fps: f64,
+    /// Time of the first frame, s.
+    pub from_s: f64,
+    /// Time of the last frame, s.
+    pub to_s: f64,
+    /// Look and size of each frame.
+    pub figure: FigureChoice,
 }

@@ -25,6 +25,18 @@ pub enum GuiError {
     /// The window could not be opened (no display, no OpenGL).
     #[error("could not open the Spinfall window: {0}")]
     Window(String),
+    /// A figure, plot or animation could not be made (settings, size, encoding).
+    #[error("{0}")]
+    Picture(String),
+}
+
+impl From<spinfall_scene::SceneError> for GuiError {
+    fn from(e: spinfall_scene::SceneError) -> Self {
+        match e {
+            spinfall_scene::SceneError::Cancelled => GuiError::Workflow(WorkflowError::Cancelled),
+            other => GuiError::Picture(other.to_string()),
+        }
+    }
 }
 
 impl GuiError {

@@ -31,6 +31,7 @@ pub struct Progress {
     done: AtomicUsize,
     total: AtomicUsize,
     stage: Mutex<String>,
+    notes: Mutex<Vec<String>>,
 }
 
 impl Progress {
@@ -64,6 +65,21 @@ impl Progress {
     /// The current stage text.
     pub fn stage(&self) -> String {
         self.stage.lock().map(|s| s.clone()).unwrap_or_default()
+    }
+
+    /// A warning for the user that does not stop the job (shown as a notice).
+    pub fn push_note(&self, note: String) {
+        if let Ok(mut n) = self.notes.lock() {
+            n.push(note);
+        }
+    }
+
+    /// The warnings pushed since the last call.
+    pub fn take_notes(&self) -> Vec<String> {
+        self.notes
+            .lock()
+            .map(|mut n| std::mem::take(&mut *n))
+            .unwrap_or_default()
     }
 }
 
@@ -102,6 +118,49 @@ impl JobContext {
         move |done, total| {
             self.progress.set(done, total);
             self.request_repaint();
+        }
+    }
+}
+
+/// Which background job.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum JobKind {
+    /// Opening a shape model or a scenario.
+    Load,
+    /// Rebuilding the body (mass, spin, gravity method).
+    Body,
+    /// The surface map.
+    Map,
+    /// A run.
+    Run,
+    /// An export of files.
+    Export,
+    /// An animation.
+    Animation,
+    /// Saving the scenario.
+    Save,
+}
+
+/// A running job as the status line and Cancel see it.
+pub struct RunningJob<'a> {
+    /// Which job.
+    pub kind: JobKind,
+    /// What it does.
+    pub label: &'a str,
+    /// Its progress.
+    pub progress: &'a Progress,
+    /// Its cancel flag.
+    pub cancel: &'a AtomicBool,
+}
+
+impl<T: Send + 'static> Job<T> {
+    /// This job as a [`RunningJob`] of `kind`.
+    pub fn running(&self, kind: JobKind) -> RunningJob<'_> {
+        RunningJob {
+            kind,
+            label: &self.label,
+            progress: &self.progress,
+            cancel: &self.cancel,
         }
     }
 }

@@ -1,10 +1,15 @@
 //! The Spinfall desktop app: an eframe/egui window over the CPU renderer.
 //!
 //! What it is: the interactive front end. It opens a shape model (or starts on the built-in
-//! demo body), sets mass and spin, colours the surface by a map, places launch sites by
-//! clicking on the body, flies them in the background, animates the body-fixed and inertial
-//! views side by side, shows a sortable results table with plots, and exports images, tables
-//! and scenario files.
+//! demo body), sets mass, spin and the gravity method (direct sums, or an interpolated field
+//! built with progress and cancel), colours the surface by a map (kept in the cache folder
+//! beside the interpolated fields), places launch sites by clicking on the body and edits them
+//! (latitude/longitude, start height, local vertical) with undo and redo, flies them in the
+//! background, animates the body-fixed and inertial views side by side, shows a sortable
+//! results table with plots (marked when out of date, kept when a run is cancelled), and
+//! exports figures (PNG or SVG, themes, sizes in pixels or millimetres/inches), plots, data,
+//! scenario files and animations. Lengths and times are shown in the display units chosen in
+//! the View menu; data files stay SI.
 //!
 //! What it is not: no physics, no file reading or writing, and no rasterizing of its own. Shape
 //! models and scenarios are opened, runs prepared and flown, and every file written by
@@ -19,7 +24,8 @@
 //! ```no_run
 //! use spinfall_gui::{run, GuiOptions};
 //! use spinfall_gravity::LengthUnit;
-//! run(GuiOptions { shape_path: None, unit: LengthUnit::Kilometre }).expect("a display");
+//! run(GuiOptions { shape_path: None, unit: LengthUnit::Kilometre, cache_dir: None })
+//!     .expect("a display");
 //! ```
 #![warn(missing_docs)]
 
@@ -28,16 +34,29 @@ mod body_panel;
 mod command;
 mod error;
 mod export;
+mod export_job;
+mod handlers;
+mod history;
 mod jobs;
+mod menu;
+mod notify;
+mod number_field;
+mod plot_panel;
 mod results;
 mod session;
 mod sites;
 mod state;
+mod units;
 mod views;
+mod work;
 
-pub use app::{Notice, NoticeKind, RunState, SpinfallApp};
-pub use command::{Command, ExportRequest};
+pub use app::{RunState, SpinfallApp};
+pub use command::{
+    AnimationRequest, AnimationTarget, Command, ExportRequest, FigureChoice, ImageFormat,
+};
 pub use error::GuiError;
+pub use notify::{Notice, NoticeAction, NoticeKind};
+pub use number_field::fmt_editable;
 pub use session::{AxisChoice, BodyParams, MassInput};
 pub use state::PersistedState;
 
@@ -52,6 +71,9 @@ pub struct GuiOptions {
     pub shape_path: Option<PathBuf>,
     /// Length unit of the coordinates in `shape_path`.
     pub unit: LengthUnit,
+    /// Folder of stored interpolated gravity fields and surface maps (`None`: the per-user
+    /// cache folder, see `spinfall_workflow::field_cache::default_cache_dir`).
+    pub cache_dir: Option<PathBuf>,
 }
 
 /// Open the Spinfall window and run until it is closed.

@@ -1,16 +1,16 @@
-//! The results table (sortable, selects the trace in the views) and the plots of the selected
-//! launch.
+//! The results panel: how the results were computed (gravity method and bound), whether they
+//! are out of date or the finished part of a cancelled run, the sortable table (selects the
+//! trace in the views) and the plots of the selected launch.
 
-use egui::Ui;
+use egui::{RichText, Ui};
 use egui_extras::{Column, TableBuilder};
-use egui_plot::{Legend, Line, Plot, PlotPoints};
-use spinfall_dynamics::FlightReport;
+use spinfall_dynamics::{FlightReport, Outcome};
+use spinfall_scene::DisplayUnits;
 use spinfall_workflow::export::outcome_text;
-use spinfall_workflow::series::{FlightSeries, flight_series};
 
-use crate::app::SpinfallApp;
+use crate::app::{RunState, SpinfallApp};
 use crate::command::Command;
-use crate::jobs::{Job, Poll};
+use crate::menu::AMBER;
 
 /// Table columns.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -21,8 +21,8 @@ pub enum ResultColumn {
     Outcome,
     /// Time to first contact.
     FlightTime,
-    /// Time to rest.
-    RestTime,
+    /// When the flight ended (rest, escape, time limit).
+    EndTime,
     /// Landing latitude.
     Lat,
     /// Landing longitude.
@@ -43,31 +43,31 @@ pub enum ResultColumn {
     Agreement,
 }
 
-const COLUMNS: [(ResultColumn, &str); 13] = [
-    (ResultColumn::Id, "Launch"),
-    (ResultColumn::Outcome, "Outcome"),
-    (ResultColumn::FlightTime, "Flight time (s)"),
-    (ResultColumn::RestTime, "Rest at (s)"),
-    (ResultColumn::Lat, "Land lat (°)"),
-    (ResultColumn::Lon, "Land lon (°)"),
-    (ResultColumn::Downrange, "Downrange (m)"),
-    (ResultColumn::MaxAltitude, "Max alt (m)"),
-    (ResultColumn::ImpactSpeed, "Impact (m/s)"),
-    (ResultColumn::ImpactAngle, "Impact angle (°)"),
-    (ResultColumn::Bounces, "Contacts"),
-    (ResultColumn::Jacobi, "Jacobi drift"),
-    (ResultColumn::Agreement, "Frame agree (m)"),
-];
+/// The columns with their headers in the display units.
+fn columns(units: DisplayUnits) -> [(ResultColumn, String); 13] {
+    let (t, l) = (units.time_symbol(), units.length_symbol());
+    [
+        (ResultColumn::Id, "Launch".into()),
+        (ResultColumn::Outcome, "Outcome".into()),
+        (ResultColumn::FlightTime, format!("First contact ({t})")),
+        (ResultColumn::EndTime, format!("Ended at ({t})")),
+        (ResultColumn::Lat, "Land lat (°)".into()),
+        (ResultColumn::Lon, "Land lon (°)".into()),
+        (ResultColumn::Downrange, format!("Downrange ({l})")),
+        (ResultColumn::MaxAltitude, format!("Max alt ({l})")),
+        (ResultColumn::ImpactSpeed, "Impact (m/s)".into()),
+        (ResultColumn::ImpactAngle, "Impact angle (°)".into()),
+        (ResultColumn::Bounces, "Contacts".into()),
+        (ResultColumn::Jacobi, "Jacobi drift".into()),
+        (ResultColumn::Agreement, "Frame agree (m)".into()),
+    ]
+}
 
 /// Sorting of the table.
 #[derive(Default)]
 pub struct TableState {
     /// Column and ascending flag.
     pub sort: Option<(ResultColumn, bool)>,
-    /// Which plot: 0 altitude, 1 speed, 2 Jacobi drift.
-    pub plot_kind: usize,
-    /// Plot job for the selected launch.
-    pub(crate) plot_job: Option<Job<PlotSeries>>,
 }
 
 /// Numeric value of a column for sorting (NaN when absent).
@@ -76,7 +76,7 @@ fn sort_value(r: &FlightReport, c: ResultColumn) -> f64 {
     match c {
         ResultColumn::Id | ResultColumn::Outcome => f64::NAN,
         ResultColumn::FlightTime => r.first_contact_time_s.unwrap_or(f64::NAN),
-        ResultColumn::RestTime => r.rest_time_s.unwrap_or(f64::NAN),
+        ResultColumn::EndTime => r.end_time_s,
         ResultColumn::Lat => r.landing.as_ref().map(|l| l.lat_deg).unwrap_or(f64::NAN),
         ResultColumn::Lon => r.landing.as_ref().map(|l| l.lon_deg).unwrap_or(f64::NAN),
         ResultColumn::Downrange => r.downrange_m.unwrap_or(f64::NAN),
@@ -141,30 +141,72 @@ fn opt(v: Option<f64>, decimals: usize) -> String {
     }
 }
 
-/// Time series of the selected launch for the plots (computed by the workflow on a worker).
-#[derive(Debug, Clone, Default)]
-pub struct PlotSeries {
-    /// Index of the launch.
-    pub launch: usize,
-    /// The series.
-    pub series: FlightSeries,
+/// The cells of one row, lengths and times in the display units.
+pub fn row_cells(r: &FlightReport, units: DisplayUnits) -> [String; 13] {
+    let first = r.contacts.first();
+    let (td, ld) = (units.time_decimals(), units.length_decimals());
+    let time = |s: Option<f64>| opt(s.map(|s| units.time(s)), td);
+    let length = |m: Option<f64>| opt(m.map(|m| units.length(m)), ld);
+    // Every flight that ended has an end time: rest, escape, the time limit or a failure.
+    let end = match &r.outcome {
+        Outcome::Landed if r.rest_time_s.is_some() => time(r.rest_time_s),
+        _ => time(Some(r.end_time_s)),
+    };
+    [
+        r.id.clone(),
+        outcome_text(&r.outcome),
+        time(r.first_contact_time_s),
+        end,
+        opt(r.landing.as_ref().map(|l| l.lat_deg), 2),
+        opt(r.landing.as_ref().map(|l| l.lon_deg), 2),
+        length(r.downrange_m),
+        length(Some(r.max_altitude_m)),
+        opt(first.map(|c| c.impact_speed_m_s), 4),
+        opt(first.map(|c| c.impact_angle_deg), 1),
+        r.contacts.len().to_string(),
+        format!("{:.1e}", r.jacobi_rel_drift),
+        format!("{:.1e}", r.frame_agreement_m),
+    ]
 }
 
-/// A named line of a plot.
-type NamedSeries<'a> = (&'a str, &'a Vec<[f64; 2]>);
-
-/// Most samples used for the plots (the trace is thinned evenly beyond that).
-const MAX_PLOT_SAMPLES: usize = 600;
+/// The gravity of a set of results in one line.
+pub fn field_line(f: &spinfall_workflow::gravity_method::FieldUsed) -> String {
+    match f.max_rel_error {
+        Some(e) => {
+            let store = f
+                .store
+                .as_deref()
+                .map(|s| {
+                    if s.starts_with("read") {
+                        ", read from the cache"
+                    } else if s.starts_with("built and stored") {
+                        ", built and kept in the cache"
+                    } else {
+                        ", built (not kept)"
+                    }
+                })
+                .unwrap_or("");
+            format!("Gravity: interpolated field, relative error ≤ {e:e}{store}")
+        }
+        None => "Gravity: direct sums (Werner & Scheeres 1997)".to_string(),
+    }
+}
 
 impl SpinfallApp {
     pub(crate) fn results_ui(&mut self, ui: &mut Ui) {
         ui.horizontal(|ui| {
             ui.heading("Results");
             ui.weak(format!("{} launch(es)", self.reports.len()));
+            if !self.reports.is_empty() {
+                ui.separator();
+                ui.label(field_line(&self.reports_field))
+                    .on_hover_text(self.reports_field.describe());
+            }
             if ui.button("Export…").clicked() {
                 self.commands.push(Command::ShowExport);
             }
         });
+        self.results_banners_ui(ui);
         if self.reports.is_empty() {
             ui.weak("Run to fill this table (Ctrl+R).");
             return;
@@ -172,7 +214,7 @@ impl SpinfallApp {
         let width = ui.available_width();
         ui.horizontal_top(|ui| {
             ui.vertical(|ui| {
-                ui.set_width((width * 0.58).max(300.0));
+                ui.set_width((width * 0.45).max(300.0));
                 self.table_ui(ui);
             });
             ui.separator();
@@ -180,12 +222,69 @@ impl SpinfallApp {
         });
     }
 
+    /// Out of date, cancelled, partial: said above the table.
+    fn results_banners_ui(&mut self, ui: &mut Ui) {
+        let stale = self.stale_reasons();
+        if !self.reports.is_empty() && !stale.is_empty() {
+            ui.colored_label(
+                AMBER,
+                format!(
+                    "Out of date: the {} changed after this run. Run again (Ctrl+R) to update; \
+                     Undo (Ctrl+Z) goes back.",
+                    stale.join(", ")
+                ),
+            );
+        }
+        if let Some(launches) = self.reports_partial_of {
+            ui.colored_label(
+                AMBER,
+                format!(
+                    "Partial run (cancelled): only the {} of {launches} launches that had \
+                     finished are shown; the others were not flown.",
+                    self.reports.len()
+                ),
+            );
+        }
+        if let RunState::Cancelled { finished, launches } = self.run_state {
+            ui.horizontal(|ui| {
+                let kept = if self.reports_partial_of.is_some() {
+                    String::new()
+                } else if self.reports.is_empty() {
+                    " Nothing finished, so there is nothing to show.".into()
+                } else {
+                    format!(
+                        " The previous complete results ({} launches) are shown.",
+                        self.reports.len()
+                    )
+                };
+                ui.colored_label(
+                    AMBER,
+                    format!("Run cancelled: {finished} of {launches} launches had finished.{kept}"),
+                );
+                if let Some(other) = &self.set_aside {
+                    let label = match other.partial_of {
+                        Some(_) => format!("Show the {} finished launches", other.reports.len()),
+                        None => format!(
+                            "Back to the previous complete results ({})",
+                            other.reports.len()
+                        ),
+                    };
+                    if ui.button(label).clicked() {
+                        self.commands.push(Command::SwitchResults);
+                    }
+                }
+            });
+        }
+    }
+
     fn table_ui(&mut self, ui: &mut Ui) {
         let reports = self.reports.clone();
+        let units = self.state.view.units;
         let order = sorted_order(&reports, self.table.sort);
         let selected = self.state.view.selected_launch;
         let mut clicked_row = None;
         let mut clicked_header = None;
+        let cols = columns(units);
         egui::ScrollArea::horizontal().show(ui, |ui| {
             let max_h = ui.available_height() - 24.0;
             let mut table = TableBuilder::new(ui)
@@ -195,7 +294,7 @@ impl SpinfallApp {
                 .cell_layout(egui::Layout::left_to_right(egui::Align::Center))
                 .min_scrolled_height(60.0)
                 .max_scroll_height(max_h);
-            for (i, _) in COLUMNS.iter().enumerate() {
+            for (i, _) in cols.iter().enumerate() {
                 table = table.column(if i == 1 {
                     Column::auto().at_least(70.0)
                 } else {
@@ -204,24 +303,36 @@ impl SpinfallApp {
             }
             table
                 .header(22.0, |mut header| {
-                    for (col, name) in COLUMNS {
+                    for (col, name) in &cols {
                         header.col(|ui| {
                             let arrow = match self.table.sort {
-                                Some((c, true)) if c == col => " (up)",
-                                Some((c, false)) if c == col => " (down)",
+                                Some((c, true)) if c == *col => " (up)",
+                                Some((c, false)) if c == *col => " (down)",
                                 _ => "",
+                            };
+                            let hover = match col {
+                                ResultColumn::Jacobi => {
+                                    "Largest relative drift of the Jacobi constant over the \
+                                     ballistic arcs: integration error only (contacts lose \
+                                     energy and are not counted). Sort by this column."
+                                }
+                                ResultColumn::EndTime => {
+                                    "When the flight ended: at rest, escaped, at the time limit \
+                                     or failed. Sort by this column."
+                                }
+                                _ => "Sort by this column",
                             };
                             if ui
                                 .add(
                                     egui::Button::new(
-                                        egui::RichText::new(format!("{name}{arrow}")).strong(),
+                                        RichText::new(format!("{name}{arrow}")).strong(),
                                     )
                                     .frame(false),
                                 )
-                                .on_hover_text("Sort by this column")
+                                .on_hover_text(hover)
                                 .clicked()
                             {
-                                clicked_header = Some(col);
+                                clicked_header = Some(*col);
                             }
                         });
                     }
@@ -231,23 +342,7 @@ impl SpinfallApp {
                         let i = order[row.index()];
                         let r = &reports[i];
                         row.set_selected(selected == Some(i));
-                        let first = r.contacts.first();
-                        let cells = [
-                            r.id.clone(),
-                            outcome_text(&r.outcome),
-                            opt(r.first_contact_time_s, 1),
-                            opt(r.rest_time_s, 1),
-                            opt(r.landing.as_ref().map(|l| l.lat_deg), 2),
-                            opt(r.landing.as_ref().map(|l| l.lon_deg), 2),
-                            opt(r.downrange_m, 1),
-                            opt(Some(r.max_altitude_m), 1),
-                            opt(first.map(|c| c.impact_speed_m_s), 4),
-                            opt(first.map(|c| c.impact_angle_deg), 1),
-                            r.contacts.len().to_string(),
-                            format!("{:.1e}", r.jacobi_rel_drift),
-                            format!("{:.1e}", r.frame_agreement_m),
-                        ];
-                        for (k, text) in cells.into_iter().enumerate() {
+                        for (k, text) in row_cells(r, units).into_iter().enumerate() {
                             row.col(|ui| {
                                 if k == 0 {
                                     let c = spinfall_scene::launch_color(i);
@@ -279,93 +374,6 @@ impl SpinfallApp {
         if let Some(i) = clicked_row {
             self.commands.push(Command::SelectLaunch(Some(i)));
         }
-    }
-
-    fn plots_ui(&mut self, ui: &mut Ui) {
-        let Some(i) = self
-            .state
-            .view
-            .selected_launch
-            .filter(|&i| i < self.reports.len())
-        else {
-            ui.weak("Select a launch to plot it.");
-            return;
-        };
-        // Start or collect the plot job for the selected launch.
-        if let Some(job) = &self.table.plot_job
-            && let Poll::Done(result) = job.poll()
-        {
-            self.table.plot_job = None;
-            if let Ok(series) = result {
-                self.plot_cache = Some(series);
-            }
-        }
-        let have = self.plot_cache.as_ref().map(|p| p.launch) == Some(i);
-        if !have
-            && self.table.plot_job.is_none()
-            && let Some(view) = &self.view
-        {
-            let body = view.body().clone();
-            let reports = self.reports.clone();
-            self.table.plot_job = Some(Job::spawn("Plot", self.repaint.clone(), move |_| {
-                Ok(PlotSeries {
-                    launch: i,
-                    series: flight_series(&body, &reports[i], MAX_PLOT_SAMPLES),
-                })
-            }));
-        }
-        let Some(series) = self
-            .plot_cache
-            .as_ref()
-            .filter(|p| p.launch == i)
-            .map(|p| &p.series)
-        else {
-            ui.spinner();
-            return;
-        };
-        ui.horizontal(|ui| {
-            ui.strong(format!("Launch {}", self.reports[i].id));
-            ui.separator();
-            for (k, name) in ["Altitude", "Speed", "Jacobi drift"]
-                .into_iter()
-                .enumerate()
-            {
-                ui.selectable_value(&mut self.table.plot_kind, k, name);
-            }
-        });
-        let t_now = self.t_s;
-        let (id, y_label, lines): (&str, &str, Vec<NamedSeries<'_>>) = match self.table.plot_kind {
-            0 => (
-                "alt",
-                "altitude above the surface (m)",
-                vec![("altitude (m)", &series.altitude_m)],
-            ),
-            1 => (
-                "speed",
-                "speed (m/s)",
-                vec![
-                    ("relative to the surface (m/s)", &series.speed_body_m_s),
-                    ("inertial (m/s)", &series.speed_inertial_m_s),
-                ],
-            ),
-            _ => (
-                "jacobi",
-                "(C - C0) / |C0|",
-                vec![("Jacobi constant, relative drift", &series.jacobi_rel)],
-            ),
-        };
-        Plot::new(id)
-            .height(ui.available_height().max(80.0))
-            .legend(Legend::default())
-            .x_axis_label("t (s)")
-            .y_axis_label(y_label)
-            .allow_scroll(false)
-            .show(ui, |plot_ui| {
-                for (name, pts) in lines {
-                    plot_ui.line(Line::new(name, PlotPoints::from(pts.clone())));
-                }
-                plot_ui.vline(egui_plot::VLine::new("", t_now));
-            });
     }
 }
 

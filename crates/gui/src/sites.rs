@@ -1,40 +1,44 @@
-//! Launches: list, rename, remove, add a site by latitude/longitude, the launch parameters of
-//! the selected one with an escape-speed gauge (edited in the scenario document itself, so what
-//! the app does not show is kept); and the flight settings.
+//! Launches: list, rename, remove (undoable), add a site by latitude/longitude; the selected
+//! launch's site (latitude/longitude, start height, local vertical) and launch parameters with
+//! an escape-speed gauge, edited in the scenario document itself (so what the app does not show
+//! is kept); and the flight settings.
 
 use egui::{Color32, RichText, Ui};
 use spinfall_dynamics::launch::FanQuantity;
 use spinfall_dynamics::scenario::{
-    BounceSpec, DispersionSpec, FanSpec, IntegratorSpec, LaunchEntry,
+    BounceSpec, DispersionSpec, FanSpec, IntegratorSpec, LaunchEntry, SiteSpec,
 };
+use spinfall_dynamics::site::NormalMode;
+use spinfall_scene::DisplayUnits;
 
 use crate::app::SpinfallApp;
 use crate::command::Command;
+use crate::number_field::{ERROR_RED, NumberField};
+
+/// Default start height above the surface of the scenario format, m.
+const DEFAULT_ALTITUDE_M: f64 = 0.05;
 
 impl SpinfallApp {
     pub(crate) fn sites_ui(&mut self, ui: &mut Ui) {
-        ui.heading("Launches");
         ui.checkbox(
             &mut self.click_to_place,
             "Click on the body to place a site",
         );
         ui.horizontal(|ui| {
-            let l = ui.label("lat");
-            ui.add(
-                egui::DragValue::new(&mut self.lat_field_deg)
-                    .range(-90.0..=90.0)
-                    .speed(0.5)
-                    .suffix(" °"),
-            )
-            .labelled_by(l.id);
+            let l = ui.label("New site at lat");
+            NumberField::new(&mut self.lat_field_deg, "new_lat")
+                .range(-90.0, 90.0)
+                .unit("°", 1.0)
+                .width(50.0)
+                .show(ui)
+                .labelled_by(l.id);
             let l = ui.label("lon");
-            ui.add(
-                egui::DragValue::new(&mut self.lon_field_deg)
-                    .range(-180.0..=180.0)
-                    .speed(0.5)
-                    .suffix(" °"),
-            )
-            .labelled_by(l.id);
+            NumberField::new(&mut self.lon_field_deg, "new_lon")
+                .range(-360.0, 360.0)
+                .unit("°", 1.0)
+                .width(50.0)
+                .show(ui)
+                .labelled_by(l.id);
             if ui
                 .add_enabled(self.view.is_some(), egui::Button::new("Add site"))
                 .on_hover_text("Planetocentric latitude/longitude about the spin axis")
@@ -62,7 +66,7 @@ impl SpinfallApp {
                 ui.weak(format!("{n} launch{}", if n == 1 { "" } else { "es" }));
                 if ui
                     .small_button("Remove")
-                    .on_hover_text("Remove this launch")
+                    .on_hover_text("Remove this launch (Undo or Ctrl+Z brings it back)")
                     .clicked()
                 {
                     remove = Some(i);
@@ -78,7 +82,12 @@ impl SpinfallApp {
         else {
             return;
         };
-        // Where the selected site is and what it takes to leave.
+        self.selected_launch_ui(ui, i);
+    }
+
+    /// Where the selected launch leaves from and how.
+    fn selected_launch_ui(&mut self, ui: &mut Ui, i: usize) {
+        let units = self.state.view.units;
         let site_info = self.resolved_sites().get(i).cloned();
         ui.separator();
         let entry = &self.scenario.launches[i];
@@ -91,75 +100,139 @@ impl SpinfallApp {
             return;
         }
         let mut escape_normal = None;
+        let mut where_deg = None;
         match &site_info {
             Some(Ok(Some(site))) => {
-                ui.label(format!(
-                    "lat {:.2}°, lon {:.2}°, face {}",
-                    site.lat_deg, site.lon_deg, site.face
-                ));
+                where_deg = Some((site.lat_deg, site.lon_deg));
                 escape_normal = Some((site.escape_speed_normal_m_s, site.escape_speed_min_m_s));
             }
             Some(Err(e)) => {
-                ui.colored_label(Color32::from_rgb(255, 110, 100), e);
+                ui.colored_label(ERROR_RED, e);
             }
             _ => {}
         }
         let launch = &mut self.scenario.launches[i];
+        let placed = match &launch.site {
+            Some(SiteSpec {
+                lat_deg: Some(_), ..
+            }) => "by latitude/longitude".to_string(),
+            Some(SiteSpec { face: Some(f), .. }) => format!("at the centre of face {f}"),
+            Some(SiteSpec {
+                point_m: Some(_), ..
+            }) => "at a picked point".to_string(),
+            _ => "nowhere yet".to_string(),
+        };
         let (mut speed, mut azimuth, mut elevation) = crate::session::launch_defaults(launch);
-        egui::Grid::new("launch").num_columns(2).show(ui, |ui| {
-            let l = ui.label("Speed:");
-            if ui
-                .add(
-                    egui::DragValue::new(&mut speed)
-                        .range(0.0..=1000.0)
-                        .speed(0.005)
-                        .max_decimals(4)
-                        .suffix(" m/s"),
-                )
-                .labelled_by(l.id)
-                .changed()
-            {
-                launch.speed_m_s = Some(speed);
-            }
-            ui.end_row();
-            let l = ui.label("Azimuth (from north, east +):");
-            if ui
-                .add(
-                    egui::DragValue::new(&mut azimuth)
-                        .range(-360.0..=360.0)
-                        .speed(1.0)
-                        .suffix(" °"),
-                )
-                .labelled_by(l.id)
-                .changed()
-            {
-                launch.azimuth_deg = Some(azimuth);
-            }
-            ui.end_row();
-            let l = ui.label("Elevation:");
-            if ui
-                .add(
-                    egui::DragValue::new(&mut elevation)
-                        .range(0.0..=90.0)
-                        .speed(1.0)
-                        .suffix(" °"),
-                )
-                .labelled_by(l.id)
-                .changed()
-            {
-                launch.elevation_deg = Some(elevation);
-            }
-            ui.end_row();
-        });
+        egui::Grid::new(("launch", i))
+            .num_columns(2)
+            .show(ui, |ui| {
+                // Site: a picked point becomes a latitude/longitude site once either is edited.
+                // The document's own numbers for a latitude/longitude site (so editing one keeps
+                // the other exactly), else where the site was placed.
+                let (mut lat, mut lon) = match &launch.site {
+                    Some(SiteSpec {
+                        lat_deg: Some(a),
+                        lon_deg: Some(o),
+                        ..
+                    }) => (*a, *o),
+                    _ => where_deg.unwrap_or((0.0, 0.0)),
+                };
+                let l = ui.label("Latitude:");
+                let lat_changed = NumberField::new(&mut lat, ("site_lat", i))
+                    .range(-90.0, 90.0)
+                    .decimals(6)
+                    .unit("°", 1.0)
+                    .show(ui)
+                    .labelled_by(l.id)
+                    .on_hover_text(format!(
+                        "Placed {placed}; editing moves it to this latitude"
+                    ))
+                    .changed();
+                ui.end_row();
+                let l = ui.label("Longitude:");
+                let lon_changed = NumberField::new(&mut lon, ("site_lon", i))
+                    .range(-360.0, 360.0)
+                    .decimals(6)
+                    .unit("° east", 1.0)
+                    .show(ui)
+                    .labelled_by(l.id)
+                    .changed();
+                ui.end_row();
+                if lat_changed || lon_changed {
+                    launch.site = Some(SiteSpec {
+                        lat_deg: Some(lat),
+                        lon_deg: Some(lon),
+                        ..SiteSpec::default()
+                    });
+                }
+                let l = ui.label("Start height:");
+                let mut altitude_m = launch.altitude_m.unwrap_or(DEFAULT_ALTITUDE_M);
+                if NumberField::new(&mut altitude_m, ("altitude", i))
+                    .range(0.0, 1.0e6)
+                    .unit(units.length_symbol(), units.metres_per_length_unit())
+                    .show(ui)
+                    .labelled_by(l.id)
+                    .on_hover_text("Above the surface along the local vertical")
+                    .changed()
+                {
+                    launch.altitude_m = Some(altitude_m);
+                }
+                ui.end_row();
+                ui.label("Local vertical:");
+                ui.horizontal(|ui| {
+                    let mut normal = launch.normal.unwrap_or_default();
+                    let before = normal;
+                    ui.radio_value(&mut normal, NormalMode::Face, "face normal");
+                    ui.radio_value(&mut normal, NormalMode::Smoothed, "smoothed")
+                        .on_hover_text("Area-weighted mean over the face and its three neighbours");
+                    if normal != before {
+                        launch.normal = Some(normal);
+                    }
+                });
+                ui.end_row();
+                let l = ui.label("Speed:");
+                if NumberField::new(&mut speed, ("speed", i))
+                    .range(0.0, 1000.0)
+                    .unit("m/s", 1.0)
+                    .show(ui)
+                    .labelled_by(l.id)
+                    .changed()
+                {
+                    launch.speed_m_s = Some(speed);
+                }
+                ui.end_row();
+                let l = ui.label("Azimuth (from north, east +):");
+                if NumberField::new(&mut azimuth, ("azimuth", i))
+                    .range(-360.0, 360.0)
+                    .unit("°", 1.0)
+                    .show(ui)
+                    .labelled_by(l.id)
+                    .changed()
+                {
+                    launch.azimuth_deg = Some(azimuth);
+                }
+                ui.end_row();
+                let l = ui.label("Elevation:");
+                if NumberField::new(&mut elevation, ("elevation", i))
+                    .range(0.0, 90.0)
+                    .unit("°", 1.0)
+                    .show(ui)
+                    .labelled_by(l.id)
+                    .changed()
+                {
+                    launch.elevation_deg = Some(elevation);
+                }
+                ui.end_row();
+            });
         if let Some((v_normal, v_min)) = escape_normal {
             escape_gauge_ui(ui, speed, v_normal, v_min);
         }
-        spread_ui(ui, launch, azimuth);
+        spread_ui(ui, launch, azimuth, i);
     }
 }
 
 /// The fan and the dispersion set of a launch from a site (either, both or none).
-fn spread_ui(ui: &mut Ui, launch: &mut LaunchEntry, azimuth_deg: f64) {
+fn spread_ui(ui: &mut Ui, launch: &mut LaunchEntry, azimuth_deg: f64, i: usize) {
     ui.horizontal(|ui| {
         ui.label("Spread:");
         let mut fan = launch.fan.is_some();
@@ -181,9 +254,9 @@ fn spread_ui(ui: &mut Ui, launch: &mut LaunchEntry, azimuth_deg: f64) {
         }
     });
     if let Some(FanSpec { vary, to, count }) = &mut launch.fan {
-        egui::Grid::new("fan").num_columns(2).show(ui, |ui| {
+        egui::Grid::new(("fan", i)).num_columns(2).show(ui, |ui| {
             ui.label("Sweep:");
-            egui::ComboBox::from_id_salt("fan_vary")
+            egui::ComboBox::from_id_salt(("fan_vary", i))
                 .selected_text(fan_name(*vary))
                 .show_ui(ui, |ui| {
                     for q in [
@@ -197,53 +270,54 @@ fn spread_ui(ui: &mut Ui, launch: &mut LaunchEntry, azimuth_deg: f64) {
             ui.end_row();
             let l = ui.label("Up to:");
             let unit = if *vary == FanQuantity::SpeedMS {
-                " m/s"
+                "m/s"
             } else {
-                " °"
+                "°"
             };
-            ui.add(egui::DragValue::new(to).speed(0.5).suffix(unit))
+            NumberField::new(to, ("fan_to", i))
+                .range(-1.0e6, 1.0e6)
+                .unit(unit, 1.0)
+                .show(ui)
                 .labelled_by(l.id);
             ui.end_row();
-            let l = ui.label("Launches:");
-            ui.add(egui::DragValue::new(count).range(1..=100_000))
+            let l = ui.label("Launches in the fan:");
+            NumberField::new(count, ("fan_count", i))
+                .range(1.0, 100_000.0)
+                .show(ui)
                 .labelled_by(l.id);
             ui.end_row();
         });
     }
     if let Some(d) = &mut launch.dispersion {
-        egui::Grid::new("disp").num_columns(2).show(ui, |ui| {
-            let l = ui.label("Launches:");
-            ui.add(egui::DragValue::new(&mut d.count).range(1..=1_000_000))
+        egui::Grid::new(("disp", i)).num_columns(2).show(ui, |ui| {
+            let l = ui.label("Launches in the set:");
+            NumberField::new(&mut d.count, ("disp_count", i))
+                .range(1.0, 1_000_000.0)
+                .show(ui)
                 .labelled_by(l.id);
             ui.end_row();
             let l = ui.label("Speed error (1 sigma):");
             match (&mut d.speed_sigma_percent, &mut d.speed_sigma_m_s) {
                 (Some(pct), _) => {
-                    ui.add(
-                        egui::DragValue::new(pct)
-                            .range(0.0..=100.0)
-                            .speed(0.5)
-                            .suffix(" %"),
-                    )
-                    .labelled_by(l.id);
+                    NumberField::new(pct, ("disp_pct", i))
+                        .range(0.0, 100.0)
+                        .unit("%", 1.0)
+                        .show(ui)
+                        .labelled_by(l.id);
                 }
                 (None, Some(ms)) => {
-                    ui.add(
-                        egui::DragValue::new(ms)
-                            .range(0.0..=100.0)
-                            .speed(0.001)
-                            .suffix(" m/s"),
-                    )
-                    .labelled_by(l.id);
+                    NumberField::new(ms, ("disp_ms", i))
+                        .range(0.0, 100.0)
+                        .unit("m/s", 1.0)
+                        .show(ui)
+                        .labelled_by(l.id);
                 }
                 (None, None) => {
                     let mut pct = 0.0;
-                    if ui
-                        .add(
-                            egui::DragValue::new(&mut pct)
-                                .range(0.0..=100.0)
-                                .suffix(" %"),
-                        )
+                    if NumberField::new(&mut pct, ("disp_pct", i))
+                        .range(0.0, 100.0)
+                        .unit("%", 1.0)
+                        .show(ui)
                         .labelled_by(l.id)
                         .changed()
                     {
@@ -253,13 +327,11 @@ fn spread_ui(ui: &mut Ui, launch: &mut LaunchEntry, azimuth_deg: f64) {
             }
             ui.end_row();
             let l = ui.label("Direction error (1 sigma):");
-            ui.add(
-                egui::DragValue::new(&mut d.direction_sigma_deg)
-                    .range(0.0..=45.0)
-                    .speed(0.2)
-                    .suffix(" °"),
-            )
-            .labelled_by(l.id);
+            NumberField::new(&mut d.direction_sigma_deg, ("disp_dir", i))
+                .range(0.0, 45.0)
+                .unit("°", 1.0)
+                .show(ui)
+                .labelled_by(l.id);
             ui.end_row();
         });
     }
@@ -325,65 +397,51 @@ fn escape_gauge_ui(ui: &mut Ui, speed_m_s: f64, v_normal_m_s: f64, v_min_m_s: f6
 pub(crate) fn flight_settings_ui(
     integrator: &mut IntegratorSpec,
     bounce: &mut BounceSpec,
+    units: DisplayUnits,
     ui: &mut Ui,
 ) {
     egui::CollapsingHeader::new("Flight settings")
         .default_open(false)
         .show(ui, |ui| {
             egui::Grid::new("flight").num_columns(2).show(ui, |ui| {
-                let mut hours = integrator.max_time_s / 3600.0;
                 let l = ui.label("Time limit:");
-                if ui
-                    .add(
-                        egui::DragValue::new(&mut hours)
-                            .range(0.01..=1000.0)
-                            .speed(0.1)
-                            .suffix(" h"),
-                    )
-                    .labelled_by(l.id)
-                    .changed()
-                {
-                    integrator.max_time_s = hours * 3600.0;
-                }
+                NumberField::new(&mut integrator.max_time_s, "max_time")
+                    .range(1.0, 1000.0 * 3600.0)
+                    .unit(units.time_symbol(), units.seconds_per_time_unit())
+                    .show(ui)
+                    .labelled_by(l.id);
                 ui.end_row();
                 let l = ui.label("Relative tolerance:");
-                ui.add(
-                    egui::DragValue::new(&mut integrator.rel_tol)
-                        .range(1e-14..=1e-4)
-                        .speed(1e-11)
-                        .custom_formatter(|v, _| format!("{v:.1e}")),
-                )
-                .labelled_by(l.id);
+                NumberField::new(&mut integrator.rel_tol, "rel_tol")
+                    .range(1e-14, 1e-3)
+                    .show(ui)
+                    .labelled_by(l.id);
                 ui.end_row();
                 let b = bounce;
                 let l = ui.label("Normal restitution:");
-                ui.add(
-                    egui::DragValue::new(&mut b.normal_restitution)
-                        .range(0.0..=1.0)
-                        .speed(0.01),
-                )
-                .labelled_by(l.id);
+                NumberField::new(&mut b.normal_restitution, "e_n")
+                    .range(0.0, 1.0)
+                    .show(ui)
+                    .labelled_by(l.id);
                 ui.end_row();
                 let l = ui.label("Tangential restitution:");
-                ui.add(
-                    egui::DragValue::new(&mut b.tangential_restitution)
-                        .range(0.0..=1.0)
-                        .speed(0.01),
-                )
-                .labelled_by(l.id);
+                NumberField::new(&mut b.tangential_restitution, "e_t")
+                    .range(0.0, 1.0)
+                    .show(ui)
+                    .labelled_by(l.id);
                 ui.end_row();
                 let l = ui.label("Max bounces:");
-                ui.add(egui::DragValue::new(&mut b.max_bounces).range(0..=1000))
+                NumberField::new(&mut b.max_bounces, "max_bounces")
+                    .range(0.0, 1000.0)
+                    .show(ui)
                     .labelled_by(l.id);
                 ui.end_row();
                 let l = ui.label("Rest below:");
-                ui.add(
-                    egui::DragValue::new(&mut b.rest_speed_m_s)
-                        .range(0.0..=10.0)
-                        .speed(0.001)
-                        .suffix(" m/s"),
-                )
-                .labelled_by(l.id);
+                NumberField::new(&mut b.rest_speed_m_s, "rest_speed")
+                    .range(0.0, 10.0)
+                    .unit("m/s", 1.0)
+                    .show(ui)
+                    .labelled_by(l.id);
                 ui.end_row();
             });
         });

@@ -6,11 +6,9 @@ use nalgebra::{Point3, Vector3};
 use spinfall_render::{Camera, RenderOptions, Renderer};
 use spinfall_scene::{
     BodyView, Frame, SiteMarker, ViewOptions, add_site_markers, default_camera, frame_scene,
-    time_stamp,
 };
 
 use crate::app::SpinfallApp;
-use crate::body_panel::fmt_duration;
 use crate::command::Command;
 
 /// What is under the pointer.
@@ -360,7 +358,7 @@ impl SpinfallApp {
                 .as_ref()
                 .map(|v| v.body().spin.period_s)
                 .unwrap_or(0.0);
-            ui.label(time_stamp(self.t_s, period));
+            ui.label(self.state.view.units.time_stamp(self.t_s, period));
             let l = ui.label("speed");
             ui.add(
                 egui::DragValue::new(&mut self.state.playback_speed)
@@ -370,7 +368,7 @@ impl SpinfallApp {
             )
             .labelled_by(l.id)
             .on_hover_text("Simulated seconds per second of animation");
-            ui.weak(format!("/ {}", fmt_duration(end)));
+            ui.weak(format!("/ {}", self.state.view.units.fmt_time(end)));
         });
     }
 }
@@ -467,7 +465,7 @@ fn hover_info(view: &BodyView, face: usize, p: &Point3<f64>) -> HoverInfo {
                     format!(
                         "{} {}",
                         spinfall_render::format_value(*v),
-                        crate::body_panel::pretty_unit(field.unit())
+                        crate::units::pretty_unit(field.unit())
                     ),
                 ));
             }

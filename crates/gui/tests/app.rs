@@ -1,66 +1,14 @@
 //! Drives the real app with egui_kittest: no display, no GPU, no file dialogs.
 #![allow(clippy::unwrap_used, reason = "tests unwrap freely")]
 
-use std::time::Duration;
+mod common;
 
+use common::*;
 use egui::{Event, Modifiers, PointerButton, Pos2};
 use egui_kittest::Harness;
 use egui_kittest::kittest::Queryable;
 use spinfall_gravity::LengthUnit;
-use spinfall_gui::{GuiOptions, SpinfallApp};
-
-const WAIT: Duration = Duration::from_secs(120);
-
-fn demo_harness() -> Harness<'static, SpinfallApp> {
-    let mut app = SpinfallApp::new_for_test(GuiOptions::default());
-    assert!(app.wait_for_jobs(WAIT), "demo body did not load in time");
-    Harness::builder()
-        .with_size(egui::vec2(1400.0, 900.0))
-        .build_ui_state(|ui, app: &mut SpinfallApp| app.ui(ui), app)
-}
-
-/// Step the harness, letting background jobs finish.
-fn settle(harness: &mut Harness<'static, SpinfallApp>) {
-    for _ in 0..3 {
-        harness.step();
-    }
-    assert!(
-        harness.state_mut().wait_for_jobs(WAIT),
-        "background jobs did not finish"
-    );
-    for _ in 0..3 {
-        harness.step();
-    }
-}
-
-fn click_at(harness: &mut Harness<'static, SpinfallApp>, pos: Pos2) {
-    harness.input_mut().events.push(Event::PointerMoved(pos));
-    harness.step();
-    harness.input_mut().events.push(Event::PointerButton {
-        pos,
-        button: PointerButton::Primary,
-        pressed: true,
-        modifiers: Modifiers::NONE,
-    });
-    harness.step();
-    harness.input_mut().events.push(Event::PointerButton {
-        pos,
-        button: PointerButton::Primary,
-        pressed: false,
-        modifiers: Modifiers::NONE,
-    });
-    harness.step();
-    harness.step();
-}
-
-/// Place a site by clicking the middle of the body-fixed view.
-fn place_site_in_body_view(harness: &mut Harness<'static, SpinfallApp>) {
-    settle(harness);
-    let rect = harness.state().view_rect(0).expect("body-fixed view drawn");
-    click_at(harness, rect.center());
-    harness.state_mut().handle_commands();
-    harness.step();
-}
+use spinfall_gui::SpinfallApp;
 
 #[test]
 fn starts_on_the_demo_body_and_renders_both_views() {
@@ -179,14 +127,20 @@ fn export_writes_every_file_and_the_scenario_reloads() {
         .push_command(spinfall_gui::Command::Export(spinfall_gui::ExportRequest {
             folder: dir.path().to_path_buf(),
             stem: "run".into(),
-            composite_png: true,
-            body_png: true,
-            inertial_png: false,
-            size_px: [400, 200],
+            composite: true,
+            body_view: true,
+            figure: spinfall_gui::FigureChoice {
+                size: spinfall_render::FigureSize::Pixels {
+                    width_px: 400,
+                    height_px: 240,
+                },
+                ..Default::default()
+            },
             results: true,
             trajectories: true,
             surface_map: true,
             scenario: true,
+            ..Default::default()
         }));
     settle(&mut harness);
     let mut names: Vec<String> = std::fs::read_dir(dir.path())
@@ -459,7 +413,7 @@ fn cancel_stops_a_run() {
     assert!(
         matches!(
             harness.state().run_state(),
-            spinfall_gui::RunState::Cancelled
+            spinfall_gui::RunState::Cancelled { .. }
         ),
         "{:?}",
         harness.state().run_state()

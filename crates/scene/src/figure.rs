@@ -14,7 +14,7 @@ use spinfall_render::{
 };
 
 use crate::body_view::BodyView;
-use crate::composite::{default_camera, time_stamp};
+use crate::composite::default_camera;
 use crate::error::{Result, SceneError};
 use crate::options::ViewOptions;
 use crate::palette::Palette;
@@ -186,7 +186,7 @@ pub fn build_figure_with(
     let title_px = style.px(pt::TITLE);
     let text_px = style.px(pt::TEXT);
     let frames = fig.views.frames();
-    let stamp = time_stamp(t_s, view.body().spin.period_s);
+    let stamp = opts.units.time_stamp(t_s, view.body().spin.period_s);
 
     // Blocks whose sizes the layout needs.
     let (_, title_h) = measure_text("Body-fixed frame", title_px);
@@ -430,7 +430,7 @@ pub fn build_figure_with(
         }
         if opts.show_scale_bar {
             let mpp = camera.metres_per_pixel_at_target();
-            if let Some(block) = scale_bar_block(mpp, "", &style) {
+            if let Some(block) = scale_bar_block(mpp, opts.units.scale_bar_unit(), &style) {
                 let x = rect.x_px + rect.width_px - block.width_px;
                 if x >= used_left {
                     figure.regions.push(Region {

@@ -50,6 +50,7 @@ mod palette;
 pub mod plots;
 mod scenes;
 pub mod trace;
+mod units;
 
 pub use animation::{AnimationSettings, render_frames, write_animation};
 pub use body_view::{BODY_GREY, BodyView, MapColors, value_range};
@@ -66,3 +67,4 @@ pub use scenes::{
     body_fixed_scene, color_bar_rect, end_time_s, field_label, figure_scene, frame_scene,
     inertial_scene, launch_color, legend_entries, pretty_unit, shown_map,
 };
+pub use units::{DisplayUnits, LengthDisplay, TimeDisplay};

@@ -4,6 +4,8 @@ use serde::{Deserialize, Serialize};
 use spinfall_dynamics::surface_map::SurfaceField;
 use spinfall_render::{Colormap, Occluded, ThemeKind};
 
+use crate::units::DisplayUnits;
+
 /// How trace segments hidden behind the body are drawn.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
 pub enum HiddenTraceStyle {
@@ -59,6 +61,8 @@ pub struct ViewOptions {
     /// Colour range `[min, max]` of the surface map fixed by the user (field unit); `None`:
     /// the data's range.
     pub color_range: Option<[f64; 2]>,
+    /// Units of the time stamp and the scale bars.
+    pub units: DisplayUnits,
 }
 
 impl Default for ViewOptions {
@@ -78,6 +82,7 @@ impl Default for ViewOptions {
             smooth_shading: false,
             theme: ThemeKind::Dark,
             color_range: None,
+            units: DisplayUnits::default(),
         }
     }
 }

@@ -11,13 +11,14 @@ use spinfall_dynamics::site::{direction_from_lat_lon, lat_lon_deg};
 use spinfall_dynamics::surface_map::SurfaceField;
 use spinfall_render::{
     Color, Figure, FigureSize, Image, LegendEntry, MarkerShape, PlotAxis, PlotImage, PlotMarker,
-    PlotSpec, Series, Style, Swatch, plot_figure,
+    PlotSpec, Series, Style, Swatch, measure_text, nice_ticks, plot_figure, pt,
 };
 
 use crate::body_view::BodyView;
 use crate::error::{Result, SceneError};
 use crate::palette::Palette;
 use crate::scenes::field_label;
+use crate::units::DisplayUnits;
 
 /// Time series of one launch.
 #[derive(Debug, Clone, Default)]
@@ -71,6 +72,7 @@ fn time_plot(
     chosen: &[usize],
     kind: PlotKind,
     pal: &Palette,
+    units: DisplayUnits,
 ) -> PlotSpec {
     let series: Vec<&PlotSeries> = chosen
         .iter()
@@ -78,24 +80,38 @@ fn time_plot(
         .collect();
     let mut spec = PlotSpec {
         x: PlotAxis {
-            label: "time after launch (s)".into(),
+            label: format!("time after launch ({})", units.time_symbol()),
             ..PlotAxis::default()
         },
         legend: launch_legend(reports, chosen, pal),
         ..PlotSpec::default()
     };
+    // Times (and altitudes) in the shown units; speeds and the drift have one unit.
+    let (t_per, y_per) = (
+        units.seconds_per_time_unit(),
+        units.metres_per_length_unit(),
+    );
+    let scaled = |points: &[[f64; 2]], y_scale: f64| -> Vec<[f64; 2]> {
+        points
+            .iter()
+            .map(|p| [p[0] / t_per, p[1] / y_scale])
+            .collect()
+    };
     let line = |i: usize, points: &[[f64; 2]], dashed: bool| Series {
         color: pal.launch(i),
-        points: points.to_vec(),
+        points: scaled(points, 1.0),
         dashed,
     };
     match kind {
         PlotKind::Altitude => {
             spec.title = "Altitude above the surface".into();
-            spec.y.label = "altitude (m)".into();
+            spec.y.label = format!("altitude ({})", units.length_symbol());
             spec.series = series
                 .iter()
-                .map(|s| line(s.launch, &s.altitude_m, false))
+                .map(|s| Series {
+                    points: scaled(&s.altitude_m, y_per),
+                    ..line(s.launch, &[], false)
+                })
                 .collect();
         }
         PlotKind::Speed => {
@@ -245,6 +261,63 @@ fn landing_plot(
     }
 }
 
+/// Most x tick labels a time plot gets.
+const MAX_X_TICKS: usize = 11;
+
+/// How many x tick labels a plot figure has (texts between the data area and the x label).
+fn x_tick_labels(fig: &Figure) -> usize {
+    let region = |name: &str| fig.regions.iter().find(|r| r.name == name).map(|r| r.rect);
+    let (Some(area), Some(label)) = (region("plot"), region("x label")) else {
+        return 0;
+    };
+    let bottom = area.y_px + area.height_px;
+    fig.items
+        .iter()
+        .filter(|i| {
+            matches!(i, spinfall_render::Item::Text { y_px, vertical: false, .. }
+                if *y_px > bottom && *y_px < label.y_px)
+        })
+        .count()
+}
+
+/// Round x ticks over the data of `spec`, as many as fit side by side in `width_px` with a gap
+/// of one character between labels of `text_px`: three or more when they fit, else two;
+/// `None` when not even two fit.
+fn fitted_ticks(spec: &PlotSpec, width_px: f32, text_px: f32) -> Option<Vec<f64>> {
+    let (lo, hi) = spec
+        .series
+        .iter()
+        .flat_map(|s| s.points.iter().map(|p| p[0]))
+        .filter(|x| x.is_finite())
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), x| {
+            (a.min(x), b.max(x))
+        });
+    if !(lo.is_finite() && hi > lo) {
+        return None;
+    }
+    let fitting = |count: usize| {
+        let ticks = nice_ticks(lo, hi, count);
+        let widest = ticks
+            .labels()
+            .iter()
+            .map(|l| measure_text(l, text_px).0)
+            .fold(0.0f32, f32::max);
+        let n = ticks.values.len();
+        (n as f32 * (widest + text_px) <= width_px).then_some(ticks.values)
+    };
+    // The densest that fits with three labels or more, else two (never one).
+    (2..=MAX_X_TICKS)
+        .rev()
+        .filter_map(fitting)
+        .find(|t| t.len() >= 3)
+        .or_else(|| {
+            (2..=MAX_X_TICKS)
+                .rev()
+                .filter_map(fitting)
+                .find(|t| t.len() >= 2)
+        })
+}
+
 /// Settings of a plot figure.
 #[derive(Debug, Clone)]
 pub struct PlotOptions {
@@ -258,6 +331,8 @@ pub struct PlotOptions {
     pub launch: Option<usize>,
     /// Surface field behind the landing map (needs the body view's map).
     pub field: SurfaceField,
+    /// Units of time and altitude.
+    pub units: DisplayUnits,
 }
 
 /// The plot as a figure (PNG through [`Figure::to_image`], SVG through
@@ -293,9 +368,26 @@ pub fn plot(
             }
             landing_plot(view, reports, &chosen, opts.field, &pal)
         }
-        kind => time_plot(series, reports, &chosen, kind, &pal),
+        kind => time_plot(series, reports, &chosen, kind, &pal, opts.units),
     };
-    let mut fig = plot_figure(&spec, w, h, &Style::new(sizing, pal.theme))?;
+    let style = Style::new(sizing, pal.theme);
+    let mut fig = plot_figure(&spec, w, h, &style)?;
+    // Small plots of long flights get few x tick labels from the default count (two over
+    // 9000 s in a 400 px plot); then as many round ticks as their labels leave room for.
+    if opts.kind != PlotKind::Landing
+        && spec.x.ticks.is_none()
+        && x_tick_labels(&fig) < 3
+        && let Some(area) = fig
+            .regions
+            .iter()
+            .find(|r| r.name == "plot")
+            .map(|r| r.rect)
+        && let Some(ticks) = fitted_ticks(&spec, area.width_px, style.px(pt::TEXT))
+    {
+        let mut denser = spec.clone();
+        denser.x.ticks = Some(ticks);
+        fig = plot_figure(&denser, w, h, &style)?;
+    }
     fig.dpi = opts.size.dpi();
     fig.size_mm = opts.size.size_mm().map(|(a, b)| [a, b]);
     fig.metadata = vec![
@@ -308,4 +400,53 @@ pub fn plot(
         ("Launches".into(), chosen.len().to_string()),
     ];
     Ok(fig)
+}
+
+#[cfg(test)]
+#[allow(clippy::unwrap_used, reason = "tests unwrap freely")]
+mod tests {
+    use spinfall_render::{Sizing, Theme};
+
+    use super::*;
+
+    /// Regression (issue 10): a small plot of a 9000 s flight had one or two x tick labels.
+    #[test]
+    fn small_plots_of_long_flights_get_at_least_three_x_tick_labels_that_fit() {
+        let spec = PlotSpec {
+            x: PlotAxis {
+                label: "time after launch (s)".into(),
+                ..PlotAxis::default()
+            },
+            series: vec![Series {
+                color: Color::WHITE,
+                points: (0..=90)
+                    .map(|k| [100.0 * k as f64, (k as f64).sin()])
+                    .collect(),
+                dashed: false,
+            }],
+            ..PlotSpec::default()
+        };
+        let style = Style::new(Sizing::for_dpi(108.0), Theme::dark());
+        let (w, h) = (420, 220);
+        let fig = plot_figure(&spec, w, h, &style).unwrap();
+        let area = fig.regions.iter().find(|r| r.name == "plot").unwrap().rect;
+        let text_px = style.px(pt::TEXT);
+        // The default count leaves this plot with fewer than three labels.
+        assert!(x_tick_labels(&fig) < 3);
+        let ticks = fitted_ticks(&spec, area.width_px, text_px).unwrap();
+        assert!(ticks.len() >= 3, "{ticks:?}");
+        let mut denser = spec.clone();
+        denser.x.ticks = Some(ticks.clone());
+        let fig = plot_figure(&denser, w, h, &style).unwrap();
+        assert_eq!(x_tick_labels(&fig), ticks.len());
+        // Side by side, the labels leave room between them.
+        let labels = nice_ticks(0.0, 9000.0, 2).labels();
+        let widest = labels
+            .iter()
+            .map(|l| measure_text(l, text_px).0)
+            .fold(0.0, f32::max);
+        assert!(ticks.len() as f32 * widest < area.width_px);
+        // Nothing to fit in an empty plot.
+        assert!(fitted_ticks(&PlotSpec::default(), 400.0, text_px).is_none());
+    }
 }

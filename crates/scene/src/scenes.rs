@@ -274,7 +274,7 @@ fn add_overlays(
     }
     if opts.show_scale_bar {
         scene.overlays.push(Overlay::ScaleBar {
-            unit_label: String::new(),
+            unit_label: opts.units.scale_bar_unit().to_string(),
             corner: Corner::BottomRight,
         });
     }

@@ -38,6 +38,12 @@ pub struct GravityOptions {
 }
 
 impl GravityOptions {
+    /// The folder of stored fields (and surface maps): the option's, else
+    /// [`default_cache_dir`].
+    pub fn cache_folder(&self) -> Option<PathBuf> {
+        self.cache_dir.clone().or_else(default_cache_dir)
+    }
+
     /// The field section in force: the scenario's, with these options applied over it.
     pub fn resolve(&self, scenario: Option<&FieldSpec>) -> FieldSpec {
         let mut spec = scenario.copied().unwrap_or_default();
@@ -162,7 +168,7 @@ pub fn gravity_model(
                     .saturating_mul(1 << 20),
                 ..InterpolationSettings::default()
             };
-            let folder = options.cache_dir.clone().or_else(default_cache_dir);
+            let folder = options.cache_folder();
             let (field, outcome) =
                 load_or_build(shape.mesh(), mass, settings, folder.as_deref(), hooks)?;
             let store = match outcome {

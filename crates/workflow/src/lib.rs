@@ -10,8 +10,10 @@
 //! - turning a scenario into a [`prepare::PreparedRun`] (body, launches, settings) after checking
 //!   the launch limit and the memory estimate ([`limits`]), with the gravity method chosen in one
 //!   place ([`gravity_method`]);
-//! - flying it with progress and cancel ([`run::run`]), the surface map ([`surface`]), plot
-//!   series ([`series`]) and pictures ([`images`]);
+//! - flying it with progress and cancel ([`run::run`], or [`run::run_keeping_finished`] to keep
+//!   the launches that ended before a cancel), the surface map ([`surface`]) and its on-disk
+//!   store beside the interpolated fields ([`map_cache`]), plot series ([`series`]) and pictures
+//!   ([`images`]);
 //! - every exporter ([`export`]: results JSON and CSV, trajectories CSV, surface map CSV, field
 //!   samples, shape figures) and the one module that writes files ([`output`]: exclusive
 //!   temporary files, renames only when a whole set is complete, manifests, a lock per folder,
@@ -47,6 +49,7 @@ pub mod field_cache;
 pub mod gravity_method;
 pub mod images;
 pub mod limits;
+pub mod map_cache;
 pub mod output;
 pub mod prepare;
 pub mod run;
