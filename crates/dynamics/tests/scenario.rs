@@ -2,7 +2,7 @@
 #![allow(clippy::unwrap_used, reason = "tests unwrap freely")]
 
 use spinfall_dynamics::DynamicsError;
-use spinfall_dynamics::scenario::{Scenario, ShapeSource};
+use spinfall_dynamics::scenario::{FieldMethodSpec, Scenario, ShapeSource};
 
 const MINIMAL: &str = r#"{"format": "spinfall-scenario", "version": 1,
  "body": {"shape": "rock.obj", "unit": "km", "density_kg_m3": 2400,
@@ -295,10 +295,23 @@ fn every_json_example_in_scenario_md_parses() {
         .skip(1)
         .map(|b| b.split("```").next().unwrap())
         .collect();
-    assert_eq!(blocks.len(), 2);
+    assert_eq!(blocks.len(), 3, "SCENARIO.md's JSON examples");
     for b in &blocks {
-        Scenario::from_json_str(b).unwrap_or_else(|e| panic!("{e}\n{b}"));
+        // A whole document parses as it is; a fragment (`"key": value`) parses inside the
+        // minimal document.
+        let text = if b.trim_start().starts_with('{') {
+            b.to_string()
+        } else {
+            MINIMAL.replacen('{', &format!("{{{},", b.trim()), 1)
+        };
+        Scenario::from_json_str(&text).unwrap_or_else(|e| panic!("{e}\n{b}"));
     }
+    // The fragment is the `field` section, and it reaches the parsed scenario.
+    let with_field = MINIMAL.replacen('{', &format!("{{{},", blocks[2].trim()), 1);
+    let field = Scenario::from_json_str(&with_field).unwrap().field.unwrap();
+    assert_eq!(field.method, FieldMethodSpec::Interpolated);
+    assert_eq!(field.max_rel_error, 1e-9);
+    assert_eq!(field.max_memory_mb, Some(4096));
     // The complete example is the built-in one (whose density and period come from the demo
     // constants of the gravity crate: if this fails after they changed, update SCENARIO.md).
     assert_eq!(

@@ -2,7 +2,7 @@
 //!
 //! [`PolyhedronGravity`] precomputes, once per shape, the face normals `n_f` (face dyads
 //! `F_f = n_f n_f^T`) and the symmetric edge dyads `E_e = n_A n_A12^T + n_B n_B21^T`, stored as
-//! structure-of-arrays padded to a multiple of four, then evaluates for a field point `p`
+//! structure-of-arrays padded to a multiple of eight, then evaluates for a field point `p`
 //! (with `r = vertex - p`, `omega_f` the signed solid angle of face `f`, `L_e` the edge log):
 //!
 //! - potential (positive, `U -> GM/r` far away):
@@ -35,15 +35,24 @@
 //! `L_e = 2 atanh(e / (a + b))` by its series (one division, no log) wherever that converges
 //! fast, which is every edge not within a few edge lengths of the point.
 //!
-//! - Batches ([`PolyhedronGravity::potential_acceleration_batch`]) run the vector lanes over
-//!   [`BATCH_BLOCK`] = 8 field points, each face and edge read once per block with its
-//!   constants broadcast; groups of up to 64 points go through the mesh piece by piece, in
-//!   parallel over groups with rayon. Explicit AVX-512 (eight lanes) or AVX2+FMA (two
-//!   four-lane halves) intrinsics on CPUs that have them, chosen at run time with
-//!   `multiversion`, else the portable `wide` crate.
-//! - One point ([`PolyhedronGravity::potential_acceleration`]) runs eight (AVX-512) or four
-//!   (AVX2+FMA, else `wide`) faces or edges at a time; from [`SPLIT_FACE_COUNT`] faces its
-//!   pieces are shared out over rayon's threads. A scalar version is kept as the reference.
+//! - Batches ([`PolyhedronGravity::potential_acceleration_batch`],
+//!   [`PolyhedronGravity::evaluate_batch`], with or without the gradient tensor) run the
+//!   vector lanes over [`BATCH_BLOCK`] = 8 field points, each face and edge read once per block
+//!   with its constants broadcast; groups of up to 64 points go through the mesh piece by piece,
+//!   in parallel over groups with rayon. The kernel is written once (`kernel`), generic over the
+//!   lane type: AVX-512 (eight lanes) or AVX2+FMA (four) on CPUs that have them, chosen at run
+//!   time, else the portable `wide` crate (four, nothing fused). The gradient tensor is a
+//!   compile-time switch of the same kernel, so the full output runs at nearly the same pace.
+//! - One point ([`PolyhedronGravity::potential_acceleration`], [`PolyhedronGravity::evaluate`])
+//!   runs as a block of copies of itself through the same kernel (four lanes wide), so its
+//!   value is bit-for-bit its entry in any batch, whatever the batch size and thread count
+//!   (flights flown alone or in a set of a thousand give the same bytes). From
+//!   [`SPLIT_FACE_COUNT`] faces its pieces are shared out over rayon's threads and the parts
+//!   added in a fixed order. The scalar kernel (`direct`) is kept as the reference the others
+//!   are tested against.
+//! - Bit-identity holds per machine. Kernels of different lane widths or with and without FMA
+//!   agree to ~1e-13 relative, not bitwise, so two machines with different vector units agree to
+//!   rounding.
 //!
 //! Measured with `cargo bench -p spinfall-gravity --bench field` on icospheres, on a 2-core
 //! AMD EPYC (Zen 5, AVX-512) VM shared with other builds (load 1.1-1.5; ranges span two runs),
