@@ -173,54 +173,63 @@ impl SpinfallApp {
 
     pub(crate) fn status_bar_ui(&mut self, ui: &mut Ui) {
         egui::Panel::bottom("status").show(ui, |ui| {
-            ui.horizontal(|ui| {
-                match &self.shape {
-                    Some(s) => {
-                        ui.label(format!("{}: {} faces", s.name(), s.shape.face_count()));
-                    }
-                    None => {
-                        ui.label("no body");
-                    }
-                }
-                if let Some(v) = &self.view {
-                    ui.separator();
-                    ui.label(format!(
-                        "mass {}",
-                        crate::units::fmt_sci(v.figures().mass_kg, "kg")
-                    ));
+            // The right-hand part first, so that the left-hand part (which can grow long while
+            // work runs) is cut to the space left instead of running under it.
+            ui.with_layout(egui::Layout::right_to_left(egui::Align::Center), |ui| {
+                ui.colored_label(AMBER, CAUTION);
+                ui.label(format!("UI {:.1} ms/frame", self.frame_ms))
+                    .on_hover_text(
+                        "Time spent building the frame (views rendered on the CPU included)",
+                    );
+                // Shown while the views animate or are being dragged (orbit, pan).
+                let dragging = ui.ctx().input(|i| i.pointer.any_down());
+                if (self.playing || dragging) && self.frame_interval_s > 0.0 {
+                    ui.label(format!("{:.0} fps", 1.0 / self.frame_interval_s));
                 }
                 ui.separator();
-                ui.label(self.run_state_text());
-                let stale = self.stale_reasons();
-                if !self.reports.is_empty() && !stale.is_empty() {
-                    ui.colored_label(AMBER, "· results out of date");
-                }
-                for (label, progress) in self.job_progress() {
-                    ui.separator();
-                    ui.spinner();
-                    ui.label(label);
-                    if let Some(f) = progress {
-                        ui.add(
-                            egui::ProgressBar::new(f)
-                                .desired_width(120.0)
-                                .show_percentage(),
-                        );
-                    }
-                }
-                ui.with_layout(egui::Layout::right_to_left(egui::Align::Center), |ui| {
-                    ui.colored_label(AMBER, CAUTION);
-                    ui.label(format!("UI {:.1} ms/frame", self.frame_ms))
-                        .on_hover_text(
-                            "Time spent building the frame (views rendered on the CPU included)",
-                        );
-                    // Shown while the views animate or are being dragged (orbit, pan).
-                    let dragging = ui.ctx().input(|i| i.pointer.any_down());
-                    if (self.playing || dragging) && self.frame_interval_s > 0.0 {
-                        ui.label(format!("{:.0} fps", 1.0 / self.frame_interval_s));
-                    }
+                ui.with_layout(egui::Layout::left_to_right(egui::Align::Center), |ui| {
+                    self.status_left_ui(ui);
                 });
             });
         });
+    }
+
+    /// The body, the last run and the running jobs, left to right; long labels are cut short
+    /// (hover shows them whole).
+    fn status_left_ui(&mut self, ui: &mut Ui) {
+        match &self.shape {
+            Some(s) => {
+                ui.label(format!("{}: {} faces", s.name(), s.shape.face_count()));
+            }
+            None => {
+                ui.label("no body");
+            }
+        }
+        if let Some(v) = &self.view {
+            ui.separator();
+            ui.label(format!(
+                "mass {}",
+                crate::units::fmt_sci(v.figures().mass_kg, "kg")
+            ));
+        }
+        ui.separator();
+        ui.add(egui::Label::new(self.run_state_text()).truncate());
+        let stale = self.stale_reasons();
+        if !self.reports.is_empty() && !stale.is_empty() {
+            ui.colored_label(AMBER, "· results out of date");
+        }
+        for (label, progress) in self.job_progress() {
+            ui.separator();
+            ui.spinner();
+            if let Some(f) = progress {
+                ui.add(
+                    egui::ProgressBar::new(f)
+                        .desired_width(120.0)
+                        .show_percentage(),
+                );
+            }
+            ui.add(egui::Label::new(label).truncate());
+        }
     }
 
     /// The last run in words, with true counts.
