@@ -9,7 +9,7 @@ use std::time::Instant;
 
 use nalgebra::{Point3, Vector3};
 use spinfall_gravity::{
-    InterpolationSettings, MassSpec, PolyhedronGravity, build_interpolated, generate,
+    Answer, InterpolationSettings, MassSpec, PolyhedronGravity, build_interpolated, generate,
 };
 
 fn main() {
@@ -156,6 +156,47 @@ fn main() {
             .filter(|p| !exact.is_inside(p))
             .collect()
     };
+    // What answers the queries, and what each kind costs.
+    let outside_all = outside(&pts);
+    let kinds: [(&str, fn(&Answer) -> bool); 4] = [
+        ("exterior expansion", |a| matches!(a, Answer::Exterior)),
+        ("fitted, no near faces", |a| {
+            matches!(a, Answer::Fitted { near_faces: 0, .. })
+        }),
+        ("fitted with near faces", |a| {
+            matches!(
+                a,
+                Answer::Fitted {
+                    near_faces: 1..,
+                    ..
+                }
+            )
+        }),
+        ("exact sums", |a| matches!(a, Answer::Exact)),
+    ];
+    for (name, is) in kinds {
+        let set: Vec<Point3<f64>> = outside_all
+            .iter()
+            .copied()
+            .filter(|p| is(&field.answer_at(p)))
+            .collect();
+        if set.is_empty() {
+            continue;
+        }
+        let near: usize = set
+            .iter()
+            .map(|p| match field.answer_at(p) {
+                Answer::Fitted { near_faces, .. } => near_faces,
+                _ => 0,
+            })
+            .sum();
+        println!(
+            "  {name}: {} points, {:.2} us/point (mean near faces {:.0})",
+            set.len(),
+            time_of(&set),
+            near as f64 / set.len() as f64
+        );
+    }
     println!(
         "query: {:.2} us/point within 5 facets of the surface, {:.2} us/point in the volume",
         time_of(&outside(&pts[..600])),

@@ -42,8 +42,8 @@ mod validate;
 
 pub use error::{GravityError, Result};
 pub use field::{
-    BuildProgress, BuildStats, FieldSample, G_SI, InterpolatedGravity, InterpolationSettings,
-    MassSpec, PolyhedronGravity, build_interpolated, cache_key,
+    Answer, BuildProgress, BuildStats, FieldSample, G_SI, InterpolatedGravity,
+    InterpolationSettings, MassSpec, PolyhedronGravity, build_interpolated, cache_key,
 };
 pub use mass::MassProperties;
 pub use mesh::{LengthUnit, Mesh};

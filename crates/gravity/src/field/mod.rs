@@ -95,8 +95,8 @@ use crate::error::Result;
 use crate::mesh::Mesh;
 pub use exterior::Exterior;
 pub use interp::{
-    BuildProgress, BuildStats, InterpolatedGravity, InterpolationSettings, build_interpolated,
-    cache_key,
+    Answer, BuildProgress, BuildStats, InterpolatedGravity, InterpolationSettings,
+    build_interpolated, cache_key,
 };
 pub use mass_spec::MassSpec;
 use tables::Tables;

@@ -22,8 +22,13 @@ use super::direct::Sums;
 use super::interp::face_set::FaceGeometry;
 use super::interp::near::{self, NearSums};
 use super::kernel;
-use super::lanes::{Lanes, MAX_LANES};
+use super::lanes::{Lanes, MANTISSA_BITS, MAX_LANES, ONE_BITS};
 use super::tables::Tables;
+
+/// The bits of 2^52: OR-ed with a biased exponent (below 2^11) they give 2^52 + exponent.
+const TWO_52_BITS: i64 = 0x4330_0000_0000_0000;
+/// 2^52 + 1023 (exact in f64): subtracted, it leaves the unbiased exponent.
+const TWO_52_PLUS_BIAS: f64 = 4_503_599_627_370_496.0 + 1023.0;
 
 /// Four f64 lanes in an AVX register.
 #[derive(Debug, Clone, Copy)]
@@ -160,6 +165,28 @@ impl Lanes for Avx2 {
     fn flip_sign_by(self, y: Self) -> Self {
         Avx2(unsafe { _mm256_xor_pd(self.0, _mm256_and_pd(y.0, _mm256_set1_pd(-0.0))) })
     }
+    #[inline(always)]
+    fn split_exponent(self) -> (Self, Self) {
+        unsafe {
+            let bits = _mm256_castpd_si256(self.0);
+            let m = _mm256_or_si256(
+                _mm256_and_si256(bits, _mm256_set1_epi64x(MANTISSA_BITS as i64)),
+                _mm256_set1_epi64x(ONE_BITS as i64),
+            );
+            // The biased exponent (sign bit clear) as the low bits of 2^52, then 2^52 + 1023 off.
+            let e = _mm256_or_si256(
+                _mm256_srli_epi64::<52>(bits),
+                _mm256_set1_epi64x(TWO_52_BITS),
+            );
+            (
+                Avx2(_mm256_castsi256_pd(m)),
+                Avx2(_mm256_sub_pd(
+                    _mm256_castsi256_pd(e),
+                    _mm256_set1_pd(TWO_52_PLUS_BIAS),
+                )),
+            )
+        }
+    }
 }
 
 impl Lanes for Avx512 {
@@ -235,6 +262,27 @@ impl Lanes for Avx512 {
     #[inline(always)]
     fn flip_sign_by(self, y: Self) -> Self {
         Avx512(unsafe { _mm512_xor_pd(self.0, _mm512_and_pd(y.0, _mm512_set1_pd(-0.0))) })
+    }
+    #[inline(always)]
+    fn split_exponent(self) -> (Self, Self) {
+        unsafe {
+            let bits = _mm512_castpd_si512(self.0);
+            let m = _mm512_or_si512(
+                _mm512_and_si512(bits, _mm512_set1_epi64(MANTISSA_BITS as i64)),
+                _mm512_set1_epi64(ONE_BITS as i64),
+            );
+            let e = _mm512_or_si512(
+                _mm512_srli_epi64::<52>(bits),
+                _mm512_set1_epi64(TWO_52_BITS),
+            );
+            (
+                Avx512(_mm512_castsi512_pd(m)),
+                Avx512(_mm512_sub_pd(
+                    _mm512_castsi512_pd(e),
+                    _mm512_set1_pd(TWO_52_PLUS_BIAS),
+                )),
+            )
+        }
     }
 }
 
@@ -331,5 +379,52 @@ fn block_avx2<const GRAD: bool, const OPEN: bool>(
     kernel::sums::<Avx2, GRAD, OPEN, 0>(t, q, out);
     if halves == 2 {
         kernel::sums::<Avx2, GRAD, OPEN, 4>(t, q, out);
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::field::lanes::{ln_lanes, ln_scalar};
+
+    #[target_feature(enable = "avx2,fma,avx")]
+    fn ln_avx2(a: &[f64]) -> [f64; MAX_LANES] {
+        ln_lanes(Avx2::load(a)).to_array()
+    }
+
+    #[target_feature(enable = "avx512f,avx512dq,avx2,fma,avx")]
+    fn ln_avx512(a: &[f64]) -> [f64; MAX_LANES] {
+        ln_lanes(Avx512::load(a)).to_array()
+    }
+
+    #[test]
+    fn lane_logs_of_every_isa_are_bit_for_bit_the_scalar_log() {
+        let sweep = crate::field::lanes::tests::log_sweep();
+        for isa in [Isa::Avx2, Isa::Avx512] {
+            if !isa.detected() {
+                eprintln!("{isa:?} not on this CPU: skipped");
+                continue;
+            }
+            for chunk in sweep.chunks(8) {
+                let mut a = [1.0; 8];
+                a[..chunk.len()].copy_from_slice(chunk);
+                let got: Vec<f64> = match isa {
+                    // SAFETY: detected just above.
+                    Isa::Avx2 => [unsafe { ln_avx2(&a[..4]) }, unsafe { ln_avx2(&a[4..]) }]
+                        .iter()
+                        .flat_map(|g| g[..4].to_vec())
+                        .collect(),
+                    // SAFETY: as above.
+                    Isa::Avx512 => unsafe { ln_avx512(&a) }.to_vec(),
+                };
+                for (k, &x) in a.iter().enumerate() {
+                    assert_eq!(
+                        got[k].to_bits(),
+                        ln_scalar(x).to_bits(),
+                        "{isa:?}: ln({x:e})"
+                    );
+                }
+            }
+        }
     }
 }

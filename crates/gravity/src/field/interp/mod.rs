@@ -110,6 +110,22 @@ pub struct BuildStats {
     pub memory_bytes: usize,
 }
 
+/// What answers a query of the interpolated field at a point (for diagnostics and timing).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Answer {
+    /// Beyond the switch radius: the exterior expansion.
+    Exterior,
+    /// A fitted cell: exact sums over `near_faces` faces plus a polynomial of `degree` (0: none).
+    Fitted {
+        /// Faces summed exactly.
+        near_faces: usize,
+        /// Degree of the cell's polynomial.
+        degree: u8,
+    },
+    /// The exact sums over the whole mesh (inside the body, or a cell not fitted).
+    Exact,
+}
+
 /// One cell of the octree.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub(crate) enum Node {
@@ -227,6 +243,25 @@ impl InterpolatedGravity {
     /// Whether `p` lies beyond the switch radius.
     fn far(&self, p: &Point3<f64>) -> bool {
         (p - self.exact.center_of_mass_m()).norm() > self.switch_radius_m
+    }
+
+    /// What answers a query at `p`: the exterior expansion, a fitted cell, or the exact sums.
+    pub fn answer_at(&self, p: &Point3<f64>) -> Answer {
+        if !(p.x.is_finite() && p.y.is_finite() && p.z.is_finite()) {
+            return Answer::Exact;
+        }
+        if self.far(p) {
+            return Answer::Exterior;
+        }
+        match self.locate(p).0 {
+            Node::Leaf {
+                degree, near_len, ..
+            } => Answer::Fitted {
+                near_faces: near_len as usize,
+                degree,
+            },
+            _ => Answer::Exact,
+        }
     }
 
     /// Potential (m^2/s^2) and acceleration (m/s^2) at `p` (metres, body frame).
