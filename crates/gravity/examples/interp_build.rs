@@ -158,7 +158,8 @@ fn main() {
     };
     // What answers the queries, and what each kind costs.
     let outside_all = outside(&pts);
-    let kinds: [(&str, fn(&Answer) -> bool); 4] = [
+    type IsKind = fn(&Answer) -> bool;
+    let kinds: [(&str, IsKind); 4] = [
         ("exterior expansion", |a| matches!(a, Answer::Exterior)),
         ("fitted, no near faces", |a| {
             matches!(a, Answer::Fitted { near_faces: 0, .. })
