@@ -2,7 +2,8 @@
 //! criterion: each case runs once or a few times and prints wall time).
 //!
 //! `cargo bench -p spinfall-workflow --bench targets -- CASE...` with CASE among
-//! `points`, `map`, `flights`, `agreement`, `big`, `field` (default: `points map flights`).
+//! `points`, `map`, `map-direct` (the direct map alone), `flights`, `agreement`, `big`, `field`
+//! (default: `points map flights`).
 //! `SPINFALL_BENCH_BOUND` sets the interpolated field's bound (default 1e-9);
 //! `SPINFALL_BENCH_LAUNCHES` the size of the dispersion set (default 1000). The interpolated
 //! field's store goes to a temporary folder (cold), then is read back (warm).
@@ -191,7 +192,7 @@ fn case_points(freq: u32) {
     }
 }
 
-fn case_map(freq: u32, dir: &std::path::Path) {
+fn case_map(freq: u32, dir: &std::path::Path, interpolated_too: bool) {
     let shape = shape(freq);
     let cancel = AtomicBool::new(false);
     let body = direct(&shape);
@@ -203,6 +204,9 @@ fn case_map(freq: u32, dir: &std::path::Path) {
         t.elapsed().as_secs_f64(),
         map.map(|m| m.len()).unwrap_or(0)
     );
+    if !interpolated_too {
+        return;
+    }
     let ib = interpolated(&shape, dir);
     let t = Instant::now();
     let map = surface_map(&ib, &|_, _| {}, &cancel);
@@ -349,11 +353,12 @@ fn main() {
         let sub = dir.path().join(case);
         match case {
             "points" => case_points(71),
-            "map" => case_map(71, &sub),
+            "map" => case_map(71, &sub, true),
+            "map-direct" => case_map(71, &sub, false),
             "flights" => case_flights(71, &sub, false, launches_wanted()),
             "agreement" => case_flights(71, &sub, true, launches_wanted()),
             "big" => {
-                case_map(224, &sub);
+                case_map(224, &sub, true);
                 case_flights(224, &sub, false, 100);
             }
             "field" => {
