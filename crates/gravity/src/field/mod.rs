@@ -54,25 +54,23 @@
 //!   agree to ~1e-13 relative, not bitwise, so two machines with different vector units agree to
 //!   rounding.
 //!
-//! Measured with `cargo bench -p spinfall-gravity --bench field` on icospheres, on a 2-core
-//! AMD EPYC (Zen 5, AVX-512) VM shared with other builds (load 1.1-1.5; ranges span two runs),
-//! ns per facet per point. Batch: criterion's time for 256 points on both threads, and CPU
-//! time per core. One point: criterion's time of [`PolyhedronGravity::potential_acceleration`]
-//! (split over both threads from [`SPLIT_FACE_COUNT`] faces) and of the same sums on one
-//! thread:
+//! Measured with `cargo bench -p spinfall-gravity --bench field` (`SPINFALL_BENCH_QUICK=1`) on
+//! a 2-core AMD EPYC (Zen 5, AVX-512) VM, quiet, 2026-12-02; ns per facet per point. Batch:
+//! wall time on both threads; full output includes the gradient tensor; one point: CPU time of
+//! a lone point on one thread (a block of copies of itself, see above):
 //!
-//! | faces   | batch of 256 | batch CPU per core | one point | one point, one thread |
-//! |--------:|-------------:|-------------------:|----------:|----------------------:|
-//! |   5 120 |      1.7-2.3 |            3.6-4.5 |   7.0-9.6 |              6.9-10.8 |
-//! |  81 920 |      1.9-2.2 |            3.8-4.1 |   4.3-6.9 |                8.5-13 |
-//! | 327 680 |      1.8-2.1 |                3.7 |    7.8-13 |                 14-19 |
+//! | faces   | batch of 256 | full output, batch of 2000 | one point |
+//! |--------:|-------------:|---------------------------:|----------:|
+//! |   5 120 |         3.35 |                       3.34 |        36 |
+//! | 100 820 |         2.73 |                       3.33 |        39 |
+//! | 327 680 |         2.82 |                       3.53 |        42 |
 //!
-//! Under heavy load (load 5-6, about one core left to the bench) the batch figures were
-//! 3.1-3.9 ns. One point on the largest mesh is bound by memory bandwidth (its 47 MB of
-//! tables stream from RAM for every point); batches are the way to evaluate many points there.
-//! Memory: 145 bytes per facet (all pieces, vertices repeated at piece borders). The exterior
-//! expansion is integrated on first use in 0.006 s, 0.07-0.1 s and 0.21-0.23 s for these
-//! meshes (adaptive face quadrature, see [`exterior`]).
+//! The scalar reference runs at 46-51 ns and the portable `wide` kernel at 76-83 ns per facet
+//! per point for a lone point. (The kernel before the generic rewrite measured 3.4-3.6 ns for
+//! batches on the same machine the same day, so the single kernel lost nothing.) Memory: 145
+//! bytes per facet (all pieces, vertices repeated at piece borders). The exterior expansion is
+//! integrated on first use in 0.005 s, 0.11 s and 0.20 s for these meshes (adaptive face
+//! quadrature, see [`exterior`]).
 //!
 //! Spinfall is for research and planning, not flight-certified.
 
