@@ -100,6 +100,9 @@ fn gauss_legendre_01(k: usize) -> Vec<(f64, f64)> {
 /// and optionally their gradients.
 pub(crate) struct Harmonics {
     degree: usize,
+    /// The recurrence's coefficients `(2n + 1) / (n - m + 1)` and `(n + m) / (n - m + 1)` at
+    /// `index(n, m)`, so that filling divides nothing.
+    step: Vec<[f64; 2]>,
     pub re: Vec<f64>,
     pub im: Vec<f64>,
     pub grad_re: Vec<[f64; 3]>,
@@ -109,8 +112,16 @@ pub(crate) struct Harmonics {
 impl Harmonics {
     fn new(degree: usize) -> Self {
         let len = index(degree, degree) + 1;
+        let mut step = vec![[0.0; 2]; len];
+        for m in 0..=degree {
+            for n in m..=degree {
+                let d = (n - m + 1) as f64;
+                step[index(n, m)] = [(2 * n + 1) as f64 / d, (n + m) as f64 / d];
+            }
+        }
         Self {
             degree,
+            step,
             re: vec![0.0; len],
             im: vec![0.0; len],
             grad_re: vec![[0.0; 3]; len],
@@ -151,33 +162,30 @@ impl Harmonics {
                     self.grad_im[mm] = ni;
                 }
             }
-            // (n - m + 1) R_{n+1}^m = (2n + 1) z R_n^m - (n + m) r^2 R_{n-1}^m
+            // (n - m + 1) R_{n+1}^m = (2n + 1) z R_n^m - (n + m) r^2 R_{n-1}^m, with the
+            // coefficients divided once in `new`.
             for n in m..nmax {
                 let cur = index(n, m);
                 let next = index(n + 1, m);
-                let a = (2 * n + 1) as f64;
-                let b = (n + m) as f64;
-                let d = (n - m + 1) as f64;
+                let [a, b] = self.step[cur];
                 let (prev_re, prev_im, prev_gr, prev_gi) = if n > m {
                     let q = index(n - 1, m);
                     (self.re[q], self.im[q], self.grad_re[q], self.grad_im[q])
                 } else {
                     (0.0, 0.0, [0.0; 3], [0.0; 3])
                 };
-                self.re[next] = (a * x[2] * self.re[cur] - b * r2 * prev_re) / d;
-                self.im[next] = (a * x[2] * self.im[cur] - b * r2 * prev_im) / d;
+                self.re[next] = a * x[2] * self.re[cur] - b * r2 * prev_re;
+                self.im[next] = a * x[2] * self.im[cur] - b * r2 * prev_im;
                 if with_grad {
                     let (gr, gi) = (self.grad_re[cur], self.grad_im[cur]);
                     let mut nr = [0.0; 3];
                     let mut ni = [0.0; 3];
                     for k in 0..3 {
-                        nr[k] =
-                            (a * x[2] * gr[k] - b * (2.0 * x[k] * prev_re + r2 * prev_gr[k])) / d;
-                        ni[k] =
-                            (a * x[2] * gi[k] - b * (2.0 * x[k] * prev_im + r2 * prev_gi[k])) / d;
+                        nr[k] = a * x[2] * gr[k] - b * (2.0 * x[k] * prev_re + r2 * prev_gr[k]);
+                        ni[k] = a * x[2] * gi[k] - b * (2.0 * x[k] * prev_im + r2 * prev_gi[k]);
                     }
-                    nr[2] += a * self.re[cur] / d;
-                    ni[2] += a * self.im[cur] / d;
+                    nr[2] += a * self.re[cur];
+                    ni[2] += a * self.im[cur];
                     self.grad_re[next] = nr;
                     self.grad_im[next] = ni;
                 }
