@@ -146,13 +146,6 @@ fn x_tick_labels(fig: &spinfall_render::Figure) -> Vec<(String, f32, f32)> {
         .collect()
 }
 
-fn overlap(a: &spinfall_render::Rect, b: &spinfall_render::Rect) -> bool {
-    a.x_px < b.x_px + b.width_px
-        && b.x_px < a.x_px + a.width_px
-        && a.y_px < b.y_px + b.height_px
-        && b.y_px < a.y_px + a.height_px
-}
-
 #[test]
 fn plots_keep_their_tick_labels_on_long_flights_and_nothing_overlaps() {
     let mut h = harness_with(common::DEFAULT_WINDOW, None);
@@ -186,7 +179,7 @@ fn plots_keep_their_tick_labels_on_long_flights_and_nothing_overlaps() {
             );
             for b in &regions[i + 1..] {
                 assert!(
-                    !overlap(&a.rect, &b.rect),
+                    !a.rect.overlaps(&b.rect),
                     "{kind:?}: {} overlaps {}",
                     a.name,
                     b.name

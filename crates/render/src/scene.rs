@@ -274,6 +274,14 @@ impl Rect {
             height_px,
         }
     }
+
+    /// Whether the two rectangles share any area (touching edges do not count).
+    pub fn overlaps(&self, other: &Rect) -> bool {
+        self.x_px < other.x_px + other.width_px
+            && other.x_px < self.x_px + self.width_px
+            && self.y_px < other.y_px + other.height_px
+            && other.y_px < self.y_px + self.height_px
+    }
 }
 
 /// 2D decorations drawn over the 3D view, in output pixels.

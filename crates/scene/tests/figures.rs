@@ -116,13 +116,6 @@ fn a_4k_figure_box_filtered_to_720p_has_the_edge_energy_of_the_720p_figure() {
     }
 }
 
-fn overlaps(a: Rect, b: Rect) -> bool {
-    a.x_px < b.x_px + b.width_px
-        && b.x_px < a.x_px + a.width_px
-        && a.y_px < b.y_px + b.height_px
-        && b.y_px < a.y_px + a.height_px
-}
-
 #[test]
 fn decorations_never_overlap_each_other_or_the_views_and_stay_inside() {
     // Pixel sizes from small to 4K, and printed sizes: a double-column figure (180 mm) with
@@ -177,7 +170,7 @@ fn decorations_never_overlap_each_other_or_the_views_and_stay_inside() {
                 );
                 for b in &f.regions[i + 1..] {
                     assert!(
-                        !overlaps(a.rect, b.rect),
+                        !a.rect.overlaps(&b.rect),
                         "{size}: {} {:?} overlaps {} {:?}",
                         a.name,
                         a.rect,
