@@ -9,7 +9,7 @@ mod resvg_render;
 
 mod common;
 
-use spinfall_render::{Color, Figure, FigureSize, Image, Rect, ThemeKind};
+use spinfall_render::{Color, Figure, FigureSize, Image, ThemeKind};
 use spinfall_scene::{FigureOptions, Output, ViewOptions, Views, build_figure};
 
 use common::{demo_map_view, demo_run};
