@@ -105,24 +105,9 @@ fn interpolated(shape: &Arc<ShapeModel>, dir: &std::path::Path) -> Body {
     let cold_s = t.elapsed().as_secs_f64();
     let s = cold.stats();
     eprintln!(
-        "interpolated field, bound {:e}: cold {cold_s:.1} s ({outcome:?}); {} cells, {} leaves, \
-         {} exact cells, depth {}, max degree {}, mean near faces {:.0}, worst leaf bound {:.2e}, \
-         {} full evaluations, {:.2e} ring terms, {:.1} MB = {:.0} B/facet, switch {:.2} R_B at \
-         degree {}",
+        "interpolated field, bound {:e}: cold {cold_s:.1} s ({outcome:?}); {s} ({:.0} B/facet)",
         bound(),
-        s.cells,
-        s.leaves,
-        s.exact_cells,
-        s.depth,
-        s.max_degree,
-        s.mean_leaf_near_faces,
-        s.worst_leaf_bound,
-        s.full_evaluations,
-        s.ring_face_terms as f64,
-        s.memory_bytes as f64 / 1e6,
         s.memory_bytes as f64 / shape.face_count() as f64,
-        s.switch_brillouin_multiple,
-        s.exterior_degree,
     );
     drop(cold);
     let t = Instant::now();

@@ -126,6 +126,41 @@ pub enum Answer {
     Exact,
 }
 
+impl std::fmt::Display for BuildStats {
+    /// One line of every figure, for benchmarks and logs.
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(
+            f,
+            "built in {:.2} s; {} cells, {} leaves, {} exact cells, depth {}, max degree {}, \
+             mean near faces {:.0}, worst leaf bound {:.2e}, {} full evaluations, {:.3e} ring \
+             terms, {:.1} MB, switch at {:.2} R_B (exterior degree {})",
+            self.build_s,
+            self.cells,
+            self.leaves,
+            self.exact_cells,
+            self.depth,
+            self.max_degree,
+            self.mean_leaf_near_faces,
+            self.worst_leaf_bound,
+            self.full_evaluations,
+            self.ring_face_terms as f64,
+            self.memory_bytes as f64 / 1e6,
+            self.switch_brillouin_multiple,
+            self.exterior_degree
+        )
+    }
+}
+
+/// A fitted leaf found for a point: its near faces, polynomial and cell.
+struct LeafAt<'a> {
+    faces: &'a [u32],
+    coef: u32,
+    space: Space,
+    degree: u8,
+    center: [f64; 3],
+    half_m: f64,
+}
+
 /// One cell of the octree.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub(crate) enum Node {
@@ -218,26 +253,44 @@ impl InterpolatedGravity {
         (node, c, h)
     }
 
+    /// The fitted leaf holding `p`, if a fitted leaf holds it.
+    fn leaf_at(&self, p: &Point3<f64>) -> Option<LeafAt<'_>> {
+        match self.locate(p) {
+            (
+                Node::Leaf {
+                    coef,
+                    space,
+                    degree,
+                    near,
+                    near_len,
+                },
+                center,
+                half_m,
+            ) => Some(LeafAt {
+                faces: &self.near_faces[near as usize..(near + near_len) as usize],
+                coef,
+                space,
+                degree,
+                center,
+                half_m,
+            }),
+            _ => None,
+        }
+    }
+
     /// A leaf's polynomial (in cell units) at `p`; degree 0 marks a leaf with none.
-    fn poly_jet<const HESS: bool>(
-        &self,
-        coef: u32,
-        space: Space,
-        degree: u8,
-        c: [f64; 3],
-        h: f64,
-        p: &Point3<f64>,
-    ) -> poly3::Jet {
-        if degree == 0 {
+    fn poly_jet<const HESS: bool>(&self, leaf: &LeafAt<'_>, p: &Point3<f64>) -> poly3::Jet {
+        if leaf.degree == 0 {
             return poly3::Jet::default();
         }
-        let solver = Solver::get(space, degree as usize);
+        let solver = Solver::get(leaf.space, leaf.degree as usize);
         let Some(layout) = solver.layout() else {
             return poly3::Jet::default();
         };
-        let len = layout.len();
+        let (c, h) = (leaf.center, leaf.half_m);
+        let coef = leaf.coef as usize;
         let xi = [(p.x - c[0]) / h, (p.y - c[1]) / h, (p.z - c[2]) / h];
-        monomial_jet::<HESS>(layout, &self.coefs[coef as usize..coef as usize + len], xi)
+        monomial_jet::<HESS>(layout, &self.coefs[coef..coef + layout.len()], xi)
     }
 
     /// Whether `p` lies beyond the switch radius.
@@ -253,14 +306,12 @@ impl InterpolatedGravity {
         if self.far(p) {
             return Answer::Exterior;
         }
-        match self.locate(p).0 {
-            Node::Leaf {
-                degree, near_len, ..
-            } => Answer::Fitted {
-                near_faces: near_len as usize,
-                degree,
+        match self.leaf_at(p) {
+            Some(leaf) => Answer::Fitted {
+                near_faces: leaf.faces.len(),
+                degree: leaf.degree,
             },
-            _ => Answer::Exact,
+            None => Answer::Exact,
         }
     }
 
@@ -275,33 +326,20 @@ impl InterpolatedGravity {
                 .potential_acceleration(&(p - self.exact.center_of_mass_m()));
             return (self.g_rho() * u, self.g_rho() * a);
         }
-        match self.locate(p) {
-            (
-                Node::Leaf {
-                    coef,
-                    space,
-                    degree,
-                    near,
-                    near_len,
-                },
-                c,
-                h,
-            ) => {
-                let faces = &self.near_faces[near as usize..(near + near_len) as usize];
-                let nj = near::near(&self.geometry, faces, [p.x, p.y, p.z]);
-                let fj = self.poly_jet::<false>(coef, space, degree, c, h, p);
-                let g = self.g_rho();
-                (
-                    g * (nj.potential + fj.value),
-                    Vector3::new(
-                        nj.grad[0] + fj.grad[0] / h,
-                        nj.grad[1] + fj.grad[1] / h,
-                        nj.grad[2] + fj.grad[2] / h,
-                    ) * g,
-                )
-            }
-            _ => self.exact.potential_acceleration(p),
-        }
+        let Some(leaf) = self.leaf_at(p) else {
+            return self.exact.potential_acceleration(p);
+        };
+        let nj = near::near(&self.geometry, leaf.faces, [p.x, p.y, p.z]);
+        let fj = self.poly_jet::<false>(&leaf, p);
+        let (g, h) = (self.g_rho(), leaf.half_m);
+        (
+            g * (nj.potential + fj.value),
+            Vector3::new(
+                nj.grad[0] + fj.grad[0] / h,
+                nj.grad[1] + fj.grad[1] / h,
+                nj.grad[2] + fj.grad[2] / h,
+            ) * g,
+        )
     }
 
     /// Potential, acceleration, gradient tensor, Laplacian and inside flag at `p`: the
@@ -312,39 +350,25 @@ impl InterpolatedGravity {
         if self.far(p) || !(p.x.is_finite() && p.y.is_finite() && p.z.is_finite()) {
             return self.exact.evaluate(p);
         }
-        match self.locate(p) {
-            (
-                Node::Leaf {
-                    coef,
-                    space,
-                    degree,
-                    near,
-                    near_len,
-                },
-                c,
-                h,
-            ) => {
-                let faces = &self.near_faces[near as usize..(near + near_len) as usize];
-                let nj = set_jet::<true>(&self.geometry, faces, p);
-                let fj = self.poly_jet::<true>(coef, space, degree, c, h, p);
-                let g = self.g_rho();
-                let d: [f64; 6] = std::array::from_fn(|k| g * (nj.hess[k] + fj.hess[k] / (h * h)));
-                let gradient_s2 =
-                    Matrix3::new(d[0], d[1], d[2], d[1], d[3], d[4], d[2], d[4], d[5]);
-                let laplacian_s2 = d[0] + d[3] + d[5];
-                FieldSample {
-                    potential_m2_s2: g * (nj.potential + fj.value),
-                    acceleration_m_s2: Vector3::new(
-                        nj.grad[0] + fj.grad[0] / h,
-                        nj.grad[1] + fj.grad[1] / h,
-                        nj.grad[2] + fj.grad[2] / h,
-                    ) * g,
-                    gradient_s2,
-                    laplacian_s2,
-                    inside: -laplacian_s2 / g > 2.0 * std::f64::consts::PI + 1e-6,
-                }
-            }
-            _ => self.exact.evaluate(p),
+        let Some(leaf) = self.leaf_at(p) else {
+            return self.exact.evaluate(p);
+        };
+        let nj = set_jet::<true>(&self.geometry, leaf.faces, p);
+        let fj = self.poly_jet::<true>(&leaf, p);
+        let (g, h) = (self.g_rho(), leaf.half_m);
+        let d: [f64; 6] = std::array::from_fn(|k| g * (nj.hess[k] + fj.hess[k] / (h * h)));
+        let gradient_s2 = Matrix3::new(d[0], d[1], d[2], d[1], d[3], d[4], d[2], d[4], d[5]);
+        let laplacian_s2 = d[0] + d[3] + d[5];
+        FieldSample {
+            potential_m2_s2: g * (nj.potential + fj.value),
+            acceleration_m_s2: Vector3::new(
+                nj.grad[0] + fj.grad[0] / h,
+                nj.grad[1] + fj.grad[1] / h,
+                nj.grad[2] + fj.grad[2] / h,
+            ) * g,
+            gradient_s2,
+            laplacian_s2,
+            inside: -laplacian_s2 / g > 2.0 * std::f64::consts::PI + 1e-6,
         }
     }
 
