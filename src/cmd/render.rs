@@ -146,38 +146,18 @@ pub(super) fn body_view(prepared: &PreparedRun, with_map: bool) -> CmdResult<Bod
 
 /// Metadata of the scenario, body, spin and gravity, for the figure's file.
 pub(super) fn scenario_metadata(prepared: &PreparedRun, launches: usize) -> Vec<(String, String)> {
-    let spin = &prepared.body.spin;
-    vec![
-        (
-            "Title".into(),
-            prepared
-                .scenario()
-                .name
-                .clone()
-                .unwrap_or_else(|| prepared.body.name.clone()),
-        ),
-        (
-            "Body".into(),
-            format!(
-                "{} ({} faces)",
-                prepared.body.name,
-                prepared.body.shape.face_count()
-            ),
-        ),
-        (
-            "Spin".into(),
-            format!(
-                "period {:.6} h, axis [{:.6}, {:.6}, {:.6}], phase {:.3} deg",
-                spin.period_s / 3600.0,
-                spin.axis_body.x,
-                spin.axis_body.y,
-                spin.axis_body.z,
-                spin.phase_rad.to_degrees()
-            ),
-        ),
+    let title = prepared
+        .scenario()
+        .name
+        .clone()
+        .unwrap_or_else(|| prepared.body.name.clone());
+    let mut rows = vec![("Title".into(), title)];
+    rows.extend(spinfall_workflow::images::body_rows(&prepared.body));
+    rows.extend([
         ("Gravity".into(), prepared.field.describe_method()),
         ("Launches".into(), launches.to_string()),
-    ]
+    ]);
+    rows
 }
 
 /// The output of a still figure, checked before any work.

@@ -162,11 +162,22 @@ pub fn png_summary(
     launches: usize,
     t_s: f64,
 ) -> Vec<(String, String)> {
-    let body = view.body();
-    let spin = &body.spin;
-    vec![
+    let mut rows = vec![
         ("Software".into(), format!("Spinfall ({})", crate::CAUTION)),
         ("Title".into(), title.to_string()),
+    ];
+    rows.extend(body_rows(view.body()));
+    rows.extend([
+        ("Launches".into(), launches.to_string()),
+        ("Time".into(), format!("{t_s} s")),
+    ]);
+    rows
+}
+
+/// The body's rows of a file's metadata: its name and face count, and its spin.
+pub fn body_rows(body: &spinfall_dynamics::Body) -> [(String, String); 2] {
+    let spin = &body.spin;
+    [
         (
             "Body".into(),
             format!("{} ({} faces)", body.name, body.shape.face_count()),
@@ -182,8 +193,6 @@ pub fn png_summary(
                 spin.phase_rad.to_degrees()
             ),
         ),
-        ("Launches".into(), launches.to_string()),
-        ("Time".into(), format!("{t_s} s")),
     ]
 }
 
