@@ -200,9 +200,11 @@ impl Pending {
             .iter()
             .chain(&t.check_points)
             .map(|xi| {
+                // The root cell: the cube of half-width the switch radius about the centre of
+                // mass.
                 let p = lattice_point(
-                    b.root_center,
-                    b.root_half_m,
+                    b.com,
+                    b.switch_radius_m,
                     self.half_m,
                     self.index,
                     xi.map(|x| 0.5 * (1.0 + x)),
@@ -272,8 +274,6 @@ struct Builder<'a> {
     leaf_kappa: f64,
     source_kappa: f64,
     com: [f64; 3],
-    root_center: [f64; 3],
-    root_half_m: f64,
     switch_radius_m: f64,
     all_faces: Arc<Vec<u32>>,
     full_evaluations: AtomicU64,
@@ -621,8 +621,6 @@ pub fn build_interpolated(
         leaf_kappa: leaf_kappa(settings.max_rel_error),
         source_kappa: source_kappa(settings.max_rel_error),
         com: [com.x, com.y, com.z],
-        root_center: [com.x, com.y, com.z],
-        root_half_m: switch_radius_m,
         switch_radius_m,
         all_faces: Arc::clone(&all_faces),
         full_evaluations: AtomicU64::new(0),
