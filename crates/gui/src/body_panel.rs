@@ -457,7 +457,10 @@ impl SpinfallApp {
             });
         }
         if let Some(source) = &self.map_source {
-            ui.add(egui::Label::new(RichText::new(format!("Map {source}")).weak()).wrap());
+            // The cache file's path is long: shown on hover, not in the panel.
+            let short = source.split(" (").next().unwrap_or(source);
+            ui.add(egui::Label::new(RichText::new(format!("Map {short}")).weak()).wrap())
+                .on_hover_text(format!("Map {source}"));
         }
         match &self.hover {
             Some(h) => {

@@ -190,7 +190,18 @@ impl<T: Send + 'static> Job<T> {
         repaint: Arc<dyn Fn() + Send + Sync>,
         work: impl FnOnce(&JobContext) -> Result<T, GuiError> + Send + 'static,
     ) -> Self {
+        Self::spawn_at_stage(label, "", repaint, work)
+    }
+
+    /// [`Job::spawn`] with the stage shown from the first frame, before the worker reports.
+    pub fn spawn_at_stage(
+        label: impl Into<String>,
+        stage: &str,
+        repaint: Arc<dyn Fn() + Send + Sync>,
+        work: impl FnOnce(&JobContext) -> Result<T, GuiError> + Send + 'static,
+    ) -> Self {
         let progress = Arc::new(Progress::default());
+        progress.set_stage(stage);
         let cancel = Arc::new(AtomicBool::new(false));
         let (tx, rx) = channel();
         let ctx = JobContext {

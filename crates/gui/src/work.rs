@@ -186,11 +186,15 @@ impl SpinfallApp {
         }
         let label = format!("Loading scenario {}", path.display());
         let gravity = self.gravity.clone();
-        self.load_job = Some(Job::spawn(label, self.repaint.clone(), move |ctx| {
-            ctx.progress.set_stage("reading the scenario");
-            let loaded = read_scenario(&ScenarioSource::File(path.clone()))?;
-            load_session(ctx, loaded, Some(path), &gravity)
-        }));
+        self.load_job = Some(Job::spawn_at_stage(
+            label,
+            "reading the scenario",
+            self.repaint.clone(),
+            move |ctx| {
+                let loaded = read_scenario(&ScenarioSource::File(path.clone()))?;
+                load_session(ctx, loaded, Some(path), &gravity)
+            },
+        ));
     }
 
     pub(crate) fn start_rebuild_body(&mut self) {
@@ -205,11 +209,11 @@ impl SpinfallApp {
         let params = self.params.clone();
         let field_spec = self.field_in_force();
         let gravity = self.gravity.clone();
-        self.body_job = Some(Job::spawn(
+        self.body_job = Some(Job::spawn_at_stage(
             "Preparing the body",
+            "preparing the gravity field",
             self.repaint.clone(),
             move |ctx| {
-                ctx.progress.set_stage("preparing the gravity field");
                 let (body, field) = build_body(&scenario, &shape, &gravity, &field_hooks(ctx))?;
                 Ok(BuiltBody {
                     view: Arc::new(old.with_body(Arc::new(body))),
@@ -310,12 +314,11 @@ impl SpinfallApp {
         self.run_launches = usize::try_from(launches).unwrap_or(usize::MAX);
         self.run_doc = Some(doc);
         let gravity = self.gravity.clone();
-        self.run_job = Some(Job::spawn(
+        self.run_job = Some(Job::spawn_at_stage(
             format!("Flying {launches} launches"),
+            "preparing the gravity field and the launches",
             self.repaint.clone(),
             move |ctx| {
-                ctx.progress
-                    .set_stage("preparing the gravity field and the launches");
                 let prepared = prepare_shape_hooks(
                     loaded,
                     shape,
