@@ -40,6 +40,9 @@ pub enum Command {
     /// Fly a scenario and plot altitude, speed or Jacobi drift against time, or the landing
     /// positions on a latitude/longitude map (PNG or SVG).
     Plot(PlotArgs),
+    /// Geopotential of a scenario's body on a plane grid, as CSV, for zero-velocity surfaces
+    /// (with --launch or --jacobi, also the region that launch can never reach).
+    Slice(SliceArgs),
 }
 
 /// A shape model: a path to an OBJ file, or `builtin:quillon` for the demo body.
@@ -145,6 +148,33 @@ pub struct FlyArgs {
 pub struct MapArgs {
     /// Scenario file (JSON), or `builtin:example` for the demo scenario (launches not needed).
     pub scenario: String,
+    /// Output CSV file, or `-` for standard output.
+    #[arg(long, value_name = "FILE.csv")]
+    pub out: PathBuf,
+    #[command(flatten)]
+    pub field: FieldArgs,
+}
+
+#[derive(Debug, Args)]
+pub struct SliceArgs {
+    /// Scenario file (JSON), or `builtin:example` for the demo scenario.
+    pub scenario: String,
+    /// The plane of the body frame: `x=OFFSET`, `y=OFFSET` or `z=OFFSET`, offset in metres.
+    #[arg(long, default_value = "z=0", value_name = "AXIS=OFFSET")]
+    pub plane: String,
+    /// Full width of the square grid, centred on the body's origin, m (default: four times the
+    /// body's Brillouin radius).
+    #[arg(long, value_name = "M")]
+    pub extent_m: Option<f64>,
+    /// Cells per side of the grid (values at the cell centres).
+    #[arg(long, default_value_t = 200, value_name = "N")]
+    pub cells: usize,
+    /// Add a `forbidden` column for the Jacobi constant of this launch (its start state).
+    #[arg(long, value_name = "ID", conflicts_with = "jacobi")]
+    pub launch: Option<String>,
+    /// Add a `forbidden` column for this Jacobi constant, m^2/s^2.
+    #[arg(long, value_name = "M2_S2", allow_negative_numbers = true)]
+    pub jacobi: Option<f64>,
     /// Output CSV file, or `-` for standard output.
     #[arg(long, value_name = "FILE.csv")]
     pub out: PathBuf,

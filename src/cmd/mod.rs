@@ -9,6 +9,7 @@ mod info;
 mod map;
 mod plot;
 mod render;
+mod slice;
 
 use std::process::ExitCode;
 use std::sync::Mutex;
@@ -35,6 +36,7 @@ pub fn run(cli: Cli) -> CmdResult<ExitCode> {
         Some(Command::Render(args)) => render::run(&args),
         Some(Command::Animate(args)) => animate::run(&args),
         Some(Command::Plot(args)) => plot::run(&args),
+        Some(Command::Slice(args)) => slice::run(&args),
         None => app::run(cli.shape, cli.unit.into()),
     }
 }

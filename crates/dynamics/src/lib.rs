@@ -48,6 +48,7 @@ mod roots;
 pub mod scenario;
 pub mod site;
 pub mod surface_map;
+pub mod zero_velocity;
 
 pub use body::{Body, BodyFigures, Spin, SpinAxis};
 pub use error::{DynamicsError, Result};

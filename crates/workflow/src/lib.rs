@@ -13,7 +13,7 @@
 //! - flying it with progress and cancel ([`run::run`], or [`run::run_keeping_finished`] to keep
 //!   the launches that ended before a cancel), the surface map ([`surface`]) and its on-disk
 //!   store beside the interpolated fields ([`map_cache`]), plot series ([`series`]) and pictures
-//!   ([`images`]);
+//!   ([`images`]); the geopotential on planes and the zero-velocity curves ([`zero_velocity`]);
 //! - every exporter ([`export`]: results JSON and CSV, trajectories CSV, surface map CSV, field
 //!   samples, shape figures) and the one module that writes files ([`output`]: exclusive
 //!   temporary files, renames only when a whole set is complete, manifests, a lock per folder,
@@ -58,6 +58,7 @@ pub mod scenario_file;
 pub mod series;
 pub mod shape;
 pub mod surface;
+pub mod zero_velocity;
 
 pub use error::{ErrorKind, Result, WorkflowError};
 

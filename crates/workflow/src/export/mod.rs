@@ -5,6 +5,7 @@
 mod field;
 mod info;
 mod results;
+mod slice;
 mod surface_map;
 mod trajectories;
 
@@ -13,6 +14,7 @@ pub use field::{
 };
 pub use info::{ShapeInfo, shape_info, write_shape_info};
 pub use results::{outcome_text, write_results_csv, write_results_json};
+pub use slice::write_slice_csv;
 pub use surface_map::write_surface_map_csv;
 pub use trajectories::write_trajectories_csv;
 
