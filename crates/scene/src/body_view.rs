@@ -6,6 +6,8 @@ use spinfall_dynamics::surface_map::{SurfaceField, SurfaceMap};
 use spinfall_dynamics::{Body, BodyFigures};
 use spinfall_render::{Color, Colormap, face_colors};
 
+use crate::guides::Guides;
+
 /// Colour of the body when no map is shown (dark theme).
 pub const BODY_GREY: Color = crate::palette::Palette::dark().body;
 
@@ -36,6 +38,7 @@ pub struct BodyView {
     map: Option<Arc<SurfaceMap>>,
     colors: Mutex<Vec<MapColors>>,
     figures: BodyFigures,
+    guides: Arc<Guides>,
 }
 
 impl BodyView {
@@ -56,11 +59,12 @@ impl BodyView {
             map: None,
             colors: Mutex::new(Vec::new()),
             figures,
+            guides: Arc::default(),
         }
     }
 
     /// The same shape buffers with another body (new mass or spin): no mesh rebuild. The map
-    /// is dropped (it depends on mass and spin).
+    /// and the guides are dropped (they depend on mass and spin).
     pub fn with_body(&self, body: Arc<Body>) -> Self {
         let same_shape = Arc::ptr_eq(&self.body.shape, &body.shape);
         if !same_shape {
@@ -74,7 +78,28 @@ impl BodyView {
             map: None,
             colors: Mutex::new(Vec::new()),
             figures,
+            guides: Arc::default(),
         }
+    }
+
+    /// The same view (body, map, cached colours) with other guides (equilibrium points,
+    /// zero-velocity curves), drawn in the body-fixed view.
+    pub fn with_guides(&self, guides: Arc<Guides>) -> Self {
+        let colors = self.colors.lock().map(|c| c.clone()).unwrap_or_default();
+        Self {
+            body: self.body.clone(),
+            positions: self.positions.clone(),
+            triangles: self.triangles.clone(),
+            map: self.map.clone(),
+            colors: Mutex::new(colors),
+            figures: self.figures,
+            guides,
+        }
+    }
+
+    /// The guides drawn in the body-fixed view.
+    pub fn guides(&self) -> &Guides {
+        &self.guides
     }
 
     /// Attaches (or removes) the surface map; cached colours are dropped.

@@ -19,8 +19,7 @@ use crate::error::{Result, SceneError};
 use crate::options::ViewOptions;
 use crate::palette::Palette;
 use crate::scenes::{
-    Frame, SiteMarker, add_site_markers_styled, field_label, figure_scene, legend_entries,
-    shown_map,
+    Frame, SiteMarker, add_site_markers_styled, field_label, figure_scene, legend_for, shown_map,
 };
 
 /// Which views a figure shows.
@@ -192,8 +191,8 @@ pub fn build_figure_with(
     let (_, title_h) = measure_text("Body-fixed frame", title_px);
     let (_, stamp_h) = measure_text(&stamp, text_px);
     let map = shown_map(view, opts);
-    let entries = legend_entries(opts);
-    let with_legend = opts.show_legend && !reports.is_empty();
+    let entries = legend_for(view, reports, opts, frames);
+    let with_legend = opts.show_legend && !entries.is_empty();
     let arm_px = style.px(9.0);
     // The triad's box depends on the camera; reserve most of its largest size.
     let triad_size = 2.0 * (arm_px + measure_text("x", text_px).1);

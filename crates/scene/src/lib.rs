@@ -23,6 +23,8 @@
 //! raster or vector output, the app's cameras or a fit to the body); [`composite`] is the
 //! side-by-side raster. [`plots`] makes plots against time and the landing map;
 //! [`render_frames`] / [`write_animation`] make animations with progress and cancel.
+//! [`Guides`] (equilibrium points, zero-velocity curves and the forbidden-region hatch) ride on
+//! the [`BodyView`] and are drawn in the body-fixed view and its legend.
 //! [`trace`] holds the trajectory helpers (Hermite interpolation at a time, frame changes)
 //! shared with the GUI's plots.
 //!
@@ -45,6 +47,7 @@ mod body_view;
 mod composite;
 mod error;
 mod figure;
+mod guides;
 mod options;
 mod palette;
 pub mod plots;
@@ -59,12 +62,13 @@ pub use composite::{
 };
 pub use error::{Result, SceneError};
 pub use figure::{FigureOptions, Output, Views, build_figure, build_figure_with, figure_metadata};
+pub use guides::{EquilibriumMark, Guides, ZeroVelocityCurves};
 pub use options::{HiddenTraceStyle, ViewOptions};
 pub use palette::Palette;
 pub use scenes::{
     CONTACT_COLOR, ESCAPE_COLOR, Frame, LAUNCH_COLORS, OVERLAY_COLOR, PLANNED_SITE_COLOR,
     REST_COLOR, SITE_COLOR, SPIN_AXIS_COLOR, SiteMarker, add_site_markers, add_site_markers_styled,
     body_fixed_scene, color_bar_rect, end_time_s, field_label, figure_scene, frame_scene,
-    inertial_scene, launch_color, legend_entries, pretty_unit, shown_map,
+    guide_legend_entries, inertial_scene, launch_color, legend_entries, pretty_unit, shown_map,
 };
 pub use units::{DisplayUnits, LengthDisplay, TimeDisplay};

@@ -31,6 +31,12 @@ pub struct Palette {
     pub spin_axis: Color,
     /// Planned sites and their launch arrows.
     pub planned_site: Color,
+    /// Linearly stable equilibrium points.
+    pub equilibrium_stable: Color,
+    /// Unstable equilibrium points.
+    pub equilibrium_unstable: Color,
+    /// Zero-velocity curves and the forbidden-region hatch.
+    pub zero_velocity: Color,
 }
 
 impl Palette {
@@ -48,6 +54,9 @@ impl Palette {
             other_outcome: Color::LIGHT_GREY,
             spin_axis: Color::rgb(86, 180, 233),
             planned_site: Color::rgb(204, 121, 167),
+            equilibrium_stable: Color::rgb(86, 180, 233),
+            equilibrium_unstable: Color::rgb(230, 159, 0),
+            zero_velocity: Color::rgb(230, 159, 0),
         }
     }
 
@@ -65,6 +74,9 @@ impl Palette {
             other_outcome: Color::rgb(110, 110, 110),
             spin_axis: Color::rgb(0, 114, 178),
             planned_site: Color::rgb(204, 121, 167),
+            equilibrium_stable: Color::rgb(0, 114, 178),
+            equilibrium_unstable: Color::rgb(213, 94, 0),
+            zero_velocity: Color::rgb(213, 94, 0),
         }
     }
 

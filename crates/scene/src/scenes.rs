@@ -105,7 +105,7 @@ pub fn frame_scene(
     frame: Frame,
 ) -> Scene {
     let mut scene = build(view, reports, t_s, opts, frame, Sizing::screen());
-    add_overlays(&mut scene, view, reports, opts, size_px);
+    add_overlays(&mut scene, view, reports, opts, size_px, frame);
     scene
 }
 
@@ -216,11 +216,14 @@ fn build(
         };
         add_markers(&mut scene, view, report, t_s, frame, &look);
     }
+    if frame == Frame::BodyFixed {
+        crate::guides::add_guides(&mut scene, view.guides(), &pal, sizing);
+    }
     scene
 }
 
-/// The legend entries of a view: traces, the other frame's trace, contact, rest and escape
-/// markers (by shape).
+/// The legend entries of a view with flights: traces, the other frame's trace, contact, rest and
+/// escape markers (by shape).
 pub fn legend_entries(opts: &ViewOptions) -> Vec<LegendEntry> {
     let pal = Palette::of(opts.theme);
     let mut entries = vec![LegendEntry::new(pal.launch(0), "trace", Swatch::Line)];
@@ -243,6 +246,31 @@ pub fn legend_entries(opts: &ViewOptions) -> Vec<LegendEntry> {
     entries
 }
 
+/// The legend entries of the guides `view` carries (equilibria, zero-velocity curves), drawn
+/// in the body-fixed view.
+pub fn guide_legend_entries(view: &BodyView, opts: &ViewOptions) -> Vec<LegendEntry> {
+    crate::guides::guide_legend_entries(view.guides(), &Palette::of(opts.theme))
+}
+
+/// The legend of views of `frames`: the flights' entries when there are flights, then the
+/// guides' when the body-fixed view is among them.
+pub(crate) fn legend_for(
+    view: &BodyView,
+    reports: &[FlightReport],
+    opts: &ViewOptions,
+    frames: &[Frame],
+) -> Vec<LegendEntry> {
+    let mut entries = if reports.is_empty() {
+        Vec::new()
+    } else {
+        legend_entries(opts)
+    };
+    if frames.contains(&Frame::BodyFixed) {
+        entries.extend(guide_legend_entries(view, opts));
+    }
+    entries
+}
+
 /// The colour map, range and label of the map shown with `opts`, if any.
 pub fn shown_map(view: &BodyView, opts: &ViewOptions) -> Option<MapColors> {
     opts.map
@@ -255,6 +283,7 @@ fn add_overlays(
     reports: &[FlightReport],
     opts: &ViewOptions,
     size_px: [u32; 2],
+    frame: Frame,
 ) {
     if let Some(mc) = &shown_map(view, opts) {
         let field = mc.field;
@@ -278,9 +307,10 @@ fn add_overlays(
             corner: Corner::BottomRight,
         });
     }
-    if opts.show_legend && !reports.is_empty() {
+    let entries = legend_for(view, reports, opts, &[frame]);
+    if opts.show_legend && !entries.is_empty() {
         scene.overlays.push(Overlay::Legend {
-            entries: legend_entries(opts),
+            entries,
             corner: Corner::TopLeft,
         });
     }

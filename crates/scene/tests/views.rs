@@ -205,3 +205,63 @@ fn too_small_composite_is_an_error() {
     assert!(err.to_string().contains("20x10"), "{err}");
     let _ = Frame::BodyFixed.title();
 }
+
+/// Guides (equilibria, zero-velocity curves) are fixed in the rotating frame: they are drawn in
+/// the body-fixed view only, where they stay put whatever the time, and named in the legend.
+#[test]
+fn guides_are_drawn_in_the_body_fixed_view_only() {
+    use spinfall_scene::{
+        EquilibriumMark, Guides, ZeroVelocityCurves, body_fixed_scene, guide_legend_entries,
+        inertial_scene,
+    };
+    use std::sync::Arc;
+    let (view, _) = demo_run();
+    let r = view.brillouin_radius_m() * 1.5;
+    let guides = Guides {
+        equilibria: vec![
+            EquilibriumMark {
+                pos_body_m: [r, 0.0, 0.0],
+                linearly_stable: false,
+            },
+            EquilibriumMark {
+                pos_body_m: [0.0, r, 0.0],
+                linearly_stable: true,
+            },
+        ],
+        zero_velocity: Some(ZeroVelocityCurves {
+            label: "hop".into(),
+            plane_curves: vec![vec![[r, 0.0, 0.0], [0.0, r, 0.0], [-r, 0.0, 0.0]]],
+            surface_curves: vec![],
+            forbidden_hatch: vec![[[r, r, 0.0], [2.0 * r, r, 0.0]]],
+        }),
+    };
+    let bare = view;
+    let with = bare.with_guides(Arc::new(guides.clone()));
+    assert_eq!(with.guides(), &guides);
+    let opts = ViewOptions::default();
+    for t_s in [0.0, 5000.0] {
+        let plain = body_fixed_scene(&bare, &[], t_s, &opts, [400, 300]);
+        let guided = body_fixed_scene(&with, &[], t_s, &opts, [400, 300]);
+        assert_eq!(guided.markers.len(), plain.markers.len() + 2);
+        assert_eq!(guided.polylines.len(), plain.polylines.len() + 2);
+        // Fixed in the body frame: the same positions at every time.
+        assert!(guided.markers.iter().any(|m| m.position == [r, 0.0, 0.0]));
+        let inertial = inertial_scene(&with, &[], t_s, &opts, [400, 300]);
+        let inertial_plain = inertial_scene(&bare, &[], t_s, &opts, [400, 300]);
+        assert_eq!(inertial.markers.len(), inertial_plain.markers.len());
+        assert_eq!(inertial.polylines.len(), inertial_plain.polylines.len());
+    }
+    let legend: Vec<String> = guide_legend_entries(&with, &opts)
+        .into_iter()
+        .map(|e| e.text)
+        .collect();
+    assert_eq!(
+        legend,
+        [
+            "equilibrium, stable",
+            "equilibrium, unstable",
+            "zero-velocity curve (hop)"
+        ]
+    );
+    assert!(guide_legend_entries(&bare, &opts).is_empty());
+}
