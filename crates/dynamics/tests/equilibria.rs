@@ -82,7 +82,11 @@ fn expected_eigenvalues(p: &Point3<f64>, period_s: f64) -> Vec<Complex<f64>> {
     let bq = hx + hy + 4.0;
     let disc = Complex::new(bq * bq - 4.0 * hx * hy, 0.0).sqrt();
     let mut out = Vec::new();
-    for s in [(-bq + disc) / 2.0, (-bq - disc) / 2.0, Complex::new(-hz, 0.0)] {
+    for s in [
+        (-bq + disc) / 2.0,
+        (-bq - disc) / 2.0,
+        Complex::new(-hz, 0.0),
+    ] {
         let r = s.sqrt();
         out.push(r);
         out.push(-r);
@@ -186,7 +190,12 @@ fn the_exact_ellipsoid_has_four_equilibria_on_its_long_and_intermediate_axes() {
             assert!((e.jacobi_m2_s2 - phi).abs() < 1e-9 * phi.abs());
             let closed = expected_eigenvalues(&p, period_s);
             assert_eigenvalues_match(&e.eigenvalues, &closed, 1e-4, period_s);
-            assert_eq!(e.linearly_stable, expected_stable(&closed), "{:?}", e.stability);
+            assert_eq!(
+                e.linearly_stable,
+                expected_stable(&closed),
+                "{:?}",
+                e.stability
+            );
             if on_x {
                 // Scheeres 1994 (Icarus 110), from memory: the equilibria on the long axis of
                 // a uniformly rotating triaxial ellipsoid are unstable, with one real pair.
@@ -234,7 +243,12 @@ fn polyhedral_ellipsoids_converge_to_the_exact_equilibria() {
                 0.0,
             );
             let closed = expected_eigenvalues(&q, PERIOD_S);
-            assert_eq!(e.linearly_stable, expected_stable(&closed), "{:?}", e.stability);
+            assert_eq!(
+                e.linearly_stable,
+                expected_stable(&closed),
+                "{:?}",
+                e.stability
+            );
             if subdivisions == 4 {
                 assert_eigenvalues_match(&e.eigenvalues, &closed, 0.02, PERIOD_S);
             }
@@ -273,15 +287,26 @@ fn a_faceted_sphere_breaks_the_synchronous_ring_into_a_bounded_set_of_points() {
     // stable, at a minimum it has a hyperbolic pair (the planar quadratic of
     // `expected_eigenvalues` with H_rr = -3 w^2). So, sorted by longitude, stability
     // alternates, and there is an even number of points.
-    assert!(set.equilibria.len() % 2 == 0, "{}", set.equilibria.len());
+    assert!(
+        set.equilibria.len().is_multiple_of(2),
+        "{}",
+        set.equilibria.len()
+    );
     for pair in set.equilibria.windows(2) {
-        assert_ne!(pair[0].linearly_stable, pair[1].linearly_stable, "{pair:#?}");
+        assert_ne!(
+            pair[0].linearly_stable, pair[1].linearly_stable,
+            "{pair:#?}"
+        );
     }
     assert!(set.ring.is_some(), "{:?}", set.notes);
     for e in &set.equilibria {
         // Icosahedral symmetry: the first harmonic beyond the monopole is of degree 6, so at
         // r_s = 2.9 R its relative size is ~(1/2.9)^6 times the facets' ~1% (a few 1e-6).
-        assert!((e.radius_m - rs).abs() < 1e-4 * rs, "{} vs {rs}", e.radius_m);
+        assert!(
+            (e.radius_m - rs).abs() < 1e-4 * rs,
+            "{} vs {rs}",
+            e.radius_m
+        );
         assert!(e.position_m[2].abs() < 1e-6 * rs, "{:?}", e.position_m);
     }
 }
@@ -310,7 +335,11 @@ fn a_point_mass_ring_is_reported_as_a_ring_and_cut_not_flooded() {
     assert!(set.truncated);
     let ring = set.ring.unwrap();
     assert!((ring.radius_m - rs).abs() < 1e-8 * rs, "{ring:?} vs {rs}");
-    assert!(set.notes.iter().any(|n| n.contains("ring")), "{:?}", set.notes);
+    assert!(
+        set.notes.iter().any(|n| n.contains("ring")),
+        "{:?}",
+        set.notes
+    );
 }
 
 #[test]
@@ -382,12 +411,37 @@ fn absurd_settings_and_cancel_are_errors() {
         );
         assert!(err.to_string().contains("equilibrium search"), "{err}");
     }
-    let err = find_equilibria(
-        &body,
-        &quick_search(),
-        &|_, _| {},
-        &AtomicBool::new(true),
-    )
-    .unwrap_err();
+    let err =
+        find_equilibria(&body, &quick_search(), &|_, _| {}, &AtomicBool::new(true)).unwrap_err();
     assert!(matches!(err, DynamicsError::Cancelled));
+}
+
+#[test]
+fn a_small_body_far_inside_its_synchronous_radius_is_searched_past_the_empty_shell() {
+    // At a 60 h period the synchronous radius is ~8.6 km, 8.6 times the sphere's radius: the
+    // region has an empty shell between the body and the synchronous circle (region.rs), and
+    // the equilibria beyond it must still be found there.
+    let body = Body::new(
+        "slow sphere",
+        shape(generate::icosphere(1000.0, 2)),
+        MassSpec::DensityKgM3(DENSITY),
+        spin_z(60.0 * 3600.0),
+    )
+    .unwrap();
+    let w = body.spin.rate_rad_s();
+    let rs = (body.gm_m3_s2() / (w * w)).cbrt();
+    let s = quick_search();
+    let set = search(&body, &s);
+    let [r1, r2] = set.region.empty_shell_m.unwrap();
+    assert!(r1 > 1000.0 && r2 < rs, "{:?}", set.region);
+    assert!(!set.equilibria.is_empty(), "{set:#?}");
+    assert!(set.equilibria.len() <= s.max_reported);
+    for e in &set.equilibria {
+        assert!(
+            (e.radius_m - rs).abs() < 1e-4 * rs,
+            "{} vs {rs}",
+            e.radius_m
+        );
+        assert!(e.position_m[2].abs() < 1e-6 * rs, "{:?}", e.position_m);
+    }
 }

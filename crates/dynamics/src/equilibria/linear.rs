@@ -44,7 +44,11 @@ impl StabilityClass {
                 parts.push(format!("{n} {}", if n == 1 { one } else { many }));
             }
         };
-        part(spiral_quadruplets, "spiral quadruplet", "spiral quadruplets");
+        part(
+            spiral_quadruplets,
+            "spiral quadruplet",
+            "spiral quadruplets",
+        );
         part(hyperbolic_pairs, "hyperbolic pair", "hyperbolic pairs");
         part(oscillatory_pairs, "oscillatory pair", "oscillatory pairs");
         let stable = hyperbolic_pairs == 0 && spiral_quadruplets == 0;
@@ -82,7 +86,8 @@ pub(crate) fn linear_modes(
     let h = hess_phi_s2 / (w * w);
     let k = w_rad_s.cross_matrix() * (2.0 / w);
     let mut a = Matrix6::zeros();
-    a.fixed_view_mut::<3, 3>(0, 3).copy_from(&Matrix3::identity());
+    a.fixed_view_mut::<3, 3>(0, 3)
+        .copy_from(&Matrix3::identity());
     a.fixed_view_mut::<3, 3>(3, 0).copy_from(&(-h));
     a.fixed_view_mut::<3, 3>(3, 3).copy_from(&(-k));
     if !a.iter().all(|v| v.is_finite()) {
@@ -91,10 +96,7 @@ pub(crate) fn linear_modes(
     let schur = Schur::try_new(a, f64::EPSILON, 10_000)?;
     let ev = schur.complex_eigenvalues();
     let mut out: [Complex<f64>; 6] = std::array::from_fn(|i| ev[i] * w);
-    out.sort_by(|x, y| {
-        x.im.total_cmp(&y.im)
-            .then_with(|| x.re.total_cmp(&y.re))
-    });
+    out.sort_by(|x, y| x.im.total_cmp(&y.im).then_with(|| x.re.total_cmp(&y.re)));
     let scale = ev.iter().map(|z| z.norm()).fold(1.0, f64::max);
     let tol = imaginary_tolerance * scale;
     let (mut hyp, mut spi) = (0u8, 0u8);
@@ -110,7 +112,7 @@ pub(crate) fn linear_modes(
     }
     // Eigenvalues come in pairs; round the counts so that the modes add up to three.
     let quads = ((spi + 2) / 4).min(1);
-    let pairs = ((hyp + 1) / 2).min(3 - 2 * quads);
+    let pairs = hyp.div_ceil(2).min(3 - 2 * quads);
     let oscillatory = 3 - 2 * quads - pairs;
     Some((out, StabilityClass::new(oscillatory, pairs, quads)))
 }
@@ -123,8 +125,14 @@ mod tests {
     fn counts_and_words() {
         let c = StabilityClass::new(2, 1, 0);
         assert!(!c.is_stable());
-        assert_eq!(c.summary, "unstable: 1 hyperbolic pair, 2 oscillatory pairs");
-        assert_eq!(StabilityClass::new(3, 0, 0).summary, "stable: 3 oscillatory pairs");
+        assert_eq!(
+            c.summary,
+            "unstable: 1 hyperbolic pair, 2 oscillatory pairs"
+        );
+        assert_eq!(
+            StabilityClass::new(3, 0, 0).summary,
+            "stable: 3 oscillatory pairs"
+        );
     }
 
     #[test]

@@ -60,17 +60,23 @@
 //!
 //! Spinfall is for research and planning, **not flight-certified**.
 
+mod field;
+mod grid;
 mod linear;
+mod newton;
 mod region;
 
-use std::sync::atomic::{AtomicBool, Ordering};
+use std::sync::atomic::AtomicBool;
 
-use nalgebra::{Matrix3, Point3, SymmetricEigen, Vector3};
+use nalgebra::{Point3, SymmetricEigen, Vector3};
 use serde::{Deserialize, Serialize};
 
 use crate::body::Body;
 use crate::error::{DynamicsError, Result};
-use crate::site::{equatorial_basis, lat_lon_deg};
+use crate::site::lat_lon_deg;
+use field::{Local, field_at, grad_phi, hess_phi};
+use grid::Grid;
+use newton::{NewtonLimits, WalkEnd, newton};
 
 pub use linear::StabilityClass;
 pub use region::SearchRegion;
@@ -253,14 +259,6 @@ pub struct EquilibriumSet {
     pub ring: Option<RingReport>,
     /// Remarks for the reader (empty result, ring, cut list, ...).
     pub notes: Vec<String>,
-}
-
-/// The field at one point: potential, acceleration and gradient tensor of `U`.
-#[derive(Debug, Clone, Copy)]
-struct Local {
-    u: f64,
-    g: Vector3<f64>,
-    hess_u: Matrix3<f64>,
 }
 
 /// Finds the equilibria of `body` outside it (see the module docs). `progress(done, total)` is
@@ -493,382 +491,15 @@ fn ring_of(eqs: &[Equilibrium]) -> Option<RingReport> {
     if on.len() < 3 {
         return None;
     }
-    let (lo, hi) = on.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), e| {
-        (lo.min(e.radius_m), hi.max(e.radius_m))
-    });
+    let (lo, hi) = on
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), e| {
+            (lo.min(e.radius_m), hi.max(e.radius_m))
+        });
     Some(RingReport {
         radius_m: median,
         radius_spread_m: hi - lo,
         points: on.len(),
         flatness: on.iter().map(|e| flat(e)).fold(0.0, f64::max),
     })
-}
-
-/// `grad Phi = -(g + w^2 r_perp)` at `p`.
-fn grad_phi(w: &Vector3<f64>, p: &Point3<f64>, local: &Local) -> Vector3<f64> {
-    let centrifugal = -w.cross(&w.cross(&p.coords));
-    -(local.g + centrifugal)
-}
-
-/// `Hess Phi = -(Hess U + |w|^2 I - w w^T)`.
-fn hess_phi(w: &Vector3<f64>, local: &Local) -> Matrix3<f64> {
-    -(local.hess_u + Matrix3::identity() * w.norm_squared() - w * w.transpose())
-}
-
-/// The field with its gradient tensor at `points`: the model's own tensor when it has one,
-/// else central differences of its acceleration (step `1e-5 |p|`, error ~1e-10 relative).
-fn field_at(body: &Body, points: &[Point3<f64>]) -> Vec<Local> {
-    if points.is_empty() {
-        return Vec::new();
-    }
-    if let Some(samples) = body.gravity.evaluate_batch(points) {
-        return samples
-            .iter()
-            .map(|s| Local {
-                u: s.potential_m2_s2,
-                g: s.acceleration_m_s2,
-                hess_u: s.gradient_s2,
-            })
-            .collect();
-    }
-    let mut all = Vec::with_capacity(points.len() * 7);
-    let steps: Vec<f64> = points
-        .iter()
-        .map(|p| 1e-5 * p.coords.norm().max(1e-3))
-        .collect();
-    for (p, &h) in points.iter().zip(&steps) {
-        all.push(*p);
-        for k in 0..3 {
-            let mut d = Vector3::zeros();
-            d[k] = h;
-            all.push(p + d);
-            all.push(p - d);
-        }
-    }
-    let mut out = vec![(0.0, Vector3::zeros()); all.len()];
-    body.gravity.potential_acceleration_batch(&all, &mut out);
-    out.chunks(7)
-        .zip(&steps)
-        .map(|(c, &h)| {
-            let mut hess = Matrix3::zeros();
-            for k in 0..3 {
-                hess.set_column(k, &((c[1 + 2 * k].1 - c[2 + 2 * k].1) / (2.0 * h)));
-            }
-            Local {
-                u: c[0].0,
-                g: c[0].1,
-                hess_u: (hess + hess.transpose()) * 0.5,
-            }
-        })
-        .collect()
-}
-
-/// The seed grid: cylindrical about the spin axis (see the module docs).
-struct Grid {
-    nr: usize,
-    na: usize,
-    nz: usize,
-    dr: f64,
-    dz: f64,
-    zlo: f64,
-    basis: (Vector3<f64>, Vector3<f64>, Vector3<f64>),
-}
-
-/// Nodes evaluated per batch of the field (progress and cancel are checked between batches).
-const GRID_CHUNK: usize = 4096;
-
-impl Grid {
-    fn new(region: &SearchRegion, s: &EquilibriumSearch, body: &Body) -> Grid {
-        let [zlo, zhi] = region.axial_range_m;
-        Grid {
-            nr: s.radial_cells,
-            na: s.azimuth_cells,
-            nz: s.axial_cells,
-            dr: region.outer_radius_m / s.radial_cells as f64,
-            dz: (zhi - zlo) / s.axial_cells as f64,
-            zlo,
-            basis: equatorial_basis(&body.spin.axis_body),
-        }
-    }
-
-    fn nodes(&self) -> usize {
-        self.nr * self.na * self.nz
-    }
-
-    /// The largest cell edge, m.
-    fn cell_size_m(&self) -> f64 {
-        let outer = self.dr * self.nr as f64;
-        self.dr
-            .max(self.dz)
-            .max(outer * std::f64::consts::TAU / self.na as f64)
-    }
-
-    fn index(&self, i: usize, j: usize, k: usize) -> usize {
-        (i * self.na + j) * self.nz + k
-    }
-
-    fn point(&self, n: usize) -> Point3<f64> {
-        let k = n % self.nz;
-        let j = (n / self.nz) % self.na;
-        let i = n / (self.nz * self.na);
-        let rho = (i as f64 + 0.5) * self.dr;
-        let phi = std::f64::consts::TAU * j as f64 / self.na as f64;
-        let z = self.zlo + (k as f64 + 0.5) * self.dz;
-        let (ex, ey, ez) = &self.basis;
-        Point3::from((ex * phi.cos() + ey * phi.sin()) * rho + ez * z)
-    }
-
-    /// `|grad Phi|` at every node the bounds allow outside the body, infinity elsewhere.
-    fn values(
-        &self,
-        body: &Body,
-        region: &SearchRegion,
-        w: &Vector3<f64>,
-        progress: &(dyn Fn(usize, usize) + Sync),
-        total: usize,
-        cancel: &AtomicBool,
-    ) -> Result<Vec<f64>> {
-        let n = self.nodes();
-        let mut values = vec![f64::INFINITY; n];
-        let axis = self.basis.2;
-        let mut idx = Vec::with_capacity(GRID_CHUNK);
-        let mut pts = Vec::with_capacity(GRID_CHUNK);
-        let mut field = vec![(0.0, Vector3::zeros()); GRID_CHUNK];
-        for start in (0..n).step_by(GRID_CHUNK) {
-            if cancel.load(Ordering::Relaxed) {
-                return Err(DynamicsError::Cancelled);
-            }
-            idx.clear();
-            pts.clear();
-            for m in start..(start + GRID_CHUNK).min(n) {
-                let p = self.point(m);
-                if region.allows(&p, &axis) && !body.shape.contains(&p) {
-                    idx.push(m);
-                    pts.push(p);
-                }
-            }
-            let out = &mut field[..pts.len()];
-            body.gravity.potential_acceleration_batch(&pts, out);
-            for ((m, p), (_, g)) in idx.iter().zip(&pts).zip(out.iter()) {
-                let centrifugal = -w.cross(&w.cross(&p.coords));
-                let v = (g + centrifugal).norm();
-                if v.is_finite() {
-                    values[*m] = v;
-                }
-            }
-            progress((start + GRID_CHUNK).min(n), total);
-        }
-        Ok(values)
-    }
-
-    /// Nodes with a finite value no greater than any of their eight neighbours in their
-    /// meridian half-plane (distance from the axis x height, at the same longitude).
-    fn local_minima(&self, values: &[f64]) -> Vec<usize> {
-        let mut out = Vec::new();
-        for i in 0..self.nr {
-            for j in 0..self.na {
-                for k in 0..self.nz {
-                    let m = self.index(i, j, k);
-                    let v = values[m];
-                    if v.is_finite() && self.no_smaller_neighbour(values, i, j, k, v) {
-                        out.push(m);
-                    }
-                }
-            }
-        }
-        out
-    }
-
-    fn no_smaller_neighbour(&self, values: &[f64], i: usize, j: usize, k: usize, v: f64) -> bool {
-        for di in -1i64..=1 {
-            for dk in -1i64..=1 {
-                if di == 0 && dk == 0 {
-                    continue;
-                }
-                let (ii, kk) = (i as i64 + di, k as i64 + dk);
-                if ii < 0 || ii >= self.nr as i64 || kk < 0 || kk >= self.nz as i64 {
-                    continue;
-                }
-                if values[self.index(ii as usize, j, kk as usize)] < v {
-                    return false;
-                }
-            }
-        }
-        true
-    }
-}
-
-/// How a Newton path ended.
-#[derive(Debug, Clone, Copy)]
-enum WalkEnd {
-    Converged(Point3<f64>),
-    Inside,
-    Left,
-    Stuck,
-}
-
-/// Bounds of a Newton path.
-#[derive(Debug, Clone, Copy)]
-struct NewtonLimits {
-    step_cap_m: f64,
-    far_m: f64,
-}
-
-/// A Newton path in progress.
-struct Walker {
-    p: Point3<f64>,
-    local: Local,
-    residual: f64,
-    polish: u8,
-    end: Option<WalkEnd>,
-}
-
-/// Most halvings of a Newton step.
-const MAX_HALVINGS: usize = 30;
-/// Steps after convergence that may still reduce the residual.
-const POLISH_STEPS: u8 = 2;
-
-/// Newton's method from every seed, the field of all active paths in one batch per trial.
-fn newton(
-    body: &Body,
-    w: &Vector3<f64>,
-    seeds: &[Point3<f64>],
-    search: &EquilibriumSearch,
-    limits: NewtonLimits,
-    progress: &dyn Fn(usize),
-    cancel: &AtomicBool,
-) -> Result<Vec<WalkEnd>> {
-    let axis = body.spin.axis_body.into_inner();
-    let locals = field_at(body, seeds);
-    let mut walkers: Vec<Walker> = seeds
-        .iter()
-        .zip(locals)
-        .map(|(p, local)| Walker {
-            p: *p,
-            residual: grad_phi(w, p, &local).norm(),
-            local,
-            polish: 0,
-            end: None,
-        })
-        .collect();
-    for iter in 0..search.max_iterations {
-        if cancel.load(Ordering::Relaxed) {
-            return Err(DynamicsError::Cancelled);
-        }
-        let active: Vec<usize> = (0..walkers.len())
-            .filter(|&i| walkers[i].end.is_none())
-            .collect();
-        if active.is_empty() {
-            break;
-        }
-        let steps: Vec<Vector3<f64>> = active
-            .iter()
-            .map(|&i| newton_step(w, &walkers[i], limits.step_cap_m))
-            .collect();
-        let mut pending: Vec<(usize, Vector3<f64>)> = active.into_iter().zip(steps).collect();
-        for _ in 0..=MAX_HALVINGS {
-            if pending.is_empty() {
-                break;
-            }
-            let trial: Vec<Point3<f64>> = pending
-                .iter()
-                .map(|(i, d)| along_circles(&walkers[*i].p, d, &axis))
-                .collect();
-            let locals = field_at(body, &trial);
-            let mut again = Vec::new();
-            for (((i, d), p), local) in pending.iter().zip(&trial).zip(locals) {
-                let r = grad_phi(w, p, &local).norm();
-                let wk = &mut walkers[*i];
-                if r < wk.residual && r.is_finite() {
-                    wk.p = *p;
-                    wk.local = local;
-                    wk.residual = r;
-                    if r <= search.residual_tolerance * local.g.norm() {
-                        wk.polish += 1;
-                        if wk.polish > POLISH_STEPS {
-                            wk.end = Some(WalkEnd::Converged(wk.p));
-                        }
-                    }
-                } else if wk.polish > 0 {
-                    // Converged already: round-off is all that is left.
-                    wk.end = Some(WalkEnd::Converged(wk.p));
-                } else if d.norm() > 1e-15 * wk.p.coords.norm() {
-                    again.push((*i, d * 0.5));
-                } else {
-                    wk.end = Some(settled(wk, search));
-                }
-            }
-            pending = again;
-        }
-        for (i, _) in pending {
-            let wk = &mut walkers[i];
-            wk.end = Some(settled(wk, search));
-        }
-        for wk in walkers.iter_mut().filter(|w| w.end.is_none()) {
-            if !(wk.p.coords.norm() <= limits.far_m) {
-                wk.end = Some(WalkEnd::Left);
-            } else if body.shape.contains(&wk.p) {
-                wk.end = Some(WalkEnd::Inside);
-            }
-        }
-        progress(iter + 1);
-    }
-    Ok(walkers
-        .iter()
-        .map(|wk| wk.end.unwrap_or_else(|| settled(wk, search)))
-        .collect())
-}
-
-/// The end of a path that can make no more progress: converged if its residual is small
-/// enough, else stuck.
-fn settled(wk: &Walker, search: &EquilibriumSearch) -> WalkEnd {
-    if wk.residual <= search.residual_tolerance * wk.local.g.norm() {
-        WalkEnd::Converged(wk.p)
-    } else {
-        WalkEnd::Stuck
-    }
-}
-
-/// `p` moved by the step `d` in cylindrical coordinates about the spin axis: the step's
-/// components along the local radial, azimuthal and axial directions change the distance from
-/// the axis, the longitude (by the arc over the distance) and the height. To first order this
-/// is `p + d`; along the synchronous circle, where the field is soft, it follows the circle
-/// instead of leaving it along the tangent (which, on the stiff radial direction, would undo
-/// the step's gain and stall the line search). Near the axis it is `p + d`.
-fn along_circles(p: &Point3<f64>, d: &Vector3<f64>, axis: &Vector3<f64>) -> Point3<f64> {
-    let z = p.coords.dot(axis);
-    let radial = p.coords - axis * z;
-    let rho = radial.norm();
-    if rho <= 1e-6 * p.coords.norm() || rho <= d.norm() {
-        return p + d;
-    }
-    let e_rho = radial / rho;
-    let e_phi = axis.cross(&e_rho);
-    let (dr, dphi) = (d.dot(&e_rho), d.dot(&e_phi) / rho);
-    let (s, c) = dphi.sin_cos();
-    let dir = e_rho * c + e_phi * s;
-    Point3::from(dir * (rho + dr) + axis * (z + d.dot(axis)))
-}
-
-/// The Newton step `-H^+ grad Phi` on the Hessian's well-conditioned directions, capped.
-fn newton_step(w: &Vector3<f64>, wk: &Walker, cap_m: f64) -> Vector3<f64> {
-    let grad = grad_phi(w, &wk.p, &wk.local);
-    let hess = hess_phi(w, &wk.local);
-    let Some(eig) = SymmetricEigen::try_new(hess, f64::EPSILON, 1000) else {
-        return Vector3::zeros();
-    };
-    let big = eig.eigenvalues.amax();
-    let mut d = Vector3::zeros();
-    for k in 0..3 {
-        let mu = eig.eigenvalues[k];
-        if mu.abs() > 1e-9 * big {
-            let v = eig.eigenvectors.column(k);
-            d -= v * (v.dot(&grad) / mu);
-        }
-    }
-    let n = d.norm();
-    if !n.is_finite() {
-        return Vector3::zeros();
-    }
-    if n > cap_m { d * (cap_m / n) } else { d }
 }

@@ -57,8 +57,10 @@ impl SearchRegion {
         let shell = |r: f64| rs3 * (r - rb) - r * (r + rb).powi(3);
         let peak = golden_max(shell, rb, outer_radius_m.max(rb));
         let empty_shell_m = if shell(peak) > 0.0 {
-            let r1 = bisect(|r| -shell(r), rb, peak);
-            let r2 = bisect(shell, peak, outer_radius_m.max(peak));
+            // shell < 0 at R_B, > 0 at the peak, < 0 again beyond r_2 (if r_2 were beyond
+            // r_out, r_out is kept: the shell claimed is then only smaller).
+            let r1 = bisect(shell, rb, peak);
+            let r2 = bisect(|r| -shell(r), peak, outer_radius_m.max(peak));
             Some([r1, r2])
         } else {
             None
@@ -139,9 +141,15 @@ mod tests {
     #[test]
     fn a_small_body_has_an_empty_shell_and_an_outer_radius_near_synchronous() {
         let r = SearchRegion::new(100.0, 1000.0, [-100.0, 100.0]);
-        assert!(r.outer_radius_m > 1000.0 && r.outer_radius_m < 1300.0, "{r:?}");
+        assert!(
+            r.outer_radius_m > 1000.0 && r.outer_radius_m < 1300.0,
+            "{r:?}"
+        );
         let [r1, r2] = r.empty_shell_m.unwrap_or([0.0, 0.0]);
-        assert!(r1 > 100.0 && r1 < 120.0 && r2 > 800.0 && r2 < 1000.0, "{r:?}");
+        assert!(
+            r1 > 100.0 && r1 < 120.0 && r2 > 800.0 && r2 < 1000.0,
+            "{r:?}"
+        );
         // The synchronous circle itself is allowed, the axis above the body is not.
         let z = Vector3::z();
         assert!(r.allows(&Point3::new(1000.0, 0.0, 0.0), &z));
