@@ -33,6 +33,9 @@ pub enum Command {
     Fly(FlyArgs),
     /// Per-face surface map of a scenario's body (slope, geopotential, ...), as CSV.
     Map(MapArgs),
+    /// Equilibrium points of a scenario's spinning body (off the surface), with their linear
+    /// stability, as JSON.
+    Equilibria(EquilibriaArgs),
     /// Fly a scenario and draw the body-fixed and/or inertial view as a figure (PNG or SVG).
     Render(RenderArgs),
     /// Fly a scenario and write the views over time as an animation (GIF, APNG or PNG frames).
@@ -178,6 +181,20 @@ pub struct SliceArgs {
     /// Output CSV file, or `-` for standard output.
     #[arg(long, value_name = "FILE.csv")]
     pub out: PathBuf,
+    #[command(flatten)]
+    pub field: FieldArgs,
+}
+
+#[derive(Debug, Args)]
+pub struct EquilibriaArgs {
+    /// Scenario file (JSON), or `builtin:example` for the demo scenario (launches not needed).
+    pub scenario: String,
+    /// Output JSON file, or `-` for standard output.
+    #[arg(long, value_name = "FILE.json")]
+    pub out: PathBuf,
+    /// Most equilibria listed [default: 64].
+    #[arg(long, value_name = "N")]
+    pub max_points: Option<usize>,
     #[command(flatten)]
     pub field: FieldArgs,
 }

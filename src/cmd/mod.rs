@@ -3,6 +3,7 @@
 
 mod animate;
 mod app;
+mod equilibria;
 mod fly;
 mod gravity;
 mod info;
@@ -33,6 +34,7 @@ pub fn run(cli: Cli) -> CmdResult<ExitCode> {
         Some(Command::Gravity(args)) => gravity::run(&args),
         Some(Command::Fly(args)) => fly::run(&args),
         Some(Command::Map(args)) => map::run(&args),
+        Some(Command::Equilibria(args)) => equilibria::run(&args),
         Some(Command::Render(args)) => render::run(&args),
         Some(Command::Animate(args)) => animate::run(&args),
         Some(Command::Plot(args)) => plot::run(&args),

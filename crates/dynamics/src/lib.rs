@@ -7,6 +7,8 @@
 //! Dormand–Prince 8(5,3) integrator with dense output ([`dop853`]); flights integrated in both
 //! frames with impact location, bouncing, escape and Jacobi-integral monitoring ([`fly`],
 //! [`fly_all`] → [`FlightReport`]); per-face surface maps ([`surface_map::surface_map`]); the
+//! equilibrium points of the rotating body with their linear stability
+//! ([`equilibria::find_equilibria`]); the
 //! versioned JSON scenario format ([`scenario::Scenario`], documented in `SCENARIO.md`).
 //!
 //! What it is not: no GUI, no rendering, no file I/O and no exporters — scenarios parse from
@@ -40,6 +42,7 @@
 
 mod body;
 pub mod dop853;
+pub mod equilibria;
 mod error;
 mod flight;
 mod gravity_model;

@@ -89,7 +89,10 @@ pub fn direction_from_lat_lon(body: &Body, lat_deg: f64, lon_deg: f64) -> Vector
     (x * co + y * so) * cl + z * sl
 }
 
-fn equatorial_basis(axis: &Unit<Vector3<f64>>) -> (Vector3<f64>, Vector3<f64>, Vector3<f64>) {
+/// Unit vectors of longitude 0, longitude 90 deg east and the spin axis (see the module docs).
+pub(crate) fn equatorial_basis(
+    axis: &Unit<Vector3<f64>>,
+) -> (Vector3<f64>, Vector3<f64>, Vector3<f64>) {
     let z = axis.into_inner();
     let mut x = Vector3::x() - z * z.x;
     if x.norm() < 1e-6 {

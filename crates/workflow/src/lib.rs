@@ -12,10 +12,12 @@
 //!   place ([`gravity_method`]);
 //! - flying it with progress and cancel ([`run::run`], or [`run::run_keeping_finished`] to keep
 //!   the launches that ended before a cancel), the surface map ([`surface`]) and its on-disk
-//!   store beside the interpolated fields ([`map_cache`]), plot series ([`series`]) and pictures
-//!   ([`images`]); the geopotential on planes and the zero-velocity curves ([`zero_velocity`]);
+//!   store beside the interpolated fields ([`map_cache`]), the equilibrium points
+//!   ([`equilibria`]), the geopotential on planes and the zero-velocity curves
+//!   ([`zero_velocity`]), plot series ([`series`]) and pictures ([`images`]);
 //! - every exporter ([`export`]: results JSON and CSV, trajectories CSV, surface map CSV, field
-//!   samples, shape figures) and the one module that writes files ([`output`]: exclusive
+//!   samples, shape figures, equilibria JSON) and the one module that writes files
+//!   ([`output`]: exclusive
 //!   temporary files, renames only when a whole set is complete, manifests, a lock per folder,
 //!   devices and symlinks respected, standard output).
 //!
@@ -43,6 +45,7 @@
 //! ```
 #![warn(missing_docs)]
 
+pub mod equilibria;
 mod error;
 pub mod export;
 pub mod field_cache;

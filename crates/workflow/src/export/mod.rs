@@ -2,6 +2,7 @@
 //! `csv` crate (quoting, one header), JSON through `serde_json`; numbers in the shortest form that
 //! reads back exactly. Files are opened by [`crate::output`], never here.
 
+mod equilibria;
 mod field;
 mod info;
 mod results;
@@ -9,6 +10,7 @@ mod slice;
 mod surface_map;
 mod trajectories;
 
+pub use equilibria::write_equilibria_json;
 pub use field::{
     FieldPoints, evaluate_field, parse_points_csv, read_points_file, write_field_samples,
 };
