@@ -188,6 +188,8 @@ pub struct SpinfallApp {
     /// Start a run as soon as the body being rebuilt is ready.
     pub(crate) run_after_body: bool,
     pub(crate) plot: crate::plot_panel::PlotPanel,
+    /// Zero-velocity surfaces and equilibrium points.
+    pub(crate) env: crate::environment::Environment,
     /// Sites resolved on the current body.
     site_cache: Option<SiteCache>,
 
@@ -323,6 +325,7 @@ impl SpinfallApp {
             save_job: None,
             run_after_body: false,
             plot: Default::default(),
+            env: Default::default(),
             site_cache: None,
             commands: Vec::new(),
             notices: Vec::new(),
@@ -378,6 +381,14 @@ impl SpinfallApp {
                 .as_ref()
                 .map(|j| j.running(JobKind::Animation)),
             self.save_job.as_ref().map(|j| j.running(JobKind::Save)),
+            self.env
+                .slice_job
+                .as_ref()
+                .map(|j| j.running(JobKind::Environment)),
+            self.env
+                .equilibria_job
+                .as_ref()
+                .map(|j| j.running(JobKind::Environment)),
         ]
         .into_iter()
         .flatten()
@@ -439,6 +450,31 @@ impl SpinfallApp {
     pub fn run_estimate(&self) -> Estimate {
         let faces = self.shape.as_ref().map_or(0, |s| s.shape.face_count());
         estimate(&self.scenario, faces, &self.scenario.flight_settings())
+    }
+
+    /// The guides the body-fixed view draws now (equilibria, zero-velocity curves).
+    pub fn guides(&self) -> Option<Arc<spinfall_scene::Guides>> {
+        self.view.as_ref().map(|v| v.guides().clone())
+    }
+
+    /// The body shown now.
+    pub fn view_body(&self) -> Option<Arc<spinfall_dynamics::Body>> {
+        self.view.as_ref().map(|v| v.body().clone())
+    }
+
+    /// The body view drawn now.
+    pub fn view(&self) -> Option<&spinfall_scene::BodyView> {
+        self.view.as_deref()
+    }
+
+    /// Sets the typed Jacobi constant of the Environment section, m^2/s^2 (tests).
+    pub fn set_zero_velocity_constant(&mut self, c_m2_s2: f64) {
+        self.env.constant_m2_s2 = c_m2_s2;
+    }
+
+    /// The equilibrium points found for the current body, if a search ran.
+    pub fn equilibria(&self) -> Option<&spinfall_dynamics::equilibria::EquilibriumSet> {
+        self.env.equilibria()
     }
 
     /// Reports shown (the last complete run, or the finished part of a cancelled one when

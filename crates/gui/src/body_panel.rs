@@ -33,6 +33,7 @@ impl SpinfallApp {
         section(ui, "Shape model", |ui| self.shape_ui(ui));
         section(ui, "Body", |ui| self.body_ui(ui));
         section(ui, "Surface map", |ui| self.map_ui(ui));
+        section(ui, "Environment", |ui| self.environment_ui(ui));
         section(ui, "Launches", |ui| self.sites_ui(ui));
         section(ui, "Flights", |ui| self.run_ui(ui));
     }

@@ -31,6 +31,11 @@ pub enum Command {
     /// Compute the surface map for the current body in the background (or read it from the
     /// cache).
     ComputeMap,
+    /// Compute the geopotential on the zero-velocity plane and at the surface vertices in the
+    /// background.
+    ComputeZeroVelocity,
+    /// Search the equilibrium points of the current body in the background.
+    FindEquilibria,
     /// Add a launch site at a body-fixed surface point (metres) on face `face`.
     AddSiteAtPoint {
         /// Surface point, body frame, metres.

@@ -76,6 +76,8 @@ impl SpinfallApp {
             Command::Redo => self.undo_redo(false),
             Command::Run => self.start_run(),
             Command::CancelJobs => self.cancel_jobs(),
+            Command::ComputeZeroVelocity => self.start_slice(),
+            Command::FindEquilibria => self.start_equilibria(),
             Command::SwitchResults => self.switch_results(),
             Command::SelectLaunch(i) => {
                 self.state.view.selected_launch = i;

@@ -139,6 +139,8 @@ pub enum JobKind {
     Animation,
     /// Saving the scenario.
     Save,
+    /// Zero-velocity values or the equilibrium search.
+    Environment,
 }
 
 /// A running job as the status line and Cancel see it.

@@ -32,6 +32,7 @@
 mod app;
 mod body_panel;
 mod command;
+mod environment;
 mod error;
 mod export;
 mod export_job;

@@ -527,6 +527,8 @@ impl SpinfallApp {
                 Err(e) => self.error(format!("scenario not saved: {e}")),
             }
         }
+        // Last: the guides follow the view installed above.
+        self.poll_environment();
     }
 
     fn install_loaded(&mut self, loaded: Loaded) {

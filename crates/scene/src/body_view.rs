@@ -98,7 +98,7 @@ impl BodyView {
     }
 
     /// The guides drawn in the body-fixed view.
-    pub fn guides(&self) -> &Guides {
+    pub fn guides(&self) -> &Arc<Guides> {
         &self.guides
     }
 

@@ -237,7 +237,7 @@ fn guides_are_drawn_in_the_body_fixed_view_only() {
     };
     let bare = view;
     let with = bare.with_guides(Arc::new(guides.clone()));
-    assert_eq!(with.guides(), &guides);
+    assert_eq!(with.guides().as_ref(), &guides);
     let opts = ViewOptions::default();
     for t_s in [0.0, 5000.0] {
         let plain = body_fixed_scene(&bare, &[], t_s, &opts, [400, 300]);
