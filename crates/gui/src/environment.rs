@@ -323,6 +323,7 @@ impl SpinfallApp {
     /// The environment section of the side panel.
     pub(crate) fn environment_ui(&mut self, ui: &mut Ui) {
         ui.label(RichText::new("Zero-velocity surfaces").strong());
+        let before = self.env.level_source;
         ui.horizontal(|ui| {
             ui.radio_value(
                 &mut self.env.level_source,
@@ -335,6 +336,16 @@ impl SpinfallApp {
                 "Jacobi constant",
             );
         });
+        // Switching to a typed constant starts from the launch's, so the curves stay put.
+        if before == LevelSource::SelectedLaunch
+            && self.env.level_source == LevelSource::Constant
+            && let Some(GuidesKey {
+                level_m2_s2: Some(c),
+                ..
+            }) = &self.env.guides_key
+        {
+            self.env.constant_m2_s2 = *c;
+        }
         match self.env.level_source {
             LevelSource::SelectedLaunch => {
                 let text = match (self.state.view.selected_launch, &self.env.guides_key) {

@@ -60,8 +60,14 @@ fn curves_follow_the_selected_launch_and_the_typed_constant() {
     .collect();
     assert!(legend.iter().any(|t| t.contains(&report.id)), "{legend:?}");
 
-    // A constant above every value on the plane and the surface draws no curve.
+    // Switching to a typed constant starts from the launch's: the same curves, labelled so.
+    let before = z.plane_curves.clone();
     click_label(&mut harness, "Jacobi constant");
+    let guides = harness.state().guides().unwrap();
+    let z = guides.zero_velocity.as_ref().unwrap();
+    assert_eq!(z.label, "constant");
+    assert_eq!(z.plane_curves, before);
+    // A constant above every value on the plane and the surface draws no curve.
     harness.state_mut().set_zero_velocity_constant(1e6);
     harness.step();
     harness.step();
