@@ -8,6 +8,12 @@
 //! error bound. The file holds a magic line, the key, the face count, the per-face arrays and
 //! the SHA-256 of all that; a file that does not match in every respect is recomputed, never
 //! trusted. Files are written through [`crate::output`].
+//!
+//! A stored map never holds the sunlight layer (it depends on the Sun's direction, the grain and
+//! the epoch, not on the body alone, and costs one ray test per face): the stored file and its
+//! key are those of the map without the Sun, and [`load_or_compute_scenario_map`] computes the
+//! layer afresh on every call. A map stored without the Sun is therefore never served as the map
+//! of a scenario with one.
 
 use std::path::{Path, PathBuf};
 
@@ -19,7 +25,7 @@ use spinfall_gravity::{InterpolationSettings, MassSpec, cache_key};
 use crate::error::Result;
 use crate::gravity_method::FieldUsed;
 use crate::output::{OutputTarget, io_error, manifest_hex, write_file};
-use crate::surface::compute_surface_map;
+use crate::surface::{add_sunlight, compute_surface_map};
 
 /// First bytes of a stored surface map.
 const MAGIC: &[u8] = b"SPINFALL-SURFACE-MAP 1\n";
@@ -219,6 +225,29 @@ pub fn load_or_compute_map(
             }
         },
     };
+    Ok((map, source))
+}
+
+/// [`load_or_compute_map`] for `scenario`: the stored (or computed) map of the body, then the
+/// sunlight layer of the scenario's Sun, computed afresh (none without a Sun).
+///
+/// # Errors
+/// [`crate::WorkflowError::Cancelled`] when `cancel` was set.
+#[allow(
+    clippy::too_many_arguments,
+    reason = "load_or_compute_map's arguments plus the scenario"
+)]
+pub fn load_or_compute_scenario_map(
+    body: &Body,
+    scenario: &spinfall_dynamics::scenario::Scenario,
+    key: &str,
+    folder: Option<&Path>,
+    progress: &(dyn Fn(usize, usize) + Sync),
+    cancel: &Cancel,
+    warn: &dyn Fn(String),
+) -> Result<(SurfaceMap, MapSource)> {
+    let (mut map, source) = load_or_compute_map(body, key, folder, progress, cancel, warn)?;
+    add_sunlight(body, scenario, &mut map, cancel)?;
     Ok((map, source))
 }
 
