@@ -148,9 +148,8 @@ pub fn write_results_csv(w: &mut dyn Write, reports: &[FlightReport]) -> Result<
             Some(d) => csv_number(d),
             None => "n/a".to_string(),
         };
-        let extra = sun.then(|| (r.energy_added_m2_s2, r.shadow_events.len()));
         let first = r.contacts.first();
-        csv.serialize((
+        let row = (
             &r.id,
             outcome_text(&r.outcome),
             r.first_contact_time_s,
@@ -164,8 +163,12 @@ pub fn write_results_csv(w: &mut dyn Write, reports: &[FlightReport]) -> Result<
             r.contacts.len(),
             drift,
             r.frame_agreement_m,
-            extra,
-        ))
+        );
+        if sun {
+            csv.serialize((row, r.energy_added_m2_s2, r.shadow_events.len()))
+        } else {
+            csv.serialize(row)
+        }
         .map_err(csv_error)?;
     }
     csv.flush().map_err(crate::output::io_error)?;
