@@ -69,7 +69,10 @@ fn fly_with_the_sun_says_the_drift_is_not_applicable_and_reports_the_energy_adde
     let csv = std::fs::read_to_string(out_dir.join("results.csv")).unwrap();
     let (header, rows) = header_and_rows(&csv);
     let drift = header.iter().position(|c| c == "jacobi_rel_drift").unwrap();
-    assert!(header.iter().any(|c| c == "energy_added_m2_s2"), "{header:?}");
+    assert!(
+        header.iter().any(|c| c == "energy_added_m2_s2"),
+        "{header:?}"
+    );
     assert!(rows.iter().all(|r| r[drift] == "n/a"), "{csv}");
 }
 
@@ -78,7 +81,12 @@ fn map_with_the_sun_adds_the_sunlight_columns() {
     let dir = tempfile::tempdir().unwrap();
     let scenario = write_scenario(dir.path(), SUN_ABOVE, DROPS);
     let out = dir.path().join("map.csv");
-    ok_stdout(&spinfall(&["map", &scenario, "--out", out.to_str().unwrap()]));
+    ok_stdout(&spinfall(&[
+        "map",
+        &scenario,
+        "--out",
+        out.to_str().unwrap(),
+    ]));
     let (header, rows) = header_and_rows(&std::fs::read_to_string(&out).unwrap());
     let col = |name: &str| header.iter().position(|c| c == name).unwrap();
     let (z, lit, ratio, along) = (
@@ -126,16 +134,26 @@ fn settings_without_effect_are_warned_about_on_stderr() {
     );
     // Without the Sun the results are as before: a drift number, no energy column.
     let csv = std::fs::read_to_string(out_dir.join("results.csv")).unwrap();
-    assert!(!csv.contains("energy_added_m2_s2") && !csv.contains("n/a"), "{csv}");
+    assert!(
+        !csv.contains("energy_added_m2_s2") && !csv.contains("n/a"),
+        "{csv}"
+    );
 
     let off = r#", "environment": {"sun": {"direction_inertial": [1, 0, 0], "distance_au": 1,
         "radiation_pressure": false, "shadow": false, "tide": false}}"#;
     let scenario = write_scenario(dir.path(), off, DROPS);
-    let out = spinfall(&["map", &scenario, "--out", dir.path().join("m.csv").to_str().unwrap()]);
+    let out = spinfall(&[
+        "map",
+        &scenario,
+        "--out",
+        dir.path().join("m.csv").to_str().unwrap(),
+    ]);
     ok_stdout(&out);
     let stderr = String::from_utf8_lossy(&out.stderr);
     assert!(
-        stderr.contains("warning: scenario: environment.sun: radiation_pressure and tide are both off"),
+        stderr.contains(
+            "warning: scenario: environment.sun: radiation_pressure and tide are both off"
+        ),
         "{stderr}"
     );
 }

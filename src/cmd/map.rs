@@ -24,12 +24,8 @@ pub fn run(args: &MapArgs) -> CmdResult<ExitCode> {
     let prepared = prepare_with_hooks(loaded, &options, &field_hooks())?;
     announce_field(&prepared.field);
     let cancel = spinfall_dynamics::Cancel::new(false);
-    let map = compute_scenario_surface_map(
-        &prepared.body,
-        prepared.scenario(),
-        &|_, _| {},
-        &cancel,
-    )?;
+    let map =
+        compute_scenario_surface_map(&prepared.body, prepared.scenario(), &|_, _| {}, &cancel)?;
     out.write(|w| write_surface_map_csv(w, &prepared.body, &map))?;
     note(&format!("wrote {} faces to {}", map.len(), out.describe()));
     Ok(ExitCode::SUCCESS)

@@ -538,7 +538,9 @@ impl Scenario {
             if sun.unit_direction_inertial().is_none() {
                 return Err(err(
                     "environment.sun.direction_inertial",
-                    format!("must be a finite non-zero vector (from the body to the Sun), got {d:?}"),
+                    format!(
+                        "must be a finite non-zero vector (from the body to the Sun), got {d:?}"
+                    ),
                 ));
             }
             positive("environment.sun.distance_au", sun.distance_au)?;
@@ -577,7 +579,11 @@ impl Scenario {
             Some(sun) if !sun.radiation_pressure && !sun.tide => out.push(format!(
                 "environment.sun: radiation_pressure and tide are both off{}, so the Sun changes \
                  no flight (the surface map still shows which faces are lit)",
-                if sun.shadow { " (shadow only switches radiation pressure)" } else { "" }
+                if sun.shadow {
+                    " (shadow only switches radiation pressure)"
+                } else {
+                    ""
+                }
             )),
             Some(sun) if sun.radiation_pressure => {
                 let bare: Vec<String> = self
@@ -594,9 +600,17 @@ impl Scenario {
                          there is no environment.particle, so {} no radiation pressure: {}{}",
                         bare.len(),
                         if bare.len() == 1 { "y has" } else { "ies have" },
-                        if bare.len() == 1 { "it feels" } else { "they feel" },
+                        if bare.len() == 1 {
+                            "it feels"
+                        } else {
+                            "they feel"
+                        },
                         shown.join(", "),
-                        if bare.len() > shown.len() { ", ..." } else { "" }
+                        if bare.len() > shown.len() {
+                            ", ..."
+                        } else {
+                            ""
+                        }
                     ));
                 }
                 if self.default_particle().is_none() {

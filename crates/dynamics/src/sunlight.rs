@@ -222,7 +222,7 @@ pub fn tidal_potential(
 /// leaves from (met from behind within 1 mm of the start) is skipped.
 pub fn sunlit(shape: &ShapeModel, p_body_m: &Point3<f64>, dir_to_sun_body: &Vector3<f64>) -> bool {
     let n = dir_to_sun_body.norm();
-    if !(n > 0.0 && n.is_finite()) || !p_body_m.coords.iter().all(|c| c.is_finite()) {
+    if !(n > 0.0 && n.is_finite() && p_body_m.coords.iter().all(|c| c.is_finite())) {
         return true;
     }
     let d = dir_to_sun_body / n;
@@ -319,7 +319,12 @@ impl SunForces {
         self.acceleration(&self.dir_inertial, &(p_inertial_m.coords - com), lit)
     }
 
-    fn acceleration(&self, s: &Unit<Vector3<f64>>, r_from_com: &Vector3<f64>, lit: bool) -> Vector3<f64> {
+    fn acceleration(
+        &self,
+        s: &Unit<Vector3<f64>>,
+        r_from_com: &Vector3<f64>,
+        lit: bool,
+    ) -> Vector3<f64> {
         let mut a = Vector3::zeros();
         if lit && self.radiation_pressure_m_s2 > 0.0 {
             a -= s.as_ref() * self.radiation_pressure_m_s2;

@@ -387,7 +387,8 @@ pub fn sunlight_map(
             .into_par_iter()
             .map(|f| {
                 let nrm = body.shape.face_normal(f).into_inner();
-                let lit = nrm.dot(&s) > 0.0 && sunlit(&body.shape, &body.shape.face_centroid(f), &s);
+                let lit =
+                    nrm.dot(&s) > 0.0 && sunlit(&body.shape, &body.shape.face_centroid(f), &s);
                 if !lit {
                     // Nothing pushes here; without a grain there is no value at all.
                     let none = if a_rp.is_nan() { f64::NAN } else { 0.0 };

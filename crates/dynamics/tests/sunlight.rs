@@ -145,7 +145,11 @@ fn radiation_pressure_alone_gives_constant_acceleration_motion() {
     // The displacement the Sun caused is far above the tolerance: the check can fail.
     assert!(0.5 * a_rp * t * t > 10.0);
     // Without the Sun the same launch goes straight.
-    let plain = go(&body, &state("far", x0, v0, Some(grain)), &settings(t, None));
+    let plain = go(
+        &body,
+        &state("far", x0, v0, Some(grain)),
+        &settings(t, None),
+    );
     assert!((plain.final_pos_inertial_m[0] - (x0[0] + v0[0] * t)).abs() < 1e-6);
 }
 
@@ -184,7 +188,8 @@ fn the_tide_is_the_gradient_of_a_harmonic_potential() {
         for j in 0..3 {
             let mut e = Vector3::zeros();
             e[j] = h;
-            let col = (tidal_acceleration(&s, rate, &(r + e)) - tidal_acceleration(&s, rate, &(r - e)))
+            let col = (tidal_acceleration(&s, rate, &(r + e))
+                - tidal_acceleration(&s, rate, &(r - e)))
                 / (2.0 * h);
             t.set_column(j, &col);
         }
@@ -219,7 +224,10 @@ fn the_tide_matches_the_difference_of_exact_solar_attractions_to_second_order() 
         assert!(tidal_acceleration(&s, rate, &r).norm() > 1e3 * err);
         if let Some(prev) = last {
             let ratio = prev / err;
-            assert!((3.8..4.2).contains(&ratio), "halving r divided the remainder by {ratio}");
+            assert!(
+                (3.8..4.2).contains(&ratio),
+                "halving r divided the remainder by {ratio}"
+            );
         }
         last = Some(err);
     }
@@ -265,7 +273,11 @@ fn a_grain_pushed_harder_than_gravity_is_blown_away_from_the_terminator() {
     // Anti-sunward: the inertial velocity at escape points away from the Sun (+x).
     let v = Vector3::from(rep.final_vel_inertial_m_s);
     assert!(v.x / v.norm() < -0.95, "escape velocity {v}");
-    assert!(rep.final_pos_inertial_m[0] < -100.0, "{:?}", rep.final_pos_inertial_m);
+    assert!(
+        rep.final_pos_inertial_m[0] < -100.0,
+        "{:?}",
+        rep.final_pos_inertial_m
+    );
     assert!(rep.frame_agreement_m < 1e-4, "{}", rep.frame_agreement_m);
     // The Jacobi integral does not hold; the Sun added energy instead.
     assert_eq!(rep.jacobi_rel_drift, None);
@@ -289,7 +301,11 @@ fn shadow_entry_and_exit_are_located_and_switch_the_push_off_and_on() {
     let x0 = -3000.0;
     let launch = state("behind", [x0, -3000.0, 0.0], [0.0, 1.0, 0.0], Some(grain));
     let t_end = 5000.0;
-    let rep = go(&body, &launch, &settings(t_end, Some(sun_x(true, true, false, 1.0))));
+    let rep = go(
+        &body,
+        &launch,
+        &settings(t_end, Some(sun_x(true, true, false, 1.0))),
+    );
     assert_eq!(rep.outcome, Outcome::StillFlying, "{:?}", rep.outcome);
     let ev = &rep.shadow_events;
     assert_eq!(ev.len(), 2, "{ev:?}");
@@ -300,8 +316,16 @@ fn shadow_entry_and_exit_are_located_and_switch_the_push_off_and_on() {
     // No step spans a switch: each event time is the end of an accepted step, so the recorded
     // trajectory has a sample exactly there, in both frames.
     for e in ev {
-        assert!(rep.trajectory_body.iter().any(|s| s.t_s == e.t_s), "{}", e.t_s);
-        assert!(rep.trajectory_inertial.iter().any(|s| s.t_s == e.t_s), "{}", e.t_s);
+        assert!(
+            rep.trajectory_body.iter().any(|s| s.t_s == e.t_s),
+            "{}",
+            e.t_s
+        );
+        assert!(
+            rep.trajectory_inertial.iter().any(|s| s.t_s == e.t_s),
+            "{}",
+            e.t_s
+        );
     }
     // Behind the body the grain feels nothing: x follows the piecewise closed form (pushed for
     // 2000 s, coasting 2000 s, pushed 1000 s).
@@ -310,11 +334,19 @@ fn shadow_entry_and_exit_are_located_and_switch_the_push_off_and_on() {
     let x2 = x1 + v1 * 2000.0;
     let x3 = x2 + v1 * 1000.0 - 0.5 * a * 1000.0 * 1000.0;
     let v3 = v1 - a * 1000.0;
-    assert!((rep.final_pos_inertial_m[0] - x3).abs() < 1e-5, "{} vs {x3}", rep.final_pos_inertial_m[0]);
+    assert!(
+        (rep.final_pos_inertial_m[0] - x3).abs() < 1e-5,
+        "{} vs {x3}",
+        rep.final_pos_inertial_m[0]
+    );
     assert!((rep.final_vel_inertial_m_s[0] - v3).abs() < 1e-9);
     assert!((rep.final_pos_body_m[0] - x3).abs() < 1e-5);
     // Without shadow the push never stops (and the difference is far above the tolerance).
-    let lit = go(&body, &launch, &settings(t_end, Some(sun_x(true, false, false, 1.0))));
+    let lit = go(
+        &body,
+        &launch,
+        &settings(t_end, Some(sun_x(true, false, false, 1.0))),
+    );
     assert!(lit.shadow_events.is_empty());
     let x_lit = x0 - 0.5 * a * t_end * t_end;
     assert!((lit.final_pos_inertial_m[0] - x_lit).abs() < 1e-5);
@@ -324,7 +356,10 @@ fn shadow_entry_and_exit_are_located_and_switch_the_push_off_and_on() {
     // (no gravity): v_x^2 / 2 at the end.
     assert_eq!(rep.jacobi_rel_drift, None);
     let added = rep.energy_added_m2_s2.unwrap();
-    assert!((added - 0.5 * v3 * v3).abs() <= 1e-6 * 0.5 * v3 * v3, "{added}");
+    assert!(
+        (added - 0.5 * v3 * v3).abs() <= 1e-6 * 0.5 * v3 * v3,
+        "{added}"
+    );
 }
 
 #[test]
@@ -360,10 +395,16 @@ fn the_energy_added_is_the_work_of_the_push_and_the_tidal_potential_difference()
     let r1 = Vector3::from(rep.final_pos_body_m);
     let work_push = (-s.into_inner() * a_rp).dot(&(r1 - r0));
     let work_tide = tidal_potential(&s, rate, &r1) - tidal_potential(&s, rate, &r0);
-    assert!(work_tide.abs() > 0.1 * work_push.abs(), "{work_tide} {work_push}");
+    assert!(
+        work_tide.abs() > 0.1 * work_push.abs(),
+        "{work_tide} {work_push}"
+    );
     let added = rep.energy_added_m2_s2.unwrap();
     let want = work_push + work_tide;
-    assert!((added - want).abs() <= 1e-7 * want.abs().max(1e-12), "{added} vs {want}");
+    assert!(
+        (added - want).abs() <= 1e-7 * want.abs().max(1e-12),
+        "{added} vs {want}"
+    );
     assert!(rep.frame_agreement_m < 1e-6);
 }
 
@@ -402,8 +443,17 @@ fn both_frames_agree_with_every_force_on_a_spinning_body() {
     let set = fly_all(&body, &launches, &s, &|_, _| {}, &cancel);
     let mut events = 0;
     for rep in &set {
-        assert!(!matches!(rep.outcome, Outcome::Failed { .. }), "{:?}", rep.outcome);
-        assert!(rep.frame_agreement_m < 1e-4, "{}: {}", rep.id, rep.frame_agreement_m);
+        assert!(
+            !matches!(rep.outcome, Outcome::Failed { .. }),
+            "{:?}",
+            rep.outcome
+        );
+        assert!(
+            rep.frame_agreement_m < 1e-4,
+            "{}: {}",
+            rep.id,
+            rep.frame_agreement_m
+        );
         events += rep.shadow_events.len();
     }
     assert!(events > 0, "no launch crossed the terminator");
@@ -426,7 +476,15 @@ fn the_map_layer_lights_the_sunward_half_of_a_convex_body() {
         direction_inertial: [0.0, 3.0, 4.0],
         ..sun_x(true, true, true, 1.0)
     };
-    let layer = sunlight_map(&body, &map, &sun, Some(&grain), 0.0, &AtomicBool::new(false)).unwrap();
+    let layer = sunlight_map(
+        &body,
+        &map,
+        &sun,
+        Some(&grain),
+        0.0,
+        &AtomicBool::new(false),
+    )
+    .unwrap();
     let s = Vector3::new(0.0, 0.6, 0.8);
     let a = expected_srp(&grain, 1.0);
     let mut lit = 0;
@@ -450,10 +508,16 @@ fn the_map_layer_lights_the_sunward_half_of_a_convex_body() {
     // The map hands the layer out through its fields; without a layer they are empty.
     let mut with = map.clone();
     with.sunlight = Some(layer);
-    assert_eq!(with.values(SurfaceField::Sunlit).len(), body.shape.face_count());
+    assert_eq!(
+        with.values(SurfaceField::Sunlit).len(),
+        body.shape.face_count()
+    );
     assert!(map.values(SurfaceField::Sunlit).is_empty());
     assert_eq!(map.fields(), SurfaceField::ALL.to_vec());
-    assert_eq!(with.fields().len(), SurfaceField::ALL.len() + SurfaceField::SUNLIGHT.len());
+    assert_eq!(
+        with.fields().len(),
+        SurfaceField::ALL.len() + SurfaceField::SUNLIGHT.len()
+    );
 }
 
 #[test]
@@ -464,9 +528,21 @@ fn points_behind_the_body_are_in_its_shadow() {
     let dir = Vector3::new(1.0, 0.0, 0.0);
     // From behind the sphere (x = -300 m, on the axis) the Sun is blocked; off to the side it
     // is not.
-    assert!(!spinfall_dynamics::sunlight::sunlit(&body.shape, &Point3::new(-300.0, 0.0, 0.0), &dir));
-    assert!(spinfall_dynamics::sunlight::sunlit(&body.shape, &Point3::new(-300.0, 0.0, 150.0), &dir));
-    assert!(spinfall_dynamics::sunlight::sunlit(&body.shape, &Point3::new(300.0, 0.0, 0.0), &dir));
+    assert!(!spinfall_dynamics::sunlight::sunlit(
+        &body.shape,
+        &Point3::new(-300.0, 0.0, 0.0),
+        &dir
+    ));
+    assert!(spinfall_dynamics::sunlight::sunlit(
+        &body.shape,
+        &Point3::new(-300.0, 0.0, 150.0),
+        &dir
+    ));
+    assert!(spinfall_dynamics::sunlight::sunlit(
+        &body.shape,
+        &Point3::new(300.0, 0.0, 0.0),
+        &dir
+    ));
 }
 
 // ---- scenario keys ----
@@ -506,11 +582,20 @@ fn the_sun_and_particles_parse_with_their_defaults_and_reach_the_launches() {
     let own = r#", "particle": {"radius_m": 2e-5, "density_kg_m3": 3000, "radiation_pressure_coefficient": 1.6}"#;
     let sc = Scenario::from_json_str(&doc(env, own)).unwrap();
     let sun = sc.sun().unwrap();
-    assert!(sun.radiation_pressure && sun.shadow && sun.tide, "forces default on");
+    assert!(
+        sun.radiation_pressure && sun.shadow && sun.tide,
+        "forces default on"
+    );
     assert_eq!(sc.flight_settings().sun, Some(*sun));
     let default = sc.default_particle().unwrap();
-    assert_eq!(default.radiation_pressure_coefficient, 1.0, "C_R defaults to 1");
-    assert_eq!(sc.particle_of(0).unwrap().radiation_pressure_coefficient, 1.6);
+    assert_eq!(
+        default.radiation_pressure_coefficient, 1.0,
+        "C_R defaults to 1"
+    );
+    assert_eq!(
+        sc.particle_of(0).unwrap().radiation_pressure_coefficient,
+        1.6
+    );
     assert_eq!(sc.particle_of(1), Some(default));
     assert!(sc.warnings().is_empty(), "{:?}", sc.warnings());
     // Round trip.
@@ -522,15 +607,66 @@ fn the_sun_and_particles_parse_with_their_defaults_and_reach_the_launches() {
 fn bad_sun_and_particle_values_are_refused_by_key() {
     let sun = |body: &str| format!(r#", "environment": {{"sun": {{{body}}}}}"#);
     let cases: [(String, &str); 9] = [
-        (doc(&sun(r#""direction_inertial": [0, 0, 0], "distance_au": 1"#), ""), "environment.sun.direction_inertial: must be a finite non-zero vector"),
-        (doc(&sun(r#""direction_inertial": [1, 0], "distance_au": 1"#), ""), "environment.sun.direction_inertial"),
-        (doc(&sun(r#""direction_inertial": [1, 0, 0], "distance_au": 0"#), ""), "environment.sun.distance_au: must be a finite number > 0, got 0"),
-        (doc(&sun(r#""direction_inertial": [1, 0, 0], "distance_au": -2"#), ""), "environment.sun.distance_au"),
-        (doc(&sun(r#""direction_inertial": [1, 0, 0]"#), ""), "missing field `distance_au`"),
-        (doc(&sun(r#""direction_inertial": [1, 0, 0], "distance_au": 1, "glare": true"#), ""), "environment.sun.glare: unknown field"),
-        (doc("", r#", "particle": {"radius_m": 0, "density_kg_m3": 1000}"#), "launches[0].particle.radius_m: must be a finite number > 0, got 0"),
-        (doc("", r#", "particle": {"radius_m": 1e-3, "density_kg_m3": -5}"#), "launches[0].particle.density_kg_m3: must be a finite number > 0, got -5"),
-        (doc(r#", "environment": {"particle": {"radius_m": 1e-3, "density_kg_m3": 900, "radiation_pressure_coefficient": 2.5}}"#, ""), "environment.particle.radiation_pressure_coefficient: must be a finite number in [0.0, 2.0], got 2.5"),
+        (
+            doc(
+                &sun(r#""direction_inertial": [0, 0, 0], "distance_au": 1"#),
+                "",
+            ),
+            "environment.sun.direction_inertial: must be a finite non-zero vector",
+        ),
+        (
+            doc(
+                &sun(r#""direction_inertial": [1, 0], "distance_au": 1"#),
+                "",
+            ),
+            "environment.sun.direction_inertial",
+        ),
+        (
+            doc(
+                &sun(r#""direction_inertial": [1, 0, 0], "distance_au": 0"#),
+                "",
+            ),
+            "environment.sun.distance_au: must be a finite number > 0, got 0",
+        ),
+        (
+            doc(
+                &sun(r#""direction_inertial": [1, 0, 0], "distance_au": -2"#),
+                "",
+            ),
+            "environment.sun.distance_au",
+        ),
+        (
+            doc(&sun(r#""direction_inertial": [1, 0, 0]"#), ""),
+            "missing field `distance_au`",
+        ),
+        (
+            doc(
+                &sun(r#""direction_inertial": [1, 0, 0], "distance_au": 1, "glare": true"#),
+                "",
+            ),
+            "environment.sun.glare: unknown field",
+        ),
+        (
+            doc(
+                "",
+                r#", "particle": {"radius_m": 0, "density_kg_m3": 1000}"#,
+            ),
+            "launches[0].particle.radius_m: must be a finite number > 0, got 0",
+        ),
+        (
+            doc(
+                "",
+                r#", "particle": {"radius_m": 1e-3, "density_kg_m3": -5}"#,
+            ),
+            "launches[0].particle.density_kg_m3: must be a finite number > 0, got -5",
+        ),
+        (
+            doc(
+                r#", "environment": {"particle": {"radius_m": 1e-3, "density_kg_m3": 900, "radiation_pressure_coefficient": 2.5}}"#,
+                "",
+            ),
+            "environment.particle.radiation_pressure_coefficient: must be a finite number in [0.0, 2.0], got 2.5",
+        ),
     ];
     for (text, needle) in &cases {
         let e = error_of(text);
@@ -538,27 +674,60 @@ fn bad_sun_and_particle_values_are_refused_by_key() {
     }
     // NaN cannot be written in JSON; a huge exponent is refused by the parser, not taken as
     // infinity.
-    let e = error_of(&doc(&sun(r#""direction_inertial": [1e999, 0, 0], "distance_au": 1"#), ""));
+    let e = error_of(&doc(
+        &sun(r#""direction_inertial": [1e999, 0, 0], "distance_au": 1"#),
+        "",
+    ));
     assert!(e.contains("environment.sun.direction_inertial"), "{e}");
     // In the flight API, a NaN direction ends the flight with a reason instead of a panic.
     let body = big_gravity_free_box();
     let mut bad = sun_x(true, true, true, 1.0);
     bad.direction_inertial = [f64::NAN, 0.0, 0.0];
-    let rep = go(&body, &state("x", [5000.0, 0.0, 0.0], [0.0; 3], None), &settings(10.0, Some(bad)));
-    assert!(matches!(&rep.outcome, Outcome::Failed { reason } if reason.contains("direction")), "{:?}", rep.outcome);
+    let rep = go(
+        &body,
+        &state("x", [5000.0, 0.0, 0.0], [0.0; 3], None),
+        &settings(10.0, Some(bad)),
+    );
+    assert!(
+        matches!(&rep.outcome, Outcome::Failed { reason } if reason.contains("direction")),
+        "{:?}",
+        rep.outcome
+    );
 }
 
 #[test]
 fn settings_without_effect_are_warned_about_by_key() {
     let all_off = r#", "environment": {"sun": {"direction_inertial": [1, 0, 0], "distance_au": 1,
         "radiation_pressure": false, "shadow": false, "tide": false}}"#;
-    let w = Scenario::from_json_str(&doc(all_off, "")).unwrap().warnings();
-    assert!(w.iter().any(|w| w.starts_with("environment.sun: radiation_pressure and tide are both off")), "{w:?}");
+    let w = Scenario::from_json_str(&doc(all_off, ""))
+        .unwrap()
+        .warnings();
+    assert!(
+        w.iter()
+            .any(|w| w.starts_with("environment.sun: radiation_pressure and tide are both off")),
+        "{w:?}"
+    );
     let no_sun = r#", "particle": {"radius_m": 1e-3, "density_kg_m3": 1000}"#;
-    let w = Scenario::from_json_str(&doc("", no_sun)).unwrap().warnings();
-    assert!(w.iter().any(|w| w.starts_with("launches[0].particle: there is no environment.sun")), "{w:?}");
+    let w = Scenario::from_json_str(&doc("", no_sun))
+        .unwrap()
+        .warnings();
+    assert!(
+        w.iter()
+            .any(|w| w.starts_with("launches[0].particle: there is no environment.sun")),
+        "{w:?}"
+    );
     let bare = r#", "environment": {"sun": {"direction_inertial": [1, 0, 0], "distance_au": 1}}"#;
-    let w = Scenario::from_json_str(&doc(bare, no_sun)).unwrap().warnings();
-    assert!(w.iter().any(|w| w.contains("1 launch entry has no particle") && w.contains("launches[1]")), "{w:?}");
-    assert!(w.iter().any(|w| w.starts_with("environment.particle: missing")), "{w:?}");
+    let w = Scenario::from_json_str(&doc(bare, no_sun))
+        .unwrap()
+        .warnings();
+    assert!(
+        w.iter()
+            .any(|w| w.contains("1 launch entry has no particle") && w.contains("launches[1]")),
+        "{w:?}"
+    );
+    assert!(
+        w.iter()
+            .any(|w| w.starts_with("environment.particle: missing")),
+        "{w:?}"
+    );
 }

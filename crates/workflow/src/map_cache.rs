@@ -233,10 +233,6 @@ pub fn load_or_compute_map(
 ///
 /// # Errors
 /// [`crate::WorkflowError::Cancelled`] when `cancel` was set.
-#[allow(
-    clippy::too_many_arguments,
-    reason = "load_or_compute_map's arguments plus the scenario"
-)]
 pub fn load_or_compute_scenario_map(
     body: &Body,
     scenario: &spinfall_dynamics::scenario::Scenario,
@@ -303,6 +299,62 @@ mod tests {
         for (i, k) in others.iter().enumerate() {
             assert_ne!(*k, base, "input {i} does not change the key");
         }
+    }
+
+    #[test]
+    fn a_map_stored_without_the_sun_is_never_served_as_one_with_it() {
+        let body = brick(2000.0, 4.0, SpinAxis::PlusZ);
+        let key = map_key(&body, true, &FieldUsed::direct());
+        let dir = tempfile::tempdir().unwrap();
+        let cancel = AtomicBool::new(false);
+        let mut scenario = spinfall_dynamics::scenario::Scenario::builtin_example();
+        // First the scenario without a Sun: the map is stored, with no sunlight layer.
+        let (plain, _) = load_or_compute_scenario_map(
+            &body,
+            &scenario,
+            &key,
+            Some(dir.path()),
+            &|_, _| {},
+            &cancel,
+            &|_| {},
+        )
+        .unwrap();
+        assert!(plain.sunlight.is_none());
+        // Then the same body with a Sun (+z: the top face, z = 50 m, is lit): read from the
+        // store, with the layer added.
+        scenario.environment = Some(spinfall_dynamics::scenario::EnvironmentSpec {
+            sun: Some(spinfall_dynamics::sunlight::Sun {
+                direction_inertial: [0.0, 0.0, 1.0],
+                distance_au: 1.0,
+                radiation_pressure: true,
+                shadow: true,
+                tide: true,
+            }),
+            particle: None,
+        });
+        let (sunny, source) = load_or_compute_scenario_map(
+            &body,
+            &scenario,
+            &key,
+            Some(dir.path()),
+            &|_, _| panic!("stored"),
+            &cancel,
+            &|_| {},
+        )
+        .unwrap();
+        assert!(matches!(source, MapSource::Read(_)));
+        let layer = sunny.sunlight.as_ref().unwrap();
+        for f in 0..body.shape.face_count() {
+            let up = body.shape.face_normal(f).z > 0.5;
+            assert_eq!(layer.sunlit[f], if up { 1.0 } else { 0.0 }, "face {f}");
+            // No grain: no radiation-pressure values.
+            assert!(layer.radiation_pressure_to_gravity[f].is_nan());
+        }
+        // The stored file still holds the map without the Sun.
+        let stored = read_stored_map(dir.path(), &key, body.shape.face_count())
+            .unwrap()
+            .unwrap();
+        assert_eq!(stored, plain);
     }
 
     #[test]

@@ -548,7 +548,12 @@ impl<'a> Flight<'a> {
         let (y0, f0, y1, f1) = (*ode.y_old(), *ode.f_old(), *ode.y(), *ode.f());
         // Samples no further apart than 2 % of the body's size along the path, nor 1 degree of
         // the Sun's turn in the body frame.
-        let r_eq = self.body.shape.mass_properties().equivalent_radius_m.max(1e-9);
+        let r_eq = self
+            .body
+            .shape
+            .mass_properties()
+            .equivalent_radius_m
+            .max(1e-9);
         let path = (pos_of(&y1) - pos_of(&y0)).norm() / (0.02 * r_eq);
         let turn = self.w.norm() * h / 1f64.to_radians();
         let n = (path.max(turn).ceil() as usize).clamp(4, 256);
