@@ -10,7 +10,7 @@ use spinfall_workflow::scenario_file::{ScenarioSource, read_scenario};
 
 use super::{
     announce, announce_field, field_hooks, fly_with_progress, gravity_options, limits,
-    run_exit_code,
+    run_exit_code, scenario_warnings,
 };
 use crate::cli::FlyArgs;
 use crate::exit::{CmdResult, note};
@@ -19,6 +19,7 @@ pub fn run(args: &FlyArgs) -> CmdResult<ExitCode> {
     // The folder first: a bad --out is refused before any work.
     let folder = OutputFolder::prepare(&args.out)?;
     let loaded = read_scenario(&ScenarioSource::from_spec(&args.scenario))?;
+    scenario_warnings(&loaded.scenario);
     let options = PrepareOptions {
         limits: limits(&args.limits),
         gravity: gravity_options(&args.field),

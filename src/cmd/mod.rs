@@ -96,6 +96,13 @@ fn field_hooks() -> BuildHooks<'static> {
     }
 }
 
+/// The scenario's warnings (settings without effect, grains without a Sun, ...) on stderr.
+fn scenario_warnings(scenario: &spinfall_dynamics::scenario::Scenario) {
+    for w in scenario.warnings() {
+        note(&format!("warning: scenario: {w}"));
+    }
+}
+
 /// Says how the gravity was computed, when it was interpolated.
 fn announce_field(field: &FieldUsed) {
     if let (Some(stats), Some(store)) = (&field.build, &field.store) {

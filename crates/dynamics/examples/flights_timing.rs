@@ -43,7 +43,7 @@ fn main() {
         .fold(0.0, f64::max);
     let worst_jacobi = reports
         .iter()
-        .map(|r| r.jacobi_rel_drift)
+        .filter_map(|r| r.jacobi_rel_drift)
         .fold(0.0, f64::max);
     println!(
         "{n} launches in {wall:.2} s wall ({:.1} ms per launch per core-pair)",

@@ -8,6 +8,7 @@ use serde::{Deserialize, Serialize};
 
 use crate::error::{DynamicsError, Result};
 use crate::site::Site;
+use crate::sunlight::Particle;
 
 /// Default start height above the surface along the local up, m.
 pub const DEFAULT_START_ALTITUDE_M: f64 = 0.05;
@@ -93,6 +94,8 @@ pub struct LaunchState {
     pub vel_body_m_s: Vector3<f64>,
     /// The surface site it leaves from, if any.
     pub site: Option<Site>,
+    /// The grain, for radiation pressure (none: no radiation pressure on this launch).
+    pub particle: Option<Particle>,
 }
 
 impl LaunchSpec {
@@ -135,6 +138,7 @@ impl LaunchSpec {
                 + self.site.frame.up.into_inner() * self.start_altitude_m,
             vel_body_m_s: dir * self.speed_m_s,
             site: Some(self.site.clone()),
+            particle: None,
         })
     }
 
@@ -238,6 +242,12 @@ fn gaussian(rng: &mut ChaCha8Rng) -> f64 {
 }
 
 impl LaunchState {
+    /// The same launch with the grain `particle` (for radiation pressure).
+    pub fn with_particle(mut self, particle: Option<Particle>) -> LaunchState {
+        self.particle = particle;
+        self
+    }
+
     /// A launch from an explicit body-fixed state, used exactly as given.
     pub fn from_state(
         id: impl Into<String>,
@@ -261,6 +271,7 @@ impl LaunchState {
             pos_body_m,
             vel_body_m_s,
             site: None,
+            particle: None,
         })
     }
 }

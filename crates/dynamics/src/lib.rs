@@ -6,9 +6,10 @@
 //! seeded dispersion sets, explicit states) expanding to [`launch::LaunchState`]s; an adaptive
 //! Dormand–Prince 8(5,3) integrator with dense output ([`dop853`]); flights integrated in both
 //! frames with impact location, bouncing, escape and Jacobi-integral monitoring ([`fly`],
-//! [`fly_all`] → [`FlightReport`]); per-face surface maps ([`surface_map::surface_map`]); the
-//! equilibrium points of the rotating body with their linear stability
-//! ([`equilibria::find_equilibria`]); the
+//! [`fly_all`] → [`FlightReport`]), optionally with the Sun's radiation pressure, shadow and
+//! tide ([`sunlight`]); per-face surface maps ([`surface_map::surface_map`]); the equilibrium
+//! points of the rotating body with their linear stability ([`equilibria::find_equilibria`]);
+//! zero-velocity surfaces of the Jacobi integral ([`zero_velocity`]); the
 //! versioned JSON scenario format ([`scenario::Scenario`], documented in `SCENARIO.md`).
 //!
 //! What it is not: no GUI, no rendering, no file I/O and no exporters — scenarios parse from
@@ -50,6 +51,7 @@ pub mod launch;
 mod roots;
 pub mod scenario;
 pub mod site;
+pub mod sunlight;
 pub mod surface_map;
 pub mod zero_velocity;
 
@@ -57,6 +59,6 @@ pub use body::{Body, BodyFigures, Spin, SpinAxis};
 pub use error::{DynamicsError, Result};
 pub use flight::{
     BounceModel, Cancel, Contact, FlightReport, FlightSettings, IntegratorSettings, LandingPoint,
-    Outcome, SamplingSettings, TrajectorySample, fly, fly_all,
+    Outcome, SamplingSettings, ShadowEvent, TrajectorySample, fly, fly_all,
 };
 pub use gravity_model::{GravityModel, PointMass};

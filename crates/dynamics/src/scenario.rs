@@ -22,6 +22,7 @@ use crate::launch::{
     DEFAULT_START_ALTITUDE_M, Dispersion, Fan, FanQuantity, LaunchSpec, LaunchState, SpeedSigma,
 };
 use crate::site::{NormalMode, Site};
+use crate::sunlight::{Particle, Sun};
 
 /// Value of the `format` key.
 pub const SCENARIO_FORMAT: &str = "spinfall-scenario";
@@ -64,6 +65,21 @@ pub struct Scenario {
     /// How the gravity field is evaluated (default: the direct sums).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub field: Option<FieldSpec>,
+    /// The Sun and the default grain (default: none, gravity and spin only).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub environment: Option<EnvironmentSpec>,
+}
+
+/// The `environment` section: the Sun's forces and the grain they act on.
+#[derive(Debug, Clone, Copy, PartialEq, Default, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct EnvironmentSpec {
+    /// The Sun: direction (inertial frame, fixed during a flight), distance and which forces act.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub sun: Option<Sun>,
+    /// The grain of launches that give none, and of the surface map.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub particle: Option<Particle>,
 }
 
 /// The `field` section: how the polyhedron's gravity is evaluated.
@@ -204,6 +220,9 @@ pub struct LaunchEntry {
     /// Random dispersion set.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub dispersion: Option<DispersionSpec>,
+    /// The grain, for radiation pressure (default: `environment.particle`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub particle: Option<Particle>,
 }
 
 /// Explicit body-frame state.
@@ -495,7 +514,135 @@ fn in_range(path: &str, v: f64, lo: f64, hi: f64) -> Result<f64> {
     }
 }
 
+/// Checks a grain, naming the key under `path`.
+fn check_particle(path: &str, p: &Particle) -> Result<()> {
+    positive(&format!("{path}.radius_m"), p.radius_m)?;
+    positive(&format!("{path}.density_kg_m3"), p.density_kg_m3)?;
+    in_range(
+        &format!("{path}.radiation_pressure_coefficient"),
+        p.radiation_pressure_coefficient,
+        0.0,
+        2.0,
+    )?;
+    Ok(())
+}
+
 impl Scenario {
+    /// Checks the `environment` section, naming the key.
+    fn validate_environment(&self) -> Result<()> {
+        let Some(env) = &self.environment else {
+            return Ok(());
+        };
+        if let Some(sun) = &env.sun {
+            let d = sun.direction_inertial;
+            if sun.unit_direction_inertial().is_none() {
+                return Err(err(
+                    "environment.sun.direction_inertial",
+                    format!(
+                        "must be a finite non-zero vector (from the body to the Sun), got {d:?}"
+                    ),
+                ));
+            }
+            positive("environment.sun.distance_au", sun.distance_au)?;
+        }
+        if let Some(p) = &env.particle {
+            check_particle("environment.particle", p)?;
+        }
+        Ok(())
+    }
+
+    /// The Sun of the `environment` section, if any.
+    pub fn sun(&self) -> Option<&Sun> {
+        self.environment.as_ref().and_then(|e| e.sun.as_ref())
+    }
+
+    /// The grain of launch entry `i`: its own `particle`, else `environment.particle`.
+    pub fn particle_of(&self, i: usize) -> Option<Particle> {
+        self.launches
+            .get(i)
+            .and_then(|l| l.particle)
+            .or_else(|| self.default_particle())
+    }
+
+    /// The grain of the surface map and of launches that give none: `environment.particle`.
+    pub fn default_particle(&self) -> Option<Particle> {
+        self.environment.as_ref().and_then(|e| e.particle)
+    }
+
+    /// Warnings about a valid scenario: settings that have no effect or may surprise (a sun with
+    /// every force off, a grain without a sun, launches that get no radiation pressure because
+    /// they have no grain). Each names the key; front ends show them.
+    pub fn warnings(&self) -> Vec<String> {
+        let mut out = Vec::new();
+        let sun = self.sun();
+        match sun {
+            Some(sun) if !sun.radiation_pressure && !sun.tide => out.push(format!(
+                "environment.sun: radiation_pressure and tide are both off{}, so the Sun changes \
+                 no flight (the surface map still shows which faces are lit)",
+                if sun.shadow {
+                    " (shadow only switches radiation pressure)"
+                } else {
+                    ""
+                }
+            )),
+            Some(sun) if sun.radiation_pressure => {
+                let bare: Vec<String> = self
+                    .launches
+                    .iter()
+                    .enumerate()
+                    .filter(|(i, _)| self.particle_of(*i).is_none())
+                    .map(|(i, l)| format!("launches[{i}] ({})", excerpt(&l.id)))
+                    .collect();
+                if !bare.is_empty() {
+                    let shown: Vec<&str> = bare.iter().take(5).map(String::as_str).collect();
+                    out.push(format!(
+                        "environment.sun.radiation_pressure: {} launch entr{} no particle and \
+                         there is no environment.particle, so {} no radiation pressure: {}{}",
+                        bare.len(),
+                        if bare.len() == 1 { "y has" } else { "ies have" },
+                        if bare.len() == 1 {
+                            "it feels"
+                        } else {
+                            "they feel"
+                        },
+                        shown.join(", "),
+                        if bare.len() > shown.len() {
+                            ", ..."
+                        } else {
+                            ""
+                        }
+                    ));
+                }
+                if self.default_particle().is_none() {
+                    out.push(
+                        "environment.particle: missing, so the surface map has no \
+                         radiation-pressure values (it still shows which faces are lit)"
+                            .into(),
+                    );
+                }
+            }
+            _ => {}
+        }
+        if sun.is_none() {
+            if self.default_particle().is_some() {
+                out.push(
+                    "environment.particle: there is no environment.sun, so the particle has no \
+                     effect"
+                        .into(),
+                );
+            }
+            for (i, l) in self.launches.iter().enumerate() {
+                if l.particle.is_some() {
+                    out.push(format!(
+                        "launches[{i}].particle: there is no environment.sun, so the particle \
+                         has no effect"
+                    ));
+                }
+            }
+        }
+        out
+    }
+
     /// Parses and validates a scenario document.
     ///
     /// Errors name the field path and, for parse errors, the line and column, e.g.
@@ -642,7 +789,11 @@ impl Scenario {
                 ));
             }
             self.validate_launch(&p, l)?;
+            if let Some(particle) = &l.particle {
+                check_particle(&format!("{p}.particle"), particle)?;
+            }
         }
+        self.validate_environment()?;
         let it = &self.integrator;
         in_range("integrator.rel_tol", it.rel_tol, 1e-14, 1e-3)?;
         positive("integrator.abs_tol_m", it.abs_tol_m)?;
@@ -900,6 +1051,7 @@ impl Scenario {
                 rest_speed_m_s: b.rest_speed_m_s,
             },
             sampling: SamplingSettings::default(),
+            sun: self.sun().copied(),
         }
     }
 
@@ -978,6 +1130,9 @@ impl Scenario {
             }
         }
         check_unique_ids(&out, &entry_of)?;
+        for (state, &i) in out.iter_mut().zip(&entry_of) {
+            state.particle = self.particle_of(i);
+        }
         Ok(out)
     }
 
@@ -1045,6 +1200,7 @@ impl Scenario {
             bounce: BounceSpec::default(),
             limits: None,
             field: None,
+            environment: None,
         }
     }
 }

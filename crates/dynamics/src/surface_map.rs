@@ -15,6 +15,15 @@
 //!   the speed solves `v^2 + 2 v (n . w x r) + |w x r|^2 - 2U = 0`; over all directions the
 //!   minimum is `sqrt(2U) - |w x r|` (launch along `w x r`). Both are clamped at 0;
 //! - radial sign: +1 where `g_eff . n > 0` (loose material lifts off), -1 otherwise.
+//!
+//! With a Sun, [`sunlight_map`] adds a layer for one grain ([`Particle`]) at one epoch (spin
+//! angle): whether each face is lit (it faces the Sun, `n . s > 0`, and the ray from its
+//! centroid toward the Sun meets no other part of the body), the ratio of the grain's
+//! radiation-pressure acceleration to the effective gravity `|a_rp| / |g_eff|`, and the part of
+//! the radiation-pressure acceleration along the face (`|a_rp - (a_rp . n) n|`, m/s²: on a lit
+//! face the normal part presses the grain into the ground, the tangential part pushes it along
+//! the surface, away from the Sun). Both are 0 on faces that are not lit. The tide is left out
+//! of the map.
 
 use std::sync::atomic::{AtomicBool, Ordering};
 
@@ -24,6 +33,7 @@ use serde::{Deserialize, Serialize};
 
 use crate::body::Body;
 use crate::error::{DynamicsError, Result};
+use crate::sunlight::{Particle, Sun, sunlit};
 
 /// Escape speeds (along `normal`, minimum over directions) at `p_body_m`, m/s; see module docs.
 pub fn escape_speeds(
@@ -70,10 +80,20 @@ pub enum SurfaceField {
     EscapeSpeedMin,
     /// Sign of the outward effective acceleration (+1 lift-off, -1 held down).
     RadialSign,
+    /// 1 where the face is in sunlight, 0 where it faces away or lies in the body's shadow
+    /// (only in maps with a sunlight layer, see [`SurfaceField::SUNLIGHT`]).
+    Sunlit,
+    /// Radiation-pressure acceleration of the map's grain over the effective gravity (0 where
+    /// not lit; sunlight layer only).
+    RadiationPressureRatio,
+    /// Radiation-pressure acceleration along the surface, m/s² (0 where not lit; sunlight
+    /// layer only).
+    RadiationPressureAlongSurface,
 }
 
 impl SurfaceField {
-    /// Every field, in display order.
+    /// The fields of every map, in display order (the sunlight layer's are in
+    /// [`SurfaceField::SUNLIGHT`]).
     pub const ALL: [SurfaceField; 6] = [
         SurfaceField::Slope,
         SurfaceField::Geopotential,
@@ -81,6 +101,13 @@ impl SurfaceField {
         SurfaceField::EscapeSpeedNormal,
         SurfaceField::EscapeSpeedMin,
         SurfaceField::RadialSign,
+    ];
+    /// The fields of the sunlight layer, present only in maps of scenarios with a Sun
+    /// ([`SurfaceMap::sunlight`]); [`SurfaceMap::values`] gives an empty slice without it.
+    pub const SUNLIGHT: [SurfaceField; 3] = [
+        SurfaceField::Sunlit,
+        SurfaceField::RadiationPressureRatio,
+        SurfaceField::RadiationPressureAlongSurface,
     ];
     /// Human-readable name.
     pub fn name(self) -> &'static str {
@@ -91,6 +118,9 @@ impl SurfaceField {
             SurfaceField::EscapeSpeedNormal => "Escape speed (normal)",
             SurfaceField::EscapeSpeedMin => "Escape speed (minimum)",
             SurfaceField::RadialSign => "Lift-off sign",
+            SurfaceField::Sunlit => "Sunlit",
+            SurfaceField::RadiationPressureRatio => "Radiation pressure / effective gravity",
+            SurfaceField::RadiationPressureAlongSurface => "Radiation pressure along surface",
         }
     }
     /// Unit string.
@@ -101,6 +131,8 @@ impl SurfaceField {
             SurfaceField::EffectiveGravity => "m/s^2",
             SurfaceField::EscapeSpeedNormal | SurfaceField::EscapeSpeedMin => "m/s",
             SurfaceField::RadialSign => "1",
+            SurfaceField::Sunlit | SurfaceField::RadiationPressureRatio => "1",
+            SurfaceField::RadiationPressureAlongSurface => "m/s^2",
         }
     }
     /// Column name with unit for CSV headers.
@@ -112,6 +144,9 @@ impl SurfaceField {
             SurfaceField::EscapeSpeedNormal => "escape_speed_normal_m_s",
             SurfaceField::EscapeSpeedMin => "escape_speed_min_m_s",
             SurfaceField::RadialSign => "radial_sign",
+            SurfaceField::Sunlit => "sunlit",
+            SurfaceField::RadiationPressureRatio => "radiation_pressure_to_gravity",
+            SurfaceField::RadiationPressureAlongSurface => "radiation_pressure_tangential_m_s2",
         }
     }
 }
@@ -133,6 +168,29 @@ pub struct SurfaceMap {
     pub escape_speed_min_m_s: Vec<f64>,
     /// +1 where the effective acceleration points outward, else -1.
     pub radial_sign: Vec<f64>,
+    /// The sunlight layer, for maps of scenarios with a Sun (see [`sunlight_map`]).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub sunlight: Option<SunlightMap>,
+}
+
+/// The sunlight layer of a surface map: one grain, one Sun direction, one epoch.
+#[derive(Debug, Clone, PartialEq, Default, Serialize, Deserialize)]
+pub struct SunlightMap {
+    /// Time of the map, s (the spin angle is the scenario's phase plus the spin over `t_s`).
+    pub t_s: f64,
+    /// Unit direction to the Sun in the body frame at `t_s`.
+    pub dir_to_sun_body: [f64; 3],
+    /// The grain (`None`: the radiation-pressure values are NaN, there is no grain to push).
+    pub particle: Option<Particle>,
+    /// Radiation-pressure acceleration of the grain, m/s² (NaN without a grain).
+    pub radiation_pressure_m_s2: f64,
+    /// 1 where lit, 0 elsewhere.
+    pub sunlit: Vec<f64>,
+    /// `|a_rp| / |g_eff|` where lit, 0 elsewhere (NaN without a grain).
+    pub radiation_pressure_to_gravity: Vec<f64>,
+    /// Tangential part of the radiation-pressure acceleration where lit, 0 elsewhere, m/s² (NaN
+    /// without a grain).
+    pub radiation_pressure_tangential_m_s2: Vec<f64>,
 }
 
 impl SurfaceMap {
@@ -145,10 +203,29 @@ impl SurfaceMap {
             SurfaceField::EscapeSpeedNormal => &self.escape_speed_normal_m_s,
             SurfaceField::EscapeSpeedMin => &self.escape_speed_min_m_s,
             SurfaceField::RadialSign => &self.radial_sign,
+            SurfaceField::Sunlit => self.sunlight.as_ref().map_or(&[], |s| &s.sunlit),
+            SurfaceField::RadiationPressureRatio => self
+                .sunlight
+                .as_ref()
+                .map_or(&[], |s| &s.radiation_pressure_to_gravity),
+            SurfaceField::RadiationPressureAlongSurface => self
+                .sunlight
+                .as_ref()
+                .map_or(&[], |s| &s.radiation_pressure_tangential_m_s2),
         }
     }
 
-    /// (min, max) of one field, `None` for an empty map.
+    /// The fields this map has: [`SurfaceField::ALL`], then [`SurfaceField::SUNLIGHT`] when it
+    /// has a sunlight layer.
+    pub fn fields(&self) -> Vec<SurfaceField> {
+        let mut out = SurfaceField::ALL.to_vec();
+        if self.sunlight.is_some() {
+            out.extend(SurfaceField::SUNLIGHT);
+        }
+        out
+    }
+
+    /// (min, max) of one field, `None` for an empty map or a field it does not have.
     pub fn range(&self, field: SurfaceField) -> Option<(f64, f64)> {
         let v = self.values(field);
         if v.is_empty() {
@@ -256,4 +333,78 @@ fn face_values(
         esc_min,
         sign: if acc.dot(&nrm) > 0.0 { 1.0 } else { -1.0 },
     }
+}
+
+/// The sunlight layer of `map` (computed for `body`): for the grain `particle` (none: the
+/// radiation-pressure values are NaN) and `sun`, at time `t_s` after the scenario's epoch (the
+/// spin turns the Sun's direction in the body frame). One ray test per face, in parallel; no
+/// gravity evaluations. `cancel` stops it with [`DynamicsError::Cancelled`].
+///
+/// The values do not depend on the sun's force switches: the layer shows what sunlight would do
+/// to the grain.
+pub fn sunlight_map(
+    body: &Body,
+    map: &SurfaceMap,
+    sun: &Sun,
+    particle: Option<&Particle>,
+    t_s: f64,
+    cancel: &AtomicBool,
+) -> Result<SunlightMap> {
+    sun.check()?;
+    if let Some(p) = particle {
+        p.check()?;
+    }
+    let n = body.shape.face_count();
+    if map.effective_acceleration_m_s2.len() != n {
+        return Err(DynamicsError::param(
+            "surface map",
+            format!(
+                "has {} faces but the body has {n}",
+                map.effective_acceleration_m_s2.len()
+            ),
+        ));
+    }
+    let dir_inertial = sun
+        .unit_direction_inertial()
+        .ok_or_else(|| DynamicsError::param("sun direction_inertial", "must be non-zero"))?;
+    let s = body.body_from_inertial(t_s) * dir_inertial.into_inner();
+    let a_rp = particle.map_or(f64::NAN, |p| p.radiation_pressure_m_s2(sun.distance_au));
+    let mut layer = SunlightMap {
+        t_s,
+        dir_to_sun_body: [s.x, s.y, s.z],
+        particle: particle.copied(),
+        radiation_pressure_m_s2: a_rp,
+        sunlit: Vec::with_capacity(n),
+        radiation_pressure_to_gravity: Vec::with_capacity(n),
+        radiation_pressure_tangential_m_s2: Vec::with_capacity(n),
+    };
+    for start in (0..n).step_by(MAP_CHUNK_FACES) {
+        if cancel.load(Ordering::Relaxed) {
+            return Err(DynamicsError::Cancelled);
+        }
+        let faces = start..(start + MAP_CHUNK_FACES).min(n);
+        let values: Vec<[f64; 3]> = faces
+            .into_par_iter()
+            .map(|f| {
+                let nrm = body.shape.face_normal(f).into_inner();
+                let lit =
+                    nrm.dot(&s) > 0.0 && sunlit(&body.shape, &body.shape.face_centroid(f), &s);
+                if !lit {
+                    // Nothing pushes here; without a grain there is no value at all.
+                    let none = if a_rp.is_nan() { f64::NAN } else { 0.0 };
+                    return [0.0, none, none];
+                }
+                let g_eff = Vector3::from(map.effective_acceleration_m_s2[f]).norm();
+                let a = -s * a_rp;
+                let tangential = (a - nrm * a.dot(&nrm)).norm();
+                [1.0, a_rp / g_eff, tangential]
+            })
+            .collect();
+        for [lit, ratio, tangential] in values {
+            layer.sunlit.push(lit);
+            layer.radiation_pressure_to_gravity.push(ratio);
+            layer.radiation_pressure_tangential_m_s2.push(tangential);
+        }
+    }
+    Ok(layer)
 }

@@ -295,7 +295,7 @@ fn every_json_example_in_scenario_md_parses() {
         .skip(1)
         .map(|b| b.split("```").next().unwrap())
         .collect();
-    assert_eq!(blocks.len(), 3, "SCENARIO.md's JSON examples");
+    assert_eq!(blocks.len(), 4, "SCENARIO.md's JSON examples");
     for b in &blocks {
         // A whole document parses as it is; a fragment (`"key": value`) parses inside the
         // minimal document.
@@ -312,6 +312,11 @@ fn every_json_example_in_scenario_md_parses() {
     assert_eq!(field.method, FieldMethodSpec::Interpolated);
     assert_eq!(field.max_rel_error, 1e-9);
     assert_eq!(field.max_memory_mb, Some(4096));
+    // The fourth is the `environment` section, and it reaches the parsed scenario.
+    let with_env = MINIMAL.replacen('{', &format!("{{{},", blocks[3].trim()), 1);
+    let env = Scenario::from_json_str(&with_env).unwrap();
+    assert_eq!(env.sun().unwrap().distance_au, 2.2);
+    assert_eq!(env.default_particle().unwrap().radius_m, 5e-5);
     // The complete example is the built-in one (whose density and period come from the demo
     // constants of the gravity crate: if this fails after they changed, update SCENARIO.md).
     assert_eq!(

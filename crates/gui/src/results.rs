@@ -84,7 +84,7 @@ fn sort_value(r: &FlightReport, c: ResultColumn) -> f64 {
         ResultColumn::ImpactSpeed => first.map(|c| c.impact_speed_m_s).unwrap_or(f64::NAN),
         ResultColumn::ImpactAngle => first.map(|c| c.impact_angle_deg).unwrap_or(f64::NAN),
         ResultColumn::Bounces => r.contacts.len() as f64,
-        ResultColumn::Jacobi => r.jacobi_rel_drift,
+        ResultColumn::Jacobi => r.jacobi_rel_drift.unwrap_or(f64::NAN),
         ResultColumn::Agreement => r.frame_agreement_m,
     }
 }
@@ -164,7 +164,8 @@ pub fn row_cells(r: &FlightReport, units: DisplayUnits) -> [String; 13] {
         opt(first.map(|c| c.impact_speed_m_s), 4),
         opt(first.map(|c| c.impact_angle_deg), 1),
         r.contacts.len().to_string(),
-        format!("{:.1e}", r.jacobi_rel_drift),
+        r.jacobi_rel_drift
+            .map_or_else(|| "n/a".into(), |d| format!("{d:.1e}")),
         format!("{:.1e}", r.frame_agreement_m),
     ]
 }

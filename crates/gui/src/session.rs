@@ -204,6 +204,7 @@ pub fn new_scenario(
         bounce: BounceSpec::default(),
         limits: None,
         field: None,
+        environment: None,
     }
 }
 

@@ -254,7 +254,7 @@ fn summary(reports: &[FlightReport]) -> String {
     let landed = reports.iter().filter(|r| r.landed()).count();
     let worst_drift = reports
         .iter()
-        .map(|r| r.jacobi_rel_drift)
+        .filter_map(|r| r.jacobi_rel_drift)
         .fold(0.0, f64::max);
     let worst_agree = reports
         .iter()

@@ -8,6 +8,12 @@
 //! error bound. The file holds a magic line, the key, the face count, the per-face arrays and
 //! the SHA-256 of all that; a file that does not match in every respect is recomputed, never
 //! trusted. Files are written through [`crate::output`].
+//!
+//! A stored map never holds the sunlight layer (it depends on the Sun's direction, the grain and
+//! the epoch, not on the body alone, and costs one ray test per face): the stored file and its
+//! key are those of the map without the Sun, and [`load_or_compute_scenario_map`] computes the
+//! layer afresh on every call. A map stored without the Sun is therefore never served as the map
+//! of a scenario with one.
 
 use std::path::{Path, PathBuf};
 
@@ -19,7 +25,7 @@ use spinfall_gravity::{InterpolationSettings, MassSpec, cache_key};
 use crate::error::Result;
 use crate::gravity_method::FieldUsed;
 use crate::output::{OutputTarget, io_error, manifest_hex, write_file};
-use crate::surface::compute_surface_map;
+use crate::surface::{add_sunlight, compute_surface_map};
 
 /// First bytes of a stored surface map.
 const MAGIC: &[u8] = b"SPINFALL-SURFACE-MAP 1\n";
@@ -138,6 +144,7 @@ fn decode(bytes: &[u8], key: &str, faces: usize) -> std::result::Result<SurfaceM
         escape_speed_normal_m_s: take(faces),
         escape_speed_min_m_s: take(faces),
         radial_sign: take(faces),
+        sunlight: None,
     })
 }
 
@@ -221,6 +228,25 @@ pub fn load_or_compute_map(
     Ok((map, source))
 }
 
+/// [`load_or_compute_map`] for `scenario`: the stored (or computed) map of the body, then the
+/// sunlight layer of the scenario's Sun, computed afresh (none without a Sun).
+///
+/// # Errors
+/// [`crate::WorkflowError::Cancelled`] when `cancel` was set.
+pub fn load_or_compute_scenario_map(
+    body: &Body,
+    scenario: &spinfall_dynamics::scenario::Scenario,
+    key: &str,
+    folder: Option<&Path>,
+    progress: &(dyn Fn(usize, usize) + Sync),
+    cancel: &Cancel,
+    warn: &dyn Fn(String),
+) -> Result<(SurfaceMap, MapSource)> {
+    let (mut map, source) = load_or_compute_map(body, key, folder, progress, cancel, warn)?;
+    add_sunlight(body, scenario, &mut map, cancel)?;
+    Ok((map, source))
+}
+
 #[cfg(test)]
 #[allow(clippy::unwrap_used, reason = "tests unwrap freely")]
 mod tests {
@@ -273,6 +299,62 @@ mod tests {
         for (i, k) in others.iter().enumerate() {
             assert_ne!(*k, base, "input {i} does not change the key");
         }
+    }
+
+    #[test]
+    fn a_map_stored_without_the_sun_is_never_served_as_one_with_it() {
+        let body = brick(2000.0, 4.0, SpinAxis::PlusZ);
+        let key = map_key(&body, true, &FieldUsed::direct());
+        let dir = tempfile::tempdir().unwrap();
+        let cancel = AtomicBool::new(false);
+        let mut scenario = spinfall_dynamics::scenario::Scenario::builtin_example();
+        // First the scenario without a Sun: the map is stored, with no sunlight layer.
+        let (plain, _) = load_or_compute_scenario_map(
+            &body,
+            &scenario,
+            &key,
+            Some(dir.path()),
+            &|_, _| {},
+            &cancel,
+            &|_| {},
+        )
+        .unwrap();
+        assert!(plain.sunlight.is_none());
+        // Then the same body with a Sun (+z: the top face, z = 50 m, is lit): read from the
+        // store, with the layer added.
+        scenario.environment = Some(spinfall_dynamics::scenario::EnvironmentSpec {
+            sun: Some(spinfall_dynamics::sunlight::Sun {
+                direction_inertial: [0.0, 0.0, 1.0],
+                distance_au: 1.0,
+                radiation_pressure: true,
+                shadow: true,
+                tide: true,
+            }),
+            particle: None,
+        });
+        let (sunny, source) = load_or_compute_scenario_map(
+            &body,
+            &scenario,
+            &key,
+            Some(dir.path()),
+            &|_, _| panic!("stored"),
+            &cancel,
+            &|_| {},
+        )
+        .unwrap();
+        assert!(matches!(source, MapSource::Read(_)));
+        let layer = sunny.sunlight.as_ref().unwrap();
+        for f in 0..body.shape.face_count() {
+            let up = body.shape.face_normal(f).z > 0.5;
+            assert_eq!(layer.sunlit[f], if up { 1.0 } else { 0.0 }, "face {f}");
+            // No grain: no radiation-pressure values.
+            assert!(layer.radiation_pressure_to_gravity[f].is_nan());
+        }
+        // The stored file still holds the map without the Sun.
+        let stored = read_stored_map(dir.path(), &key, body.shape.face_count())
+            .unwrap()
+            .unwrap();
+        assert_eq!(stored, plain);
     }
 
     #[test]

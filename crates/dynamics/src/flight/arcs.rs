@@ -1,6 +1,13 @@
 //! One launch as an `async` flight: ballistic arcs in the body frame (which find the impacts,
-//! bounces and escapes) and the same arcs in the inertial frame, with every gravity value
-//! awaited through a [`FieldPort`] so the driver can batch them (see `lockstep`).
+//! bounces, escapes and shadow changes) and the same arcs in the inertial frame, with every
+//! gravity value awaited through a [`FieldPort`] so the driver can batch them (see `lockstep`).
+//!
+//! The Sun's forces ([`SunForces`]) are computed locally. Radiation pressure jumps where the grain
+//! enters or leaves the body's shadow, so each step holds the lit state fixed: after a body-frame
+//! step, the lit state is sampled along it; at a change, the change is located by bisection on
+//! the step's dense output, the step is taken again from its start to end exactly there (the
+//! discarded attempt counts as a rejected step), and the integration restarts there with the
+//! other state. The inertial frame stops and switches at the same times.
 
 use std::sync::atomic::Ordering;
 
@@ -14,23 +21,34 @@ use crate::dop853::{AsyncOdeSystem, Dop853, Tolerances, hermite_pos_vel};
 use crate::launch::LaunchState;
 use crate::roots::illinois;
 use crate::site::lat_lon_deg;
+use crate::sunlight::SunForces;
 
 struct BodyFrameSystem<'a> {
+    body: &'a Body,
     port: &'a FieldPort,
     w: Vector3<f64>,
     evals: u64,
     last_u: f64,
+    /// The Sun's forces, and whether the grain is lit during the current step.
+    sun: Option<SunForces>,
+    lit: bool,
 }
 
 impl AsyncOdeSystem<6> for BodyFrameSystem<'_> {
-    fn derivative(&mut self, _t: f64, y: &[f64; 6]) -> impl Future<Output = [f64; 6]> + Send {
+    fn derivative(&mut self, t: f64, y: &[f64; 6]) -> impl Future<Output = [f64; 6]> + Send {
         let r = Point3::new(y[0], y[1], y[2]);
         let v = Vector3::new(y[3], y[4], y[5]);
+        let a_sun = self
+            .sun
+            .map(|s| s.acceleration_body(self.body, t, &r, self.lit));
         async move {
             let (u, g) = self.port.eval(r).await;
             self.evals += 1;
             self.last_u = u;
-            let a = g - 2.0 * self.w.cross(&v) - self.w.cross(&self.w.cross(&r.coords));
+            let mut a = g - 2.0 * self.w.cross(&v) - self.w.cross(&self.w.cross(&r.coords));
+            if let Some(a_sun) = a_sun {
+                a += a_sun;
+            }
             [v.x, v.y, v.z, a.x, a.y, a.z]
         }
     }
@@ -40,20 +58,37 @@ struct InertialSystem<'a> {
     body: &'a Body,
     port: &'a FieldPort,
     evals: u64,
+    sun: Option<SunForces>,
+    lit: bool,
 }
 
 impl AsyncOdeSystem<6> for InertialSystem<'_> {
     fn derivative(&mut self, t: f64, y: &[f64; 6]) -> impl Future<Output = [f64; 6]> + Send {
         let rot = self.body.inertial_from_body(t);
-        let r_body = rot.inverse_transform_point(&Point3::new(y[0], y[1], y[2]));
+        let r_inertial = Point3::new(y[0], y[1], y[2]);
+        let r_body = rot.inverse_transform_point(&r_inertial);
         let v = [y[3], y[4], y[5]];
+        let a_sun = self
+            .sun
+            .map(|s| s.acceleration_inertial(self.body, t, &r_inertial, self.lit));
         async move {
             let (_, g) = self.port.eval(r_body).await;
             self.evals += 1;
-            let a = rot * g;
+            let mut a = rot * g;
+            if let Some(a_sun) = a_sun {
+                a += a_sun;
+            }
             [v[0], v[1], v[2], a.x, a.y, a.z]
         }
     }
+}
+
+/// A change of the lit state found by the body frame: time, state after it, body-frame position.
+#[derive(Debug, Clone, Copy)]
+struct Switch {
+    t: f64,
+    lit_after: bool,
+    pos_body_m: [f64; 3],
 }
 
 /// Which frame a step is taken in (the step limit holds per frame).
@@ -121,6 +156,11 @@ struct BodyArc {
     y_end: [f64; 6],
     jacobi_drift: f64,
     max_altitude_m: f64,
+    /// Lit state at the start of the arc and its changes along it.
+    lit_start: bool,
+    switches: Vec<Switch>,
+    /// Change of the Jacobi integral over the arc (with the Sun's forces only), m^2/s^2.
+    energy_added_m2_s2: f64,
 }
 
 pub(super) struct Flight<'a> {
@@ -138,6 +178,8 @@ pub(super) struct Flight<'a> {
     evals: u64,
     steps: u64,
     rejected: u64,
+    /// The Sun's forces on this launch's grain, if any act.
+    sun: Option<SunForces>,
 }
 
 impl<'a> Flight<'a> {
@@ -184,6 +226,7 @@ impl<'a> Flight<'a> {
             evals: 0,
             steps: 0,
             rejected: 0,
+            sun: None,
         }
     }
 
@@ -224,6 +267,14 @@ impl<'a> Flight<'a> {
     }
 
     pub async fn run(mut self, launch: &LaunchState, mut report: FlightReport) -> FlightReport {
+        self.sun = self
+            .settings
+            .sun
+            .and_then(|sun| SunForces::new(&sun, launch.particle.as_ref(), self.body));
+        if self.sun.is_some() {
+            report.jacobi_rel_drift = None;
+            report.energy_added_m2_s2 = Some(0.0);
+        }
         let t_max = self.settings.integrator.max_time_s;
         let mut t = 0.0;
         let mut y = pack(&launch.pos_body_m, &launch.vel_body_m_s);
@@ -234,7 +285,19 @@ impl<'a> Flight<'a> {
         report.final_vel_inertial_m_s = [yi0[3], yi0[4], yi0[5]];
         let outcome = loop {
             let arc = self.body_arc(t, y, t_max).await;
-            report.jacobi_rel_drift = report.jacobi_rel_drift.max(arc.jacobi_drift);
+            if let Some(d) = &mut report.jacobi_rel_drift {
+                *d = d.max(arc.jacobi_drift);
+            }
+            if let Some(e) = &mut report.energy_added_m2_s2 {
+                *e += arc.energy_added_m2_s2;
+            }
+            report
+                .shadow_events
+                .extend(arc.switches.iter().map(|s| super::ShadowEvent {
+                    t_s: s.t,
+                    enters_shadow: !s.lit_after,
+                    pos_body_m: s.pos_body_m,
+                }));
             report.max_altitude_m = report.max_altitude_m.max(arc.max_altitude_m);
             let (t_end, y_end) = (arc.t_end, arc.y_end);
             // The true last state reached, whatever happens next.
@@ -251,7 +314,10 @@ impl<'a> Flight<'a> {
                 self.guard.inertial_steps = 0;
                 self.guard.max_wall_s += self.settings.integrator.max_wall_s;
             }
-            match self.inertial_arc(t, &y, t_end).await {
+            match self
+                .inertial_arc(t, &y, t_end, arc.lit_start, &arc.switches)
+                .await
+            {
                 Ok(y_in_end) => {
                     let d = self.disagreement_m(t_end, &y_end, &y_in_end);
                     report.frame_agreement_m = report.frame_agreement_m.max(d);
@@ -348,11 +414,17 @@ impl<'a> Flight<'a> {
 
     /// Integrates one ballistic arc in the body frame.
     async fn body_arc(&mut self, t0: f64, y0: [f64; 6], t_max: f64) -> BodyArc {
+        let lit_start = self
+            .sun
+            .is_none_or(|s| s.lit_body(self.body, t0, &pos_of(&y0)));
         let mut sys = BodyFrameSystem {
+            body: self.body,
             port: self.port,
             w: self.w,
             evals: 0,
             last_u: 0.0,
+            sun: self.sun,
+            lit: lit_start,
         };
         let (u0, g0) = self.port.eval(pos_of(&y0)).await;
         self.evals += 1;
@@ -363,16 +435,36 @@ impl<'a> Flight<'a> {
         let mut drift: f64 = 0.0;
         let mut max_alt: f64 = 0.0;
         let gm = self.body.gm_m3_s2();
+        let shadow = self.sun.is_some_and(|s| s.has_shadow());
+        let mut switches: Vec<Switch> = Vec::new();
+        // A located change of the lit state that the integration is stepping to.
+        let mut pending: Option<f64> = None;
+        // Steps and rejections of integrators replaced at a change of the lit state.
+        let (mut done_steps, mut done_rejected) = (0u64, 0u64);
         let end = loop {
             if let Some(reason) = self.guard.check(Frame::Body) {
                 break ArcEnd::Failed(reason);
             }
             self.end_step_at_predicted_impact(&mut ode);
-            if let Err(e) = ode.step_async(&mut sys, t_max).await {
+            let before = (shadow && pending.is_none()).then(|| ode.clone());
+            let t_stop = pending.map_or(t_max, |t_sw| t_sw.min(t_max));
+            if let Err(e) = ode.step_async(&mut sys, t_stop).await {
                 break ArcEnd::Failed(e.to_string());
             }
+            if let Some(before) = before
+                && let Some(t_sw) = self.shadow_change(&mut ode, &mut sys).await
+            {
+                // The step crossed a change of the lit state: take it again, to end there.
+                done_rejected += 1;
+                ode = before;
+                ode.set_h_next(t_sw - ode.t());
+                pending = Some(t_sw);
+                continue;
+            }
             let y = *ode.y();
-            drift = drift.max((self.jacobi(&y, sys.last_u) - c0).abs() / c_scale);
+            if self.sun.is_none() {
+                drift = drift.max((self.jacobi(&y, sys.last_u) - c0).abs() / c_scale);
+            }
             if let Some((t_hit, y_hit, face, s_hit)) = self.find_impact(&mut ode, &mut sys).await {
                 self.body_rec.record_step(&ode, s_hit);
                 self.body_rec.push(sample(t_hit, &y_hit));
@@ -383,6 +475,20 @@ impl<'a> Flight<'a> {
                 };
             }
             self.body_rec.record_step(&ode, 1.0);
+            if pending.is_some_and(|t_sw| ode.t() >= t_sw) {
+                // At the change: switch the force and restart from here.
+                pending = None;
+                sys.lit = !sys.lit;
+                switches.push(Switch {
+                    t: ode.t(),
+                    lit_after: sys.lit,
+                    pos_body_m: [y[0], y[1], y[2]],
+                });
+                done_steps += ode.steps;
+                done_rejected += ode.rejected;
+                let h = ode.h_next();
+                ode = Dop853::with_first_step_async(&mut sys, ode.t(), y, self.tol, h).await;
+            }
             let p = pos_of(&y);
             let r = p.coords.norm();
             max_alt = max_alt.max(if r > 2.0 * self.r_escape_m {
@@ -402,11 +508,19 @@ impl<'a> Flight<'a> {
             }
         };
         self.evals += sys.evals;
-        self.steps += ode.steps;
-        self.rejected += ode.rejected;
+        self.steps += ode.steps + done_steps;
+        self.rejected += ode.rejected + done_rejected;
         let (t_end, y_end) = match end {
             ArcEnd::Impact { t, y, .. } => (t, y),
             _ => (ode.t(), *ode.y()),
+        };
+        // The work of the Sun's forces: the change of the Jacobi integral over the arc.
+        let energy_added_m2_s2 = if self.sun.is_some() {
+            let (u_end, _) = self.port.eval(pos_of(&y_end)).await;
+            self.evals += 1;
+            self.jacobi(&y_end, u_end) - c0
+        } else {
+            0.0
         };
         BodyArc {
             end,
@@ -414,7 +528,76 @@ impl<'a> Flight<'a> {
             y_end,
             jacobi_drift: drift,
             max_altitude_m: max_alt,
+            lit_start,
+            switches,
+            energy_added_m2_s2,
         }
+    }
+
+    /// Looks for a change of the lit state in the last accepted step: samples it (quintic
+    /// Hermite, no evaluations), and at a change locates it by bisection on the dense output.
+    /// Returns the first time on the other side, within `1e-9` of the step (or `None`).
+    async fn shadow_change(
+        &self,
+        ode: &mut Dop853<6>,
+        sys: &mut BodyFrameSystem<'_>,
+    ) -> Option<f64> {
+        let sun = self.sun?;
+        let mode = sys.lit;
+        let (t0, h) = (ode.t_old(), ode.h_done());
+        let (y0, f0, y1, f1) = (*ode.y_old(), *ode.f_old(), *ode.y(), *ode.f());
+        // Samples no further apart than 2 % of the body's size along the path, nor 1 degree of
+        // the Sun's turn in the body frame.
+        let r_eq = self
+            .body
+            .shape
+            .mass_properties()
+            .equivalent_radius_m
+            .max(1e-9);
+        let path = (pos_of(&y1) - pos_of(&y0)).norm() / (0.02 * r_eq);
+        let turn = self.w.norm() * h / 1f64.to_radians();
+        let n = (path.max(turn).ceil() as usize).clamp(4, 256);
+        let lit_at = |t: f64, y: &[f64; 6]| sun.lit_body(self.body, t, &pos_of(y));
+        let hermite_change = (1..=n).any(|k| {
+            let s = k as f64 / n as f64;
+            let y = if k == n {
+                y1
+            } else {
+                hermite_pos_vel(h, &y0, &f0, &y1, &f1, s)
+            };
+            lit_at(t0 + s * h, &y) != mode
+        });
+        if !hermite_change {
+            return None;
+        }
+        ode.prepare_dense_async(sys).await;
+        let dense_lit = |t: f64| ode.dense_output(t).map(|y| lit_at(t, &y));
+        let mut bracket = None;
+        for k in 1..=n {
+            let t_b = if k == n {
+                t0 + h
+            } else {
+                t0 + h * k as f64 / n as f64
+            };
+            if dense_lit(t_b)? != mode {
+                bracket = Some((t0 + h * (k - 1) as f64 / n as f64, t_b));
+                break;
+            }
+        }
+        let (mut lo, mut hi) = bracket?;
+        let tol = 1e-9 * h;
+        for _ in 0..200 {
+            if hi - lo <= tol {
+                break;
+            }
+            let mid = 0.5 * (lo + hi);
+            if dense_lit(mid)? == mode {
+                lo = mid;
+            } else {
+                hi = mid;
+            }
+        }
+        Some(hi)
     }
 
     /// Shortens the proposed step so it ends just past a predicted surface crossing.
@@ -511,13 +694,16 @@ impl<'a> Flight<'a> {
         None
     }
 
-    /// Integrates the same arc in the inertial frame from the body-frame start state to `t_end`;
+    /// Integrates the same arc in the inertial frame from the body-frame start state to `t_end`,
+    /// lit as `lit_start` says and switched at the body frame's `switches` (each step ends there);
     /// returns the inertial end state, or why it stopped with the time and state it reached.
     async fn inertial_arc(
         &mut self,
         t0: f64,
         y0_body: &[f64; 6],
         t_end: f64,
+        lit_start: bool,
+        switches: &[Switch],
     ) -> Result<[f64; 6], (String, f64, [f64; 6])> {
         let y0 = self.to_inertial(t0, y0_body);
         if t_end <= t0 {
@@ -527,26 +713,42 @@ impl<'a> Flight<'a> {
             body: self.body,
             port: self.port,
             evals: 0,
+            sun: self.sun,
+            lit: lit_start,
         };
         let (_, g0) = self.port.eval(pos_of(y0_body)).await;
         self.evals += 1;
         let h0 = self.first_step(y0_body, &g0);
         let mut ode = Dop853::with_first_step_async(&mut sys, t0, y0, self.tol, h0).await;
+        let mut next = 0;
+        let (mut done_steps, mut done_rejected) = (0u64, 0u64);
         let result = loop {
             if ode.t() >= t_end {
                 break Ok(*ode.y());
             }
+            if let Some(sw) = switches.get(next)
+                && ode.t() >= sw.t
+            {
+                next += 1;
+                sys.lit = sw.lit_after;
+                done_steps += ode.steps;
+                done_rejected += ode.rejected;
+                let (t, y, h) = (ode.t(), *ode.y(), ode.h_next());
+                ode = Dop853::with_first_step_async(&mut sys, t, y, self.tol, h).await;
+                continue;
+            }
             if let Some(reason) = self.guard.check(Frame::Inertial) {
                 break Err((reason, ode.t(), *ode.y()));
             }
-            if let Err(e) = ode.step_async(&mut sys, t_end).await {
+            let t_stop = switches.get(next).map_or(t_end, |sw| sw.t.min(t_end));
+            if let Err(e) = ode.step_async(&mut sys, t_stop).await {
                 break Err((e.to_string(), ode.t(), *ode.y()));
             }
             self.inertial_rec.record_step(&ode, 1.0);
         };
         self.evals += sys.evals;
-        self.steps += ode.steps;
-        self.rejected += ode.rejected;
+        self.steps += ode.steps + done_steps;
+        self.rejected += ode.rejected + done_rejected;
         result
     }
 }

@@ -8,6 +8,12 @@
 //! after each bounce from the mapped post-bounce state, and the distance between the two end
 //! points of each arc (in the body frame) is the *frame agreement*.
 //!
+//! With a Sun ([`FlightSettings::sun`], see [`crate::sunlight`]) both frames add its radiation
+//! pressure and tide; the body's shadow is an event located in the body frame (the step is
+//! redone to end exactly there), and the inertial frame switches the force at the same times.
+//! The Jacobi integral is then not conserved: [`FlightReport::jacobi_rel_drift`] is `None` and
+//! [`FlightReport::energy_added_m2_s2`] says how much energy the Sun's forces added.
+//!
 //! Results are for research and planning; Spinfall is not flight-certified.
 
 mod arcs;
@@ -20,6 +26,7 @@ use serde::{Deserialize, Serialize};
 
 use crate::body::Body;
 use crate::launch::LaunchState;
+use crate::sunlight::Sun;
 
 /// A cancel flag: set it to `true` from another thread to stop work at the next step.
 pub type Cancel = AtomicBool;
@@ -111,6 +118,10 @@ pub struct FlightSettings {
     pub bounce: BounceModel,
     /// Trajectory sampling.
     pub sampling: SamplingSettings,
+    /// The Sun's forces (radiation pressure on grains that have a particle, shadow, tide);
+    /// `None`: gravity and spin only.
+    #[serde(default)]
+    pub sun: Option<Sun>,
 }
 
 /// How a flight ended.
@@ -177,6 +188,17 @@ pub struct LandingPoint {
     pub face: usize,
 }
 
+/// The grain entering or leaving the body's shadow (radiation pressure off or on again).
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct ShadowEvent {
+    /// Time since launch, s.
+    pub t_s: f64,
+    /// True when the grain enters the shadow, false when it comes back into sunlight.
+    pub enters_shadow: bool,
+    /// Body-frame position, m.
+    pub pos_body_m: [f64; 3],
+}
+
 /// Result of one launch (serialises with units in the keys).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct FlightReport {
@@ -205,8 +227,17 @@ pub struct FlightReport {
     pub max_altitude_m: f64,
     /// Every contact in order.
     pub contacts: Vec<Contact>,
-    /// Largest relative drift of the Jacobi integral `|C - C0| / |C0|` over all ballistic arcs.
-    pub jacobi_rel_drift: f64,
+    /// Largest relative drift of the Jacobi integral `|C - C0| / |C0|` over all ballistic arcs;
+    /// `None` (not applicable) when the Sun's forces act, since they change the integral.
+    pub jacobi_rel_drift: Option<f64>,
+    /// With the Sun's forces: the energy per unit mass they added over the ballistic arcs, m²/s²
+    /// (the change of the Jacobi integral `v²/2 - |w x r|²/2 - U` from the start to the end of
+    /// each arc, summed; bounces left out). `None` without them.
+    #[serde(default)]
+    pub energy_added_m2_s2: Option<f64>,
+    /// Every entry into and exit from the body's shadow, in order (empty without shadow).
+    #[serde(default)]
+    pub shadow_events: Vec<ShadowEvent>,
     /// Largest distance between the body-frame and the inertial-frame end points of an arc,
     /// compared in the body frame, m. After a failure the inertial frame is still integrated to
     /// where the body frame stopped, so the last comparison is made there (unless cancelled:
@@ -317,7 +348,9 @@ fn blank_report(launch: &LaunchState) -> FlightReport {
         downrange_m: None,
         max_altitude_m: 0.0,
         contacts: Vec::new(),
-        jacobi_rel_drift: 0.0,
+        jacobi_rel_drift: Some(0.0),
+        energy_added_m2_s2: None,
+        shadow_events: Vec::new(),
         frame_agreement_m: 0.0,
         gravity_evaluations: 0,
         steps: 0,
@@ -358,6 +391,12 @@ fn check_settings(launch: &LaunchState, s: &FlightSettings) -> Result<(), String
     }
     if i.max_wall_s.is_nan() || i.max_wall_s <= 0.0 {
         return Err(format!("max_wall_s {} must be > 0", i.max_wall_s));
+    }
+    if let Some(sun) = &s.sun {
+        sun.check().map_err(|e| e.to_string())?;
+    }
+    if let Some(p) = &launch.particle {
+        p.check().map_err(|e| e.to_string())?;
     }
     let b = &s.bounce;
     if !(0.0..=1.0).contains(&b.normal_restitution)

@@ -4,7 +4,7 @@
 use std::io::Write;
 
 use serde::Serialize;
-use spinfall_dynamics::{Contact, FlightReport, LandingPoint, Outcome};
+use spinfall_dynamics::{Contact, FlightReport, LandingPoint, Outcome, ShadowEvent};
 
 use super::{csv_error, csv_writer, json_error};
 use crate::error::Result;
@@ -24,7 +24,13 @@ struct ResultRecord<'a> {
     downrange_m: Option<f64>,
     max_altitude_m: f64,
     contacts: &'a [Contact],
-    jacobi_rel_drift: f64,
+    jacobi_rel_drift: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    jacobi_rel_drift_note: Option<&'static str>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    energy_added_m2_s2: Option<f64>,
+    #[serde(skip_serializing_if = "<[ShadowEvent]>::is_empty")]
+    shadow_events: &'a [ShadowEvent],
     frame_agreement_m: f64,
     gravity_evaluations: u64,
     steps: u64,
@@ -45,8 +51,15 @@ struct ResultsFile<'a> {
     launches: Vec<ResultRecord<'a>>,
 }
 
+/// Why a launch has no Jacobi drift, in results.json.
+const NOT_APPLICABLE: &str = "not applicable: the Sun's radiation pressure and tide change the \
+     Jacobi integral (see energy_added_m2_s2)";
+
 /// Writes one JSON record per launch (SI units, keys named with units; trajectories left out,
 /// see [`super::write_trajectories_csv`]), after how the gravity was computed (`field`).
+///
+/// With the Sun's forces a record has `jacobi_rel_drift: null` with a `jacobi_rel_drift_note`
+/// saying why, `energy_added_m2_s2` and, with shadow, `shadow_events`.
 pub fn write_results_json(
     w: &mut dyn Write,
     reports: &[FlightReport],
@@ -72,6 +85,9 @@ pub fn write_results_json(
                 max_altitude_m: r.max_altitude_m,
                 contacts: &r.contacts,
                 jacobi_rel_drift: r.jacobi_rel_drift,
+                jacobi_rel_drift_note: r.jacobi_rel_drift.is_none().then_some(NOT_APPLICABLE),
+                energy_added_m2_s2: r.energy_added_m2_s2,
+                shadow_events: &r.shadow_events,
                 frame_agreement_m: r.frame_agreement_m,
                 gravity_evaluations: r.gravity_evaluations,
                 steps: r.steps,
@@ -116,13 +132,24 @@ const RESULTS_HEADER: [&str; 13] = [
 ];
 
 /// The results table as CSV: one row per launch, units in the header, empty cells for values a
-/// launch does not have.
+/// launch does not have. `jacobi_rel_drift` reads `n/a` for a launch under the Sun's forces;
+/// when any launch has them, two columns follow: `energy_added_m2_s2` and `shadow_events`
+/// (the number of entries into and exits from the shadow).
 pub fn write_results_csv(w: &mut dyn Write, reports: &[FlightReport]) -> Result<()> {
     let mut csv = csv_writer(w);
-    csv.write_record(RESULTS_HEADER).map_err(csv_error)?;
+    let sun = reports.iter().any(|r| r.energy_added_m2_s2.is_some());
+    let mut header = RESULTS_HEADER.to_vec();
+    if sun {
+        header.extend(["energy_added_m2_s2", "shadow_events"]);
+    }
+    csv.write_record(&header).map_err(csv_error)?;
     for r in reports {
+        let drift = match r.jacobi_rel_drift {
+            Some(d) => csv_number(d),
+            None => "n/a".to_string(),
+        };
         let first = r.contacts.first();
-        csv.serialize((
+        let row = (
             &r.id,
             outcome_text(&r.outcome),
             r.first_contact_time_s,
@@ -134,11 +161,31 @@ pub fn write_results_csv(w: &mut dyn Write, reports: &[FlightReport]) -> Result<
             first.map(|c| c.impact_speed_m_s),
             first.map(|c| c.impact_angle_deg),
             r.contacts.len(),
-            r.jacobi_rel_drift,
+            drift,
             r.frame_agreement_m,
-        ))
+        );
+        if sun {
+            csv.serialize((row, r.energy_added_m2_s2, r.shadow_events.len()))
+        } else {
+            csv.serialize(row)
+        }
         .map_err(csv_error)?;
     }
     csv.flush().map_err(crate::output::io_error)?;
     Ok(())
+}
+
+/// A number as the CSV writer writes it (shortest form that reads back exactly).
+fn csv_number(v: f64) -> String {
+    let mut w = csv::WriterBuilder::new()
+        .has_headers(false)
+        .from_writer(Vec::new());
+    // Writing one number to memory cannot fail.
+    if w.serialize(v).is_err() {
+        return v.to_string();
+    }
+    match w.into_inner() {
+        Ok(bytes) => String::from_utf8_lossy(&bytes).trim_end().to_string(),
+        Err(_) => v.to_string(),
+    }
 }
