@@ -416,6 +416,12 @@ impl SpinfallApp {
                 for f in SurfaceField::ALL {
                     ui.selectable_value(&mut self.state.view.map, Some(f), field_label(f));
                 }
+                // The sunlight layer, for a scenario with a Sun (its grain, at t = 0).
+                if let Some(map) = &self.map {
+                    for f in map.fields().into_iter().skip(SurfaceField::ALL.len()) {
+                        ui.selectable_value(&mut self.state.view.map, Some(f), field_label(f));
+                    }
+                }
             });
         egui::ComboBox::from_label("Colour map")
             .selected_text(self.state.view.colormap.name())

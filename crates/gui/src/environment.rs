@@ -323,6 +323,18 @@ impl SpinfallApp {
     /// The environment section of the side panel.
     pub(crate) fn environment_ui(&mut self, ui: &mut Ui) {
         ui.label(RichText::new("Zero-velocity surfaces").strong());
+        if self.scenario.sun().is_some() {
+            ui.add(
+                egui::Label::new(
+                    RichText::new(
+                        "The scenario's Sun adds forces the Jacobi constant does not include: \
+                         these surfaces describe the motion without them.",
+                    )
+                    .weak(),
+                )
+                .wrap(),
+            );
+        }
         let before = self.env.level_source;
         ui.horizontal(|ui| {
             ui.radio_value(

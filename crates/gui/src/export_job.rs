@@ -19,7 +19,7 @@ use spinfall_scene::{
 use spinfall_workflow::export::write_surface_map_csv;
 use spinfall_workflow::gravity_method::FieldUsed;
 use spinfall_workflow::images::{png_summary, write_png};
-use spinfall_workflow::map_cache::load_or_compute_map;
+use spinfall_workflow::map_cache::load_or_compute_scenario_map;
 use spinfall_workflow::output::{OutputFolder, OutputTarget, SetFile, io_error, write_file};
 use spinfall_workflow::run_files::{ResultSelection, result_files, run_info};
 use spinfall_workflow::scenario_file::scenario_json;
@@ -325,8 +325,9 @@ fn run_export(ctx: &JobContext, req: &ExportRequest, s: &Snapshot) -> Result<Exp
             let progress = ctx.progress_fn();
             let warn = |w: String| ctx.progress.push_note(w);
             let key = s.map_key.clone().unwrap_or_default();
-            let (map, _) = load_or_compute_map(
+            let (map, _) = load_or_compute_scenario_map(
                 s.view.body(),
+                &s.scenario,
                 &key,
                 s.cache.as_deref().filter(|_| !key.is_empty()),
                 &progress,

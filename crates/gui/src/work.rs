@@ -11,7 +11,9 @@ use spinfall_gravity::LengthUnit;
 use spinfall_scene::BodyView;
 use spinfall_workflow::field_cache::BuildHooks;
 use spinfall_workflow::gravity_method::{FieldUsed, GravityOptions};
-use spinfall_workflow::map_cache::{MapSource, load_or_compute_map, map_key, read_stored_map};
+use spinfall_workflow::map_cache::{
+    MapSource, load_or_compute_scenario_map, map_key, read_stored_map,
+};
 use spinfall_workflow::prepare::{PrepareOptions, Purpose, build_body, prepare_shape_hooks};
 use spinfall_workflow::run::{RunEnd, run_keeping_finished};
 use spinfall_workflow::scenario_file::{LoadedScenario, ScenarioSource, read_scenario};
@@ -250,6 +252,7 @@ impl SpinfallApp {
             job.cancel();
         }
         let folder = self.gravity.cache_folder();
+        let scenario = self.scenario.clone();
         self.map_job_key = key.clone();
         let label = if compute {
             "Surface map"
@@ -261,10 +264,22 @@ impl SpinfallApp {
             if !compute {
                 return Ok(folder.and_then(|f| {
                     match read_stored_map(&f, &key, body.shape.face_count()) {
-                        Some(Ok(map)) => Some((
-                            map,
-                            MapSource::Read(spinfall_workflow::map_cache::map_path(&f, &key)),
-                        )),
+                        Some(Ok(mut map)) => {
+                            // The stored map has no sunlight layer: added for this scenario.
+                            if let Err(e) = spinfall_workflow::surface::add_sunlight(
+                                body,
+                                &scenario,
+                                &mut map,
+                                &ctx.cancel,
+                            ) {
+                                ctx.progress
+                                    .push_note(format!("sunlight layer not added: {e}"));
+                            }
+                            Some((
+                                map,
+                                MapSource::Read(spinfall_workflow::map_cache::map_path(&f, &key)),
+                            ))
+                        }
                         Some(Err(why)) => {
                             ctx.progress
                                 .push_note(format!("stored surface map not used: {why}"));
@@ -280,8 +295,15 @@ impl SpinfallApp {
                 ctx.request_repaint();
             };
             let warn = |w: String| ctx.progress.push_note(w);
-            let found =
-                load_or_compute_map(body, &key, folder.as_deref(), &progress, &ctx.cancel, &warn)?;
+            let found = load_or_compute_scenario_map(
+                body,
+                &scenario,
+                &key,
+                folder.as_deref(),
+                &progress,
+                &ctx.cancel,
+                &warn,
+            )?;
             Ok(Some(found))
         }));
     }
@@ -419,6 +441,12 @@ impl SpinfallApp {
                         let mut v = view.with_body(view.body().clone());
                         v.set_map(Some(map.clone()));
                         self.view = Some(Arc::new(v));
+                        // A field of a layer this map lacks (sunlight) cannot stay chosen.
+                        if let Some(f) = self.state.view.map
+                            && !map.fields().contains(&f)
+                        {
+                            self.state.view.map = None;
+                        }
                         self.map = Some(map);
                         self.map_source = Some(match source {
                             MapSource::Read(p) => format!("read from the cache ({})", p.display()),

@@ -100,3 +100,37 @@ fn equilibria_are_listed_and_marked() {
     assert!(guides.equilibria.is_empty());
     harness.get_by_label("lat (°)");
 }
+
+/// A scenario with a Sun: its sunlight layer can be chosen as a map, and the Environment
+/// section says the zero-velocity surfaces leave its forces out.
+#[test]
+fn a_scenario_with_a_sun_offers_its_sunlight_map() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("sunny.json");
+    std::fs::write(
+        &path,
+        r#"{"format": "spinfall-scenario", "version": 1,
+            "body": {"shape": "builtin:quillon", "density_kg_m3": 2100, "recenter": true,
+                     "spin": {"period_h": 5.0}},
+            "environment": {
+              "sun": {"direction_inertial": [1, 0, 0], "distance_au": 1.4},
+              "particle": {"radius_m": 2e-5, "density_kg_m3": 2500}}}"#,
+    )
+    .unwrap();
+    let mut harness = demo_harness();
+    harness
+        .state_mut()
+        .push_command(Command::LoadScenario(path.clone()));
+    settle(&mut harness);
+    harness.state_mut().push_command(Command::ComputeMap);
+    settle(&mut harness);
+    harness.get_by_label_contains("The scenario's Sun adds forces");
+    harness.get_by_label("Colour by").click();
+    harness.step();
+    harness.step();
+    assert!(
+        !common::labels_containing(&harness, "Sunlit").is_empty(),
+        "the sunlight layer is offered"
+    );
+    assert!(!common::labels_containing(&harness, "Radiation pressure along surface").is_empty());
+}

@@ -142,12 +142,27 @@ fn time_plot(
         }
         // (The landing map is drawn by `landing_plot`.)
         PlotKind::JacobiDrift | PlotKind::Landing => {
-            spec.title = "Jacobi constant drift".into();
+            // With sunlight or the solar tide the integral is not conserved: its change is the
+            // energy those forces add, not a drift of the integrator.
+            let forced = chosen
+                .iter()
+                .any(|&i| reports[i].jacobi_rel_drift.is_none());
+            spec.title = if forced {
+                "Jacobi constant change".into()
+            } else {
+                "Jacobi constant drift".into()
+            };
             spec.y.label = "(C − C₀) / |C₀|".into();
             spec.series = series
                 .iter()
                 .map(|s| line(s.launch, &s.jacobi_rel, false))
                 .collect();
+            if forced {
+                spec.notes.push(
+                    "not conserved under sunlight or the solar tide: the change is the energy they add"
+                        .into(),
+                );
+            }
             if chosen.iter().any(|&i| !reports[i].contacts.is_empty()) {
                 spec.notes.push(
                     "steps at contacts are energy lost in bounces, not integration error".into(),
