@@ -823,6 +823,7 @@ impl SpinfallApp {
                     ],
                     launch_dir_body: Some([d.x, d.y, d.z]),
                     selected: selected == Some(i),
+                    target_body_m: None,
                 })
             })
             .collect()

@@ -420,6 +420,8 @@ pub struct SiteMarker {
     pub launch_dir_body: Option<[f64; 3]>,
     /// Highlighted (the selected site).
     pub selected: bool,
+    /// The surface point this launch is aimed at (a targeted hop), body frame, m.
+    pub target_body_m: Option<[f64; 3]>,
 }
 
 /// Colour of planned-site markers and launch arrows (dark theme).
@@ -472,6 +474,16 @@ pub fn add_site_markers_styled(
             color: pal.planned_site,
             occluded: Occluded::Faint(0.4),
         });
+        if let Some(t) = site.target_body_m {
+            let q = world_from_body * Point3::from(t);
+            scene.markers.push(Marker {
+                position: [q.x, q.y, q.z],
+                shape: MarkerShape::Cross,
+                size_px: px(if site.selected { 15.0 } else { 11.0 }),
+                color: pal.planned_site,
+                occluded: Occluded::Faint(0.4),
+            });
+        }
         if let Some(d) = site.launch_dir_body {
             let d = world_from_body * nalgebra::Vector3::from(d);
             let q = p + d * arrow_len_m;
