@@ -81,7 +81,7 @@ pub struct StatsArgs {
     pub target_point_m: Option<String>,
     /// Radius around the target (default target: each group's mean rest point), m: the
     /// fraction of landed members within it.
-    #[arg(long, value_name = "M")]
+    #[arg(long, value_name = "M", allow_hyphen_values = true)]
     pub radius_m: Option<f64>,
     /// The shape model, when it moved since the run (must be the same model).
     #[arg(long, value_name = "PATH")]
