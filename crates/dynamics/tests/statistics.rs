@@ -510,10 +510,12 @@ fn a_flown_dispersion_set_has_about_half_inside_its_fifty_percent_ellipse() {
             seed: 11,
         })
         .unwrap();
-    let mut settings = FlightSettings::default();
-    settings.bounce = BounceModel {
-        max_bounces: 0,
-        ..BounceModel::default()
+    let mut settings = FlightSettings {
+        bounce: BounceModel {
+            max_bounces: 0,
+            ..BounceModel::default()
+        },
+        ..FlightSettings::default()
     };
     settings.sampling.max_samples_per_frame = 0;
     let reports = fly_all(

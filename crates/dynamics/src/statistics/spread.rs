@@ -229,7 +229,7 @@ pub fn spread_of(body: &Body, points_m: &[[f64; 3]]) -> SpreadResult {
         .iter()
         .map(|p| Vector3::from(*p).norm())
         .fold(0.0, f64::max);
-    if !(mean3.norm() > 1e-9 * reach) {
+    if mean3.norm().is_nan() || mean3.norm() <= 1e-9 * reach {
         return SpreadResult::Undefined {
             points: n,
             reason: "the points surround the body's centre: their mean lies at the origin, so \
