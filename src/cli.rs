@@ -46,6 +46,49 @@ pub enum Command {
     /// Geopotential of a scenario's body on a plane grid, as CSV, for zero-velocity surfaces
     /// (with --launch or --jacobi, also the region that launch can never reach).
     Slice(SliceArgs),
+    /// Landing dispersion statistics of a results.json (mean point, covariance, 50/90/99 %
+    /// ellipses, fraction within a radius, per-face density), recomputed from the file alone.
+    Stats(StatsArgs),
+}
+
+#[derive(Debug, Args)]
+pub struct StatsArgs {
+    /// A results.json written by `spinfall fly` (it embeds the scenario it ran).
+    pub results: PathBuf,
+    /// Only this group: a fan or dispersion entry's id, or `ID/k` for one fan member's
+    /// dispersion set.
+    #[arg(long, value_name = "ID")]
+    pub group: Option<String>,
+    /// Target latitude, deg (planetocentric; with --target-lon-deg).
+    #[arg(
+        long,
+        value_name = "DEG",
+        allow_hyphen_values = true,
+        requires = "target_lon_deg",
+        conflicts_with = "target_point_m"
+    )]
+    pub target_lat_deg: Option<f64>,
+    /// Target longitude, deg east (with --target-lat-deg).
+    #[arg(
+        long,
+        value_name = "DEG",
+        allow_hyphen_values = true,
+        requires = "target_lat_deg"
+    )]
+    pub target_lon_deg: Option<f64>,
+    /// Target as a body-frame point X,Y,Z in m (snapped to the nearest surface point).
+    #[arg(long, value_name = "X,Y,Z", allow_hyphen_values = true)]
+    pub target_point_m: Option<String>,
+    /// Radius around the target (default target: each group's mean rest point), m: the
+    /// fraction of landed members within it.
+    #[arg(long, value_name = "M", allow_hyphen_values = true)]
+    pub radius_m: Option<f64>,
+    /// The shape model, when it moved since the run (must be the same model).
+    #[arg(long, value_name = "PATH")]
+    pub shape: Option<PathBuf>,
+    /// Output folder for statistics.json and landing_density.csv (with a manifest).
+    #[arg(long, value_name = "DIR")]
+    pub out: PathBuf,
 }
 
 /// A shape model: a path to an OBJ file, or `builtin:quillon` for the demo body.

@@ -117,9 +117,19 @@ fn the_command_line_and_the_app_report_the_same_numbers() {
     let json = |p: &Path| -> serde_json::Value {
         serde_json::from_str(&std::fs::read_to_string(p).unwrap()).unwrap()
     };
-    let cli = json(&cli_out.join("results.json"));
-    let gui = json(&app_out.join("run_results.json"));
+    let mut cli = json(&cli_out.join("results.json"));
+    let mut gui = json(&app_out.join("run_results.json"));
     assert_eq!(cli["launches"].as_array().unwrap().len(), 10);
+    // Both embed the scenario they flew; where its shape path is resolved differs by front end
+    // (the command line records the scenario's folder and a shape check, the app its session's
+    // path), so the embedded part is compared on its launches and then set aside.
+    assert_eq!(cli["scenario"]["launches"], gui["scenario"]["launches"]);
+    for doc in [&mut cli, &mut gui] {
+        let obj = doc.as_object_mut().unwrap();
+        for key in ["scenario", "scenario_dir", "shape_check"] {
+            obj.remove(key);
+        }
+    }
     // Every reported number, bit for bit (JSON numbers are written in their shortest exact
     // form, so equal text is equal f64).
     assert_eq!(cli, gui);

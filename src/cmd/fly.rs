@@ -1,12 +1,16 @@
-//! `spinfall fly`: every launch of a scenario; writes results.json, results.csv,
-//! trajectories.csv and the manifest into a folder, as one set.
+//! `spinfall fly`: every launch of a scenario; writes results.json (with the scenario
+//! embedded), results.csv, trajectories.csv, and for a scenario with a fan or dispersion group
+//! statistics.json and landing_density.csv, with the manifest into a folder, as one set.
 
 use std::process::ExitCode;
 
 use spinfall_workflow::output::OutputFolder;
 use spinfall_workflow::prepare::{PrepareOptions, Purpose, prepare_with_hooks};
-use spinfall_workflow::run_files::{run_info, write_run_folder};
+use spinfall_workflow::run_files::{
+    StatisticsOutput, run_info_of, write_run_folder_with_statistics,
+};
 use spinfall_workflow::scenario_file::{ScenarioSource, read_scenario};
+use spinfall_workflow::statistics::{StatisticsRequest, compute_statistics};
 
 use super::{
     announce, announce_field, field_hooks, fly_with_progress, gravity_options, limits,
@@ -33,8 +37,21 @@ pub fn run(args: &FlyArgs) -> CmdResult<ExitCode> {
     announce(&prepared.estimate);
     folder.check_space(prepared.estimate.output_min_bytes)?;
     let done = fly_with_progress(&prepared)?;
-    let info = run_info(Some(prepared.scenario()), &prepared.field);
-    let written = write_run_folder(&folder, &done.reports, &info)?;
+    let info = run_info_of(&prepared);
+    let stats = compute_statistics(
+        &prepared.body,
+        prepared.scenario(),
+        &done.reports,
+        &StatisticsRequest::default(),
+    )?;
+    let out = stats
+        .as_ref()
+        .map(|(statistics, density)| StatisticsOutput {
+            body: &prepared.body,
+            statistics,
+            density,
+        });
+    let written = write_run_folder_with_statistics(&folder, &done.reports, &info, out.as_ref())?;
     let names: Vec<String> = written
         .iter()
         .filter_map(|p| p.file_name().map(|n| n.to_string_lossy().into_owned()))

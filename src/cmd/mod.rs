@@ -11,6 +11,7 @@ mod map;
 mod plot;
 mod render;
 mod slice;
+mod stats;
 
 use std::process::ExitCode;
 use std::sync::Mutex;
@@ -39,6 +40,7 @@ pub fn run(cli: Cli) -> CmdResult<ExitCode> {
         Some(Command::Animate(args)) => animate::run(&args),
         Some(Command::Plot(args)) => plot::run(&args),
         Some(Command::Slice(args)) => slice::run(&args),
+        Some(Command::Stats(args)) => stats::run(&args),
         None => app::run(cli.shape, cli.unit.into()),
     }
 }

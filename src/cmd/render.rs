@@ -10,13 +10,16 @@ use spinfall_dynamics::FlightReport;
 use spinfall_dynamics::surface_map::SurfaceField;
 use spinfall_render::{Figure, FigureSize, write_svg};
 use spinfall_scene::{
-    BodyView, FigureOptions, Output, ViewOptions, Views, build_figure, end_time_s,
+    BodyView, FigureOptions, Guides, Output, ViewOptions, Views, build_figure, end_time_s,
 };
 use spinfall_workflow::WorkflowError;
 use spinfall_workflow::images::write_png;
 use spinfall_workflow::output::{CheckedFile, OutputTarget, check_file};
 use spinfall_workflow::prepare::{PrepareOptions, PreparedRun, Purpose, prepare_with_hooks};
 use spinfall_workflow::scenario_file::{ScenarioSource, read_scenario};
+use spinfall_workflow::statistics::{
+    StatisticsRequest, compute_statistics, landing_ellipse_guides,
+};
 use spinfall_workflow::surface::compute_surface_map;
 
 use super::{
@@ -219,7 +222,22 @@ pub fn run(args: &RenderArgs) -> CmdResult<ExitCode> {
         }
     };
     let (prepared, reports) = prepare_and_fly(&args.scenario, &args.limits, &args.field)?;
-    let view = body_view(&prepared, args.map.is_some())?;
+    let mut view = body_view(&prepared, args.map.is_some())?;
+    // The rest ellipses of the run's fan and dispersion groups, on the body-fixed view.
+    if let Some((stats, _)) = compute_statistics(
+        &prepared.body,
+        prepared.scenario(),
+        &reports,
+        &StatisticsRequest::default(),
+    )? {
+        let landing_ellipses = landing_ellipse_guides(&prepared.body, &stats);
+        if !landing_ellipses.is_empty() {
+            view = view.with_guides(Arc::new(Guides {
+                landing_ellipses,
+                ..Guides::default()
+            }));
+        }
+    }
     let options = ViewOptions {
         color_range,
         ..view_options(args.map, &args.figure)

@@ -51,6 +51,7 @@ pub mod launch;
 mod roots;
 pub mod scenario;
 pub mod site;
+pub mod statistics;
 pub mod sunlight;
 pub mod surface_map;
 pub mod zero_velocity;

@@ -2,7 +2,10 @@
 //! zero-velocity curves (on a plane through the body and on the surface), with a hatch over the
 //! region a launch can never reach.
 //!
-//! Both are fixed in the rotating body frame, which is where they mean something, so they are
+//! Also the error ellipses of landing dispersion groups (`spinfall_dynamics::statistics`),
+//! draped on the surface.
+//!
+//! All are fixed in the rotating body frame, which is where they mean something, so they are
 //! drawn in the body-fixed view only. The data come from `spinfall_dynamics::equilibria` and
 //! `spinfall_dynamics::zero_velocity`; this module only draws them.
 
@@ -34,6 +37,17 @@ pub struct ZeroVelocityCurves {
     pub forbidden_hatch: Vec<[[f64; 3]; 2]>,
 }
 
+/// One landing error ellipse of a group, as a closed polyline on the surface.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct LandingEllipse {
+    /// The group id.
+    pub group: String,
+    /// The probability it holds (0.5, 0.9, 0.99).
+    pub probability: f64,
+    /// Body-frame points, m (closed: the last equals the first).
+    pub points_body_m: Vec<[f64; 3]>,
+}
+
 /// Everything drawn by this module.
 #[derive(Debug, Clone, PartialEq, Default)]
 pub struct Guides {
@@ -41,12 +55,27 @@ pub struct Guides {
     pub equilibria: Vec<EquilibriumMark>,
     /// Zero-velocity curves, if any.
     pub zero_velocity: Option<ZeroVelocityCurves>,
+    /// Landing error ellipses of the rest points (50 % thick, 90 % thin, 99 % dashed).
+    pub landing_ellipses: Vec<LandingEllipse>,
 }
 
 impl Guides {
     /// Nothing to draw.
     pub fn is_empty(&self) -> bool {
-        self.equilibria.is_empty() && self.zero_velocity.is_none()
+        self.equilibria.is_empty()
+            && self.zero_velocity.is_none()
+            && self.landing_ellipses.is_empty()
+    }
+}
+
+/// Line width (reference px) and dash of a landing ellipse of probability `p`.
+fn ellipse_style(p: f64) -> (f32, bool) {
+    if p <= 0.5 {
+        (2.6, false)
+    } else if p <= 0.9 {
+        (1.6, false)
+    } else {
+        (1.6, true)
     }
 }
 
@@ -94,6 +123,16 @@ pub(crate) fn add_guides(scene: &mut Scene, guides: &Guides, pal: &Palette, sizi
             });
         }
     }
+    for e in &guides.landing_ellipses {
+        let (width, dashed) = ellipse_style(e.probability);
+        scene.polylines.push(Polyline {
+            points: e.points_body_m.clone(),
+            color: LineColor::Uniform(pal.rest),
+            width_px: px(width),
+            dash: dashed.then(|| (px(5.0), px(3.0))),
+            occluded: Occluded::Hidden,
+        });
+    }
     for e in &guides.equilibria {
         scene.markers.push(Marker {
             position: e.pos_body_m,
@@ -136,6 +175,13 @@ pub(crate) fn guide_legend_entries(guides: &Guides, pal: &Palette) -> Vec<Legend
                 Swatch::Dashed,
             ));
         }
+    }
+    if !guides.landing_ellipses.is_empty() {
+        entries.push(LegendEntry::new(
+            pal.rest,
+            "landing ellipses 50/90 % (99 % dashed)",
+            Swatch::Line,
+        ));
     }
     entries
 }

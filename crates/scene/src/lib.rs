@@ -62,7 +62,7 @@ pub use composite::{
 };
 pub use error::{Result, SceneError};
 pub use figure::{FigureOptions, Output, Views, build_figure, build_figure_with, figure_metadata};
-pub use guides::{EquilibriumMark, Guides, ZeroVelocityCurves};
+pub use guides::{EquilibriumMark, Guides, LandingEllipse, ZeroVelocityCurves};
 pub use options::{HiddenTraceStyle, ViewOptions};
 pub use palette::Palette;
 pub use scenes::{

@@ -234,6 +234,7 @@ fn guides_are_drawn_in_the_body_fixed_view_only() {
             surface_curves: vec![],
             forbidden_hatch: vec![[[r, r, 0.0], [2.0 * r, r, 0.0]]],
         }),
+        ..Guides::default()
     };
     let bare = view;
     let with = bare.with_guides(Arc::new(guides.clone()));

@@ -55,11 +55,13 @@ pub mod limits;
 pub mod map_cache;
 pub mod output;
 pub mod prepare;
+pub mod results_file;
 pub mod run;
 pub mod run_files;
 pub mod scenario_file;
 pub mod series;
 pub mod shape;
+pub mod statistics;
 pub mod surface;
 pub mod zero_velocity;
 

@@ -8,12 +8,25 @@ use spinfall_dynamics::FlightReport;
 use spinfall_dynamics::scenario::Scenario;
 
 use crate::error::Result;
-use crate::export::{write_results_csv, write_results_json, write_trajectories_csv};
+use crate::export::{
+    write_landing_density_csv, write_results_csv, write_results_json_embedding,
+    write_statistics_json, write_trajectories_csv,
+};
 use crate::gravity_method::FieldUsed;
 use crate::output::{OutputFolder, RUN_MANIFEST, RunInfo, SetFile};
+use crate::prepare::PreparedRun;
+use crate::results_file::EmbeddedScenario;
+use crate::statistics::{LandingDensity, RunStatistics};
 
 /// Names of the files of a run folder (besides the manifest).
 pub const RUN_FILES: [&str; 3] = ["results.json", "results.csv", "trajectories.csv"];
+
+/// Names of the statistics files, written beside the results when the run has a fan or a
+/// dispersion group (and by `spinfall stats`).
+pub const STATISTICS_FILES: [&str; 2] = ["statistics.json", "landing_density.csv"];
+
+/// Manifest of a folder written by `spinfall stats`.
+pub const STATISTICS_MANIFEST: &str = "spinfall-statistics-manifest.json";
 
 /// SHA-256 of a scenario's canonical JSON, lowercase hex.
 pub fn scenario_sha256(scenario: &Scenario) -> Option<String> {
@@ -30,6 +43,20 @@ pub fn run_info(scenario: Option<&Scenario>, field: &FieldUsed) -> RunInfo {
         scenario_sha256: scenario.and_then(scenario_sha256),
         kernel: field.describe(),
         field: Some(field.clone()),
+        embedded: scenario.map(|s| EmbeddedScenario {
+            scenario: s.clone(),
+            scenario_dir: None,
+            shape_check: None,
+        }),
+    }
+}
+
+/// [`run_info`] of a prepared run, with the scenario embedded in full (its folder and the
+/// shape check; see [`crate::results_file`]).
+pub fn run_info_of(run: &PreparedRun) -> RunInfo {
+    RunInfo {
+        embedded: Some(EmbeddedScenario::of_run(run)),
+        ..run_info(Some(run.scenario()), &run.field)
     }
 }
 
@@ -62,7 +89,14 @@ pub fn result_files<'a>(
     if selection.results {
         files.push(SetFile::new(
             format!("{prefix}{}", RUN_FILES[0]),
-            move |w| write_results_json(w, reports, info.field.as_ref()),
+            move |w| {
+                write_results_json_embedding(
+                    w,
+                    reports,
+                    info.field.as_ref(),
+                    info.embedded.as_ref(),
+                )
+            },
         ));
         files.push(SetFile::new(
             format!("{prefix}{}", RUN_FILES[1]),
@@ -87,6 +121,58 @@ pub fn write_run_folder(
     folder.write_set(
         RUN_MANIFEST,
         result_files(reports, info, "", ResultSelection::ALL),
+        info,
+        &AtomicBool::new(false),
+    )
+}
+
+/// The statistics of a run with the body they were computed on, for writing.
+#[derive(Debug, Clone)]
+pub struct StatisticsOutput<'a> {
+    /// The body (faces, areas, latitude and longitude).
+    pub body: &'a spinfall_dynamics::Body,
+    /// statistics.json.
+    pub statistics: &'a RunStatistics,
+    /// landing_density.csv.
+    pub density: &'a LandingDensity,
+}
+
+/// statistics.json and landing_density.csv, named with `prefix`.
+pub fn statistics_files<'a>(out: &StatisticsOutput<'a>, prefix: &str) -> Vec<SetFile<'a>> {
+    let (stats, body, density) = (out.statistics, out.body, out.density);
+    vec![
+        SetFile::new(format!("{prefix}{}", STATISTICS_FILES[0]), move |w| {
+            write_statistics_json(w, stats)
+        }),
+        SetFile::new(format!("{prefix}{}", STATISTICS_FILES[1]), move |w| {
+            write_landing_density_csv(w, body, density)
+        }),
+    ]
+}
+
+/// As [`write_run_folder`], with the statistics files when there are statistics.
+pub fn write_run_folder_with_statistics(
+    folder: &OutputFolder,
+    reports: &[FlightReport],
+    info: &RunInfo,
+    statistics: Option<&StatisticsOutput<'_>>,
+) -> Result<Vec<PathBuf>> {
+    let mut files = result_files(reports, info, "", ResultSelection::ALL);
+    if let Some(out) = statistics {
+        files.extend(statistics_files(out, ""));
+    }
+    folder.write_set(RUN_MANIFEST, files, info, &AtomicBool::new(false))
+}
+
+/// Writes the statistics files of `spinfall stats` with their own manifest.
+pub fn write_statistics_folder(
+    folder: &OutputFolder,
+    out: &StatisticsOutput<'_>,
+    info: &RunInfo,
+) -> Result<Vec<PathBuf>> {
+    folder.write_set(
+        STATISTICS_MANIFEST,
+        statistics_files(out, ""),
         info,
         &AtomicBool::new(false),
     )

@@ -193,6 +193,7 @@ fn a_set_is_all_or_nothing_and_its_manifest_verifies() {
         scenario_sha256: Some("ab".repeat(32)),
         kernel: "test kernel".into(),
         field: None,
+        embedded: None,
     };
     let no = AtomicBool::new(false);
     folder

@@ -7,6 +7,7 @@ mod field;
 mod info;
 mod results;
 mod slice;
+mod statistics;
 mod surface_map;
 mod trajectories;
 
@@ -15,8 +16,11 @@ pub use field::{
     FieldPoints, evaluate_field, parse_points_csv, read_points_file, write_field_samples,
 };
 pub use info::{ShapeInfo, shape_info, write_shape_info};
-pub use results::{outcome_text, write_results_csv, write_results_json};
+pub use results::{
+    outcome_text, write_results_csv, write_results_json, write_results_json_embedding,
+};
 pub use slice::write_slice_csv;
+pub use statistics::{write_landing_density_csv, write_statistics_json};
 pub use surface_map::write_surface_map_csv;
 pub use trajectories::write_trajectories_csv;
 

@@ -48,6 +48,12 @@ struct ResultsFile<'a> {
     note: &'static str,
     #[serde(skip_serializing_if = "Option::is_none")]
     field: Option<&'a FieldUsed>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    scenario: Option<&'a spinfall_dynamics::scenario::Scenario>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    scenario_dir: Option<&'a std::path::Path>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    shape_check: Option<&'a crate::results_file::ShapeCheck>,
     launches: Vec<ResultRecord<'a>>,
 }
 
@@ -65,11 +71,27 @@ pub fn write_results_json(
     reports: &[FlightReport],
     field: Option<&FieldUsed>,
 ) -> Result<()> {
+    write_results_json_embedding(w, reports, field, None)
+}
+
+/// As [`write_results_json`], with the scenario the run flew embedded after `field`
+/// (`scenario`, `scenario_dir`: the absolute folder its relative shape path meant, and
+/// `shape_check`: the model's face count and volume), so that the file describes itself (see
+/// [`crate::results_file`]).
+pub fn write_results_json_embedding(
+    w: &mut dyn Write,
+    reports: &[FlightReport],
+    field: Option<&FieldUsed>,
+    embedded: Option<&crate::results_file::EmbeddedScenario>,
+) -> Result<()> {
     let file = ResultsFile {
         format: "spinfall-results",
         version: 1,
         note: crate::CAUTION,
         field,
+        scenario: embedded.map(|e| &e.scenario),
+        scenario_dir: embedded.and_then(|e| e.scenario_dir.as_deref()),
+        shape_check: embedded.and_then(|e| e.shape_check.as_ref()),
         launches: reports
             .iter()
             .map(|r| ResultRecord {

@@ -71,6 +71,8 @@ pub struct RunInfo {
     pub kernel: String,
     /// The gravity method in detail (written into results.json).
     pub field: Option<crate::gravity_method::FieldUsed>,
+    /// The scenario the run flew, embedded in results.json (not in the manifest).
+    pub embedded: Option<crate::results_file::EmbeddedScenario>,
 }
 
 /// A set whose manifest is complete and whose files all match it.
