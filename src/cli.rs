@@ -420,6 +420,8 @@ pub enum MapArg {
     Geopotential,
     EffectiveG,
     EscapeSpeed,
+    /// Landings per m² of each face over the run's landed launches.
+    LandingDensity,
 }
 
 #[cfg(test)]

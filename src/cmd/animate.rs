@@ -77,7 +77,7 @@ pub fn run(args: &AnimateArgs) -> CmdResult<ExitCode> {
         Target::File(_) => None,
     };
     let (prepared, reports) = prepare_and_fly(&args.scenario, &args.limits, &args.field)?;
-    let view = body_view(&prepared, args.map.is_some())?;
+    let view = body_view(&prepared, args.map.is_some(), &reports)?;
     let options = view_options(args.map, &args.figure);
     let settings = AnimationSettings {
         frames: args.frames,

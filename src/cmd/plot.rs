@@ -36,7 +36,7 @@ pub fn run(args: &PlotArgs) -> CmdResult<ExitCode> {
         PlotKindArg::Jacobi => PlotKind::JacobiDrift,
         PlotKindArg::Landing => PlotKind::Landing,
     };
-    let view = body_view(&prepared, kind == PlotKind::Landing)?;
+    let view = body_view(&prepared, kind == PlotKind::Landing, &reports)?;
     let chosen: Vec<usize> = match launch {
         Some(i) => vec![i],
         None => (0..reports.len()).collect(),

@@ -18,7 +18,7 @@ use spinfall_workflow::output::{CheckedFile, OutputTarget, check_file};
 use spinfall_workflow::prepare::{PrepareOptions, PreparedRun, Purpose, prepare_with_hooks};
 use spinfall_workflow::scenario_file::{ScenarioSource, read_scenario};
 use spinfall_workflow::statistics::{
-    StatisticsRequest, compute_statistics, landing_ellipse_guides,
+    StatisticsRequest, compute_statistics, landing_density_layer, landing_ellipse_guides,
 };
 use spinfall_workflow::surface::compute_surface_map;
 
@@ -86,6 +86,7 @@ pub(super) fn map_field(m: MapArg) -> SurfaceField {
         MapArg::Geopotential => SurfaceField::Geopotential,
         MapArg::EffectiveG => SurfaceField::EffectiveGravity,
         MapArg::EscapeSpeed => SurfaceField::EscapeSpeedNormal,
+        MapArg::LandingDensity => SurfaceField::LandingDensity,
     }
 }
 
@@ -136,12 +137,18 @@ pub(super) fn prepare_and_fly(
     Ok((prepared, reports))
 }
 
-/// The body view with the surface map attached when a map is shown.
-pub(super) fn body_view(prepared: &PreparedRun, with_map: bool) -> CmdResult<BodyView> {
+/// The body view with the surface map attached when a map is shown, with the landing layer of
+/// `reports` (landings per m² of each face) when any launch landed.
+pub(super) fn body_view(
+    prepared: &PreparedRun,
+    with_map: bool,
+    reports: &[FlightReport],
+) -> CmdResult<BodyView> {
     let mut view = BodyView::new(Arc::clone(&prepared.body));
     if with_map {
         let cancel = spinfall_dynamics::Cancel::new(false);
-        let map = compute_surface_map(&prepared.body, &|_, _| {}, &cancel)?;
+        let mut map = compute_surface_map(&prepared.body, &|_, _| {}, &cancel)?;
+        map.landing_density_per_m2 = landing_density_layer(&prepared.body, reports);
         view.set_map(Some(Arc::new(map)));
     }
     Ok(view)
@@ -222,7 +229,7 @@ pub fn run(args: &RenderArgs) -> CmdResult<ExitCode> {
         }
     };
     let (prepared, reports) = prepare_and_fly(&args.scenario, &args.limits, &args.field)?;
-    let mut view = body_view(&prepared, args.map.is_some())?;
+    let mut view = body_view(&prepared, args.map.is_some(), &reports)?;
     // The rest ellipses of the run's fan and dispersion groups, on the body-fixed view.
     if let Some((stats, _)) = compute_statistics(
         &prepared.body,

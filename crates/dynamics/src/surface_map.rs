@@ -89,6 +89,9 @@ pub enum SurfaceField {
     /// Radiation-pressure acceleration along the surface, m/s² (0 where not lit; sunlight
     /// layer only).
     RadiationPressureAlongSurface,
+    /// Landings per square metre of each face over the flights shown (only in maps given a
+    /// landing layer, see [`SurfaceMap::landing_density_per_m2`]).
+    LandingDensity,
 }
 
 impl SurfaceField {
@@ -109,6 +112,9 @@ impl SurfaceField {
         SurfaceField::RadiationPressureRatio,
         SurfaceField::RadiationPressureAlongSurface,
     ];
+    /// The field of the landing layer ([`SurfaceMap::landing_density_per_m2`]), present only
+    /// in maps given one from flights; [`SurfaceMap::values`] gives an empty slice without it.
+    pub const LANDINGS: [SurfaceField; 1] = [SurfaceField::LandingDensity];
     /// Human-readable name.
     pub fn name(self) -> &'static str {
         match self {
@@ -121,6 +127,7 @@ impl SurfaceField {
             SurfaceField::Sunlit => "Sunlit",
             SurfaceField::RadiationPressureRatio => "Radiation pressure / effective gravity",
             SurfaceField::RadiationPressureAlongSurface => "Radiation pressure along surface",
+            SurfaceField::LandingDensity => "Landing density",
         }
     }
     /// Unit string.
@@ -133,6 +140,7 @@ impl SurfaceField {
             SurfaceField::RadialSign => "1",
             SurfaceField::Sunlit | SurfaceField::RadiationPressureRatio => "1",
             SurfaceField::RadiationPressureAlongSurface => "m/s^2",
+            SurfaceField::LandingDensity => "1/m^2",
         }
     }
     /// Column name with unit for CSV headers.
@@ -147,6 +155,7 @@ impl SurfaceField {
             SurfaceField::Sunlit => "sunlit",
             SurfaceField::RadiationPressureRatio => "radiation_pressure_to_gravity",
             SurfaceField::RadiationPressureAlongSurface => "radiation_pressure_tangential_m_s2",
+            SurfaceField::LandingDensity => "landing_density_per_m2",
         }
     }
 }
@@ -171,6 +180,10 @@ pub struct SurfaceMap {
     /// The sunlight layer, for maps of scenarios with a Sun (see [`sunlight_map`]).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub sunlight: Option<SunlightMap>,
+    /// Landings per m² of each face over a set of flights (rest points; a face's count over its
+    /// area), given by the front ends from their results; never stored with the map.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub landing_density_per_m2: Option<Vec<f64>>,
 }
 
 /// The sunlight layer of a surface map: one grain, one Sun direction, one epoch.
@@ -212,15 +225,19 @@ impl SurfaceMap {
                 .sunlight
                 .as_ref()
                 .map_or(&[], |s| &s.radiation_pressure_tangential_m_s2),
+            SurfaceField::LandingDensity => self.landing_density_per_m2.as_deref().unwrap_or(&[]),
         }
     }
 
     /// The fields this map has: [`SurfaceField::ALL`], then [`SurfaceField::SUNLIGHT`] when it
-    /// has a sunlight layer.
+    /// has a sunlight layer, then [`SurfaceField::LANDINGS`] when it has a landing layer.
     pub fn fields(&self) -> Vec<SurfaceField> {
         let mut out = SurfaceField::ALL.to_vec();
         if self.sunlight.is_some() {
             out.extend(SurfaceField::SUNLIGHT);
+        }
+        if self.landing_density_per_m2.is_some() {
+            out.extend(SurfaceField::LANDINGS);
         }
         out
     }

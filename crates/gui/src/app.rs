@@ -190,6 +190,8 @@ pub struct SpinfallApp {
     pub(crate) plot: crate::plot_panel::PlotPanel,
     /// Zero-velocity surfaces and equilibrium points.
     pub(crate) env: crate::environment::Environment,
+    /// Landing statistics of the results shown.
+    pub(crate) landings: crate::landings::Landings,
     /// Sites resolved on the current body.
     site_cache: Option<SiteCache>,
 
@@ -326,6 +328,7 @@ impl SpinfallApp {
             run_after_body: false,
             plot: Default::default(),
             env: Default::default(),
+            landings: Default::default(),
             site_cache: None,
             commands: Vec::new(),
             notices: Vec::new(),

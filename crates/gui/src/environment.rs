@@ -53,6 +53,8 @@ struct GuidesKey {
     show_equilibria: bool,
     slice_generation: u64,
     equilibria_generation: u64,
+    landings_generation: u64,
+    show_landing_ellipses: bool,
 }
 
 /// State of the environment section.
@@ -241,6 +243,7 @@ impl SpinfallApp {
                 Err(e) => self.error(format!("equilibrium points: {e}")),
             }
         }
+        self.poll_landings();
         let Some(view) = self.view.clone() else {
             return;
         };
@@ -274,9 +277,13 @@ impl SpinfallApp {
             show_equilibria: self.env.show_equilibria,
             slice_generation: self.env.slice_generation,
             equilibria_generation: self.env.equilibria_generation,
+            landings_generation: self.landings.generation,
+            show_landing_ellipses: self.landings.show_ellipses,
         };
         if self.env.guides_key.as_ref() != Some(&key) {
-            self.env.guides = Arc::new(build_guides(&self.env, level, label));
+            let mut guides = build_guides(&self.env, level, label);
+            guides.landing_ellipses = self.landings.ellipses().to_vec();
+            self.env.guides = Arc::new(guides);
             self.env.guides_key = Some(key);
         }
         if !Arc::ptr_eq(view.guides(), &self.env.guides) {

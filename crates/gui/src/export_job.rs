@@ -20,7 +20,9 @@ use spinfall_workflow::export::write_surface_map_csv;
 use spinfall_workflow::gravity_method::FieldUsed;
 use spinfall_workflow::images::{png_summary, write_png};
 use spinfall_workflow::map_cache::load_or_compute_scenario_map;
+use spinfall_workflow::output::RunInfo;
 use spinfall_workflow::output::{OutputFolder, OutputTarget, SetFile, io_error, write_file};
+use spinfall_workflow::results_file::{EmbeddedScenario, ShapeCheck};
 use spinfall_workflow::run_files::{ResultSelection, result_files, run_info};
 use spinfall_workflow::scenario_file::scenario_json;
 use spinfall_workflow::series::plot_series;
@@ -46,6 +48,9 @@ struct Snapshot {
     cameras: [Option<Camera>; 2],
     t_s: f64,
     scenario: Scenario,
+    /// Embedded in results.json: the scenario (relocated to the export folder), that folder and
+    /// the shape check, so `spinfall stats` can reopen the body from the file alone.
+    embedded: EmbeddedScenario,
     title: String,
     sites: Vec<SiteMarker>,
     field: FieldUsed,
@@ -112,6 +117,14 @@ impl SpinfallApp {
             cameras: [self.panes[0].camera.clone(), self.panes[1].camera.clone()],
             t_s: self.t_s,
             scenario: self.scenario_for(folder),
+            embedded: EmbeddedScenario {
+                scenario: self.scenario_for(folder),
+                scenario_dir: std::path::absolute(folder).ok(),
+                shape_check: self.shape.as_ref().map(|s| ShapeCheck {
+                    faces: s.shape.face_count(),
+                    volume_m3: s.shape.mass_properties().volume_m3,
+                }),
+            },
             title: self
                 .scenario
                 .name
@@ -345,7 +358,10 @@ fn run_export(ctx: &JobContext, req: &ExportRequest, s: &Snapshot) -> Result<Exp
     };
     ctx.progress.set_stage("writing the files");
     ctx.request_repaint();
-    let info = run_info(Some(&s.scenario), &s.field);
+    let info = RunInfo {
+        embedded: Some(s.embedded.clone()),
+        ..run_info(Some(&s.scenario), &s.field)
+    };
     let mut files: Vec<SetFile<'_>> = Vec::new();
     for p in &pictures {
         let figure = &p.figure;

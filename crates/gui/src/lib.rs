@@ -39,6 +39,7 @@ mod export_job;
 mod handlers;
 mod history;
 mod jobs;
+mod landings;
 mod menu;
 mod notify;
 mod number_field;

@@ -145,6 +145,7 @@ fn decode(bytes: &[u8], key: &str, faces: usize) -> std::result::Result<SurfaceM
         escape_speed_min_m_s: take(faces),
         radial_sign: take(faces),
         sunlight: None,
+        landing_density_per_m2: None,
     })
 }
 

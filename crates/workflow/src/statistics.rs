@@ -173,3 +173,19 @@ pub fn landing_ellipse_guides(
         })
         .collect()
 }
+
+/// Landings per m² of each face over every landed launch of `reports` (rest points), for the
+/// surface map's landing layer ([`SurfaceField::LandingDensity`]); `None` when no launch landed.
+///
+/// [`SurfaceField::LandingDensity`]: spinfall_dynamics::surface_map::SurfaceField::LandingDensity
+pub fn landing_density_layer(body: &Body, reports: &[FlightReport]) -> Option<Vec<f64>> {
+    let all = spinfall_dynamics::statistics::LaunchGroup::explicit(
+        "all",
+        reports.iter().map(|r| r.id.clone()).collect(),
+    );
+    let counts = spinfall_dynamics::statistics::landing_counts(body, &all, reports);
+    if counts.iter().all(|&c| c == 0) {
+        return None;
+    }
+    Some(spinfall_dynamics::statistics::density_per_m2(body, &counts))
+}
