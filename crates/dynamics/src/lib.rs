@@ -53,6 +53,7 @@ pub mod scenario;
 pub mod site;
 pub mod sunlight;
 pub mod surface_map;
+pub mod targeting;
 pub mod zero_velocity;
 
 pub use body::{Body, BodyFigures, Spin, SpinAxis};
