@@ -191,7 +191,7 @@ impl TargetMode {
         match *self {
             TargetMode::MinSpeed => Ok(()),
             TargetMode::FixedElevation { elevation_deg: e } => {
-                if e.is_finite() && e >= 0.5 && e <= 89.5 {
+                if (0.5..=89.5).contains(&e) {
                     Ok(())
                 } else {
                     Err(DynamicsError::param(

@@ -561,8 +561,8 @@ pub fn solve_target(
         .min((10.0 * guess_t).max(2.0 * orbit_s));
 
     let n_t = body.shape.face_normal(request.target.face).into_inner();
-    let downrange = unit((target_m - launch_m) - n_t * n_t.dot(&(target_m - launch_m)))
-        .unwrap_or_else(|| along);
+    let downrange =
+        unit((target_m - launch_m) - n_t * n_t.dot(&(target_m - launch_m))).unwrap_or(along);
     let crossrange = n_t.cross(&downrange);
     let mut sh = Shooter {
         body,
@@ -742,8 +742,9 @@ fn explain(sh: &Shooter<'_>, why: FailWhy, best: &Option<Shot>, mode: TargetMode
         ),
         FailWhy::Stalled => match (mode, short) {
             (TargetMode::FixedSpeed { speed_m_s, .. }, Some(s)) => format!(
-                "the target lies beyond the reach of {speed_m_s} m/s: the farthest first \
-                 contact found falls {s:.1} m short"
+                "the target lies beyond the reach of {speed_m_s} m/s: the closest first \
+                 contact found is {:.1} m from it, {s:.1} m short downrange",
+                best.map_or(f64::NAN, |b| b.miss_m)
             ),
             _ => format!(
                 "no first contact near the target (terrain in the way, or the iterations did \
