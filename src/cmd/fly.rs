@@ -5,7 +5,7 @@
 use std::process::ExitCode;
 
 use spinfall_workflow::output::OutputFolder;
-use spinfall_workflow::prepare::{PrepareOptions, Purpose, prepare_with_hooks};
+use spinfall_workflow::prepare::{PrepareOptions, Purpose, prepare_with_targeting};
 use spinfall_workflow::run_files::{
     StatisticsOutput, run_info_of, write_run_folder_with_statistics,
 };
@@ -29,7 +29,11 @@ pub fn run(args: &FlyArgs) -> CmdResult<ExitCode> {
         gravity: gravity_options(&args.field),
         ..PrepareOptions::new(Purpose::Fly)
     };
-    let prepared = prepare_with_hooks(loaded, &options, &field_hooks())?;
+    let targeting = targeting_printer();
+    let prepared = prepare_with_targeting(loaded, &options, &field_hooks(), &targeting)?;
+    for t in &prepared.targeting {
+        note(&targeting_summary(t));
+    }
     announce_field(&prepared.field);
     for w in &prepared.shape.warnings {
         note(&format!("warning: shape model: {w}"));
@@ -63,4 +67,47 @@ pub fn run(args: &FlyArgs) -> CmdResult<ExitCode> {
         names.join(", ")
     ));
     Ok(run_exit_code(&done.reports))
+}
+
+/// Progress of targeted launches on stderr, at most one line a second per entry.
+fn targeting_printer() -> impl Fn(&str, usize, usize) + Sync {
+    let last = std::sync::Mutex::new(std::time::Instant::now());
+    move |id: &str, flights: usize, max: usize| {
+        if let Ok(mut last) = last.lock()
+            && last.elapsed() >= std::time::Duration::from_secs(1)
+        {
+            *last = std::time::Instant::now();
+            note(&format!(
+                "targeting {id}: {flights} trial flights (at most {max})"
+            ));
+        }
+    }
+}
+
+/// One line per targeted entry: the solution, or why the target is unreachable.
+fn targeting_summary(t: &spinfall_dynamics::scenario::TargetedEntry) -> String {
+    let r = &t.report;
+    let snapped = match r.target.snap_distance_m {
+        Some(d) => format!(" (target point_m snapped {d:.3} m to the nearest surface point)"),
+        None => String::new(),
+    };
+    match (&r.launch, r.solved()) {
+        (Some(l), true) => format!(
+            "targeting {}: speed {:.4} m/s, azimuth {:.2} deg, elevation {:.2} deg, flight time \
+             {:.1} s, miss {:.3} m (straight line), {} flights{snapped}",
+            t.id,
+            l.speed_m_s,
+            l.azimuth_deg,
+            l.elevation_deg,
+            r.flight_time_s.unwrap_or(f64::NAN),
+            r.miss_m.unwrap_or(f64::NAN),
+            r.flights
+        ),
+        _ => format!(
+            "targeting {}: unreachable: {} ({} flights){snapped}",
+            t.id,
+            r.reason.as_deref().unwrap_or("no solution"),
+            r.flights
+        ),
+    }
 }

@@ -54,6 +54,7 @@ pub mod site;
 pub mod statistics;
 pub mod sunlight;
 pub mod surface_map;
+pub mod targeting;
 pub mod zero_velocity;
 
 pub use body::{Body, BodyFigures, Spin, SpinAxis};

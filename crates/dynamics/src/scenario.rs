@@ -23,6 +23,10 @@ use crate::launch::{
 };
 use crate::site::{NormalMode, Site};
 use crate::sunlight::{Particle, Sun};
+use crate::targeting::{
+    DEFAULT_MAX_FLIGHTS, DEFAULT_MISS_TOLERANCE_M, Target, TargetMode, TargetPoint, TargetRequest,
+    TargetingReport, solve_target,
+};
 
 /// Value of the `format` key.
 pub const SCENARIO_FORMAT: &str = "spinfall-scenario";
@@ -223,6 +227,17 @@ pub struct LaunchEntry {
     /// The grain, for radiation pressure (default: `environment.particle`).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub particle: Option<Particle>,
+    /// A targeted launch: the surface point its first contact must reach (exactly one of
+    /// lat/lon, face or point; a point is snapped to the nearest surface point). Speed and
+    /// direction are then solved ([`crate::targeting`]), not given.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub target: Option<SiteSpec>,
+    /// What a targeted launch fixes or minimises (default `"min_speed"`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub mode: Option<TargetMode>,
+    /// Largest miss distance of a targeted launch, m (default 0.5).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub miss_tolerance_m: Option<f64>,
 }
 
 /// Explicit body-frame state.
@@ -525,6 +540,118 @@ fn check_particle(path: &str, p: &Particle) -> Result<()> {
         2.0,
     )?;
     Ok(())
+}
+
+/// Checks a targeted launch entry: no speed or direction of its own, one target form, the
+/// mode's number and the tolerance.
+fn validate_target(p: &str, l: &LaunchEntry, target: &SiteSpec) -> Result<()> {
+    for (k, present) in [
+        ("speed_m_s", l.speed_m_s.is_some()),
+        ("azimuth_deg", l.azimuth_deg.is_some()),
+        ("elevation_deg", l.elevation_deg.is_some()),
+    ] {
+        if present {
+            return Err(err(
+                format!("{p}.{k}"),
+                "a targeted launch (with \"target\") has its speed and direction solved; \
+                 remove this key (fix the speed or elevation in \"mode\")",
+            ));
+        }
+    }
+    if l.fan.is_some() {
+        return Err(err(
+            format!("{p}.fan"),
+            "a targeted launch takes no fan (a \"dispersion\" set around the solution is \
+             allowed)",
+        ));
+    }
+    let tp = format!("{p}.target");
+    let forms = [
+        target.lat_deg.is_some() || target.lon_deg.is_some(),
+        target.face.is_some(),
+        target.point_m.is_some(),
+    ];
+    if forms.iter().filter(|f| **f).count() != 1 {
+        return Err(err(
+            tp,
+            "give exactly one of {lat_deg, lon_deg}, {face} or {point_m}",
+        ));
+    }
+    if forms[0] {
+        let lat = target
+            .lat_deg
+            .ok_or_else(|| err(format!("{tp}.lat_deg"), "missing (lon_deg is given)"))?;
+        let lon = target
+            .lon_deg
+            .ok_or_else(|| err(format!("{tp}.lon_deg"), "missing (lat_deg is given)"))?;
+        in_range(&format!("{tp}.lat_deg"), lat, -90.0, 90.0)?;
+        finite(&format!("{tp}.lon_deg"), lon)?;
+    }
+    if let Some(pt) = target.point_m {
+        for (k, v) in pt.iter().enumerate() {
+            finite(&format!("{tp}.point_m[{k}]"), *v)?;
+        }
+    }
+    if let Some(mode) = &l.mode {
+        mode.check().map_err(|e| match e {
+            DynamicsError::InvalidParameter { name, message } => {
+                err(format!("{p}.mode.{name}"), message)
+            }
+            other => err(format!("{p}.mode"), other.to_string()),
+        })?;
+    }
+    if let Some(t) = l.miss_tolerance_m {
+        positive(&format!("{p}.miss_tolerance_m"), t)?;
+    }
+    Ok(())
+}
+
+/// The launches of a scenario with its targeted entries solved
+/// ([`Scenario::build_launches_targeted`]).
+#[derive(Debug, Clone)]
+pub struct TargetedLaunches {
+    /// Every launch state, in entry order (fans and dispersion sets expanded).
+    pub states: Vec<LaunchState>,
+    /// One record per targeted entry.
+    pub targeting: Vec<TargetedEntry>,
+}
+
+/// The solution of one targeted launch entry.
+#[derive(Debug, Clone)]
+pub struct TargetedEntry {
+    /// Index of the entry in `launches`.
+    pub entry: usize,
+    /// Its id.
+    pub id: String,
+    /// The launch states it expanded to (indices into [`TargetedLaunches::states`]). When the
+    /// target is unreachable they are placeholders that must not be flown: they end `failed`
+    /// with the report's reason.
+    pub launches: std::ops::Range<usize>,
+    /// The solution, or why the target is unreachable.
+    pub report: TargetingReport,
+}
+
+impl TargetedEntry {
+    /// The failure reason of the entry's launches when the target is unreachable.
+    pub fn failure_reason(&self) -> Option<String> {
+        (!self.report.solved()).then(|| {
+            format!(
+                "target unreachable: {}",
+                self.report.reason.as_deref().unwrap_or("no solution")
+            )
+        })
+    }
+}
+
+/// The target of a targeted entry as the core takes it.
+fn target_of(spec: &SiteSpec) -> Option<Target> {
+    if let (Some(lat_deg), Some(lon_deg)) = (spec.lat_deg, spec.lon_deg) {
+        Some(Target::LatLon { lat_deg, lon_deg })
+    } else if let Some(face) = spec.face {
+        Some(Target::Face(face))
+    } else {
+        spec.point_m.map(Target::PointM)
+    }
 }
 
 impl Scenario {
@@ -841,6 +968,9 @@ impl Scenario {
                     ("normal", l.normal.is_some()),
                     ("fan", l.fan.is_some()),
                     ("dispersion", l.dispersion.is_some()),
+                    ("target", l.target.is_some()),
+                    ("mode", l.mode.is_some()),
+                    ("miss_tolerance_m", l.miss_tolerance_m.is_some()),
                 ] {
                     if present {
                         return Err(err(
@@ -878,13 +1008,28 @@ impl Scenario {
                         finite(&format!("{sp}.point_m[{k}]"), *v)?;
                     }
                 }
-                let speed = l.speed_m_s.ok_or_else(|| {
-                    err(
-                        format!("{p}.speed_m_s"),
-                        "missing: a launch from a site needs a speed",
-                    )
-                })?;
-                in_range(&format!("{p}.speed_m_s"), speed, 0.0, f64::MAX)?;
+                if let Some(target) = &l.target {
+                    validate_target(p, l, target)?;
+                } else {
+                    for (k, present) in [
+                        ("mode", l.mode.is_some()),
+                        ("miss_tolerance_m", l.miss_tolerance_m.is_some()),
+                    ] {
+                        if present {
+                            return Err(err(
+                                format!("{p}.{k}"),
+                                "only applies to a targeted launch (one with \"target\")",
+                            ));
+                        }
+                    }
+                    let speed = l.speed_m_s.ok_or_else(|| {
+                        err(
+                            format!("{p}.speed_m_s"),
+                            "missing: a launch from a site needs a speed (or a \"target\")",
+                        )
+                    })?;
+                    in_range(&format!("{p}.speed_m_s"), speed, 0.0, f64::MAX)?;
+                }
                 if let Some(a) = l.azimuth_deg {
                     finite(&format!("{p}.azimuth_deg"), a)?;
                 }
@@ -1060,7 +1205,111 @@ impl Scenario {
     /// Expand only after checking [`Scenario::launch_count`] against a limit: the states are
     /// all built in memory. Generated ids (`id/k` for fan members, `id#k` for dispersion
     /// members) that collide with another launch's id are an error naming both entries.
+    ///
+    /// A targeted entry (with `target`) needs flights to resolve: it is refused here, naming
+    /// it; use [`Scenario::build_launches_targeted`].
     pub fn build_launches(&self, body: &Body) -> Result<Vec<LaunchState>> {
+        let (states, _) = self.expand(body, &mut |i, _, _| {
+            Err(err(
+                format!("launches[{i}].target"),
+                "a targeted launch is solved by flights: expand it with \
+                 Scenario::build_launches_targeted",
+            ))
+        })?;
+        Ok(states)
+    }
+
+    /// As [`Scenario::build_launches`], solving each targeted entry first (see
+    /// [`crate::targeting`]) with the scenario's flight settings: the entry then flies the
+    /// solution (and its dispersion set around it).
+    ///
+    /// `progress(id, flights, max_flights)` is called after each batch of trial flights of the
+    /// entry `id`. At most [`DEFAULT_MAX_FLIGHTS`] flights per targeted entry.
+    ///
+    /// # Errors
+    /// As [`Scenario::build_launches`], a bad target (naming `launches[i].target`), and
+    /// [`DynamicsError::Cancelled`]. An unreachable target is not an error: its entry's
+    /// launches are placeholders listed in [`TargetedEntry`] with the reason.
+    pub fn build_launches_targeted(
+        &self,
+        body: &Body,
+        progress: &(dyn Fn(&str, usize, usize) + Sync),
+        cancel: &crate::Cancel,
+    ) -> Result<TargetedLaunches> {
+        let settings = self.flight_settings();
+        let mut reports: Vec<(usize, TargetingReport)> = Vec::new();
+        let (states, entry_of) = self.expand(body, &mut |i, l, site| {
+            let p = format!("launches[{i}]");
+            let spec = l
+                .target
+                .as_ref()
+                .and_then(target_of)
+                .ok_or_else(|| err(format!("{p}.target"), "missing"))?;
+            let target = TargetPoint::resolve(body, &spec).map_err(|e| match e {
+                DynamicsError::InvalidParameter { message, .. } => {
+                    err(format!("{p}.target"), message)
+                }
+                other => err(format!("{p}.target"), other.to_string()),
+            })?;
+            let request = TargetRequest {
+                site: site.clone(),
+                target,
+                mode: l.mode.unwrap_or(TargetMode::MinSpeed),
+                miss_tolerance_m: l.miss_tolerance_m.unwrap_or(DEFAULT_MISS_TOLERANCE_M),
+                start_altitude_m: l.altitude_m.unwrap_or(DEFAULT_START_ALTITUDE_M),
+                particle: self.particle_of(i),
+                max_flights: DEFAULT_MAX_FLIGHTS,
+            };
+            let report = solve_target(
+                body,
+                &request,
+                &settings,
+                &|done, max| progress(&l.id, done, max),
+                cancel,
+            )
+            .map_err(|e| match e {
+                DynamicsError::Cancelled => DynamicsError::Cancelled,
+                other => err(format!("{p}.target"), other.to_string()),
+            })?;
+            let velocity = report
+                .launch
+                .filter(|_| report.solved())
+                .map_or((0.0, 0.0, 90.0), |v| {
+                    (v.speed_m_s, v.azimuth_deg, v.elevation_deg)
+                });
+            reports.push((i, report));
+            Ok(velocity)
+        })?;
+        let targeting = reports
+            .into_iter()
+            .map(|(i, report)| {
+                let first = entry_of
+                    .iter()
+                    .position(|&e| e == i)
+                    .unwrap_or(states.len());
+                let count = entry_of.iter().filter(|&&e| e == i).count();
+                TargetedEntry {
+                    entry: i,
+                    id: self.launches[i].id.clone(),
+                    launches: first..first + count,
+                    report,
+                }
+            })
+            .collect();
+        Ok(TargetedLaunches { states, targeting })
+    }
+
+    /// Expands the entries; `solve(i, entry, site)` gives (speed m/s, azimuth deg, elevation
+    /// deg) of a targeted entry. Returns the states and the entry of each.
+    #[allow(
+        clippy::type_complexity,
+        reason = "one private callback, named by its doc"
+    )]
+    fn expand(
+        &self,
+        body: &Body,
+        solve: &mut dyn FnMut(usize, &LaunchEntry, &Site) -> Result<(f64, f64, f64)>,
+    ) -> Result<(Vec<LaunchState>, Vec<usize>)> {
         let mut out = Vec::new();
         let mut entry_of: Vec<usize> = Vec::new();
         for (i, l) in self.launches.iter().enumerate() {
@@ -1081,14 +1330,22 @@ impl Scenario {
                 .site(body)
                 .map_err(|e| err(format!("{p}.site"), e.to_string()))?
                 .ok_or_else(|| err(p.clone(), "needs a \"state\" or a \"site\""))?;
+            let (speed_m_s, azimuth_deg, elevation_deg) = if l.target.is_some() {
+                solve(i, l, &site)?
+            } else {
+                (
+                    l.speed_m_s
+                        .ok_or_else(|| err(format!("{p}.speed_m_s"), "missing"))?,
+                    l.azimuth_deg.unwrap_or(0.0),
+                    l.elevation_deg.unwrap_or(90.0),
+                )
+            };
             let spec = LaunchSpec {
                 id: l.id.clone(),
                 site,
-                speed_m_s: l
-                    .speed_m_s
-                    .ok_or_else(|| err(format!("{p}.speed_m_s"), "missing"))?,
-                azimuth_deg: l.azimuth_deg.unwrap_or(0.0),
-                elevation_deg: l.elevation_deg.unwrap_or(90.0),
+                speed_m_s,
+                azimuth_deg,
+                elevation_deg,
                 start_altitude_m: l.altitude_m.unwrap_or(DEFAULT_START_ALTITUDE_M),
             };
             let members = match &l.fan {
@@ -1133,7 +1390,7 @@ impl Scenario {
         for (state, &i) in out.iter_mut().zip(&entry_of) {
             state.particle = self.particle_of(i);
         }
-        Ok(out)
+        Ok((out, entry_of))
     }
 
     /// A demo scenario on the built-in body Quillon: a fan of eight azimuths from a mid-latitude

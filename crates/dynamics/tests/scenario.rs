@@ -295,7 +295,7 @@ fn every_json_example_in_scenario_md_parses() {
         .skip(1)
         .map(|b| b.split("```").next().unwrap())
         .collect();
-    assert_eq!(blocks.len(), 4, "SCENARIO.md's JSON examples");
+    assert_eq!(blocks.len(), 5, "SCENARIO.md's JSON examples");
     for b in &blocks {
         // A whole document parses as it is; a fragment (`"key": value`) parses inside the
         // minimal document.
@@ -306,14 +306,24 @@ fn every_json_example_in_scenario_md_parses() {
         };
         Scenario::from_json_str(&text).unwrap_or_else(|e| panic!("{e}\n{b}"));
     }
+    // The third is a targeted launch: its mode and tolerance reach the parsed scenario.
+    let targeted = Scenario::from_json_str(blocks[2]).unwrap();
+    assert_eq!(
+        targeted.launches[0].mode,
+        Some(spinfall_dynamics::targeting::TargetMode::FixedSpeed {
+            speed_m_s: 0.6,
+            arc: spinfall_dynamics::targeting::ArcChoice::Low
+        })
+    );
+    assert_eq!(targeted.launches[0].miss_tolerance_m, Some(0.5));
     // The fragment is the `field` section, and it reaches the parsed scenario.
-    let with_field = MINIMAL.replacen('{', &format!("{{{},", blocks[2].trim()), 1);
+    let with_field = MINIMAL.replacen('{', &format!("{{{},", blocks[3].trim()), 1);
     let field = Scenario::from_json_str(&with_field).unwrap().field.unwrap();
     assert_eq!(field.method, FieldMethodSpec::Interpolated);
     assert_eq!(field.max_rel_error, 1e-9);
     assert_eq!(field.max_memory_mb, Some(4096));
     // The fourth is the `environment` section, and it reaches the parsed scenario.
-    let with_env = MINIMAL.replacen('{', &format!("{{{},", blocks[3].trim()), 1);
+    let with_env = MINIMAL.replacen('{', &format!("{{{},", blocks[4].trim()), 1);
     let env = Scenario::from_json_str(&with_env).unwrap();
     assert_eq!(env.sun().unwrap().distance_au, 2.2);
     assert_eq!(env.default_particle().unwrap().radius_m, 5e-5);

@@ -4,8 +4,9 @@
 
 use std::sync::Arc;
 
+use spinfall_dynamics::DynamicsError;
 use spinfall_dynamics::launch::LaunchState;
-use spinfall_dynamics::scenario::Scenario;
+use spinfall_dynamics::scenario::{Scenario, TargetedEntry};
 use spinfall_dynamics::{Body, FlightSettings};
 
 use crate::error::{Result, WorkflowError};
@@ -66,6 +67,9 @@ pub struct PreparedRun {
     pub gravity: GravityOptions,
     /// How gravity was computed (the method in force, with the interpolated field's build).
     pub field: FieldUsed,
+    /// The solved targeted entries (see `spinfall_dynamics::targeting`); the launches of an
+    /// unreachable one are not flown and end `failed` with its reason ([`crate::run`]).
+    pub targeting: Vec<TargetedEntry>,
 }
 
 impl PreparedRun {
@@ -118,6 +122,38 @@ pub fn prepare_shape_hooks(
     options: &PrepareOptions,
     hooks: &BuildHooks<'_>,
 ) -> Result<PreparedRun> {
+    prepare_shape_targeting(loaded, shape, options, hooks, &|_, _, _| {})
+}
+
+/// As [`prepare_with_hooks`], with the progress of targeted launches:
+/// `targeting(id, flights, max_flights)` after each batch of trial flights of entry `id`.
+/// Targeted entries are solved here, before the run, honouring `hooks.cancel`.
+///
+/// # Errors
+/// As [`prepare`], and [`WorkflowError::Cancelled`].
+pub fn prepare_with_targeting(
+    loaded: LoadedScenario,
+    options: &PrepareOptions,
+    hooks: &BuildHooks<'_>,
+    targeting: &(dyn Fn(&str, usize, usize) + Sync),
+) -> Result<PreparedRun> {
+    check_launch_count(&loaded, options)?;
+    let shape = open_shape(&loaded.shape_request())?;
+    prepare_shape_targeting(loaded, shape, options, hooks, targeting)
+}
+
+/// As [`prepare_shape_hooks`], with the progress of targeted launches (see
+/// [`prepare_with_targeting`]).
+///
+/// # Errors
+/// As [`prepare`], and [`WorkflowError::Cancelled`].
+pub fn prepare_shape_targeting(
+    loaded: LoadedScenario,
+    shape: OpenedShape,
+    options: &PrepareOptions,
+    hooks: &BuildHooks<'_>,
+    targeting: &(dyn Fn(&str, usize, usize) + Sync),
+) -> Result<PreparedRun> {
     check_launch_count(&loaded, options)?;
     let scenario = &loaded.scenario;
     let refused = |error| WorkflowError::Scenario {
@@ -131,9 +167,17 @@ pub fn prepare_shape_hooks(
     }
     let (body, field) = build_body(scenario, &shape, &options.gravity, hooks)?;
     let body = Arc::new(body);
-    let launches = match options.purpose {
-        Purpose::Fly => scenario.build_launches(&body).map_err(refused)?,
-        Purpose::BodyOnly => Vec::new(),
+    let (launches, targeted) = match options.purpose {
+        Purpose::Fly => {
+            let built = scenario
+                .build_launches_targeted(&body, targeting, hooks.cancel)
+                .map_err(|e| match e {
+                    DynamicsError::Cancelled => WorkflowError::Cancelled,
+                    other => refused(other),
+                })?;
+            (built.states, built.targeting)
+        }
+        Purpose::BodyOnly => (Vec::new(), Vec::new()),
     };
     Ok(PreparedRun {
         loaded,
@@ -144,6 +188,7 @@ pub fn prepare_shape_hooks(
         estimate: est,
         gravity: options.gravity.clone(),
         field,
+        targeting: targeted,
     })
 }
 

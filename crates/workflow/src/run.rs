@@ -52,6 +52,55 @@ pub fn stopped_by_cancel(report: &FlightReport) -> bool {
 /// The failure reason of a launch stopped by a cancel.
 const CANCELLED: &str = "cancelled";
 
+/// Flies the launches of `run`: every launch but the placeholders of unreachable targets
+/// (which end `failed` with the reason), then attaches each targeted entry's solution to its
+/// launches' reports.
+fn fly_prepared(
+    run: &PreparedRun,
+    progress: &(dyn Fn(usize, usize) + Sync),
+    cancel: &Cancel,
+) -> Vec<FlightReport> {
+    let mut skip: Vec<Option<String>> = vec![None; run.launches.len()];
+    for t in &run.targeting {
+        if let Some(reason) = t.failure_reason() {
+            for k in t.launches.clone() {
+                if let Some(s) = skip.get_mut(k) {
+                    *s = Some(reason.clone());
+                }
+            }
+        }
+    }
+    let mut reports = if skip.iter().all(Option::is_none) {
+        fly_all(&run.body, &run.launches, &run.settings, progress, cancel)
+    } else {
+        let flown: Vec<_> = run
+            .launches
+            .iter()
+            .zip(&skip)
+            .filter(|(_, s)| s.is_none())
+            .map(|(l, _)| l.clone())
+            .collect();
+        let mut done = fly_all(&run.body, &flown, &run.settings, progress, cancel).into_iter();
+        run.launches
+            .iter()
+            .zip(&skip)
+            .map(|(l, s)| match s {
+                Some(reason) => Some(FlightReport::not_flown(l, reason.clone())),
+                None => done.next(),
+            })
+            .map(|r| r.unwrap_or_else(|| FlightReport::not_flown(&run.launches[0], "not flown")))
+            .collect()
+    };
+    for t in &run.targeting {
+        for k in t.launches.clone() {
+            if let Some(r) = reports.get_mut(k) {
+                r.targeting = Some(Box::new(t.report.clone()));
+            }
+        }
+    }
+    reports
+}
+
 /// As [`run`], but a cancelled run keeps the launches that had ended before the cancel.
 pub fn run_keeping_finished(
     run: &PreparedRun,
@@ -59,7 +108,7 @@ pub fn run_keeping_finished(
     cancel: &Cancel,
 ) -> RunEnd {
     let start = Instant::now();
-    let reports = fly_all(&run.body, &run.launches, &run.settings, progress, cancel);
+    let reports = fly_prepared(run, progress, cancel);
     let elapsed = start.elapsed();
     if cancel.load(std::sync::atomic::Ordering::Relaxed) {
         let launches = reports.len();
@@ -87,7 +136,7 @@ pub fn run(
     cancel: &Cancel,
 ) -> Result<RunReports> {
     let start = Instant::now();
-    let reports = fly_all(&run.body, &run.launches, &run.settings, progress, cancel);
+    let reports = fly_prepared(run, progress, cancel);
     if cancel.load(std::sync::atomic::Ordering::Relaxed) {
         return Err(WorkflowError::Cancelled);
     }

@@ -265,6 +265,10 @@ pub struct FlightReport {
     pub trajectory_body: Vec<TrajectorySample>,
     /// Sampled trajectory, inertial frame.
     pub trajectory_inertial: Vec<TrajectorySample>,
+    /// For a launch of a targeted scenario entry: the targeting solution, or why the target is
+    /// unreachable (set by the caller that solved it; `fly` leaves it `None`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub targeting: Option<Box<crate::targeting::TargetingReport>>,
 }
 
 /// Flies one launch; never panics or hangs (limits in [`IntegratorSettings`], `cancel`).
@@ -361,6 +365,7 @@ fn blank_report(launch: &LaunchState) -> FlightReport {
         final_vel_inertial_m_s: launch.vel_body_m_s.into(),
         trajectory_body: Vec::new(),
         trajectory_inertial: Vec::new(),
+        targeting: None,
     }
 }
 
@@ -411,6 +416,16 @@ fn check_settings(launch: &LaunchState, s: &FlightSettings) -> Result<(), String
 }
 
 impl FlightReport {
+    /// The report of a launch that is not flown: `Failed` with `reason`, at its start state
+    /// (e.g. a targeted launch whose target is unreachable).
+    pub fn not_flown(launch: &LaunchState, reason: impl Into<String>) -> FlightReport {
+        let mut r = blank_report(launch);
+        r.outcome = Outcome::Failed {
+            reason: reason.into(),
+        };
+        r
+    }
+
     /// True if the flight came to rest.
     pub fn landed(&self) -> bool {
         matches!(self.outcome, Outcome::Landed)

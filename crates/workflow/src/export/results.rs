@@ -4,6 +4,7 @@
 use std::io::Write;
 
 use serde::Serialize;
+use spinfall_dynamics::targeting::TargetingReport;
 use spinfall_dynamics::{Contact, FlightReport, LandingPoint, Outcome, ShadowEvent};
 
 use super::{csv_error, csv_writer, json_error};
@@ -39,6 +40,8 @@ struct ResultRecord<'a> {
     final_vel_body_m_s: [f64; 3],
     final_pos_inertial_m: [f64; 3],
     final_vel_inertial_m_s: [f64; 3],
+    #[serde(skip_serializing_if = "Option::is_none")]
+    targeting: Option<&'a TargetingReport>,
 }
 
 #[derive(Serialize)]
@@ -63,6 +66,9 @@ const NOT_APPLICABLE: &str = "not applicable: the Sun's radiation pressure and t
 
 /// Writes one JSON record per launch (SI units, keys named with units; trajectories left out,
 /// see [`super::write_trajectories_csv`]), after how the gravity was computed (`field`).
+///
+/// A launch of a targeted entry has `targeting`: the solution or why the target is unreachable
+/// ([`TargetingReport`]).
 ///
 /// With the Sun's forces a record has `jacobi_rel_drift: null` with a `jacobi_rel_drift_note`
 /// saying why, `energy_added_m2_s2` and, with shadow, `shadow_events`.
@@ -118,6 +124,7 @@ pub fn write_results_json_embedding(
                 final_vel_body_m_s: r.final_vel_body_m_s,
                 final_pos_inertial_m: r.final_pos_inertial_m,
                 final_vel_inertial_m_s: r.final_vel_inertial_m_s,
+                targeting: r.targeting.as_deref(),
             })
             .collect(),
     };
