@@ -94,6 +94,7 @@ fn blank(id: &str, outcome: Outcome) -> FlightReport {
         jacobi_rel_drift: Some(0.0),
         energy_added_m2_s2: None,
         shadow_events: Vec::new(),
+        targeting: None,
         frame_agreement_m: 0.0,
         gravity_evaluations: 0,
         steps: 0,
