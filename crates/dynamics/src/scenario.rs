@@ -643,8 +643,8 @@ impl TargetedEntry {
     }
 }
 
-/// The target of a targeted entry as the core takes it.
-fn target_of(spec: &SiteSpec) -> Option<Target> {
+/// The target of a targeted entry as the core takes it (`None` when the spec names no point).
+pub fn target_of(spec: &SiteSpec) -> Option<Target> {
     if let (Some(lat_deg), Some(lon_deg)) = (spec.lat_deg, spec.lon_deg) {
         Some(Target::LatLon { lat_deg, lon_deg })
     } else if let Some(face) = spec.face {

@@ -170,6 +170,8 @@ pub struct SpinfallApp {
     // Views.
     pub(crate) panes: [ViewPane; 2],
     pub(crate) click_to_place: bool,
+    /// The next click on the body sets the selected launch's target.
+    pub(crate) pick_target: bool,
     pub(crate) hover: Option<crate::views::HoverInfo>,
     pub(crate) frame_ms: f32,
     /// Smoothed time between frames (whole loop: UI, upload, paint, swap), s.
@@ -314,6 +316,7 @@ impl SpinfallApp {
                 ViewPane::new(spinfall_scene::Frame::Inertial),
             ],
             click_to_place: true,
+            pick_target: false,
             hover: None,
             frame_ms: 0.0,
             frame_interval_s: 0.0,
@@ -802,6 +805,23 @@ impl SpinfallApp {
     /// Markers of the planned sites with their launch directions.
     pub(crate) fn site_markers(&mut self) -> Vec<spinfall_scene::SiteMarker> {
         let selected = self.selected_site;
+        let body = self.view.as_ref().map(|v| v.body().clone());
+        let targets: Vec<Option<[f64; 3]>> = self
+            .scenario
+            .launches
+            .iter()
+            .map(|l| {
+                let spec = l.target.as_ref()?;
+                if let Some(p) = spec.point_m {
+                    return Some(p);
+                }
+                let target = spinfall_dynamics::scenario::target_of(spec)?;
+                let body = body.as_ref()?;
+                spinfall_dynamics::targeting::TargetPoint::resolve(body, &target)
+                    .ok()
+                    .map(|t| t.point_body_m)
+            })
+            .collect();
         let directions: Vec<(f64, f64)> = self
             .scenario
             .launches
@@ -824,9 +844,10 @@ impl SpinfallApp {
                         site.point_body_m.y,
                         site.point_body_m.z,
                     ],
-                    launch_dir_body: Some([d.x, d.y, d.z]),
+                    // A targeted launch's direction is solved when it is flown.
+                    launch_dir_body: targets[i].is_none().then_some([d.x, d.y, d.z]),
                     selected: selected == Some(i),
-                    target_body_m: None,
+                    target_body_m: targets[i],
                 })
             })
             .collect()

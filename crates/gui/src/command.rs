@@ -43,6 +43,12 @@ pub enum Command {
         /// Face index hit.
         face: usize,
     },
+    /// Aim the selected launch at a body-fixed surface point (metres): a targeted hop whose
+    /// speed and direction are solved when it is flown.
+    SetTarget {
+        /// Surface point, body frame, metres.
+        point_body_m: Point3<f64>,
+    },
     /// Add a launch site at planetocentric latitude/longitude (degrees).
     AddSiteLatLon {
         /// Latitude, degrees.

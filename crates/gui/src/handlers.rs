@@ -77,6 +77,7 @@ impl SpinfallApp {
             Command::Run => self.start_run(),
             Command::CancelJobs => self.cancel_jobs(),
             Command::ComputeZeroVelocity => self.start_slice(),
+            Command::SetTarget { point_body_m } => self.set_target(point_body_m),
             Command::FindEquilibria => self.start_equilibria(),
             Command::SwitchResults => self.switch_results(),
             Command::SelectLaunch(i) => {
@@ -252,9 +253,49 @@ impl SpinfallApp {
             speed_m_s: Some(speed),
             azimuth_deg: Some(azimuth),
             elevation_deg: Some(elevation),
+            // A new site starts untargeted (a target is picked for it afterwards).
+            target: None,
+            mode: None,
+            miss_tolerance_m: None,
             ..template
         });
         self.selected_site = Some(self.scenario.launches.len() - 1);
+    }
+
+    /// Aims the selected launch at `point_body_m`: a targeted hop (speed and direction are
+    /// solved when it is flown; a fan does not go with a target).
+    fn set_target(&mut self, point_body_m: nalgebra::Point3<f64>) {
+        let Some(i) = self
+            .selected_site
+            .filter(|&i| i < self.scenario.launches.len())
+        else {
+            self.error("select a launch first, then Shift+click its target on the body");
+            return;
+        };
+        let (lat, lon) = match &self.view {
+            Some(v) => spinfall_dynamics::site::lat_lon_deg(v.body(), &point_body_m),
+            None => (f64::NAN, f64::NAN),
+        };
+        if self.scenario.launches[i].site.is_none() {
+            let id = self.scenario.launches[i].id.clone();
+            self.error(format!(
+                "{id} has no surface site (an explicit state cannot be aimed)"
+            ));
+            return;
+        }
+        let launch = &mut self.scenario.launches[i];
+        launch.target = Some(SiteSpec {
+            point_m: Some(point_body_m.into()),
+            ..SiteSpec::default()
+        });
+        launch.speed_m_s = None;
+        launch.azimuth_deg = None;
+        launch.elevation_deg = None;
+        launch.fan = None;
+        let id = launch.id.clone();
+        self.info(format!(
+            "{id} aimed at lat {lat:.2}°, lon {lon:.2}°: its launch is solved when it is flown"
+        ));
     }
 
     /// Removes a launch; the removal is one undo step, offered in the notice.

@@ -48,6 +48,7 @@ mod results;
 mod session;
 mod sites;
 mod state;
+mod targeting_panel;
 mod units;
 mod views;
 mod work;

@@ -217,6 +217,7 @@ impl SpinfallApp {
             ui.vertical(|ui| {
                 ui.set_width((width * 0.45).max(300.0));
                 self.table_ui(ui);
+                self.targeting_ui(ui);
                 self.landing_statistics_ui(ui);
             });
             ui.separator();

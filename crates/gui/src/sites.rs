@@ -9,6 +9,7 @@ use spinfall_dynamics::scenario::{
     BounceSpec, DispersionSpec, FanSpec, IntegratorSpec, LaunchEntry, SiteSpec,
 };
 use spinfall_dynamics::site::NormalMode;
+use spinfall_dynamics::targeting::{ArcChoice, TargetMode};
 use spinfall_scene::DisplayUnits;
 
 use crate::app::SpinfallApp;
@@ -190,6 +191,10 @@ impl SpinfallApp {
                     }
                 });
                 ui.end_row();
+                if launch.target.is_some() {
+                    target_rows_ui(ui, launch, i, units);
+                    return;
+                }
                 let l = ui.label("Speed:");
                 if NumberField::new(&mut speed, ("speed", i))
                     .range(0.0, 1000.0)
@@ -224,10 +229,152 @@ impl SpinfallApp {
                 }
                 ui.end_row();
             });
+        if launch.target.is_some() {
+            if ui
+                .button("Clear target")
+                .on_hover_text("Back to a launch of given speed and direction")
+                .clicked()
+            {
+                launch.target = None;
+                launch.mode = None;
+                launch.miss_tolerance_m = None;
+                launch.speed_m_s = Some(speed);
+                launch.azimuth_deg = Some(azimuth);
+                launch.elevation_deg = Some(elevation);
+            }
+            return;
+        }
+        ui.horizontal_wrapped(|ui| {
+            let pick = ui
+                .selectable_label(self.pick_target, "Pick target")
+                .on_hover_text(
+                    "Aim this launch at a point: click the target on the body next (or \
+                     Shift+click it at any time); speed and direction are then solved",
+                );
+            if pick.clicked() {
+                self.pick_target = !self.pick_target;
+            }
+            if self.pick_target {
+                ui.weak("click the target on the body");
+            }
+        });
+        let launch = &mut self.scenario.launches[i];
         if let Some((v_normal, v_min)) = escape_normal {
             escape_gauge_ui(ui, speed, v_normal, v_min);
         }
         spread_ui(ui, launch, azimuth, i);
+    }
+}
+
+/// The rows of a targeted launch: where it is aimed, what is fixed or minimised, the miss
+/// tolerance.
+fn target_rows_ui(ui: &mut Ui, launch: &mut LaunchEntry, i: usize, units: DisplayUnits) {
+    let target_text = match &launch.target {
+        Some(SiteSpec {
+            lat_deg: Some(a),
+            lon_deg: Some(o),
+            ..
+        }) => format!("lat {a:.3}°, lon {o:.3}°"),
+        Some(SiteSpec { face: Some(f), .. }) => format!("face {f}"),
+        Some(SiteSpec {
+            point_m: Some(p), ..
+        }) => format!(
+            "picked point ({})",
+            p.iter()
+                .map(|c| units.fmt_length(*c))
+                .collect::<Vec<_>>()
+                .join(", ")
+        ),
+        _ => "—".into(),
+    };
+    ui.label("Target:");
+    ui.label(target_text);
+    ui.end_row();
+    let mut mode = launch.mode.unwrap_or(TargetMode::MinSpeed);
+    let before = mode;
+    ui.label("Solve for:");
+    egui::ComboBox::from_id_salt(("target_mode", i))
+        .selected_text(mode_name(&mode))
+        .show_ui(ui, |ui| {
+            for m in [
+                TargetMode::MinSpeed,
+                TargetMode::FixedElevation {
+                    elevation_deg: 45.0,
+                },
+                TargetMode::FixedSpeed {
+                    speed_m_s: 0.3,
+                    arc: ArcChoice::Low,
+                },
+                TargetMode::FixedSpeed {
+                    speed_m_s: 0.3,
+                    arc: ArcChoice::High,
+                },
+            ] {
+                let same = std::mem::discriminant(&m) == std::mem::discriminant(&mode)
+                    && arc_of(&m) == arc_of(&mode);
+                if ui.selectable_label(same, mode_name(&m)).clicked() && !same {
+                    mode = m;
+                }
+            }
+        });
+    ui.end_row();
+    match &mut mode {
+        TargetMode::MinSpeed => {}
+        TargetMode::FixedElevation { elevation_deg } => {
+            let l = ui.label("Elevation:");
+            NumberField::new(elevation_deg, ("target_elevation", i))
+                .range(0.1, 89.9)
+                .unit("°", 1.0)
+                .show(ui)
+                .labelled_by(l.id);
+            ui.end_row();
+        }
+        TargetMode::FixedSpeed { speed_m_s, .. } => {
+            let l = ui.label("Speed:");
+            NumberField::new(speed_m_s, ("target_speed", i))
+                .range(1e-6, 1000.0)
+                .unit("m/s", 1.0)
+                .show(ui)
+                .labelled_by(l.id);
+            ui.end_row();
+        }
+    }
+    if mode != before || (launch.mode.is_none() && mode != TargetMode::MinSpeed) {
+        launch.mode = Some(mode);
+    }
+    let l = ui.label("Miss tolerance:");
+    let mut tol_m = launch.miss_tolerance_m.unwrap_or(0.5);
+    if NumberField::new(&mut tol_m, ("miss_tolerance", i))
+        .range(1e-4, 1e6)
+        .unit(units.length_symbol(), units.metres_per_length_unit())
+        .show(ui)
+        .labelled_by(l.id)
+        .changed()
+    {
+        launch.miss_tolerance_m = Some(tol_m);
+    }
+    ui.end_row();
+}
+
+fn arc_of(m: &TargetMode) -> Option<ArcChoice> {
+    match m {
+        TargetMode::FixedSpeed { arc, .. } => Some(*arc),
+        _ => None,
+    }
+}
+
+fn mode_name(m: &TargetMode) -> &'static str {
+    match m {
+        TargetMode::MinSpeed => "least speed",
+        TargetMode::FixedElevation { .. } => "speed, at a given elevation",
+        TargetMode::FixedSpeed {
+            arc: ArcChoice::Low,
+            ..
+        } => "elevation, at a given speed (low arc)",
+        TargetMode::FixedSpeed {
+            arc: ArcChoice::High,
+            ..
+        } => "elevation, at a given speed (high arc)",
     }
 }
 

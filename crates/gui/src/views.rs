@@ -325,11 +325,17 @@ impl SpinfallApp {
         if let Some(i) = clicked_trace {
             self.commands.push(Command::SelectLaunch(Some(i)));
         }
-        if let Some((point_body_m, face)) = click
-            && self.click_to_place
-        {
-            self.commands
-                .push(Command::AddSiteAtPoint { point_body_m, face });
+        // Shift+click (or a click after "Pick target") aims the selected launch; a plain click
+        // places a site.
+        let shift = ui.input(|i| i.modifiers.shift);
+        if let Some((point_body_m, face)) = click {
+            if shift || self.pick_target {
+                self.pick_target = false;
+                self.commands.push(Command::SetTarget { point_body_m });
+            } else if self.click_to_place {
+                self.commands
+                    .push(Command::AddSiteAtPoint { point_body_m, face });
+            }
         }
         self.hover = hover;
     }
