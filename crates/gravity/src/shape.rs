@@ -90,6 +90,25 @@ impl ShapeModel {
         Ok((shape, warnings))
     }
 
+    /// Reads a shape model in any supported format ([`crate::parse_shape`]) and builds it. The
+    /// format comes from `name`'s extension, confirmed by the content
+    /// ([`crate::ShapeFormat::resolve`]).
+    ///
+    /// # Errors
+    /// A format that disagrees with the name, parse errors with their line or byte offset, then
+    /// the errors of [`ShapeModel::new`].
+    pub fn from_named_bytes(
+        name: &str,
+        bytes: &[u8],
+        unit: LengthUnit,
+    ) -> Result<(ShapeModel, Vec<Warning>)> {
+        let format = crate::ShapeFormat::resolve(name, bytes)?;
+        let (mesh, mut warnings) = crate::parse_shape(bytes, format, unit)?;
+        let (shape, more) = ShapeModel::new(mesh)?;
+        warnings.extend(more);
+        Ok((shape, warnings))
+    }
+
     fn build(mesh: Mesh, neighbours: Vec<[usize; 3]>) -> ShapeModel {
         let mut normals = Vec::with_capacity(mesh.faces.len());
         let mut centroids_m = Vec::with_capacity(mesh.faces.len());

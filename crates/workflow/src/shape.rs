@@ -1,5 +1,7 @@
 //! Opening shape models: from a path, from bytes (a dropped file, a test), or the built-in demo
-//! body; in their length unit; recentred on the centre of mass or not.
+//! body; in their length unit; recentred on the centre of mass or not. OBJ, PLY (ASCII and
+//! binary) and STL (ASCII and binary) are read, the format chosen by the file's extension and
+//! confirmed by its content (see [`spinfall_gravity::ShapeFormat`]).
 //!
 //! The one place shape files are read: the command line and the app both open models here, so
 //! the same file with the same settings gives the same body in both.
@@ -19,9 +21,11 @@ pub const BUILTIN_SHAPE: &str = "builtin:quillon";
 pub enum ShapeSource {
     /// The built-in demo body (always in kilometres).
     Builtin,
-    /// A Wavefront OBJ file.
+    /// A shape-model file: OBJ, PLY or STL, by extension confirmed by content
+    /// ([`spinfall_gravity::ShapeFormat::resolve`]).
     File(PathBuf),
-    /// OBJ bytes already in memory, with a name for messages.
+    /// A shape model's bytes already in memory, with a name for messages (its extension picks
+    /// the format as for a file).
     Bytes {
         /// Shown in messages and used as the body name (its file stem).
         name: String,
@@ -123,10 +127,11 @@ pub fn open_shape(request: &ShapeRequest) -> Result<OpenedShape> {
                 path: path.clone(),
                 error,
             })?;
-            ShapeModel::from_obj(bytes.as_slice(), request.unit).map_err(refused)?
+            ShapeModel::from_named_bytes(&path.to_string_lossy(), &bytes, request.unit)
+                .map_err(refused)?
         }
-        ShapeSource::Bytes { bytes, .. } => {
-            ShapeModel::from_obj(bytes.as_slice(), request.unit).map_err(refused)?
+        ShapeSource::Bytes { name, bytes } => {
+            ShapeModel::from_named_bytes(name, bytes, request.unit).map_err(refused)?
         }
     };
     let shape = if request.recenter {
