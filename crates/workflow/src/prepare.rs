@@ -13,7 +13,7 @@ use crate::field_cache::BuildHooks;
 use crate::gravity_method::{FieldUsed, GravityOptions, gravity_model};
 use crate::limits::{Estimate, Limits, estimate};
 use crate::scenario_file::LoadedScenario;
-use crate::shape::{OpenedShape, open_shape};
+use crate::shape::{OpenedContact, OpenedShape, open_contact_shape, open_shape};
 
 /// What a run is prepared for.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -66,6 +66,8 @@ pub struct PreparedRun {
     pub gravity: GravityOptions,
     /// How gravity was computed (the method in force, with the interpolated field's build).
     pub field: FieldUsed,
+    /// The scenario's separate contact shape, if any, as placed in the body.
+    pub contact: Option<OpenedContact>,
 }
 
 impl PreparedRun {
@@ -130,6 +132,14 @@ pub fn prepare_shape_hooks(
         options.limits.check(scenario, &est)?;
     }
     let (body, field) = build_body(scenario, &shape, &options.gravity, hooks)?;
+    let contact = match loaded.contact_request() {
+        Some((request, kind)) => Some(open_contact_shape(&request, kind, &shape)?),
+        None => None,
+    };
+    let body = match &contact {
+        Some(c) => body.with_contact(c.contact.clone()),
+        None => body,
+    };
     let body = Arc::new(body);
     let launches = match options.purpose {
         Purpose::Fly => scenario.build_launches(&body).map_err(refused)?,
@@ -144,6 +154,7 @@ pub fn prepare_shape_hooks(
         estimate: est,
         gravity: options.gravity.clone(),
         field,
+        contact,
     })
 }
 
