@@ -295,7 +295,10 @@ impl SunForces {
         }
         let dir = self.dir_body(body, t_s);
         sunlit(&body.shape, p_body_m, &dir)
-            && body.patch.as_ref().is_none_or(|patch| sunlit(patch, p_body_m, &dir))
+            && body
+                .patch
+                .as_ref()
+                .is_none_or(|patch| sunlit(patch, p_body_m, &dir))
     }
 
     /// Radiation pressure (when `lit`) and tide on a grain at `p_body_m` at `t_s`, body frame,

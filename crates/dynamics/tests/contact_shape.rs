@@ -44,7 +44,11 @@ fn flat_patch(side_m: f64, z_m: f64, n: u32, bump_m: f64) -> Mesh {
         for i in 0..=n {
             // A bump on inner vertices only (zero on the rim).
             let inner = i > 0 && i < n && j > 0 && j < n;
-            let dz = if inner && (i + j) % 2 == 0 { bump_m } else { 0.0 };
+            let dz = if inner && (i + j) % 2 == 0 {
+                bump_m
+            } else {
+                0.0
+            };
             vertices_m.push(Point3::new(coord(i), coord(j), z_m + dz));
         }
     }
@@ -90,14 +94,16 @@ fn finer_global_contact_sphere_catches_the_impact_on_its_own_surface() {
     let gm = 5.0;
     let coarse = point_mass_sphere(1000.0, 1, gm, no_spin());
     let fine = shape(generate::icosphere(1000.0, 4));
-    let body = coarse.clone().with_contact(ContactShape::Global(fine.clone()));
+    let body = coarse
+        .clone()
+        .with_contact(ContactShape::Global(fine.clone()));
     // Fall along the direction of a coarse face's centroid, where the coarse surface lies far
     // below the sphere (the fine one is within 0.5 % of it).
     let dir = body_dir(&coarse);
     let r0 = 3000.0;
     let (t, p, _) = {
-        let launch = LaunchState::from_state("drop", Point3::from(dir * r0), Vector3::zeros())
-            .unwrap();
+        let launch =
+            LaunchState::from_state("drop", Point3::from(dir * r0), Vector3::zeros()).unwrap();
         let rep = fly(&body, &launch, &settings(), &AtomicBool::new(false));
         assert_eq!(rep.outcome, Outcome::Landed);
         (
@@ -138,9 +144,8 @@ fn body_dir(body: &Body) -> Vector3<f64> {
 fn patch_above_the_body_catches_impacts_in_its_footprint_and_the_body_outside() {
     // A 2 m cube without gravity and a 1 m square patch at z = 1.5 m. Straight lines at
     // 0.5 m/s: reaching z from z0 takes (z0 - z) / 0.5 s (uniform motion).
-    let body = gravity_free_box().with_contact(ContactShape::Patch(patch(flat_patch(
-        1.0, 1.5, 4, 0.0,
-    ))));
+    let body =
+        gravity_free_box().with_contact(ContactShape::Patch(patch(flat_patch(1.0, 1.5, 4, 0.0))));
     let down = Vector3::new(0.0, 0.0, -0.5);
     let (t, p, face) = straight_drop(&body, Point3::new(0.1, 0.2, 10.0), down);
     assert!((t - 17.0).abs() < 1e-6, "{t}");
@@ -155,7 +160,11 @@ fn patch_above_the_body_catches_impacts_in_its_footprint_and_the_body_outside() 
     assert!(face < body.shape.face_count());
     // A site by latitude and longitude within the footprint stands on the patch.
     let site = Site::from_lat_lon(&body, 90.0, 0.0, NormalMode::Face).unwrap();
-    assert!((site.point_body_m.z - 1.5).abs() < 1e-9, "{:?}", site.point_body_m);
+    assert!(
+        (site.point_body_m.z - 1.5).abs() < 1e-9,
+        "{:?}",
+        site.point_body_m
+    );
     assert!((site.frame.up.z - 1.0).abs() < 1e-12);
 }
 
@@ -164,9 +173,8 @@ fn patch_below_the_body_surface_is_the_ground_within_its_footprint() {
     // The 0.4 m patch at z = 0.5 m lies inside the cube: within its footprint (at z = 1 the
     // square |x|, |y| <= 0.4) the cube's top face is ignored and the fall goes on to the
     // patch, 0.5 m further (1 s at 0.5 m/s).
-    let body = gravity_free_box().with_contact(ContactShape::Patch(patch(flat_patch(
-        0.4, 0.5, 3, 0.0,
-    ))));
+    let body =
+        gravity_free_box().with_contact(ContactShape::Patch(patch(flat_patch(0.4, 0.5, 3, 0.0))));
     let down = Vector3::new(0.0, 0.0, -0.5);
     let (t, p, _) = straight_drop(&body, Point3::new(0.1, 0.2, 10.0), down);
     assert!((t - 19.0).abs() < 1e-6, "{t}");
@@ -179,9 +187,8 @@ fn patch_below_the_body_surface_is_the_ground_within_its_footprint() {
 
 #[test]
 fn bumpy_patch_impact_lies_on_the_patch_face_it_names() {
-    let body = gravity_free_box().with_contact(ContactShape::Patch(patch(flat_patch(
-        1.0, 1.5, 6, 0.05,
-    ))));
+    let body =
+        gravity_free_box().with_contact(ContactShape::Patch(patch(flat_patch(1.0, 1.5, 6, 0.05))));
     let p0 = Point3::new(0.07, -0.11, 10.0);
     let (_, p, face) = straight_drop(&body, p0, Vector3::new(0.0, 0.0, -0.5));
     // The point lies in the plane of the face it names (|n . (p - c)| ~ 0), between the flat
@@ -236,7 +243,8 @@ fn bad_patches_are_refused_naming_the_problem() {
     let other = flat_patch(1.0, 3.0, 1, 0.0);
     let base = two.vertices_m.len() as u32;
     two.vertices_m.extend(other.vertices_m);
-    two.faces.extend(other.faces.iter().map(|f| f.map(|v| v + base)));
+    two.faces
+        .extend(other.faces.iter().map(|f| f.map(|v| v + base)));
     refused(two, "several separate pieces");
     // A vertical square in a plane through the centre is seen edge-on.
     let edge_on = Mesh {

@@ -425,7 +425,11 @@ pub fn to_stl_ascii(mesh: &Mesh, unit: LengthUnit, name: &str) -> String {
     let mut out = format!("solid {name}\n");
     for f in 0..mesh.faces.len() {
         let n = mesh.face_cross(f).normalize();
-        let _ = writeln!(out, "  facet normal {} {} {}", n.x as f32, n.y as f32, n.z as f32);
+        let _ = writeln!(
+            out,
+            "  facet normal {} {} {}",
+            n.x as f32, n.y as f32, n.z as f32
+        );
         let _ = writeln!(out, "    outer loop");
         for p in mesh.triangle(f) {
             let _ = writeln!(

@@ -100,8 +100,15 @@ impl Scalar {
 /// A property of an element: a scalar, or a list with its count and item types.
 #[derive(Debug, Clone)]
 enum Property {
-    Scalar { name: String, kind: Scalar },
-    List { name: String, count: Scalar, item: Scalar },
+    Scalar {
+        name: String,
+        kind: Scalar,
+    },
+    List {
+        name: String,
+        count: Scalar,
+        item: Scalar,
+    },
 }
 
 impl Property {
@@ -187,10 +194,7 @@ fn read_header(bytes: &[u8]) -> Result<Header> {
                 if version != "1.0" {
                     return Err(malformed(
                         at(),
-                        format!(
-                            "format version {}; only PLY 1.0 is read",
-                            excerpt(version)
-                        ),
+                        format!("format version {}; only PLY 1.0 is read", excerpt(version)),
                     ));
                 }
             }
@@ -524,7 +528,9 @@ fn read_ascii(bytes: &[u8], header: &Header, sink: &mut Sink<'_>) -> Result<()> 
                         let Some(count) = to_index(count) else {
                             return Err(malformed(
                                 at(),
-                                format!("list {name} has count {count}, not a non-negative integer"),
+                                format!(
+                                    "list {name} has count {count}, not a non-negative integer"
+                                ),
                             ));
                         };
                         for _ in 0..count {
@@ -567,10 +573,7 @@ fn read_ascii(bytes: &[u8], header: &Header, sink: &mut Sink<'_>) -> Result<()> 
         if !content.is_empty() {
             return Err(malformed(
                 format!("line {line}"),
-                format!(
-                    "data after the last declared element: {}",
-                    excerpt(content)
-                ),
+                format!("data after the last declared element: {}", excerpt(content)),
             ));
         }
     }

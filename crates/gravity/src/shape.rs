@@ -129,7 +129,13 @@ impl ShapeModel {
     /// The same surface moved by `offset_m` (a patch stays a patch).
     pub fn translated(&self, offset_m: &Vector3<f64>) -> ShapeModel {
         let mesh = Mesh {
-            vertices_m: self.inner.mesh.vertices_m.iter().map(|p| p + offset_m).collect(),
+            vertices_m: self
+                .inner
+                .mesh
+                .vertices_m
+                .iter()
+                .map(|p| p + offset_m)
+                .collect(),
             faces: self.inner.mesh.faces.clone(),
         };
         let mut moved = ShapeModel::build(mesh, self.inner.neighbours.clone());

@@ -209,15 +209,16 @@ fn read_ascii(bytes: &[u8], welder: &mut Welder) -> Result<Vec<[u32; 3]>> {
                 if n == 3 {
                     return Err(malformed(
                         at(),
-                        format!(
-                            "facet {facet} has more than 3 vertices; STL facets are triangles"
-                        ),
+                        format!("facet {facet} has more than 3 vertices; STL facets are triangles"),
                     ));
                 }
                 let mut c = [0.0f64; 3];
                 for (k, axis) in ["x", "y", "z"].iter().enumerate() {
                     let token = tokens.next().ok_or_else(|| {
-                        malformed(at(), format!("facet {facet}: vertex without a {axis} value"))
+                        malformed(
+                            at(),
+                            format!("facet {facet}: vertex without a {axis} value"),
+                        )
                     })?;
                     c[k] = token.parse::<f64>().map_err(|_| {
                         malformed(

@@ -326,7 +326,8 @@ fn validate_as(mesh: Mesh, patch_centre: Option<Point3<f64>>) -> Result<Validate
         vertices_m,
         faces: std::mem::take(&mut faces),
     };
-    let reference = patch_centre.unwrap_or_else(|| crate::mass::reference_point(&repaired.vertices_m));
+    let reference =
+        patch_centre.unwrap_or_else(|| crate::mass::reference_point(&repaired.vertices_m));
     let volume_m3 = signed_volume_m3(&repaired, &reference);
     let scale = bounding_box_diagonal_m(&repaired);
     if let Some(centre) = patch_centre {

@@ -65,8 +65,16 @@ fn box_in_every_format_matches_the_cuboid_closed_form() {
     for (name, bytes) in all_encodings(&mesh, LengthUnit::Kilometre) {
         let shape = read(name, &bytes, LengthUnit::Kilometre).unwrap();
         let mp = shape.mass_properties();
-        assert_eq!(shape.vertex_count(), 8 + 12 * 2 + 6 * 4, "{name}: welded vertex count");
-        assert!((mp.volume_m3 - v).abs() <= 1e-9 * v, "{name}: volume {}", mp.volume_m3);
+        assert_eq!(
+            shape.vertex_count(),
+            8 + 12 * 2 + 6 * 4,
+            "{name}: welded vertex count"
+        );
+        assert!(
+            (mp.volume_m3 - v).abs() <= 1e-9 * v,
+            "{name}: volume {}",
+            mp.volume_m3
+        );
         assert!(
             (mp.center_of_mass_m.coords - offset).norm() <= 1e-9 * a,
             "{name}: centre {:?}",
@@ -78,7 +86,11 @@ fn box_in_every_format_matches_the_cuboid_closed_form() {
             v * (a * a + c * c) / 12.0,
             v * (a * a + b * b) / 12.0,
         ];
-        let mut got: Vec<f64> = mp.principal_moments_per_density_m5.iter().copied().collect();
+        let mut got: Vec<f64> = mp
+            .principal_moments_per_density_m5
+            .iter()
+            .copied()
+            .collect();
         got.sort_by(f64::total_cmp);
         let mut want = expected.to_vec();
         want.sort_by(f64::total_cmp);
@@ -124,7 +136,10 @@ fn irregular_body_obj_ply_identical_stl_within_single_precision() {
         if name.ends_with(".ply") {
             assert_eq!(mp.volume_m3, r.volume_m3, "{name}");
             assert_eq!(mp.center_of_mass_m, r.center_of_mass_m, "{name}");
-            assert_eq!(mp.inertia_per_density_m5, r.inertia_per_density_m5, "{name}");
+            assert_eq!(
+                mp.inertia_per_density_m5, r.inertia_per_density_m5,
+                "{name}"
+            );
         } else {
             compare(name, mp, 1e-6);
         }
@@ -151,13 +166,25 @@ fn format_comes_from_the_extension_and_is_confirmed_by_content() {
     let ply = generate::to_ply_ascii(&mesh, LengthUnit::Metre, "x").into_bytes();
     let obj = generate::to_obj(&mesh, LengthUnit::Metre, "x").into_bytes();
     let stl = generate::to_stl_binary(&mesh, LengthUnit::Metre, "solid looking header");
-    assert_eq!(ShapeFormat::resolve("X.PLY", &ply).unwrap(), ShapeFormat::Ply);
+    assert_eq!(
+        ShapeFormat::resolve("X.PLY", &ply).unwrap(),
+        ShapeFormat::Ply
+    );
     // A binary STL whose header starts with "solid" is still binary (its size decides).
     assert!(read("b.stl", &stl, LengthUnit::Metre).is_ok());
     // Unknown extensions: the content decides.
-    assert_eq!(ShapeFormat::resolve("shape.dat", &ply).unwrap(), ShapeFormat::Ply);
-    assert_eq!(ShapeFormat::resolve("shape", &stl).unwrap(), ShapeFormat::Stl);
-    assert_eq!(ShapeFormat::resolve("shape.txt", &obj).unwrap(), ShapeFormat::Obj);
+    assert_eq!(
+        ShapeFormat::resolve("shape.dat", &ply).unwrap(),
+        ShapeFormat::Ply
+    );
+    assert_eq!(
+        ShapeFormat::resolve("shape", &stl).unwrap(),
+        ShapeFormat::Stl
+    );
+    assert_eq!(
+        ShapeFormat::resolve("shape.txt", &obj).unwrap(),
+        ShapeFormat::Obj
+    );
     refused("rock.obj", &ply, &["named as OBJ", "content is PLY"]);
     refused("rock.ply", &obj, &["named as PLY", "not PLY or STL"]);
     refused("rock.stl", &ply, &["named as STL", "content is PLY"]);
@@ -275,10 +302,15 @@ fn binary_ply_errors_name_byte_and_element() {
     refused(
         "b.ply",
         &bad,
-        &[&format!("byte {face0} (face 0)"), "vertex 100", "8 vertices"],
+        &[
+            &format!("byte {face0} (face 0)"),
+            "vertex 100",
+            "8 vertices",
+        ],
     );
     // A header that claims far more vertices than the file can hold.
-    let huge = String::from_utf8_lossy(&good).replace("element vertex 8", "element vertex 99999999999");
+    let huge =
+        String::from_utf8_lossy(&good).replace("element vertex 8", "element vertex 99999999999");
     refused("b.ply", huge.as_bytes(), &["99999999999", "bytes follow"]);
 }
 
@@ -300,13 +332,25 @@ fn stl_errors_name_line_triangle_and_sizes() {
 
     let ascii = generate::to_stl_ascii(&mesh, LengthUnit::Metre, "box");
     let four = ascii.replacen("    endloop", "      vertex 0 0 0\n    endloop", 1);
-    refused("a.stl", four.as_bytes(), &["line 7", "facet 0", "more than 3"]);
+    refused(
+        "a.stl",
+        four.as_bytes(),
+        &["line 7", "facet 0", "more than 3"],
+    );
     let bad_number = ascii.replacen("vertex -1", "vertex -1x", 1);
     refused("a.stl", bad_number.as_bytes(), &["line 4", "not a number"]);
     let unterminated = ascii.replace("endsolid box\n", "");
-    refused("a.stl", unterminated.as_bytes(), &["without \"endsolid\"", "12 facets"]);
+    refused(
+        "a.stl",
+        unterminated.as_bytes(),
+        &["without \"endsolid\"", "12 facets"],
+    );
     let misordered = ascii.replacen("outer loop", "loop outer", 1);
-    refused("a.stl", misordered.as_bytes(), &["line 3", "\"outer loop\""]);
+    refused(
+        "a.stl",
+        misordered.as_bytes(),
+        &["line 3", "\"outer loop\""],
+    );
 }
 
 /// Welding is exact: corners one f32 step apart are distinct vertices, so the box is open and

@@ -148,8 +148,8 @@ impl SpinfallApp {
                             "Shape model (OBJ, PLY, STL)",
                             &["obj", "OBJ", "ply", "PLY", "stl", "STL"],
                         )
-                            .set_title("Open a shape model")
-                            .pick_file(),
+                        .set_title("Open a shape model")
+                        .pick_file(),
                     ),
                     DialogPurpose::OpenScenario => block_on(
                         d.add_filter("Scenario (JSON)", &["json"])

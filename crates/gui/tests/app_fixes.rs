@@ -313,7 +313,8 @@ fn enter_opens_the_typed_shape_path_and_a_failed_open_restores_the_field() {
     // Select all and type the bad path over it.
     h.key_press_modifiers(Modifiers::COMMAND, Key::A);
     h.step();
-    h.get_by_label("Shape file:").type_text(bad.to_str().unwrap());
+    h.get_by_label("Shape file:")
+        .type_text(bad.to_str().unwrap());
     h.step();
     h.key_press(Key::Enter);
     h.step();
