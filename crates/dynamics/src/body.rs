@@ -118,6 +118,9 @@ pub struct Body {
     /// ([`crate::contact`]); faces of the patch follow the faces of `shape` in the contact
     /// surface's numbering.
     pub patch: Option<Arc<ShapeModel>>,
+    /// The gravity shape when a global contact model has taken its place in `shape`
+    /// ([`crate::contact`]); `None` when `shape` is the gravity shape.
+    pub gravity_shape: Option<Arc<ShapeModel>>,
     /// The gravity field in the body frame.
     pub gravity: Arc<dyn GravityModel>,
     /// The spin.
@@ -190,6 +193,7 @@ impl Body {
             name: name.into(),
             shape,
             patch: None,
+            gravity_shape: None,
             gravity,
             spin,
         })

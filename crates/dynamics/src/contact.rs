@@ -70,7 +70,8 @@ impl Body {
     pub fn with_contact(mut self, contact: ContactShape) -> Body {
         match contact {
             ContactShape::Global(shape) => {
-                self.shape = shape;
+                let gravity_shape = std::mem::replace(&mut self.shape, shape);
+                self.gravity_shape.get_or_insert(gravity_shape);
                 self.patch = None;
             }
             ContactShape::Patch(patch) => self.patch = Some(patch),

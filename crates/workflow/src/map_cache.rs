@@ -56,6 +56,19 @@ pub fn map_key(body: &Body, recentred: bool, field: &FieldUsed) -> String {
     }
     h.update([u8::from(recentred)]);
     h.update(field.method.as_bytes());
+    // A separate global contact model: the map lies on it, and its gravity comes from the
+    // gravity shape, which is keyed too (a patch does not change the map).
+    if let Some(gravity_shape) = &body.gravity_shape {
+        h.update(b"gravity shape");
+        h.update(
+            cache_key(
+                gravity_shape.mesh(),
+                MassSpec::GmM3S2(body.gm_m3_s2()),
+                &settings,
+            )
+            .as_bytes(),
+        );
+    }
     manifest_hex(&h.finalize())
 }
 
