@@ -15,7 +15,7 @@ use spinfall_gravity::LengthUnit;
 pub struct Cli {
     #[command(subcommand)]
     pub command: Option<Command>,
-    /// Shape model (Wavefront OBJ) to open in the app instead of the demo body.
+    /// Shape model (OBJ, PLY or STL) to open in the app instead of the demo body.
     pub shape: Option<PathBuf>,
     /// Length unit of the shape file's coordinates.
     #[arg(long, value_enum, default_value_t = UnitArg::Km)]
@@ -91,10 +91,10 @@ pub struct StatsArgs {
     pub out: PathBuf,
 }
 
-/// A shape model: a path to an OBJ file, or `builtin:quillon` for the demo body.
+/// A shape model: a path to an OBJ, PLY or STL file, or `builtin:quillon` for the demo body.
 #[derive(Debug, Args)]
 pub struct ShapeArgs {
-    /// Wavefront OBJ file, or `builtin:quillon` for the built-in demo body.
+    /// Shape model file (OBJ, PLY or STL: ASCII or binary), or `builtin:quillon` for the demo body.
     pub shape: String,
     /// Length unit of the file's coordinates.
     #[arg(long, value_enum, default_value_t = UnitArg::Km)]

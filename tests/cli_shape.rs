@@ -180,3 +180,54 @@ fn bad_input_exits_2_and_names_the_problem() {
     );
     assert!(root().join("shapes/box.obj").exists());
 }
+
+/// `info` reads the box as PLY (ASCII, binary) and STL (ASCII, binary) too: the same volume as
+/// the OBJ (identical for PLY; STL stores f32, relative rounding 2^-24 per coordinate, IEEE 754
+/// binary32), which is the box's closed form 2 x 1.2 x 0.8 km³.
+#[test]
+fn info_reads_ply_and_stl_and_refuses_a_bad_stl() {
+    let dir = tempfile::tempdir().unwrap();
+    let (mesh, _) = spinfall_gravity::ShapeModel::from_obj(
+        std::fs::read(root().join("shapes/box.obj"))
+            .unwrap()
+            .as_slice(),
+        spinfall_gravity::LengthUnit::Kilometre,
+    )
+    .unwrap();
+    let km = spinfall_gravity::LengthUnit::Kilometre;
+    let m = mesh.mesh();
+    let files: Vec<(&str, Vec<u8>)> = vec![
+        (
+            "a.ply",
+            spinfall_gravity::generate::to_ply_ascii(m, km, "box").into_bytes(),
+        ),
+        (
+            "b.ply",
+            spinfall_gravity::generate::to_ply_binary(m, km, "box", true),
+        ),
+        (
+            "a.stl",
+            spinfall_gravity::generate::to_stl_ascii(m, km, "box").into_bytes(),
+        ),
+        (
+            "b.stl",
+            spinfall_gravity::generate::to_stl_binary(m, km, "box"),
+        ),
+    ];
+    let volume = 2000.0 * 1200.0 * 800.0;
+    for (name, bytes) in &files {
+        let path = dir.path().join(name);
+        std::fs::write(&path, bytes).unwrap();
+        let out = spinfall(&["info", path.to_str().unwrap(), "--density", "2000"]);
+        let v: Value = serde_json::from_str(&ok_stdout(&out)).unwrap();
+        let got = v["volume_m3"].as_f64().unwrap();
+        let tol = if name.ends_with(".ply") { 1e-12 } else { 1e-6 };
+        assert!(rel(got, volume) < tol, "{name}: {got}");
+    }
+    let mut cut = files[3].1.clone();
+    cut.truncate(cut.len() - 1);
+    let path = dir.path().join("cut.stl");
+    std::fs::write(&path, cut).unwrap();
+    let out = spinfall(&["info", path.to_str().unwrap(), "--density", "2000"]);
+    assert_bad_input(&out, &["cut.stl", "declares 12 triangles", "684 bytes"]);
+}

@@ -38,6 +38,9 @@ pub fn run(args: &FlyArgs) -> CmdResult<ExitCode> {
     for w in &prepared.shape.warnings {
         note(&format!("warning: shape model: {w}"));
     }
+    for w in prepared.contact.iter().flat_map(|c| &c.warnings) {
+        note(&format!("warning: contact shape: {w}"));
+    }
     announce(&prepared.estimate);
     folder.check_space(prepared.estimate.output_min_bytes)?;
     let done = fly_with_progress(&prepared)?;

@@ -111,8 +111,16 @@ impl Spin {
 pub struct Body {
     /// Display name.
     pub name: String,
-    /// The shape model with its geometry queries.
+    /// The closed surface for geometry: impacts, bounces, sites, shadows, pictures. The gravity
+    /// shape, or a separate closed contact model ([`crate::contact`]).
     pub shape: Arc<ShapeModel>,
+    /// An open terrain patch used for contacts within its footprint, if any
+    /// ([`crate::contact`]); faces of the patch follow the faces of `shape` in the contact
+    /// surface's numbering.
+    pub patch: Option<Arc<ShapeModel>>,
+    /// The gravity shape when a global contact model has taken its place in `shape`
+    /// ([`crate::contact`]); `None` when `shape` is the gravity shape.
+    pub gravity_shape: Option<Arc<ShapeModel>>,
     /// The gravity field in the body frame.
     pub gravity: Arc<dyn GravityModel>,
     /// The spin.
@@ -184,6 +192,8 @@ impl Body {
         Ok(Body {
             name: name.into(),
             shape,
+            patch: None,
+            gravity_shape: None,
             gravity,
             spin,
         })

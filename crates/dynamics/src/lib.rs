@@ -42,6 +42,7 @@
 #![warn(missing_docs)]
 
 mod body;
+pub mod contact;
 pub mod dop853;
 pub mod equilibria;
 mod error;

@@ -168,8 +168,38 @@ pub struct BodySpec {
     /// Move the shape so its centre of mass is at the origin (default true).
     #[serde(default = "yes")]
     pub recenter: bool,
+    /// A separate contact shape (impacts, bounces, sites, shadows, pictures); `shape` still
+    /// gives the gravity. See [`crate::contact`].
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub contact_shape: Option<ContactShapeSpec>,
     /// The spin.
     pub spin: SpinSpec,
+}
+
+/// The `body.contact_shape` entry of a scenario.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ContactShapeSpec {
+    /// Shape file (OBJ, PLY or STL) relative to the scenario file, or `"builtin:quillon"`.
+    pub path: String,
+    /// Length unit of the file (default: the unit of `body.unit`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub unit: Option<LengthUnit>,
+    /// `"global"` (default: a closed model of the whole body) or `"patch"` (an open terrain
+    /// patch used within its footprint).
+    #[serde(default)]
+    pub kind: ContactKind,
+}
+
+/// How a contact shape is used.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ContactKind {
+    /// A closed model of the whole body, for all geometry.
+    #[default]
+    Global,
+    /// An open terrain patch, for contacts within its footprint.
+    Patch,
 }
 
 fn yes() -> bool {
@@ -855,6 +885,23 @@ impl Scenario {
                 ),
             ));
         }
+        if let Some(c) = &b.contact_shape {
+            if c.path.trim().is_empty() {
+                return Err(err(
+                    "body.contact_shape.path",
+                    "must name a shape file (OBJ, PLY or STL) or \"builtin:quillon\"",
+                ));
+            }
+            if c.path.starts_with("builtin:") && c.path != BUILTIN_QUILLON {
+                return Err(err(
+                    "body.contact_shape.path",
+                    format!(
+                        "unknown built-in shape {}: the only one is \"{BUILTIN_QUILLON}\"",
+                        excerpt(&c.path)
+                    ),
+                ));
+            }
+        }
         let given: Vec<&str> = [
             ("density_kg_m3", b.density_kg_m3),
             ("mass_kg", b.mass_kg),
@@ -1410,6 +1457,7 @@ impl Scenario {
                 mass_kg: None,
                 gm_m3_s2: None,
                 recenter: true,
+                contact_shape: None,
                 spin: SpinSpec {
                     period_h: spinfall_gravity::demo::PERIOD_H,
                     axis: SpinAxis::MaxMoment,

@@ -129,7 +129,7 @@ impl Site {
     /// The site at the centroid of `face`.
     pub fn from_face(body: &Body, face: usize, normal: NormalMode) -> Result<Site> {
         check_face(body, face)?;
-        let p = body.shape.face_centroid(face);
+        let p = body.contact_face_centroid(face);
         Site::from_surface_point(body, p, face, normal)
     }
 
@@ -148,16 +148,17 @@ impl Site {
             )));
         }
         let up = match normal {
-            NormalMode::Face => body.shape.face_normal(face),
+            NormalMode::Face => body.contact_face_normal(face),
             NormalMode::Smoothed => {
                 let mut n =
-                    body.shape.face_normal(face).into_inner() * body.shape.face_area_m2(face);
-                for nb in body.shape.face_neighbours(face) {
-                    if nb < body.shape.face_count() {
-                        n += body.shape.face_normal(nb).into_inner() * body.shape.face_area_m2(nb);
+                    body.contact_face_normal(face).into_inner() * body.contact_face_area_m2(face);
+                for nb in body.contact_face_neighbours(face) {
+                    if nb < body.contact_face_count() {
+                        n += body.contact_face_normal(nb).into_inner()
+                            * body.contact_face_area_m2(nb);
                     }
                 }
-                Unit::try_new(n, 1e-300).unwrap_or_else(|| body.shape.face_normal(face))
+                Unit::try_new(n, 1e-300).unwrap_or_else(|| body.contact_face_normal(face))
             }
         };
         let (frame, pole_fallback) = LocalFrame::new(up, &body.spin.axis_body);
@@ -195,11 +196,15 @@ impl Site {
             )));
         }
         let d = direction_from_lat_lon(body, lat_deg, lon_deg);
-        let far = 2.0 * body.brillouin_radius_m() + 1.0;
+        let reach = body
+            .patch
+            .as_ref()
+            .map_or(0.0, |p| p.bounding_radius_m())
+            .max(body.brillouin_radius_m());
+        let far = 2.0 * reach + 1.0;
         let origin = Point3::from(d * far);
         let hit = body
-            .shape
-            .ray_first_hit(&origin, &(-d), far)
+            .contact_ray_hit(&origin, &(-d), far)
             .ok_or_else(|| {
                 DynamicsError::Site(format!(
                     "no surface along the radial line at latitude {lat_deg} deg, longitude {lon_deg} deg"
@@ -210,10 +215,10 @@ impl Site {
 }
 
 fn check_face(body: &Body, face: usize) -> Result<()> {
-    if face >= body.shape.face_count() {
+    if face >= body.contact_face_count() {
         return Err(DynamicsError::Site(format!(
-            "face {face} does not exist (the shape has {} faces)",
-            body.shape.face_count()
+            "face {face} does not exist (the contact surface has {} faces)",
+            body.contact_face_count()
         )));
     }
     Ok(())

@@ -290,7 +290,15 @@ impl SunForces {
 
     /// Whether a grain at `p_body_m` is in sunlight at `t_s` (always, without shadow).
     pub fn lit_body(&self, body: &Body, t_s: f64, p_body_m: &Point3<f64>) -> bool {
-        !self.shadow || sunlit(&body.shape, p_body_m, &self.dir_body(body, t_s))
+        if !self.shadow {
+            return true;
+        }
+        let dir = self.dir_body(body, t_s);
+        sunlit(&body.shape, p_body_m, &dir)
+            && body
+                .patch
+                .as_ref()
+                .is_none_or(|patch| sunlit(patch, p_body_m, &dir))
     }
 
     /// Radiation pressure (when `lit`) and tide on a grain at `p_body_m` at `t_s`, body frame,

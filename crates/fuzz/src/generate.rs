@@ -144,6 +144,13 @@ pub fn obj_text(u: &mut Unstructured<'_>) -> Result<Vec<u8>> {
 /// A closed mesh from the generators, jittered, with faces flipped, duplicated or dropped and
 /// vertices moved through the body: deep into validation and the crossing test.
 fn closed_mesh_obj(u: &mut Unstructured<'_>) -> Result<Vec<u8>> {
+    let mesh = edited_closed_mesh(u)?;
+    let text = generate::to_obj(&mesh, LengthUnit::Metre, "fuzz");
+    encode_text(u, text)
+}
+
+/// A closed mesh from the generators with the edits of [`obj_text`]'s closed meshes.
+fn edited_closed_mesh(u: &mut Unstructured<'_>) -> Result<spinfall_gravity::Mesh> {
     let mut mesh = match u.int_in_range(0..=3)? {
         0 => generate::box_mesh(2.0, 1.0, 0.5),
         1 => generate::icosphere(1.0, u.int_in_range(0..=1)?),
@@ -200,8 +207,122 @@ fn closed_mesh_obj(u: &mut Unstructured<'_>) -> Result<Vec<u8>> {
             }
         }
     }
-    let text = generate::to_obj(&mesh, LengthUnit::Metre, "fuzz");
-    encode_text(u, text)
+    Ok(mesh)
+}
+
+/// PLY bytes: an edited closed mesh in one of the three encodings, sometimes with its header
+/// rewritten (types, counts, property names, extra elements), or a random header over random
+/// data.
+pub fn ply_bytes(u: &mut Unstructured<'_>) -> Result<Vec<u8>> {
+    if u.ratio(1, 4)? {
+        let mut out = String::from("ply\n");
+        out.push_str(u.choose(&[
+            "format ascii 1.0\n",
+            "format binary_little_endian 1.0\n",
+            "format binary_big_endian 1.0\n",
+            "format ascii 2.0\n",
+            "",
+        ])?);
+        for _ in 0..u.int_in_range(0..=4)? {
+            let name = u.choose(&["vertex", "face", "edge", "material", ""])?;
+            let count = u.choose(&["0", "1", "3", "8", "4294967296", "-1", "x"])?;
+            out.push_str(&format!("element {name} {count}\n"));
+            for _ in 0..u.int_in_range(0..=5)? {
+                let line = match u.int_in_range(0..=2)? {
+                    0 => format!(
+                        "property {} {}\n",
+                        u.choose(&["float", "double", "uchar", "int", "int8", "quad"])?,
+                        u.choose(&["x", "y", "z", "red", ""])?
+                    ),
+                    1 => format!(
+                        "property list {} {} {}\n",
+                        u.choose(&["uchar", "int", "float", "ushort"])?,
+                        u.choose(&["int", "uint", "float", "double", "char"])?,
+                        u.choose(&["vertex_indices", "vertex_index", "other"])?
+                    ),
+                    _ => "comment note\n".to_string(),
+                };
+                out.push_str(&line);
+            }
+        }
+        out.push_str("end_header\n");
+        let mut bytes = out.into_bytes();
+        let n = u.int_in_range(0..=400)?;
+        for _ in 0..n {
+            bytes.push(*u.choose(b"0123456789 .-\nen\x00\xff\x03")?);
+        }
+        return Ok(bytes);
+    }
+    let mesh = edited_closed_mesh(u)?;
+    let unit = LengthUnit::Metre;
+    let mut bytes = match u.int_in_range(0..=2)? {
+        0 => generate::to_ply_ascii(&mesh, unit, "fuzz").into_bytes(),
+        1 => generate::to_ply_binary(&mesh, unit, "fuzz", false),
+        _ => generate::to_ply_binary(&mesh, unit, "fuzz", true),
+    };
+    if u.ratio(1, 3)? {
+        let (from, to) = *u.choose(&[
+            ("property double x", "property float x"),
+            ("list uchar int", "list uchar float"),
+            ("list uchar int", "list int uchar"),
+            ("element face", "element face 1\nelement face"),
+            ("element vertex ", "element vertex 1"),
+            ("vertex_indices", "indices"),
+            ("end_header", "end_header\n"),
+            ("property double z\n", ""),
+        ])?;
+        let header_end = bytes
+            .windows(10)
+            .position(|w| w == b"end_header")
+            .map_or(bytes.len(), |i| i + 10);
+        let head = String::from_utf8_lossy(&bytes[..header_end]).replacen(from, to, 1);
+        bytes = [head.as_bytes(), &bytes[header_end..]].concat();
+    }
+    Ok(bytes)
+}
+
+/// STL bytes: an edited closed mesh as ASCII or binary STL, sometimes with the binary count,
+/// the size or an ASCII keyword changed.
+pub fn stl_bytes(u: &mut Unstructured<'_>) -> Result<Vec<u8>> {
+    let mesh = edited_closed_mesh(u)?;
+    let unit = LengthUnit::Metre;
+    if u.ratio(1, 2)? {
+        let mut bytes = generate::to_stl_binary(&mesh, unit, "solid fuzz");
+        match u.int_in_range(0..=5)? {
+            0 => {
+                let n: u32 = u.arbitrary()?;
+                bytes[80..84].copy_from_slice(&n.to_le_bytes());
+            }
+            1 => {
+                let cut = u.int_in_range(0..=bytes.len())?;
+                bytes.truncate(cut);
+            }
+            2 => {
+                let at = u.int_in_range(84..=bytes.len().saturating_sub(4).max(84))?;
+                if at + 4 <= bytes.len() {
+                    let x = *u.choose(&[f32::NAN, f32::INFINITY, 1e38, -0.0, 1e-30])?;
+                    bytes[at..at + 4].copy_from_slice(&x.to_le_bytes());
+                }
+            }
+            _ => {}
+        }
+        Ok(bytes)
+    } else {
+        let mut text = generate::to_stl_ascii(&mesh, unit, "fuzz");
+        if u.ratio(1, 2)? {
+            let (from, to) = *u.choose(&[
+                ("endloop", "vertex 1 2 3\nendloop"),
+                ("outer loop", "outer"),
+                ("endsolid fuzz", ""),
+                ("vertex 1", "vertex nan"),
+                ("vertex -", "vertex --"),
+                ("facet normal", "solid x\nfacet normal"),
+                ("endfacet", "endfacet\nendsolid\nsolid again"),
+            ])?;
+            text = text.replacen(from, to, 1);
+        }
+        encode_text(u, text)
+    }
 }
 
 /// The text as bytes, sometimes with a byte-order mark or in UTF-16.

@@ -1,7 +1,8 @@
-//! Fuzzing of Spinfall's two readers of user files, the OBJ shape-model reader and the scenario
-//! parser, on the stable toolchain.
+//! Fuzzing of Spinfall's readers of user files, the OBJ, PLY and STL shape-model readers and
+//! the scenario parser, on the stable toolchain.
 //!
-//! What it is: the two fuzz targets ([`targets::obj`], [`targets::scenario`], each the real path
+//! What it is: the fuzz targets ([`targets::obj`], [`targets::ply`], [`targets::stl`],
+//! [`targets::scenario`], each the real path
 //! a front end takes: `spinfall_workflow::shape::open_shape` and
 //! `spinfall_workflow::scenario_file::read_scenario`, plus checks of what they return),
 //! structure-aware input generators built on `arbitrary` ([`generate`]), byte mutations
@@ -23,12 +24,14 @@ pub mod runner;
 pub mod targets;
 
 /// The fuzz targets by name.
-pub const TARGETS: [&str; 2] = ["obj", "scenario"];
+pub const TARGETS: [&str; 4] = ["obj", "ply", "stl", "scenario"];
 
 /// Runs target `name` on `bytes` (panics are findings).
 pub fn run_target(name: &str, bytes: &[u8]) -> targets::Outcome {
     match name {
         "obj" => targets::obj(bytes),
+        "ply" => targets::ply(bytes),
+        "stl" => targets::stl(bytes),
         _ => targets::scenario(bytes),
     }
 }

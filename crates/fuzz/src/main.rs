@@ -1,6 +1,6 @@
 //! `spinfall-fuzz`: fuzz the OBJ reader and the scenario parser for a while.
 //!
-//! `spinfall-fuzz <obj|scenario|all> [--seconds N] [--seed S] [--corpus DIR]`: runs each target
+//! `spinfall-fuzz <obj|ply|stl|scenario|all> [--seconds N] [--seed S] [--corpus DIR]`: runs each target
 //! for N seconds (default 60) under supervision; findings are saved into the corpus folder and
 //! the program exits 1. One line per target reports executions and outcomes.
 
@@ -42,7 +42,7 @@ fn main() -> ExitCode {
         Some(t) if spinfall_fuzz::TARGETS.contains(&t) => vec![t],
         _ => {
             eprintln!(
-                "usage: spinfall-fuzz <obj|scenario|all> [--seconds N] [--seed S] [--corpus DIR]"
+                "usage: spinfall-fuzz <obj|ply|stl|scenario|all> [--seconds N] [--seed S] [--corpus DIR]"
             );
             return ExitCode::from(2);
         }

@@ -50,6 +50,8 @@ fn next_input(rng: &mut ChaCha8Rng, target: &str, pool: &[Vec<u8>]) -> Vec<u8> {
     let mut u = Unstructured::new(&raw);
     let generated = match target {
         "obj" => crate::generate::obj_text(&mut u),
+        "ply" => crate::generate::ply_bytes(&mut u),
+        "stl" => crate::generate::stl_bytes(&mut u),
         _ => crate::generate::scenario_text(&mut u),
     }
     .unwrap_or_default();

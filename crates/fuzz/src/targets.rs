@@ -1,4 +1,4 @@
-//! The two fuzz targets: the OBJ reader and the scenario parser, through the workflow exactly as
+//! The fuzz targets: the OBJ, PLY and STL readers and the scenario parser, through the workflow exactly as
 //! the front ends call them, with checks of what they accept.
 
 use std::path::PathBuf;
@@ -50,6 +50,21 @@ impl Outcome {
 /// The OBJ reader: parse, validate (closed, manifold, oriented, one shell, no crossing faces),
 /// recentre. An accepted model must have a positive finite volume and finite mass properties.
 pub fn obj(bytes: &[u8]) -> Outcome {
+    shape_file("fuzz.obj", bytes)
+}
+
+/// The PLY reader (ASCII, binary little- and big-endian), with the checks of [`obj`].
+pub fn ply(bytes: &[u8]) -> Outcome {
+    shape_file("fuzz.ply", bytes)
+}
+
+/// The STL reader (ASCII, binary), with the checks of [`obj`].
+pub fn stl(bytes: &[u8]) -> Outcome {
+    shape_file("fuzz.stl", bytes)
+}
+
+/// A shape file named `name` (its extension picks the reader) opened as the front ends do.
+fn shape_file(name: &str, bytes: &[u8]) -> Outcome {
     let unit = if bytes.first().is_some_and(|b| b % 2 == 0) {
         LengthUnit::Metre
     } else {
@@ -57,7 +72,7 @@ pub fn obj(bytes: &[u8]) -> Outcome {
     };
     let request = ShapeRequest {
         source: ShapeSource::Bytes {
-            name: "fuzz.obj".into(),
+            name: name.into(),
             bytes: Arc::new(bytes.to_vec()),
         },
         unit,

@@ -23,6 +23,24 @@ pub enum GravityError {
         /// What is wrong there.
         message: String,
     },
+    /// Malformed PLY or STL data.
+    #[error("malformed {format} at {at}: {message}")]
+    Malformed {
+        /// The format, `PLY` or `STL`.
+        format: &'static str,
+        /// Where: `line N` (text), `byte N` (binary data), with the element when known.
+        at: String,
+        /// What is wrong there.
+        message: String,
+    },
+    /// The file's content is another format than its name says.
+    #[error("the file is named as {named} but its content is {}", content_of(.found))]
+    FormatMismatch {
+        /// The format the file's extension names.
+        named: crate::ShapeFormat,
+        /// The format its content shows.
+        found: crate::ShapeFormat,
+    },
     /// The mesh cannot be used for a polyhedron gravity model.
     #[error("unusable mesh: {0}")]
     InvalidMesh(String),
@@ -58,5 +76,12 @@ pub enum GravityError {
 impl From<std::io::Error> for GravityError {
     fn from(e: std::io::Error) -> Self {
         GravityError::Io(e)
+    }
+}
+
+fn content_of(found: &crate::ShapeFormat) -> String {
+    match found {
+        crate::ShapeFormat::Obj => "not PLY or STL (read as OBJ it would be)".to_string(),
+        other => other.to_string(),
     }
 }

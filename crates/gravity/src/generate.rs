@@ -354,6 +354,124 @@ pub fn to_obj(mesh: &Mesh, unit: LengthUnit, header: &str) -> String {
     out
 }
 
+/// Writes `mesh` as ASCII PLY in `unit` (coordinates as `double`, shortest round-trip decimal,
+/// so reading it back gives the same f64 values). `header` lines become `comment` lines.
+pub fn to_ply_ascii(mesh: &Mesh, unit: LengthUnit, header: &str) -> String {
+    let scale = unit.metres_per_unit();
+    let mut out = ply_header(mesh, unit, header, "ascii");
+    for p in &mesh.vertices_m {
+        let _ = writeln!(out, "{} {} {}", p.x / scale, p.y / scale, p.z / scale);
+    }
+    for [a, b, c] in &mesh.faces {
+        let _ = writeln!(out, "3 {a} {b} {c}");
+    }
+    out
+}
+
+/// Writes `mesh` as binary PLY in `unit`, little- or big-endian: `double` coordinates, `uchar`
+/// corner counts and `int` indices.
+pub fn to_ply_binary(mesh: &Mesh, unit: LengthUnit, header: &str, big_endian: bool) -> Vec<u8> {
+    let scale = unit.metres_per_unit();
+    let kind = if big_endian {
+        "binary_big_endian"
+    } else {
+        "binary_little_endian"
+    };
+    let mut out = ply_header(mesh, unit, header, kind).into_bytes();
+    let put = |bytes: &mut Vec<u8>, le: &[u8]| {
+        if big_endian {
+            bytes.extend(le.iter().rev());
+        } else {
+            bytes.extend_from_slice(le);
+        }
+    };
+    for p in &mesh.vertices_m {
+        for c in [p.x, p.y, p.z] {
+            put(&mut out, &(c / scale).to_le_bytes());
+        }
+    }
+    for face in &mesh.faces {
+        out.push(3);
+        for &v in face {
+            put(&mut out, &(v as i32).to_le_bytes());
+        }
+    }
+    out
+}
+
+fn ply_header(mesh: &Mesh, unit: LengthUnit, header: &str, kind: &str) -> String {
+    let mut out = format!("ply\nformat {kind} 1.0\n");
+    for line in header.lines() {
+        let _ = writeln!(out, "comment {line}");
+    }
+    let _ = writeln!(out, "comment coordinates in {unit}");
+    let _ = writeln!(
+        out,
+        "element vertex {}\nproperty double x\nproperty double y\nproperty double z",
+        mesh.vertices_m.len()
+    );
+    let _ = writeln!(
+        out,
+        "element face {}\nproperty list uchar int vertex_indices\nend_header",
+        mesh.faces.len()
+    );
+    out
+}
+
+/// Writes `mesh` as ASCII STL in `unit`; each corner is written as the shortest decimal of its
+/// `f32` value, as binary STL would store it, and each facet's normal is its unit normal.
+pub fn to_stl_ascii(mesh: &Mesh, unit: LengthUnit, name: &str) -> String {
+    let scale = unit.metres_per_unit();
+    let mut out = format!("solid {name}\n");
+    for f in 0..mesh.faces.len() {
+        let n = mesh.face_cross(f).normalize();
+        let _ = writeln!(
+            out,
+            "  facet normal {} {} {}",
+            n.x as f32, n.y as f32, n.z as f32
+        );
+        let _ = writeln!(out, "    outer loop");
+        for p in mesh.triangle(f) {
+            let _ = writeln!(
+                out,
+                "      vertex {} {} {}",
+                (p.x / scale) as f32,
+                (p.y / scale) as f32,
+                (p.z / scale) as f32
+            );
+        }
+        let _ = writeln!(out, "    endloop\n  endfacet");
+    }
+    let _ = writeln!(out, "endsolid {name}");
+    out
+}
+
+/// Writes `mesh` as binary STL in `unit` (`f32` corners; the 80-byte header holds `name`,
+/// cut to fit).
+pub fn to_stl_binary(mesh: &Mesh, unit: LengthUnit, name: &str) -> Vec<u8> {
+    let scale = unit.metres_per_unit();
+    let mut out = Vec::with_capacity(84 + 50 * mesh.faces.len());
+    let mut head = [b' '; 80];
+    for (slot, b) in head.iter_mut().zip(name.bytes()) {
+        *slot = b;
+    }
+    out.extend_from_slice(&head);
+    out.extend_from_slice(&(mesh.faces.len() as u32).to_le_bytes());
+    for f in 0..mesh.faces.len() {
+        let n = mesh.face_cross(f).normalize();
+        for c in [n.x, n.y, n.z] {
+            out.extend_from_slice(&(c as f32).to_le_bytes());
+        }
+        for p in mesh.triangle(f) {
+            for c in [p.x, p.y, p.z] {
+                out.extend_from_slice(&((c / scale) as f32).to_le_bytes());
+            }
+        }
+        out.extend_from_slice(&[0, 0]);
+    }
+    out
+}
+
 /// The shape models shipped in the workspace `shapes/` folder, as `(file name, mesh, header)`:
 /// written in kilometres by the `make_shapes` example and checked against the files by a test.
 pub fn shipped_shapes() -> Vec<(&'static str, Mesh, &'static str)> {

@@ -1,7 +1,7 @@
 //! Shape models of small bodies and the exact gravity of the constant-density polyhedron.
 //!
-//! What it is: the numeric core of Spinfall. It parses and validates Wavefront OBJ shape models
-//! ([`parse_obj`], [`ShapeModel::new`]: closed, manifold, consistently and outward oriented;
+//! What it is: the numeric core of Spinfall. It parses and validates shape models in Wavefront
+//! OBJ, PLY and STL ([`parse_shape`], [`ShapeFormat`], [`parse_obj`], [`ShapeModel::new`]: closed, manifold, consistently and outward oriented;
 //! repairs come back as [`Warning`]s), computes the mass properties of the homogeneous polyhedron
 //! ([`MassProperties`]), answers geometry queries through a BVH ([`ShapeModel`]: ray and segment
 //! first hit as a [`SurfaceHit`], nearest surface point, inside test), generates test bodies
@@ -31,12 +31,15 @@
 
 mod error;
 pub mod field;
+mod format;
 pub mod generate;
 mod mass;
 mod mesh;
 mod obj;
+mod ply;
 mod query;
 mod shape;
+mod stl;
 pub mod text;
 mod validate;
 
@@ -45,6 +48,7 @@ pub use field::{
     Answer, BuildProgress, BuildStats, FieldSample, G_SI, InterpolatedGravity,
     InterpolationSettings, MassSpec, PolyhedronGravity, build_interpolated, cache_key,
 };
+pub use format::{ShapeFormat, parse_shape};
 pub use mass::MassProperties;
 pub use mesh::{LengthUnit, Mesh};
 pub use obj::parse_obj;

@@ -31,6 +31,8 @@ struct Inner {
     mass: MassProperties,
     bvh: FaceBvh,
     bounding_radius_m: f64,
+    /// An open terrain patch rather than a closed body.
+    patch: bool,
 }
 
 impl fmt::Debug for ShapeModel {
@@ -75,6 +77,74 @@ impl ShapeModel {
         Ok((shape, validated.warnings))
     }
 
+    /// Validates an open terrain patch and builds it: a manifold, consistently oriented surface
+    /// with at least one boundary edge, one connected piece, no crossing faces, turned to face
+    /// away from `centre_m` (the body's centre of mass in the file's frame). Repairs are those
+    /// of [`ShapeModel::new`].
+    ///
+    /// A patch answers ray, segment and nearest-point queries like a body; it encloses nothing,
+    /// so [`ShapeModel::contains`] is always false and its [`ShapeModel::mass_properties`] are
+    /// those of the cones from the origin over its faces (not a body's). Neighbour slots across
+    /// boundary edges hold `usize::MAX`.
+    ///
+    /// # Errors
+    /// [`crate::GravityError::InvalidMesh`] naming the problem: a closed surface (no boundary),
+    /// an edge shared by more than two faces, a one-sided surface, several pieces, crossing
+    /// faces, a patch seen edge-on from `centre_m`.
+    pub fn new_patch(mesh: Mesh, centre_m: Point3<f64>) -> Result<(ShapeModel, Vec<Warning>)> {
+        if !centre_m.coords.iter().all(|c| c.is_finite()) {
+            return Err(crate::GravityError::InvalidMesh(
+                "the centre a terrain patch faces away from is not finite".into(),
+            ));
+        }
+        let validated = crate::validate::validate_patch(mesh, centre_m)?;
+        let mut shape = ShapeModel::build(validated.mesh, validated.neighbours);
+        if let Some((a, b)) = shape.inner.bvh.first_crossing_pair(&shape.inner.mesh) {
+            let name = |f: usize| validated.original_face.get(f).copied().unwrap_or(f);
+            return Err(crate::GravityError::InvalidMesh(format!(
+                "self-intersecting terrain patch: face {} and face {} (0-based) cross each other",
+                name(a),
+                name(b)
+            )));
+        }
+        crate::validate::check_single_shell(&shape.inner.neighbours, &validated.original_face)
+            .map_err(|_| {
+                crate::GravityError::InvalidMesh(
+                    "the terrain patch is several separate pieces; a patch must be one connected \
+                     surface"
+                        .into(),
+                )
+            })?;
+        if let Some(inner) = Arc::get_mut(&mut shape.inner) {
+            inner.patch = true;
+        }
+        Ok((shape, validated.warnings))
+    }
+
+    /// Whether this is an open terrain patch ([`ShapeModel::new_patch`]) rather than a body.
+    pub fn is_patch(&self) -> bool {
+        self.inner.patch
+    }
+
+    /// The same surface moved by `offset_m` (a patch stays a patch).
+    pub fn translated(&self, offset_m: &Vector3<f64>) -> ShapeModel {
+        let mesh = Mesh {
+            vertices_m: self
+                .inner
+                .mesh
+                .vertices_m
+                .iter()
+                .map(|p| p + offset_m)
+                .collect(),
+            faces: self.inner.mesh.faces.clone(),
+        };
+        let mut moved = ShapeModel::build(mesh, self.inner.neighbours.clone());
+        if let Some(inner) = Arc::get_mut(&mut moved.inner) {
+            inner.patch = self.inner.patch;
+        }
+        moved
+    }
+
     /// Parses OBJ text in `unit` ([`crate::parse_obj`]) and builds the model; the warnings of
     /// both steps are returned together.
     ///
@@ -85,6 +155,25 @@ impl ShapeModel {
         unit: LengthUnit,
     ) -> Result<(ShapeModel, Vec<Warning>)> {
         let (mesh, mut warnings) = crate::obj::parse_obj(reader, unit)?;
+        let (shape, more) = ShapeModel::new(mesh)?;
+        warnings.extend(more);
+        Ok((shape, warnings))
+    }
+
+    /// Reads a shape model in any supported format ([`crate::parse_shape`]) and builds it. The
+    /// format comes from `name`'s extension, confirmed by the content
+    /// ([`crate::ShapeFormat::resolve`]).
+    ///
+    /// # Errors
+    /// A format that disagrees with the name, parse errors with their line or byte offset, then
+    /// the errors of [`ShapeModel::new`].
+    pub fn from_named_bytes(
+        name: &str,
+        bytes: &[u8],
+        unit: LengthUnit,
+    ) -> Result<(ShapeModel, Vec<Warning>)> {
+        let format = crate::ShapeFormat::resolve(name, bytes)?;
+        let (mesh, mut warnings) = crate::parse_shape(bytes, format, unit)?;
         let (shape, more) = ShapeModel::new(mesh)?;
         warnings.extend(more);
         Ok((shape, warnings))
@@ -129,6 +218,7 @@ impl ShapeModel {
                 mass,
                 bvh,
                 bounding_radius_m,
+                patch: false,
             }),
         }
     }
@@ -185,7 +275,11 @@ impl ShapeModel {
             vertices_m: self.inner.mesh.vertices_m.iter().map(|p| p - com).collect(),
             faces: self.inner.mesh.faces.clone(),
         };
-        ShapeModel::build(mesh, self.inner.neighbours.clone())
+        let mut moved = ShapeModel::build(mesh, self.inner.neighbours.clone());
+        if let Some(inner) = Arc::get_mut(&mut moved.inner) {
+            inner.patch = self.inner.patch;
+        }
+        moved
     }
 
     /// Largest distance of a vertex from the origin, m.
@@ -235,7 +329,7 @@ impl ShapeModel {
     /// Whether `p` is inside the body. Points on the surface may go either way; a non-finite
     /// point is outside.
     pub fn contains(&self, p: &Point3<f64>) -> bool {
-        self.inner.bvh.contains(&self.inner.mesh, p)
+        !self.inner.patch && self.inner.bvh.contains(&self.inner.mesh, p)
     }
 }
 

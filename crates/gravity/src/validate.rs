@@ -129,6 +129,18 @@ fn invalid(message: String) -> GravityError {
 
 /// Validates and repairs `mesh`; see the module documentation.
 pub(crate) fn validate(mesh: Mesh) -> Result<Validated> {
+    validate_as(mesh, None)
+}
+
+/// Validates and repairs an open terrain patch: as [`validate`], except that boundary edges are
+/// allowed (and at least one is required), and "outward" means facing away from `centre_m`:
+/// each connected part, then the whole, is turned so that the signed volume of the cone from
+/// `centre_m` over its faces is positive.
+pub(crate) fn validate_patch(mesh: Mesh, centre_m: Point3<f64>) -> Result<Validated> {
+    validate_as(mesh, Some(centre_m))
+}
+
+fn validate_as(mesh: Mesh, patch_centre: Option<Point3<f64>>) -> Result<Validated> {
     let mut warnings = Vec::new();
     if mesh.vertices_m.is_empty() || mesh.faces.is_empty() {
         return Err(invalid(format!(
@@ -266,7 +278,15 @@ pub(crate) fn validate(mesh: Mesh) -> Result<Validated> {
         vertex: vertex_original,
         face: kept_original,
     };
-    let mut adjacency = edge_adjacency(&faces, &labels)?;
+    let open = patch_centre.is_some();
+    let mut adjacency = edge_adjacency(&faces, &labels, open)?;
+    if open && adjacency.boundary_edges == 0 {
+        return Err(invalid(
+            "the terrain patch has no boundary edge: it is a closed surface; give it as a \
+             global contact shape instead"
+                .into(),
+        ));
+    }
     if let Some(problem) = adjacency.inconsistent.take() {
         let flipped = orient_consistently(
             &mut faces,
@@ -274,8 +294,9 @@ pub(crate) fn validate(mesh: Mesh) -> Result<Validated> {
             &vertices_m,
             &labels,
             &problem,
+            patch_centre,
         )?;
-        adjacency = edge_adjacency(&faces, &labels)?;
+        adjacency = edge_adjacency(&faces, &labels, open)?;
         if let Some(problem) = adjacency.inconsistent {
             return Err(invalid(problem));
         }
@@ -305,9 +326,23 @@ pub(crate) fn validate(mesh: Mesh) -> Result<Validated> {
         vertices_m,
         faces: std::mem::take(&mut faces),
     };
-    let volume_m3 = signed_volume_m3(&repaired);
+    let reference =
+        patch_centre.unwrap_or_else(|| crate::mass::reference_point(&repaired.vertices_m));
+    let volume_m3 = signed_volume_m3(&repaired, &reference);
     let scale = bounding_box_diagonal_m(&repaired);
-    if !volume_m3.is_finite() || volume_m3.abs() <= 1e-12 * scale.powi(3) {
+    if let Some(centre) = patch_centre {
+        let reach = repaired
+            .vertices_m
+            .iter()
+            .map(|p| (p - centre).norm())
+            .fold(0.0, f64::max);
+        if !volume_m3.is_finite() || volume_m3.abs() <= 1e-12 * scale * scale * reach {
+            return Err(invalid(format!(
+                "the terrain patch is seen edge-on from the body's centre of mass (cone volume \
+                 {volume_m3:e} m^3); it cannot face outward"
+            )));
+        }
+    } else if !volume_m3.is_finite() || volume_m3.abs() <= 1e-12 * scale.powi(3) {
         return Err(invalid(format!(
             "the closed mesh encloses no volume (signed volume {volume_m3:e} m^3)"
         )));
@@ -385,7 +420,7 @@ struct Labels {
 /// Edge adjacency of a triangle list: for each face, the face across edges a-b, b-c, c-a.
 /// Errors on boundary edges, edges shared by more than two faces, and edges traversed in the
 /// same direction by both of their faces (inconsistent orientation).
-fn edge_adjacency(faces: &[[u32; 3]], labels: &Labels) -> Result<Adjacency> {
+fn edge_adjacency(faces: &[[u32; 3]], labels: &Labels, allow_boundary: bool) -> Result<Adjacency> {
     let note = &labels.note;
     let fl = |f: u32| labels.face[f as usize];
     // (undirected key, face, slot, forward?) sorted by key: the two uses of an edge are adjacent.
@@ -446,7 +481,7 @@ fn edge_adjacency(faces: &[[u32; 3]], labels: &Labels) -> Result<Adjacency> {
         }
         i = j;
     }
-    if let Some((a, b, f)) = boundary_example {
+    if let Some((a, b, f)) = boundary_example.filter(|_| !allow_boundary) {
         return Err(invalid(format!(
             "open mesh{note}: {boundary} boundary edges used by only one face, e.g. edge {a}-{b} \
              (vertices, 0-based) of face {f}; a shape model must be closed"
@@ -455,6 +490,7 @@ fn edge_adjacency(faces: &[[u32; 3]], labels: &Labels) -> Result<Adjacency> {
     Ok(Adjacency {
         neighbours,
         inconsistent,
+        boundary_edges: boundary,
     })
 }
 
@@ -464,6 +500,8 @@ struct Adjacency {
     neighbours: Vec<[usize; 3]>,
     /// The first edge both of whose faces run the same way, as an error message.
     inconsistent: Option<String>,
+    /// Edges used by one face only (their neighbour slot holds `usize::MAX`).
+    boundary_edges: usize,
 }
 
 /// Makes the orientation consistent by a breadth-first walk over each connected component
@@ -476,10 +514,11 @@ fn orient_consistently(
     vertices_m: &[Point3<f64>],
     labels: &Labels,
     first_problem: &str,
+    patch_centre: Option<Point3<f64>>,
 ) -> Result<Vec<bool>> {
     let runs =
         |face: &[u32; 3], a: u32, b: u32| (0..3).any(|k| face[k] == a && face[(k + 1) % 3] == b);
-    let reference = crate::mass::reference_point(vertices_m);
+    let reference = patch_centre.unwrap_or_else(|| crate::mass::reference_point(vertices_m));
     let mut flip: Vec<Option<bool>> = vec![None; faces.len()];
     let mut queue = std::collections::VecDeque::new();
     for seed in 0..faces.len() {
@@ -497,6 +536,10 @@ fn orient_consistently(
             for k in 0..3 {
                 let (a, b) = (face[k], face[(k + 1) % 3]);
                 let g = neighbours_across(neighbours, faces, f, a, b);
+                if g >= faces.len() {
+                    // A boundary edge of an open patch: nothing across it.
+                    continue;
+                }
                 // g must run the shared edge b -> a once oriented.
                 let need = runs(&faces[g], a, b);
                 match flip[g] {
@@ -559,13 +602,13 @@ fn neighbours_across(
         .map_or(f, |k| neighbours[f][k])
 }
 
-/// Signed volume enclosed by the faces (positive when they face outward), m^3.
-fn signed_volume_m3(mesh: &Mesh) -> f64 {
-    let reference = crate::mass::reference_point(&mesh.vertices_m);
+/// Signed volume of the cones from `reference` over the faces (for a closed mesh: the volume it
+/// encloses, positive when the faces face outward), m^3.
+fn signed_volume_m3(mesh: &Mesh, reference: &Point3<f64>) -> f64 {
     mesh.faces
         .iter()
         .map(|f| {
-            let [a, b, c] = f.map(|v| mesh.vertices_m[v as usize] - reference);
+            let [a, b, c] = f.map(|v| mesh.vertices_m[v as usize] - *reference);
             a.dot(&b.cross(&c))
         })
         .sum::<f64>()

@@ -730,14 +730,14 @@ impl SpinfallApp {
                 .map(|e| e.to_string_lossy().to_ascii_lowercase())
                 .unwrap_or_default();
             match ext.as_str() {
-                "obj" => {
+                "obj" | "ply" | "stl" => {
                     self.shape_path_field = path.display().to_string();
                     self.commands
                         .push(Command::LoadShape(path, self.state.unit));
                 }
                 "json" => self.commands.push(Command::LoadScenario(path)),
                 _ => self.error(format!(
-                    "{}: drop a Wavefront .obj shape model or a .json scenario",
+                    "{}: drop a shape model (.obj, .ply or .stl) or a .json scenario",
                     path.display()
                 )),
             }

@@ -65,11 +65,11 @@ impl SpinfallApp {
         let loading = self.load_job.is_some();
         let mut open_typed = false;
         ui.horizontal(|ui| {
-            let l = ui.label("OBJ file:");
+            let l = ui.label("Shape file:");
             let r = ui
                 .add(
                     egui::TextEdit::singleline(&mut self.shape_path_field)
-                        .hint_text("/path/to/shape.obj")
+                        .hint_text("/path/to/shape.obj (.ply, .stl)")
                         .desired_width(190.0),
                 )
                 .labelled_by(l.id)

@@ -145,9 +145,12 @@ impl SpinfallApp {
                 let d = rfd::AsyncFileDialog::new();
                 let handle = match purpose {
                     DialogPurpose::OpenShape => block_on(
-                        d.add_filter("Wavefront OBJ shape model", &["obj", "OBJ"])
-                            .set_title("Open a shape model")
-                            .pick_file(),
+                        d.add_filter(
+                            "Shape model (OBJ, PLY, STL)",
+                            &["obj", "OBJ", "ply", "PLY", "stl", "STL"],
+                        )
+                        .set_title("Open a shape model")
+                        .pick_file(),
                     ),
                     DialogPurpose::OpenScenario => block_on(
                         d.add_filter("Scenario (JSON)", &["json"])

@@ -181,6 +181,7 @@ pub fn new_scenario(
         mass_kg: None,
         gm_m3_s2: None,
         recenter,
+        contact_shape: None,
         spin: SpinSpec {
             period_h: params.period_h,
             axis: params.spin_axis(),

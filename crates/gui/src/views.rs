@@ -185,7 +185,7 @@ impl SpinfallApp {
                 if self.load_job.is_some() {
                     ui.spinner();
                 } else {
-                    ui.label("No body loaded. Open a shape model (Ctrl+O) or drop an .obj here.");
+                    ui.label("No body loaded. Open a shape model (Ctrl+O) or drop an .obj, .ply or .stl here.");
                 }
             });
             return;

@@ -291,9 +291,9 @@ fn enter_opens_the_typed_shape_path_and_a_failed_open_restores_the_field() {
     let mut h = demo_harness();
     h.get_by_label("m").click();
     h.step();
-    h.get_by_label("OBJ file:").click();
+    h.get_by_label("Shape file:").click();
     h.step();
-    h.get_by_label("OBJ file:")
+    h.get_by_label("Shape file:")
         .type_text(path.to_str().unwrap());
     h.step();
     h.key_press(Key::Enter);
@@ -308,12 +308,13 @@ fn enter_opens_the_typed_shape_path_and_a_failed_open_restores_the_field() {
     assert_eq!(h.state().shape_path_text(), path.to_str().unwrap());
 
     let bad = dir.path().join("missing.obj");
-    h.get_by_label("OBJ file:").click();
+    h.get_by_label("Shape file:").click();
     h.step();
     // Select all and type the bad path over it.
     h.key_press_modifiers(Modifiers::COMMAND, Key::A);
     h.step();
-    h.get_by_label("OBJ file:").type_text(bad.to_str().unwrap());
+    h.get_by_label("Shape file:")
+        .type_text(bad.to_str().unwrap());
     h.step();
     h.key_press(Key::Enter);
     h.step();

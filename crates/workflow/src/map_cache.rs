@@ -56,6 +56,19 @@ pub fn map_key(body: &Body, recentred: bool, field: &FieldUsed) -> String {
     }
     h.update([u8::from(recentred)]);
     h.update(field.method.as_bytes());
+    // A separate global contact model: the map lies on it, and its gravity comes from the
+    // gravity shape, which is keyed too (a patch does not change the map).
+    if let Some(gravity_shape) = &body.gravity_shape {
+        h.update(b"gravity shape");
+        h.update(
+            cache_key(
+                gravity_shape.mesh(),
+                MassSpec::GmM3S2(body.gm_m3_s2()),
+                &settings,
+            )
+            .as_bytes(),
+        );
+    }
     manifest_hex(&h.finalize())
 }
 
@@ -265,6 +278,31 @@ mod tests {
         let axis = axis.resolve(&shape).unwrap();
         let spin = Spin::from_hours(period_h, axis, 0.0).unwrap();
         Body::new("brick", shape, MassSpec::DensityKgM3(density_kg_m3), spin).unwrap()
+    }
+
+    /// A global contact model: the map lies on it and its gravity comes from the gravity
+    /// shape, so two gravity shapes under one contact model (and equal GM) are two maps.
+    #[test]
+    fn the_key_changes_with_the_gravity_shape_under_a_contact_model() {
+        use spinfall_dynamics::contact::ContactShape;
+        let direct = FieldUsed::direct();
+        let contact = Arc::new(
+            ShapeModel::new(generate::box_mesh(400.0, 200.0, 100.0))
+                .unwrap()
+                .0,
+        );
+        let gm = brick(2000.0, 4.0, SpinAxis::PlusZ).gm_m3_s2();
+        let on = |mesh| {
+            let shape = Arc::new(ShapeModel::new(mesh).unwrap().0);
+            let spin = Spin::from_hours(4.0, nalgebra::Vector3::z_axis(), 0.0).unwrap();
+            Body::new("b", shape, MassSpec::GmM3S2(gm), spin)
+                .unwrap()
+                .with_contact(ContactShape::Global(contact.clone()))
+        };
+        let a = on(generate::box_mesh(400.0, 200.0, 100.0));
+        let b = on(generate::ellipsoid(200.0, 100.0, 50.0, 2));
+        assert_eq!(a.shape.mesh(), b.shape.mesh());
+        assert_ne!(map_key(&a, true, &direct), map_key(&b, true, &direct));
     }
 
     #[test]

@@ -14,7 +14,7 @@ use crate::field_cache::BuildHooks;
 use crate::gravity_method::{FieldUsed, GravityOptions, gravity_model};
 use crate::limits::{Estimate, Limits, estimate};
 use crate::scenario_file::LoadedScenario;
-use crate::shape::{OpenedShape, open_shape};
+use crate::shape::{OpenedContact, OpenedShape, open_contact_shape, open_shape};
 
 /// What a run is prepared for.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -70,6 +70,8 @@ pub struct PreparedRun {
     /// The solved targeted entries (see `spinfall_dynamics::targeting`); the launches of an
     /// unreachable one are not flown and end `failed` with its reason ([`crate::run`]).
     pub targeting: Vec<TargetedEntry>,
+    /// The scenario's separate contact shape, if any, as placed in the body.
+    pub contact: Option<OpenedContact>,
 }
 
 impl PreparedRun {
@@ -166,6 +168,14 @@ pub fn prepare_shape_targeting(
         options.limits.check(scenario, &est)?;
     }
     let (body, field) = build_body(scenario, &shape, &options.gravity, hooks)?;
+    let contact = match loaded.contact_request() {
+        Some((request, kind)) => Some(open_contact_shape(&request, kind, &shape)?),
+        None => None,
+    };
+    let body = match &contact {
+        Some(c) => body.with_contact(c.contact.clone()),
+        None => body,
+    };
     let body = Arc::new(body);
     let (launches, targeted) = match options.purpose {
         Purpose::Fly => {
@@ -189,6 +199,7 @@ pub fn prepare_shape_targeting(
         gravity: options.gravity.clone(),
         field,
         targeting: targeted,
+        contact,
     })
 }
 

@@ -88,6 +88,28 @@ impl LoadedScenario {
         }
     }
 
+    /// What to open for the scenario's `body.contact_shape`, and how to use it; `None`
+    /// without one. The unit defaults to `body.unit`; the path resolves as `body.shape`'s.
+    pub fn contact_request(
+        &self,
+    ) -> Option<(ShapeRequest, spinfall_dynamics::scenario::ContactKind)> {
+        let body = &self.scenario.body;
+        let c = body.contact_shape.as_ref()?;
+        let source = if c.path == BUILTIN_QUILLON {
+            ShapeSource::Builtin
+        } else {
+            ShapeSource::File(resolve(&self.dir, &c.path))
+        };
+        Some((
+            ShapeRequest {
+                source,
+                unit: c.unit.unwrap_or(body.unit),
+                recenter: body.recenter,
+            },
+            c.kind,
+        ))
+    }
+
     /// A name for messages.
     pub fn describe(&self) -> String {
         self.name.clone()

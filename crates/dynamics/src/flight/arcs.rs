@@ -351,7 +351,7 @@ impl<'a> Flight<'a> {
                     y: y_hit,
                     face,
                 } => {
-                    let n = self.body.shape.face_normal(face).into_inner();
+                    let n = self.body.contact_face_normal(face).into_inner();
                     let p = pos_of(&y_hit);
                     let v = vel_of(&y_hit);
                     let v_n = v.dot(&n);
@@ -616,7 +616,7 @@ impl<'a> Flight<'a> {
         for k in 1..=PIECES {
             let tau_b = h * k as f64 / PIECES as f64;
             let pb = at(tau_b);
-            if let Some(hit) = self.body.shape.segment_first_hit(&pa, &pb)
+            if let Some(hit) = self.body.contact_segment_hit(&pa, &pb)
                 && hit.front_face
             {
                 let tau_a = h * (k - 1) as f64 / PIECES as f64;
@@ -649,7 +649,7 @@ impl<'a> Flight<'a> {
             } else {
                 pos_of(&hermite_pos_vel(h, &y0, &f0, &y1, &f1, sb))
             };
-            let mut found = self.body.shape.segment_first_hit(&pa, &pb);
+            let mut found = self.body.contact_segment_hit(&pa, &pb);
             // A path that starts on the surface and leaves it crosses a face from behind right
             // at its start: that is the launch, not an impact; look further along.
             if let Some(h0) = found
@@ -660,8 +660,7 @@ impl<'a> Flight<'a> {
                 let len = d.norm();
                 found = if len > 2e-3 {
                     self.body
-                        .shape
-                        .segment_first_hit(&(h0.point_m + d * (1e-3 / len)), &pb)
+                        .contact_segment_hit(&(h0.point_m + d * (1e-3 / len)), &pb)
                         .filter(|h| h.front_face)
                 } else {
                     None
@@ -672,7 +671,7 @@ impl<'a> Flight<'a> {
                 let t_a = ode.t_old() + sa * h;
                 let t_b = ode.t_old() + sb * h;
                 ode.prepare_dense_async(sys).await;
-                let normal = self.body.shape.face_normal(hit.face).into_inner();
+                let normal = self.body.contact_face_normal(hit.face).into_inner();
                 let plane = |t: f64| {
                     ode.dense_output(t)
                         .map(|y| (pos_of(&y) - hit.point_m).dot(&normal))

@@ -318,8 +318,11 @@ pub fn fly_all(
                 }
                 // Points on the surface may test either way; only a point clearly inside is
                 // refused.
+                // Within a terrain patch's footprint the patch is the ground, wherever the body
+                // shape lies.
                 if body.shape.contains(&launch.pos_body_m)
                     && body.shape.nearest_surface_point(&launch.pos_body_m).t > 1e-6
+                    && !body.in_patch_footprint(&launch.pos_body_m)
                 {
                     report.outcome = Outcome::Failed {
                         reason: format!(
