@@ -167,11 +167,24 @@ pub fn read_scenario(source: &ScenarioSource) -> Result<LoadedScenario> {
 /// built in), otherwise relative to `to_dir` when the file is inside it, else absolute.
 pub fn relocated(loaded: &LoadedScenario, to_dir: &Path) -> Scenario {
     let mut scenario = loaded.scenario.clone();
-    let shape = &scenario.body.shape;
-    if shape == BUILTIN_QUILLON || Path::new(shape).is_absolute() || same_dir(&loaded.dir, to_dir) {
+    if same_dir(&loaded.dir, to_dir) {
         return scenario;
     }
-    let full = resolve(&loaded.dir, shape);
+    scenario.body.shape = relocated_path(&loaded.dir, &scenario.body.shape, to_dir);
+    if let Some(contact) = &mut scenario.body.contact_shape {
+        contact.path = relocated_path(&loaded.dir, &contact.path, to_dir);
+    }
+    scenario
+}
+
+/// A shape path written in a scenario of folder `from_dir`, rewritten for a scenario in
+/// `to_dir`: relative to it when the file lies below it, else absolute; `builtin:` names and
+/// absolute paths unchanged.
+fn relocated_path(from_dir: &Path, shape: &str, to_dir: &Path) -> String {
+    if shape == BUILTIN_QUILLON || Path::new(shape).is_absolute() {
+        return shape.to_string();
+    }
+    let full = resolve(from_dir, shape);
     let full = std::fs::canonicalize(&full).unwrap_or(full);
     let written = match std::fs::canonicalize(to_dir) {
         Ok(to) => match full.strip_prefix(&to) {
@@ -180,8 +193,7 @@ pub fn relocated(loaded: &LoadedScenario, to_dir: &Path) -> Scenario {
         },
         Err(_) => full,
     };
-    scenario.body.shape = written.to_string_lossy().into_owned();
-    scenario
+    written.to_string_lossy().into_owned()
 }
 
 /// Whether two folder paths name the same folder.
@@ -210,4 +222,46 @@ pub fn scenario_json(scenario: &Scenario) -> Result<String> {
     let mut text = scenario.to_json_string_pretty().map_err(refused)?;
     text.push('\n');
     Ok(text)
+}
+
+#[cfg(test)]
+#[allow(clippy::unwrap_used, reason = "tests unwrap freely")]
+mod tests {
+    use super::*;
+    use spinfall_dynamics::scenario::{ContactKind, ContactShapeSpec};
+
+    /// A scenario written elsewhere keeps pointing at the same gravity and contact files.
+    #[test]
+    fn relocating_rewrites_the_gravity_and_the_contact_paths() {
+        let root = tempfile::tempdir().unwrap();
+        let models = root.path().join("models");
+        let out = root.path().join("out");
+        std::fs::create_dir_all(&models).unwrap();
+        std::fs::create_dir_all(&out).unwrap();
+        std::fs::write(models.join("rock.obj"), "").unwrap();
+        std::fs::write(models.join("terrain.ply"), "").unwrap();
+        let mut scenario = Scenario::builtin_example();
+        scenario.body.shape = "rock.obj".into();
+        scenario.body.contact_shape = Some(ContactShapeSpec {
+            path: "terrain.ply".into(),
+            unit: None,
+            kind: ContactKind::Patch,
+        });
+        let loaded = LoadedScenario::in_memory(scenario, "test", models.clone());
+        let moved = relocated(&loaded, &out);
+        let canon = |p: PathBuf| std::fs::canonicalize(p).unwrap();
+        assert_eq!(
+            canon(resolve(&out, &moved.body.shape)),
+            canon(models.join("rock.obj"))
+        );
+        let contact = moved.body.contact_shape.unwrap();
+        assert_eq!(
+            canon(resolve(&out, &contact.path)),
+            canon(models.join("terrain.ply"))
+        );
+        assert_eq!(contact.kind, ContactKind::Patch);
+        // Below the new folder: written relative to it.
+        let inside = relocated(&loaded, root.path());
+        assert_eq!(inside.body.shape, "models/rock.obj");
+    }
 }
