@@ -39,6 +39,23 @@ pub struct BodyView {
     colors: Mutex<Vec<MapColors>>,
     figures: BodyFigures,
     guides: Arc<Guides>,
+    /// The terrain patch used for contacts, if the body has one: `f32` positions and triangles.
+    patch: Option<PatchBuffers>,
+}
+
+/// Render buffers of a terrain patch.
+pub type PatchBuffers = (Arc<Vec<[f32; 3]>>, Arc<Vec<[u32; 3]>>);
+
+/// The render buffers of `body`'s terrain patch, if any.
+fn patch_buffers(body: &Body) -> Option<PatchBuffers> {
+    let patch = body.patch.as_ref()?;
+    let mesh = patch.mesh();
+    let positions = mesh
+        .vertices_m
+        .iter()
+        .map(|p| [p.x as f32, p.y as f32, p.z as f32])
+        .collect();
+    Some((Arc::new(positions), Arc::new(mesh.faces.clone())))
 }
 
 impl BodyView {
@@ -52,6 +69,7 @@ impl BodyView {
             .collect();
         let triangles = mesh.faces.clone();
         let figures = body.figures();
+        let patch = patch_buffers(&body);
         Self {
             body,
             positions: Arc::new(positions),
@@ -60,6 +78,7 @@ impl BodyView {
             colors: Mutex::new(Vec::new()),
             figures,
             guides: Arc::default(),
+            patch,
         }
     }
 
@@ -71,6 +90,7 @@ impl BodyView {
             return Self::new(body);
         }
         let figures = body.figures();
+        let patch = patch_buffers(&body);
         Self {
             body,
             positions: self.positions.clone(),
@@ -79,6 +99,7 @@ impl BodyView {
             colors: Mutex::new(Vec::new()),
             figures,
             guides: Arc::default(),
+            patch,
         }
     }
 
@@ -94,7 +115,13 @@ impl BodyView {
             colors: Mutex::new(colors),
             figures: self.figures,
             guides,
+            patch: self.patch.clone(),
         }
+    }
+
+    /// The terrain patch used for contacts (drawn over the body, never coloured by the map).
+    pub fn patch(&self) -> Option<&PatchBuffers> {
+        self.patch.as_ref()
     }
 
     /// The guides drawn in the body-fixed view.

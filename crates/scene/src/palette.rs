@@ -37,6 +37,8 @@ pub struct Palette {
     pub equilibrium_unstable: Color,
     /// Zero-velocity curves and the forbidden-region hatch.
     pub zero_velocity: Color,
+    /// A terrain patch used for contacts.
+    pub patch: Color,
 }
 
 impl Palette {
@@ -57,6 +59,7 @@ impl Palette {
             equilibrium_stable: Color::rgb(86, 180, 233),
             equilibrium_unstable: Color::rgb(230, 159, 0),
             zero_velocity: Color::rgb(230, 159, 0),
+            patch: Color::rgb(150, 138, 120),
         }
     }
 
@@ -77,6 +80,7 @@ impl Palette {
             equilibrium_stable: Color::rgb(0, 114, 178),
             equilibrium_unstable: Color::rgb(213, 94, 0),
             zero_velocity: Color::rgb(213, 94, 0),
+            patch: Color::rgb(160, 150, 132),
         }
     }
 

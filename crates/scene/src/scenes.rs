@@ -160,6 +160,14 @@ fn build(
         mesh.colors = FaceColors::PerFace(mc.colors.clone());
     }
     scene.meshes.push(mesh);
+    // A terrain patch used for contacts, in its own shade (the map colours the body shape).
+    if let Some((positions, triangles)) = view.patch() {
+        let mut patch = SceneMesh::new(positions.clone(), triangles.clone(), pal.patch);
+        patch.model = world_from_body.to_homogeneous();
+        patch.wireframe = opts.show_wireframe.then_some(pal.wireframe);
+        patch.cull_back_faces = false;
+        scene.meshes.push(patch);
+    }
 
     let radius_m = view.brillouin_radius_m();
     if opts.show_spin_axis {

@@ -266,3 +266,39 @@ fn guides_are_drawn_in_the_body_fixed_view_only() {
     );
     assert!(guide_legend_entries(&bare, &opts).is_empty());
 }
+
+/// A terrain patch used for contacts is drawn over the body in both views (the picture shows the
+/// ground the flights land on), in its own mesh, turning with the body in the inertial view.
+#[test]
+fn a_contact_patch_is_drawn_in_both_views() {
+    use spinfall_dynamics::contact::ContactShape;
+    use spinfall_gravity::{Mesh, ShapeModel};
+    use spinfall_scene::{BodyView, body_fixed_scene, inertial_scene};
+    use std::sync::Arc;
+    let (view, _) = demo_run();
+    let body = view.body().as_ref().clone();
+    // A small square (two triangles) a little above the body's top, facing away from the centre.
+    let z = view.brillouin_radius_m() * 1.05;
+    let mesh = Mesh {
+        vertices_m: vec![
+            Point3::new(-100.0, -100.0, z),
+            Point3::new(100.0, -100.0, z),
+            Point3::new(100.0, 100.0, z),
+            Point3::new(-100.0, 100.0, z),
+        ],
+        faces: vec![[0, 1, 2], [0, 2, 3]],
+    };
+    let patch = Arc::new(ShapeModel::new_patch(mesh, Point3::origin()).unwrap().0);
+    let with_patch = BodyView::new(Arc::new(body.with_contact(ContactShape::Patch(patch))));
+    let opts = ViewOptions::default();
+    let plain = body_fixed_scene(&view, &[], 0.0, &opts, [320, 240]);
+    let scene = body_fixed_scene(&with_patch, &[], 0.0, &opts, [320, 240]);
+    assert_eq!(scene.meshes.len(), plain.meshes.len() + 1);
+    let drawn = scene.meshes.last().unwrap();
+    assert_eq!(drawn.triangles.len(), 2);
+    let t_s = 3000.0;
+    let inertial = inertial_scene(&with_patch, &[], t_s, &opts, [320, 240]);
+    let turned = inertial.meshes.last().unwrap();
+    let expected = with_patch.body().inertial_from_body(t_s).to_homogeneous();
+    assert_eq!(turned.model, expected);
+}
