@@ -14,7 +14,9 @@ use spinfall_workflow::gravity_method::{FieldUsed, GravityOptions};
 use spinfall_workflow::map_cache::{
     MapSource, load_or_compute_scenario_map, map_key, read_stored_map,
 };
-use spinfall_workflow::prepare::{PrepareOptions, Purpose, build_body, prepare_shape_hooks};
+use spinfall_workflow::prepare::{
+    PrepareOptions, Purpose, build_body, prepare_shape_hooks, prepare_shape_targeting,
+};
 use spinfall_workflow::run::{RunEnd, run_keeping_finished};
 use spinfall_workflow::scenario_file::{LoadedScenario, ScenarioSource, read_scenario};
 use spinfall_workflow::shape::{OpenedShape, ShapeRequest, ShapeSource, open_shape};
@@ -341,7 +343,14 @@ impl SpinfallApp {
             "preparing the gravity field and the launches",
             self.repaint.clone(),
             move |ctx| {
-                let prepared = prepare_shape_hooks(
+                // Targeted launches are solved first, each with its trial flights counted.
+                let targeting = |id: &str, flights: usize, max: usize| {
+                    ctx.progress
+                        .set_stage(&format!("solving the launch aimed by {id}"));
+                    ctx.progress.set(flights, max);
+                    ctx.request_repaint();
+                };
+                let prepared = prepare_shape_targeting(
                     loaded,
                     shape,
                     &PrepareOptions {
@@ -349,7 +358,13 @@ impl SpinfallApp {
                         ..PrepareOptions::new(Purpose::Fly)
                     },
                     &field_hooks(ctx),
+                    &targeting,
                 )?;
+                for t in &prepared.targeting {
+                    if let Some(why) = &t.report.reason {
+                        ctx.progress.push_note(format!("{}: {why}", t.id));
+                    }
+                }
                 ctx.progress.set(0, prepared.launches.len());
                 ctx.progress.set_stage("flying");
                 ctx.request_repaint();
