@@ -77,6 +77,24 @@ fn fly_writes_the_solution_under_targeting_and_the_launch_lands_on_the_target() 
             .abs()
             < 1e-6
     );
+    // results.csv carries the solution in its targeting columns, as results.json has it.
+    let csv = std::fs::read_to_string(out_dir.join("results.csv")).unwrap();
+    let mut lines = csv.lines();
+    let header: Vec<&str> = lines.next().unwrap().split(',').collect();
+    let row: Vec<&str> = lines.next().unwrap().split(',').collect();
+    assert_eq!(header.len(), row.len());
+    let col = |name: &str| row[header.iter().position(|h| *h == name).unwrap()];
+    assert_eq!(col("target_status"), "solved");
+    for (column, key) in [
+        ("target_speed_m_s", "speed_m_s"),
+        ("target_azimuth_deg", "azimuth_deg"),
+        ("target_elevation_deg", "elevation_deg"),
+    ] {
+        let v: f64 = col(column).parse().unwrap();
+        assert_eq!(v, t["launch"][key].as_f64().unwrap(), "{column}");
+    }
+    let miss_csv: f64 = col("target_miss_m").parse().unwrap();
+    assert_eq!(miss_csv, t["miss_m"].as_f64().unwrap());
 }
 
 #[test]

@@ -167,9 +167,13 @@ const RESULTS_HEADER: [&str; 13] = [
 pub fn write_results_csv(w: &mut dyn Write, reports: &[FlightReport]) -> Result<()> {
     let mut csv = csv_writer(w);
     let sun = reports.iter().any(|r| r.energy_added_m2_s2.is_some());
+    let targeted = reports.iter().any(|r| r.targeting.is_some());
     let mut header = RESULTS_HEADER.to_vec();
     if sun {
         header.extend(["energy_added_m2_s2", "shadow_events"]);
+    }
+    if targeted {
+        header.extend(TARGETING_HEADER);
     }
     csv.write_record(&header).map_err(csv_error)?;
     for r in reports {
@@ -193,15 +197,67 @@ pub fn write_results_csv(w: &mut dyn Write, reports: &[FlightReport]) -> Result<
             drift,
             r.frame_agreement_m,
         );
+        let mut record: Vec<String> = Vec::with_capacity(header.len());
+        record.extend(csv_fields(&row)?);
         if sun {
-            csv.serialize((row, r.energy_added_m2_s2, r.shadow_events.len()))
-        } else {
-            csv.serialize(row)
+            record.extend(csv_fields(&(r.energy_added_m2_s2, r.shadow_events.len()))?);
         }
-        .map_err(csv_error)?;
+        if targeted {
+            record.extend(targeting_fields(r)?);
+        }
+        csv.write_record(&record).map_err(csv_error)?;
     }
     csv.flush().map_err(crate::output::io_error)?;
     Ok(())
+}
+
+/// Columns of results.csv for runs with targeted launches (empty on other launches): the
+/// solution's status, launch speed, azimuth and elevation, and miss distance.
+const TARGETING_HEADER: [&str; 5] = [
+    "target_status",
+    "target_speed_m_s",
+    "target_azimuth_deg",
+    "target_elevation_deg",
+    "target_miss_m",
+];
+
+/// The targeting columns of one launch.
+fn targeting_fields(r: &FlightReport) -> Result<Vec<String>> {
+    let Some(t) = &r.targeting else {
+        return Ok(vec![String::new(); TARGETING_HEADER.len()]);
+    };
+    let status = match t.status {
+        spinfall_dynamics::targeting::TargetingStatus::Solved => "solved",
+        spinfall_dynamics::targeting::TargetingStatus::Unreachable => "unreachable",
+    };
+    let v = t.launch.as_ref();
+    let mut out = vec![status.to_string()];
+    out.extend(csv_fields(&(
+        v.map(|v| v.speed_m_s),
+        v.map(|v| v.azimuth_deg),
+        v.map(|v| v.elevation_deg),
+        t.miss_m,
+    ))?);
+    Ok(out)
+}
+
+/// The fields of one serialisable record as the CSV writer writes them.
+fn csv_fields<T: Serialize>(record: &T) -> Result<Vec<String>> {
+    let mut w = csv::WriterBuilder::new()
+        .has_headers(false)
+        .from_writer(Vec::new());
+    w.serialize(record).map_err(csv_error)?;
+    let bytes = w
+        .into_inner()
+        .map_err(|e| crate::output::io_error(e.into_error()))?;
+    let mut reader = csv::ReaderBuilder::new()
+        .has_headers(false)
+        .from_reader(bytes.as_slice());
+    let mut fields = csv::StringRecord::new();
+    if !reader.read_record(&mut fields).map_err(csv_error)? {
+        return Ok(Vec::new());
+    }
+    Ok(fields.iter().map(str::to_string).collect())
 }
 
 /// A number as the CSV writer writes it (shortest form that reads back exactly).
