@@ -300,6 +300,20 @@ pub struct RenderArgs {
     /// Aim each view at the body and fit the body to it.
     #[arg(long)]
     pub fit_body: bool,
+    /// Mark the equilibrium points in the body-fixed view (stable and unstable).
+    #[arg(long)]
+    pub equilibria: bool,
+    /// Draw the zero-velocity curves of this launch (its Jacobi constant at the start) in the
+    /// body-fixed view: on the plane of --zero-velocity-plane, on the surface, and its forbidden
+    /// region hatched.
+    #[arg(long, value_name = "LAUNCH_ID")]
+    pub zero_velocity: Option<String>,
+    /// The plane of the zero-velocity curves: `x=OFFSET`, `y=OFFSET` or `z=OFFSET` (metres).
+    #[arg(long, default_value = "z=0", value_name = "AXIS=OFFSET")]
+    pub zero_velocity_plane: String,
+    /// Cells per side of the plane grid the curves are drawn from (four Brillouin radii wide).
+    #[arg(long, default_value_t = 200, value_name = "N")]
+    pub zero_velocity_cells: usize,
 }
 
 #[derive(Debug, Args)]

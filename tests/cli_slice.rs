@@ -149,3 +149,46 @@ fn bad_slices_are_refused_by_name() {
     );
     assert!(!out.exists(), "nothing is written on bad input");
 }
+
+/// `render` draws the equilibria and a launch's zero-velocity curves in the body-fixed view:
+/// the figure changes, and an unknown launch is bad input naming it.
+#[test]
+fn render_draws_equilibria_and_zero_velocity_curves() {
+    let dir = tempfile::tempdir().unwrap();
+    let scenario = scenario(dir.path());
+    let s = scenario.to_str().unwrap();
+    let plain = dir.path().join("plain.png");
+    let guided = dir.path().join("guided.png");
+    let common = ["--view", "body", "--size", "640x360", "--time", "600"];
+    let run = |out: &std::path::Path, extra: &[&str]| {
+        let mut args = vec!["render", s, "--out", out.to_str().unwrap()];
+        args.extend(common);
+        args.extend(extra);
+        spinfall(&args)
+    };
+    ok_stdout(&run(&plain, &[]));
+    let out = run(&guided, &["--equilibria", "--zero-velocity", "hop"]);
+    ok_stdout(&out);
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert!(
+        stderr.contains("launch \"hop\": Jacobi constant"),
+        "{stderr}"
+    );
+    assert_ne!(
+        std::fs::read(&plain).unwrap(),
+        std::fs::read(&guided).unwrap(),
+        "the guides change the figure"
+    );
+    let o = dir.path().join("bad.png");
+    assert_bad_input(
+        &run(&o, &["--zero-velocity", "nope"]),
+        &["no launch \"nope\""],
+    );
+    assert_bad_input(
+        &run(
+            &o,
+            &["--zero-velocity", "hop", "--zero-velocity-plane", "q=2"],
+        ),
+        &["--zero-velocity-plane"],
+    );
+}

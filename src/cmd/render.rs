@@ -7,12 +7,15 @@ use std::process::ExitCode;
 use std::sync::Arc;
 
 use spinfall_dynamics::FlightReport;
+use spinfall_dynamics::equilibria::EquilibriumSearch;
 use spinfall_dynamics::surface_map::SurfaceField;
+use spinfall_dynamics::zero_velocity::{SlicePlane, SliceSpec, jacobi_constant};
 use spinfall_render::{Figure, FigureSize, write_svg};
 use spinfall_scene::{
     BodyView, FigureOptions, Guides, Output, ViewOptions, Views, build_figure, end_time_s,
 };
 use spinfall_workflow::WorkflowError;
+use spinfall_workflow::equilibria::compute_equilibria;
 use spinfall_workflow::images::write_png;
 use spinfall_workflow::output::{CheckedFile, OutputTarget, check_file};
 use spinfall_workflow::prepare::{PrepareOptions, PreparedRun, Purpose, prepare_with_hooks};
@@ -21,6 +24,10 @@ use spinfall_workflow::statistics::{
     StatisticsRequest, compute_statistics, landing_density_layer, landing_ellipse_guides,
 };
 use spinfall_workflow::surface::compute_surface_map;
+use spinfall_workflow::zero_velocity::{
+    CurveParts, compute_slice, compute_vertex_geopotential, equilibrium_marks, find_launch,
+    zero_velocity_curves,
+};
 
 use super::{
     announce, announce_field, field_hooks, fly_with_progress, gravity_options, limits,
@@ -228,22 +235,55 @@ pub fn run(args: &RenderArgs) -> CmdResult<ExitCode> {
             ));
         }
     };
+    let zero_velocity_plane: SlicePlane = args
+        .zero_velocity_plane
+        .parse()
+        .map_err(|e| CliError::input(format!("--zero-velocity-plane: {e}")))?;
     let (prepared, reports) = prepare_and_fly(&args.scenario, &args.limits, &args.field)?;
     let mut view = body_view(&prepared, args.map.is_some(), &reports)?;
+    let body = &prepared.body;
+    let mut guides = Guides::default();
     // The rest ellipses of the run's fan and dispersion groups, on the body-fixed view.
     if let Some((stats, _)) = compute_statistics(
-        &prepared.body,
+        body,
         prepared.scenario(),
         &reports,
         &StatisticsRequest::default(),
     )? {
-        let landing_ellipses = landing_ellipse_guides(&prepared.body, &stats);
-        if !landing_ellipses.is_empty() {
-            view = view.with_guides(Arc::new(Guides {
-                landing_ellipses,
-                ..Guides::default()
-            }));
+        guides.landing_ellipses = landing_ellipse_guides(body, &stats);
+    }
+    let cancel = spinfall_dynamics::Cancel::new(false);
+    if args.equilibria {
+        let set = compute_equilibria(body, &EquilibriumSearch::default(), &|_, _| {}, &cancel)?;
+        if set.equilibria.is_empty() {
+            note("no equilibrium points outside the body to mark");
         }
+        guides.equilibria = equilibrium_marks(&set);
+    }
+    if let Some(id) = &args.zero_velocity {
+        let launch = find_launch(&prepared.launches, id)?;
+        let c = jacobi_constant(body, launch);
+        let spec = SliceSpec {
+            plane: zero_velocity_plane,
+            extent_m: 4.0 * body.brillouin_radius_m(),
+            cells: args.zero_velocity_cells,
+        };
+        spec.validate()
+            .map_err(|e| CliError::input(format!("--zero-velocity-cells: {e}")))?;
+        let slice = compute_slice(body, &spec, &|_, _| {}, &cancel)?;
+        let vertex_phi = compute_vertex_geopotential(body, &|_, _| {}, &cancel)?;
+        note(&format!("launch {id:?}: Jacobi constant {c:.9e} m^2/s^2"));
+        guides.zero_velocity = Some(zero_velocity_curves(
+            body,
+            &slice,
+            &vertex_phi,
+            c,
+            id.clone(),
+            CurveParts::ALL,
+        ));
+    }
+    if !guides.is_empty() {
+        view = view.with_guides(Arc::new(guides));
     }
     let options = ViewOptions {
         color_range,

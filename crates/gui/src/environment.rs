@@ -14,10 +14,9 @@ use egui::{RichText, Ui};
 use nalgebra::Point3;
 use spinfall_dynamics::Body;
 use spinfall_dynamics::equilibria::{EquilibriumSearch, EquilibriumSet};
-use spinfall_dynamics::zero_velocity::{
-    Axis, PlaneSlice, SlicePlane, SliceSpec, geopotential, surface_contour,
-};
-use spinfall_scene::{EquilibriumMark, Guides, ZeroVelocityCurves};
+use spinfall_dynamics::zero_velocity::{Axis, PlaneSlice, SlicePlane, SliceSpec, geopotential};
+use spinfall_scene::Guides;
+use spinfall_workflow::zero_velocity::{CurveParts, equilibrium_marks, zero_velocity_curves};
 
 use crate::app::SpinfallApp;
 use crate::command::Command;
@@ -564,49 +563,22 @@ fn build_guides(env: &Environment, level: Option<f64>, label: String) -> Guides 
     if env.show_equilibria
         && let Some(set) = env.equilibria()
     {
-        guides.equilibria = set
-            .equilibria
-            .iter()
-            .map(|e| EquilibriumMark {
-                pos_body_m: e.position_m,
-                linearly_stable: e.linearly_stable,
-            })
-            .collect();
+        guides.equilibria = equilibrium_marks(set);
     }
     if let (Some(values), Some(c)) = (&env.slice, level) {
-        let to_arrays = |curves: Vec<Vec<Point3<f64>>>| -> Vec<Vec<[f64; 3]>> {
-            curves
-                .into_iter()
-                .map(|c| c.into_iter().map(|p| [p.x, p.y, p.z]).collect())
-                .collect()
+        let parts = CurveParts {
+            plane: env.show_plane,
+            surface: env.show_surface,
+            hatch: env.show_hatch,
         };
-        let plane_curves = if env.show_plane {
-            to_arrays(values.slice.contour(c))
-        } else {
-            Vec::new()
-        };
-        let surface_curves = if env.show_surface {
-            to_arrays(surface_contour(&values.body, &values.vertex_phi, c))
-        } else {
-            Vec::new()
-        };
-        let forbidden_hatch = if env.show_hatch {
-            let every = (values.slice.spec.cells / 50).max(2);
-            values
-                .slice
-                .hatch(c, every)
-                .into_iter()
-                .map(|[a, b]| [[a.x, a.y, a.z], [b.x, b.y, b.z]])
-                .collect()
-        } else {
-            Vec::new()
-        };
-        guides.zero_velocity = Some(ZeroVelocityCurves {
+        guides.zero_velocity = Some(zero_velocity_curves(
+            &values.body,
+            &values.slice,
+            &values.vertex_phi,
+            c,
             label,
-            plane_curves,
-            surface_curves,
-            forbidden_hatch,
-        });
+            parts,
+        ));
     }
     guides
 }

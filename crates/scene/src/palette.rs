@@ -58,7 +58,7 @@ impl Palette {
             planned_site: Color::rgb(204, 121, 167),
             equilibrium_stable: Color::rgb(86, 180, 233),
             equilibrium_unstable: Color::rgb(230, 159, 0),
-            zero_velocity: Color::rgb(230, 159, 0),
+            zero_velocity: Color::rgb(190, 174, 212),
             patch: Color::rgb(150, 138, 120),
         }
     }
@@ -79,7 +79,7 @@ impl Palette {
             planned_site: Color::rgb(204, 121, 167),
             equilibrium_stable: Color::rgb(0, 114, 178),
             equilibrium_unstable: Color::rgb(213, 94, 0),
-            zero_velocity: Color::rgb(213, 94, 0),
+            zero_velocity: Color::rgb(117, 112, 179),
             patch: Color::rgb(160, 150, 132),
         }
     }
