@@ -365,6 +365,13 @@ fn json_value(u: &mut Unstructured<'_>, depth: u32) -> Result<Value> {
                 "",
                 "rock.obj",
                 "../x.obj",
+                "min_speed",
+                "low",
+                "high",
+                "global",
+                "patch",
+                "rock.ply",
+                "rock.stl",
             ])?
             .to_string(),
         ),
@@ -378,7 +385,22 @@ fn json_value(u: &mut Unstructured<'_>, depth: u32) -> Result<Value> {
             let mut m = serde_json::Map::new();
             for _ in 0..u.int_in_range(0..=3)? {
                 let key = u.choose(&[
-                    "lat_deg", "lon_deg", "face", "point_m", "count", "to", "vary", "x",
+                    "lat_deg",
+                    "lon_deg",
+                    "face",
+                    "point_m",
+                    "count",
+                    "to",
+                    "vary",
+                    "x",
+                    "fixed_speed_m_s",
+                    "fixed_elevation_deg",
+                    "arc",
+                    "radius_m",
+                    "direction_inertial",
+                    "distance_au",
+                    "path",
+                    "kind",
                 ])?;
                 m.insert(key.to_string(), json_value(u, depth + 1)?);
             }
@@ -434,7 +456,12 @@ pub fn scenario_text(u: &mut Unstructured<'_>) -> Result<Vec<u8>> {
                         "spin": {"period_h": 4.0}},
                "launches": [{"id": "a", "site": {"face": 3}, "speed_m_s": 0.3,
                              "fan": {"vary": "speed_m_s", "to": 0.6, "count": 3}},
-                            {"id": "b", "state": {"position_m": [3000, 0, 0], "velocity_m_s": [0, 0.5, 0]}}]})
+                            {"id": "b", "state": {"position_m": [3000, 0, 0], "velocity_m_s": [0, 0.5, 0]}},
+                            {"id": "t", "site": {"face": 5}, "target": {"lat_deg": 10, "lon_deg": 20},
+                             "mode": {"fixed_speed_m_s": 0.4, "arc": "high"}, "miss_tolerance_m": 0.5,
+                             "particle": {"radius_m": 1e-4, "density_kg_m3": 2500}}],
+               "environment": {"sun": {"direction_inertial": [1, 0, 0], "distance_au": 1.5},
+                               "particle": {"radius_m": 5e-5, "density_kg_m3": 2000}}})
     };
     let mut doc = base;
     let edits = u.int_in_range(0..=5)?;
@@ -460,6 +487,12 @@ pub fn scenario_text(u: &mut Unstructured<'_>) -> Result<Vec<u8>> {
                     "fan",
                     "dispersion",
                     "recenter",
+                    "target",
+                    "mode",
+                    "miss_tolerance_m",
+                    "environment",
+                    "particle",
+                    "contact_shape",
                 ])?;
                 m.insert(key.to_string(), new);
             }
