@@ -1,7 +1,7 @@
 //! The equilibrium points of a prepared body, with progress and cancel.
 
 use spinfall_dynamics::equilibria::{EquilibriumSearch, EquilibriumSet, find_equilibria};
-use spinfall_dynamics::{Body, Cancel, DynamicsError};
+use spinfall_dynamics::{Body, Cancel};
 
 use crate::error::{Result, WorkflowError};
 
@@ -16,8 +16,6 @@ pub fn compute_equilibria(
     progress: &(dyn Fn(usize, usize) + Sync),
     cancel: &Cancel,
 ) -> Result<EquilibriumSet> {
-    find_equilibria(body, search, progress, cancel).map_err(|e| match e {
-        DynamicsError::Cancelled => WorkflowError::Cancelled,
-        other => WorkflowError::Invalid(format!("equilibrium search: {other}")),
-    })
+    find_equilibria(body, search, progress, cancel)
+        .map_err(|e| WorkflowError::from_dynamics("equilibrium search", e))
 }

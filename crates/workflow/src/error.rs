@@ -125,6 +125,15 @@ pub enum WorkflowError {
 }
 
 impl WorkflowError {
+    /// A physics error of the work called `what`: a cancellation stays [`WorkflowError::Cancelled`],
+    /// anything else is [`WorkflowError::Invalid`] prefixed with `what`.
+    pub fn from_dynamics(what: &str, e: spinfall_dynamics::DynamicsError) -> WorkflowError {
+        match e {
+            spinfall_dynamics::DynamicsError::Cancelled => WorkflowError::Cancelled,
+            other => WorkflowError::Invalid(format!("{what}: {other}")),
+        }
+    }
+
     /// The kind of failure.
     pub fn kind(&self) -> ErrorKind {
         match self {

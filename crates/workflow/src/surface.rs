@@ -3,7 +3,7 @@
 
 use spinfall_dynamics::scenario::Scenario;
 use spinfall_dynamics::surface_map::{SurfaceMap, sunlight_map, surface_map};
-use spinfall_dynamics::{Body, Cancel, DynamicsError};
+use spinfall_dynamics::{Body, Cancel};
 
 use crate::error::{Result, WorkflowError};
 
@@ -16,10 +16,7 @@ pub fn compute_surface_map(
     progress: &(dyn Fn(usize, usize) + Sync),
     cancel: &Cancel,
 ) -> Result<SurfaceMap> {
-    surface_map(body, progress, cancel).map_err(|e| match e {
-        DynamicsError::Cancelled => WorkflowError::Cancelled,
-        other => WorkflowError::Invalid(format!("surface map: {other}")),
-    })
+    surface_map(body, progress, cancel).map_err(|e| WorkflowError::from_dynamics("surface map", e))
 }
 
 /// The surface map of `body` for `scenario`: [`compute_surface_map`], with the sunlight layer
@@ -61,10 +58,7 @@ pub fn add_sunlight(
                 0.0,
                 cancel,
             )
-            .map_err(|e| match e {
-                DynamicsError::Cancelled => WorkflowError::Cancelled,
-                other => WorkflowError::Invalid(format!("surface map, sunlight: {other}")),
-            })?,
+            .map_err(|e| WorkflowError::from_dynamics("surface map, sunlight", e))?,
         ),
     };
     Ok(())

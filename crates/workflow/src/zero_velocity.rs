@@ -5,16 +5,9 @@
 
 use spinfall_dynamics::launch::LaunchState;
 use spinfall_dynamics::zero_velocity::{PlaneSlice, SliceSpec, plane_slice, vertex_geopotential};
-use spinfall_dynamics::{Body, Cancel, DynamicsError};
+use spinfall_dynamics::{Body, Cancel};
 
 use crate::error::{Result, WorkflowError};
-
-fn map_error(what: &str, e: DynamicsError) -> WorkflowError {
-    match e {
-        DynamicsError::Cancelled => WorkflowError::Cancelled,
-        other => WorkflowError::Invalid(format!("{what}: {other}")),
-    }
-}
 
 /// The geopotential on the plane grid of `spec`.
 ///
@@ -27,7 +20,7 @@ pub fn compute_slice(
     progress: &(dyn Fn(usize, usize) + Sync),
     cancel: &Cancel,
 ) -> Result<PlaneSlice> {
-    plane_slice(body, spec, progress, cancel).map_err(|e| map_error("slice", e))
+    plane_slice(body, spec, progress, cancel).map_err(|e| WorkflowError::from_dynamics("slice", e))
 }
 
 /// The geopotential at every vertex of the body's mesh (for the zero-velocity curves on the
@@ -40,7 +33,8 @@ pub fn compute_vertex_geopotential(
     progress: &(dyn Fn(usize, usize) + Sync),
     cancel: &Cancel,
 ) -> Result<Vec<f64>> {
-    vertex_geopotential(body, progress, cancel).map_err(|e| map_error("surface geopotential", e))
+    vertex_geopotential(body, progress, cancel)
+        .map_err(|e| WorkflowError::from_dynamics("surface geopotential", e))
 }
 
 /// The launch with id `id` among `launches`.
