@@ -307,7 +307,7 @@ impl SpinfallApp {
                 };
                 let label = report.id.clone();
                 if let Some((generation, index, c)) = self.env.launch_level
-                    && generation == self.data_generation_of_reports()
+                    && generation == self.results_identity()
                     && index == i
                 {
                     return (Some(c), label);
@@ -315,14 +315,14 @@ impl SpinfallApp {
                 let p = Point3::from(report.launch_pos_body_m);
                 let v = nalgebra::Vector3::from(report.launch_vel_body_m_s);
                 let c = 0.5 * v.norm_squared() + geopotential(view.body(), &p);
-                self.env.launch_level = Some((self.data_generation_of_reports(), i, c));
+                self.env.launch_level = Some((self.results_identity(), i, c));
                 (Some(c).filter(|c| c.is_finite()), label)
             }
         }
     }
 
     /// Identifies the results shown (their allocation), so a launch's constant is computed once.
-    fn data_generation_of_reports(&self) -> u64 {
+    fn results_identity(&self) -> u64 {
         Arc::as_ptr(&self.reports) as usize as u64
     }
 

@@ -103,6 +103,7 @@ fn to_be_created(folder: &Path) -> Option<PathBuf> {
 impl SpinfallApp {
     fn snapshot(&mut self, figure: &FigureChoice, folder: &Path) -> Option<Snapshot> {
         let view = self.view.clone()?;
+        let scenario = self.scenario_for(folder);
         Some(Snapshot {
             sites: self.site_markers(),
             view,
@@ -116,15 +117,15 @@ impl SpinfallApp {
             },
             cameras: [self.panes[0].camera.clone(), self.panes[1].camera.clone()],
             t_s: self.t_s,
-            scenario: self.scenario_for(folder),
             embedded: EmbeddedScenario {
-                scenario: self.scenario_for(folder),
+                scenario: scenario.clone(),
                 scenario_dir: std::path::absolute(folder).ok(),
                 shape_check: self.shape.as_ref().map(|s| ShapeCheck {
                     faces: s.shape.face_count(),
                     volume_m3: s.shape.mass_properties().volume_m3,
                 }),
             },
+            scenario,
             title: self
                 .scenario
                 .name
