@@ -262,15 +262,8 @@ fn csv_fields<T: Serialize>(record: &T) -> Result<Vec<String>> {
 
 /// A number as the CSV writer writes it (shortest form that reads back exactly).
 fn csv_number(v: f64) -> String {
-    let mut w = csv::WriterBuilder::new()
-        .has_headers(false)
-        .from_writer(Vec::new());
-    // Writing one number to memory cannot fail.
-    if w.serialize(v).is_err() {
-        return v.to_string();
-    }
-    match w.into_inner() {
-        Ok(bytes) => String::from_utf8_lossy(&bytes).trim_end().to_string(),
-        Err(_) => v.to_string(),
-    }
+    csv_fields(&v)
+        .ok()
+        .and_then(|f| f.into_iter().next())
+        .unwrap_or_else(|| v.to_string())
 }
