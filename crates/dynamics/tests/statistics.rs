@@ -79,32 +79,17 @@ fn landed(id: &str, rest: [f64; 3], first: [f64; 3], face: usize) -> FlightRepor
 }
 
 fn blank(id: &str, outcome: Outcome) -> FlightReport {
-    FlightReport {
+    let launch = spinfall_dynamics::launch::LaunchState {
         id: id.into(),
+        pos_body_m: nalgebra::Point3::new(R_M, 0.0, 0.0),
+        vel_body_m_s: Vector3::zeros(),
+        site: None,
+        particle: None,
+    };
+    FlightReport {
         outcome,
-        launch_pos_body_m: [R_M, 0.0, 0.0],
-        launch_vel_body_m_s: [0.0; 3],
-        first_contact_time_s: None,
-        rest_time_s: None,
         end_time_s: 1.0,
-        landing: None,
-        downrange_m: None,
-        max_altitude_m: 0.0,
-        contacts: Vec::new(),
-        jacobi_rel_drift: Some(0.0),
-        energy_added_m2_s2: None,
-        shadow_events: Vec::new(),
-        targeting: None,
-        frame_agreement_m: 0.0,
-        gravity_evaluations: 0,
-        steps: 0,
-        rejected_steps: 0,
-        final_pos_body_m: [R_M, 0.0, 0.0],
-        final_vel_body_m_s: [0.0; 3],
-        final_pos_inertial_m: [R_M, 0.0, 0.0],
-        final_vel_inertial_m_s: [0.0; 3],
-        trajectory_body: Vec::new(),
-        trajectory_inertial: Vec::new(),
+        ..FlightReport::not_flown(&launch, "")
     }
 }
 
