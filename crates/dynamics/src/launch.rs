@@ -164,7 +164,7 @@ impl LaunchSpec {
                 };
                 let v = from + (fan.to - from) * f;
                 let mut s = self.clone();
-                s.id = format!("{}/{k}", self.id);
+                s.id = fan_member_id(&self.id, k);
                 match fan.vary {
                     FanQuantity::AzimuthDeg => s.azimuth_deg = v,
                     FanQuantity::ElevationDeg => s.elevation_deg = v,
@@ -225,13 +225,24 @@ impl LaunchSpec {
                 dir -= up * (2.0 * vertical);
             }
             out.push(LaunchState {
-                id: format!("{}#{k}", self.id),
+                id: dispersion_member_id(&self.id, k),
                 vel_body_m_s: dir.normalize() * speed,
                 ..base.clone()
             });
         }
         Ok(out)
     }
+}
+
+/// The id of fan member `k` of the launch `id`: `"{id}/{k}"` (the one place fan ids are made).
+pub fn fan_member_id(id: &str, k: usize) -> String {
+    format!("{id}/{k}")
+}
+
+/// The id of dispersion member `k` of the launch `id`: `"{id}#{k}"` (the one place dispersion
+/// ids are made).
+pub fn dispersion_member_id(id: &str, k: usize) -> String {
+    format!("{id}#{k}")
 }
 
 /// A standard normal deviate by the Box–Muller transform (Box & Muller 1958).

@@ -20,6 +20,7 @@ use crate::error::{DynamicsError, Result};
 use crate::flight::{BounceModel, FlightSettings, IntegratorSettings, SamplingSettings};
 use crate::launch::{
     DEFAULT_START_ALTITUDE_M, Dispersion, Fan, FanQuantity, LaunchSpec, LaunchState, SpeedSigma,
+    dispersion_member_id, fan_member_id,
 };
 use crate::site::{NormalMode, Site};
 use crate::sunlight::{Particle, Sun};
@@ -435,6 +436,26 @@ impl LaunchEntry {
         fan.saturating_mul(dispersion)
     }
 
+    /// The ids of the launches this entry expands to, in launch order, without building them:
+    /// the entry's id, fan members `id/k`, dispersion members `id#j`, both `id/k#j` (the ids
+    /// [`Scenario::build_launches`] gives).
+    pub fn member_ids(&self) -> Vec<String> {
+        if self.state.is_some() {
+            return vec![self.id.clone()];
+        }
+        let fan: Vec<String> = match &self.fan {
+            Some(f) => (0..f.count).map(|k| fan_member_id(&self.id, k)).collect(),
+            None => vec![self.id.clone()],
+        };
+        match &self.dispersion {
+            Some(d) => fan
+                .iter()
+                .flat_map(|m| (0..d.count).map(move |j| dispersion_member_id(m, j)))
+                .collect(),
+            None => fan,
+        }
+    }
+
     /// The surface site of a launch from a site, placed on `body` (`None` for an explicit
     /// state). Errors say why the site cannot be placed.
     pub fn site(&self, body: &Body) -> Result<Option<Site>> {
@@ -635,6 +656,10 @@ fn validate_target(p: &str, l: &LaunchEntry, target: &SiteSpec) -> Result<()> {
     }
     Ok(())
 }
+
+/// (speed m/s, azimuth deg, elevation deg) of the launches of a targeted entry that has no
+/// solution (unreachable, or not solved by this process): placeholders, never flown.
+const UNSOLVED_VELOCITY: (f64, f64, f64) = (0.0, 0.0, 90.0);
 
 /// The launches of a scenario with its targeted entries solved
 /// ([`Scenario::build_launches_targeted`]).
@@ -1223,6 +1248,15 @@ impl Scenario {
             .fold(0u64, u64::saturating_add)
     }
 
+    /// The ids of every launch, in launch order, without building the launches (see
+    /// [`LaunchEntry::member_ids`]). Check [`Scenario::launch_count`] against a limit first.
+    pub fn launch_ids(&self) -> Vec<String> {
+        self.launches
+            .iter()
+            .flat_map(LaunchEntry::member_ids)
+            .collect()
+    }
+
     /// Flight settings from the `integrator` and `bounce` sections.
     pub fn flight_settings(&self) -> FlightSettings {
         let i = &self.integrator;
@@ -1283,6 +1317,25 @@ impl Scenario {
         progress: &(dyn Fn(&str, usize, usize) + Sync),
         cancel: &crate::Cancel,
     ) -> Result<TargetedLaunches> {
+        self.build_launches_targeted_for(body, &|_| true, progress, cancel)
+    }
+
+    /// As [`Scenario::build_launches_targeted`], solving only the targeted entries `solve(i)`
+    /// accepts (`i` indexes [`Scenario::launches`]): a share of the launches flown by one
+    /// process of a sharded run needs only the entries it flies. The target of every other
+    /// targeted entry is still resolved (a bad target is refused all the same), but its launch
+    /// states are unsolved placeholders that must not be flown, and it has no
+    /// [`TargetedEntry`]. A solved entry's solution does not depend on which others are solved.
+    ///
+    /// # Errors
+    /// As [`Scenario::build_launches_targeted`].
+    pub fn build_launches_targeted_for(
+        &self,
+        body: &Body,
+        solve: &(dyn Fn(usize) -> bool + Sync),
+        progress: &(dyn Fn(&str, usize, usize) + Sync),
+        cancel: &crate::Cancel,
+    ) -> Result<TargetedLaunches> {
         let settings = self.flight_settings();
         let mut reports: Vec<(usize, TargetingReport)> = Vec::new();
         let (states, entry_of) = self.expand(body, &mut |i, l, site| {
@@ -1298,6 +1351,10 @@ impl Scenario {
                 }
                 other => err(format!("{p}.target"), other.to_string()),
             })?;
+            if !solve(i) {
+                // The placeholder velocity of an unreachable target: never flown.
+                return Ok(UNSOLVED_VELOCITY);
+            }
             let request = TargetRequest {
                 site: site.clone(),
                 target,
@@ -1321,7 +1378,7 @@ impl Scenario {
             let velocity = report
                 .launch
                 .filter(|_| report.solved())
-                .map_or((0.0, 0.0, 90.0), |v| {
+                .map_or(UNSOLVED_VELOCITY, |v| {
                     (v.speed_m_s, v.azimuth_deg, v.elevation_deg)
                 });
             reports.push((i, report));

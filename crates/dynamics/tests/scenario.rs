@@ -446,3 +446,81 @@ fn launch_counts_and_limits_are_known_before_building() {
     let e = Scenario::from_json_str(&bad).unwrap_err().to_string();
     assert!(e.contains("limits.max_launches"), "{e}");
 }
+
+/// A sharded run names its launches without building them: `Scenario::launch_ids` must give
+/// exactly the ids (and order) of the expansion, for single launches, fans, dispersion sets,
+/// fans of dispersion sets and explicit states.
+#[test]
+fn launch_ids_are_the_ids_of_the_expansion() {
+    let mut s = Scenario::builtin_example();
+    // A fan of dispersion sets next to the example's fan, dispersion set, face and state.
+    let mut both = s.launches[0].clone();
+    both.id = "both".into();
+    both.fan.as_mut().unwrap().count = 3;
+    both.dispersion = s.launches[1].dispersion.clone();
+    both.dispersion.as_mut().unwrap().count = 4;
+    s.launches.push(both);
+    let built: Vec<String> = s
+        .build_launches(&demo_body())
+        .unwrap()
+        .into_iter()
+        .map(|l| l.id)
+        .collect();
+    assert_eq!(s.launch_ids(), built);
+    assert_eq!(built.len() as u64, s.launch_count());
+    assert!(built.contains(&"both/2#3".to_string()), "{built:?}");
+}
+
+/// Solving only some targeted entries (one process of a sharded run) gives those entries the
+/// same solution, bit for bit, as solving them all; the others get no record.
+#[test]
+fn targeted_entries_solved_alone_equal_those_solved_together() {
+    let mut s = Scenario::builtin_example();
+    s.launches.truncate(3);
+    let target = |lat: f64, lon: f64| spinfall_dynamics::scenario::LaunchEntry {
+        id: format!("hop{lat}"),
+        site: Some(spinfall_dynamics::scenario::SiteSpec {
+            lat_deg: Some(lat),
+            lon_deg: Some(lon),
+            ..Default::default()
+        }),
+        target: Some(spinfall_dynamics::scenario::SiteSpec {
+            lat_deg: Some(lat + 2.0),
+            lon_deg: Some(lon + 3.0),
+            ..Default::default()
+        }),
+        ..Default::default()
+    };
+    s.launches.push(target(10.0, 30.0));
+    s.launches.push(target(-20.0, 120.0));
+    s.validate().unwrap();
+    let body = demo_body();
+    let never = std::sync::atomic::AtomicBool::new(false);
+    let all = s
+        .build_launches_targeted(&body, &|_, _, _| {}, &never)
+        .unwrap();
+    let last = s
+        .build_launches_targeted_for(&body, &|i| i == 4, &|_, _, _| {}, &never)
+        .unwrap();
+    assert_eq!(all.targeting.len(), 2);
+    assert_eq!(last.targeting.len(), 1);
+    let (a, b) = (&all.targeting[1], &last.targeting[0]);
+    assert_eq!((a.entry, &a.id, &a.launches), (b.entry, &b.id, &b.launches));
+    assert_eq!(a.report, b.report);
+    let k = a.launches.start;
+    assert_eq!(all.states[k], last.states[k]);
+    // The unsolved entry keeps its place (same ids, same count) but is not solved.
+    let ids = |t: &spinfall_dynamics::scenario::TargetedLaunches| -> Vec<String> {
+        t.states.iter().map(|l| l.id.clone()).collect()
+    };
+    assert_eq!(ids(&all), ids(&last));
+    // A bad target is refused even when its entry is not solved.
+    s.launches[3].target.as_mut().unwrap().face = Some(usize::MAX / 2);
+    s.launches[3].target.as_mut().unwrap().lat_deg = None;
+    s.launches[3].target.as_mut().unwrap().lon_deg = None;
+    let e = s
+        .build_launches_targeted_for(&body, &|_| false, &|_, _, _| {}, &never)
+        .unwrap_err()
+        .to_string();
+    assert!(e.contains("launches[3].target"), "{e}");
+}

@@ -262,8 +262,10 @@ pub struct FlightReport {
     #[serde(default)]
     pub final_vel_inertial_m_s: [f64; 3],
     /// Sampled trajectory, body frame.
+    #[serde(default)]
     pub trajectory_body: Vec<TrajectorySample>,
     /// Sampled trajectory, inertial frame.
+    #[serde(default)]
     pub trajectory_inertial: Vec<TrajectorySample>,
     /// For a launch of a targeted scenario entry: the targeting solution, or why the target is
     /// unreachable (set by the caller that solved it; `fly` leaves it `None`).

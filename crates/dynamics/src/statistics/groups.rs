@@ -3,6 +3,7 @@
 
 use serde::{Deserialize, Serialize};
 
+use crate::launch::{dispersion_member_id, fan_member_id};
 use crate::scenario::Scenario;
 
 /// What a group is made of.
@@ -61,16 +62,18 @@ pub fn scenario_groups(scenario: &Scenario) -> Vec<LaunchGroup> {
             (Some(fan), None) => groups.push(LaunchGroup {
                 id: id.clone(),
                 kind: GroupKind::Fan,
-                member_ids: (0..fan.count).map(|k| format!("{id}/{k}")).collect(),
+                member_ids: (0..fan.count).map(|k| fan_member_id(id, k)).collect(),
             }),
             (None, Some(d)) => groups.push(LaunchGroup {
                 id: id.clone(),
                 kind: GroupKind::Dispersion,
-                member_ids: (0..d.count).map(|j| format!("{id}#{j}")).collect(),
+                member_ids: (0..d.count).map(|j| dispersion_member_id(id, j)).collect(),
             }),
             (Some(fan), Some(d)) => {
                 let member = |k: usize| -> Vec<String> {
-                    (0..d.count).map(|j| format!("{id}/{k}#{j}")).collect()
+                    (0..d.count)
+                        .map(|j| dispersion_member_id(&fan_member_id(id, k), j))
+                        .collect()
                 };
                 groups.push(LaunchGroup {
                     id: id.clone(),
