@@ -4,6 +4,7 @@ use std::path::PathBuf;
 
 use clap::{Args, Parser, Subcommand, ValueEnum};
 use spinfall_gravity::LengthUnit;
+use spinfall_workflow::shard::Shard;
 
 /// Where things go on spinning small bodies: polyhedron gravity, surface maps, particle flights.
 ///
@@ -49,6 +50,53 @@ pub enum Command {
     /// Landing dispersion statistics of a results.json (mean point, covariance, 50/90/99 %
     /// ellipses, fraction within a radius, per-face density), recomputed from the file alone.
     Stats(StatsArgs),
+    /// Merge the shard folders of a run (`fly --shard K/N`) into the files one `fly` would
+    /// write, after checking that every shard is present once, complete and of one scenario.
+    Merge(MergeArgs),
+    /// Write a bash driver script that flies a scenario on a Slurm cluster: a job array of
+    /// shards, then a merge job.
+    Slurm(SlurmArgs),
+}
+
+#[derive(Debug, Args)]
+pub struct MergeArgs {
+    /// The shard folders (written by `spinfall fly --shard K/N`), every K of 0..N once, in any
+    /// order.
+    #[arg(required = true, value_name = "DIR")]
+    pub shards: Vec<PathBuf>,
+    /// Output folder for the merged run (created if missing; nothing is written there unless
+    /// every shard checks out).
+    #[arg(long, value_name = "DIR")]
+    pub out: PathBuf,
+}
+
+#[derive(Debug, Args)]
+pub struct SlurmArgs {
+    /// Scenario file (JSON), or `builtin:example` for the demo scenario.
+    pub scenario: String,
+    /// Number of shards N: tasks of the job array (1 to 10000, at most the launch count).
+    #[arg(long, value_name = "N")]
+    pub shards: u32,
+    /// Slurm partition of every job.
+    #[arg(long, value_name = "P")]
+    pub partition: Option<String>,
+    /// Time limit of every job, HH:MM:SS (or D-HH:MM:SS).
+    #[arg(long, value_name = "HH:MM:SS")]
+    pub time: Option<String>,
+    /// CPUs of every task (the flights run on this many threads).
+    #[arg(long, value_name = "C")]
+    pub cpus_per_task: Option<u32>,
+    /// Work folder on a file system every node sees: shard-K folders, merged/, logs/, jobs/
+    /// (default: ./spinfall-work).
+    #[arg(long, value_name = "DIR")]
+    pub work_dir: Option<PathBuf>,
+    /// Write the script to this file instead of standard output (`-`).
+    #[arg(long, value_name = "FILE")]
+    pub out: Option<PathBuf>,
+    #[command(flatten)]
+    pub limits: LimitArgs,
+    #[command(flatten)]
+    pub field: FieldArgs,
 }
 
 #[derive(Debug, Args)]
@@ -184,10 +232,23 @@ pub struct FlyArgs {
     /// only when all are complete; spinfall-manifest.json lists them with their SHA-256.
     #[arg(long, value_name = "DIR")]
     pub out: PathBuf,
+    /// Fly only shard K of N: the launches i with i mod N = K (launch order after fans and
+    /// dispersion sets are expanded); no statistics files (`spinfall merge` writes them).
+    #[arg(long, value_name = "K/N", value_parser = parse_shard)]
+    pub shard: Option<Shard>,
+    /// With --shard: do nothing (exit 0) when --out already holds this shard complete, of the
+    /// same scenario, software and gravity method, every file matching its manifest.
+    #[arg(long, requires = "shard")]
+    pub skip_complete: bool,
     #[command(flatten)]
     pub limits: LimitArgs,
     #[command(flatten)]
     pub field: FieldArgs,
+}
+
+/// `K/N` for `--shard`.
+fn parse_shard(text: &str) -> Result<Shard, String> {
+    Shard::parse(text).map_err(|e| e.to_string())
 }
 
 #[derive(Debug, Args)]

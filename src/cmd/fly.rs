@@ -1,6 +1,8 @@
 //! `spinfall fly`: every launch of a scenario; writes results.json (with the scenario
 //! embedded), results.csv, trajectories.csv, and for a scenario with a fan or dispersion group
 //! statistics.json and landing_density.csv, with the manifest into a folder, as one set.
+//! With `--shard K/N`, only that shard's launches and no statistics files (see
+//! `spinfall_workflow::shard`); `--skip-complete` skips a shard already complete.
 
 use std::process::ExitCode;
 
@@ -10,6 +12,7 @@ use spinfall_workflow::run_files::{
     StatisticsOutput, run_info_of, write_run_folder_with_statistics,
 };
 use spinfall_workflow::scenario_file::{ScenarioSource, read_scenario};
+use spinfall_workflow::shard::{ExistingShard, existing_shard, expectation};
 use spinfall_workflow::statistics::{StatisticsRequest, compute_statistics};
 
 use super::{
@@ -27,8 +30,29 @@ pub fn run(args: &FlyArgs) -> CmdResult<ExitCode> {
     let options = PrepareOptions {
         limits: limits(&args.limits),
         gravity: gravity_options(&args.field),
+        shard: args.shard,
         ..PrepareOptions::new(Purpose::Fly)
     };
+    if let (Some(shard), true) = (args.shard, args.skip_complete) {
+        let expected = expectation(&loaded, &options, shard)?;
+        match existing_shard(&args.out, &expected) {
+            ExistingShard::Complete(m) => {
+                note(&format!(
+                    "skipped: {} already holds shard {shard} complete (run {}, {} launches, \
+                     every file matching its manifest; --skip-complete)",
+                    args.out.display(),
+                    m.run_id,
+                    m.launch_ids.as_ref().map_or(0, Vec::len)
+                ));
+                return Ok(ExitCode::SUCCESS);
+            }
+            ExistingShard::Redo(why) => {
+                note(&format!(
+                    "flying shard {shard}: no complete shard to skip ({why})"
+                ));
+            }
+        }
+    }
     let targeting = targeting_printer();
     let prepared = prepare_with_targeting(loaded, &options, &field_hooks(), &targeting)?;
     for t in &prepared.targeting {
@@ -45,12 +69,17 @@ pub fn run(args: &FlyArgs) -> CmdResult<ExitCode> {
     folder.check_space(prepared.estimate.output_min_bytes)?;
     let done = fly_with_progress(&prepared)?;
     let info = run_info_of(&prepared);
-    let stats = compute_statistics(
-        &prepared.body,
-        prepared.scenario(),
-        &done.reports,
-        &StatisticsRequest::default(),
-    )?;
+    // A shard's statistics would be of a part of each group: `spinfall merge` writes them.
+    let stats = if prepared.shard.is_some() {
+        None
+    } else {
+        compute_statistics(
+            &prepared.body,
+            prepared.scenario(),
+            &done.reports,
+            &StatisticsRequest::default(),
+        )?
+    };
     let out = stats
         .as_ref()
         .map(|(statistics, density)| StatisticsOutput {
@@ -63,8 +92,12 @@ pub fn run(args: &FlyArgs) -> CmdResult<ExitCode> {
         .iter()
         .filter_map(|p| p.file_name().map(|n| n.to_string_lossy().into_owned()))
         .collect();
+    let of_shard = match args.shard {
+        Some(shard) => format!(" of shard {shard}"),
+        None => String::new(),
+    };
     note(&format!(
-        "wrote {} launches to {} ({})",
+        "wrote {} launches{of_shard} to {} ({})",
         done.reports.len(),
         args.out.display(),
         names.join(", ")

@@ -8,9 +8,11 @@ mod fly;
 mod gravity;
 mod info;
 mod map;
+mod merge;
 mod plot;
 mod render;
 mod slice;
+mod slurm;
 mod stats;
 
 use std::process::ExitCode;
@@ -41,6 +43,8 @@ pub fn run(cli: Cli) -> CmdResult<ExitCode> {
         Some(Command::Plot(args)) => plot::run(&args),
         Some(Command::Slice(args)) => slice::run(&args),
         Some(Command::Stats(args)) => stats::run(&args),
+        Some(Command::Merge(args)) => merge::run(&args),
+        Some(Command::Slurm(args)) => slurm::run(&args),
         None => app::run(cli.shape, cli.unit.into()),
     }
 }
@@ -108,12 +112,15 @@ fn scenario_warnings(scenario: &spinfall_dynamics::scenario::Scenario) {
 /// Says how the gravity was computed, when it was interpolated.
 fn announce_field(field: &FieldUsed) {
     if let (Some(stats), Some(store)) = (&field.build, &field.store) {
+        let built = match field.build_s {
+            Some(s) => format!(", built in {s:.1} s"),
+            None => String::new(),
+        };
         note(&format!(
-            "gravity: interpolated field (relative error bound {:e}) {store}; {} cells, {:.0} MB, built in {:.1} s",
+            "gravity: interpolated field (relative error bound {:e}) {store}; {} cells, {:.0} MB{built}",
             field.max_rel_error.unwrap_or(0.0),
             stats.cells,
             stats.memory_bytes as f64 / 1e6,
-            stats.build_s
         ));
     }
 }
@@ -150,8 +157,14 @@ fn fly_with_progress(prepared: &spinfall_workflow::prepare::PreparedRun) -> CmdR
 
 /// Exit status of a run: success, or [`RUN_FAILED`] after naming each failed launch on stderr.
 fn run_exit_code(reports: &[FlightReport]) -> ExitCode {
+    failures_exit_code(spinfall_workflow::run::failures(reports))
+}
+
+/// Exit status of failed launches `(id, reason)`: success when there are none, else
+/// [`RUN_FAILED`] after naming each on stderr.
+fn failures_exit_code<'a>(failures: impl Iterator<Item = (&'a str, &'a str)>) -> ExitCode {
     let mut failed = false;
-    for (id, reason) in spinfall_workflow::run::failures(reports) {
+    for (id, reason) in failures {
         note(&format!("failed: {id}: {reason}"));
         failed = true;
     }

@@ -11,7 +11,7 @@
 use std::path::PathBuf;
 use std::sync::Arc;
 
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 use spinfall_dynamics::GravityModel;
 use spinfall_dynamics::scenario::{FieldMethodSpec, FieldSpec};
 use spinfall_gravity::{
@@ -83,45 +83,51 @@ pub fn check_field(spec: &FieldSpec) -> Result<()> {
 }
 
 /// How the gravity of a run was computed, recorded with its results.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+///
+/// Serialised into results.json without what belongs to one process rather than to the
+/// results: the store outcome (a path, "read" or "built") and the time this process spent
+/// building the field are left out there (and `build.build_s` is never serialised) and
+/// written into the run's manifest instead (`field_store`, `field_build_s`), so results flown
+/// in one process or in shards are byte-identical. Read back (for a merge), those are absent.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct FieldUsed {
     /// `"direct"` or `"interpolated"`.
-    pub method: &'static str,
+    pub method: String,
     /// The interpolated field's bound of the relative acceleration error.
-    #[serde(skip_serializing_if = "Option::is_none")]
+    #[serde(default, skip_serializing_if = "Option::is_none")]
     pub max_rel_error: Option<f64>,
     /// The vector kernel of the direct sums on this machine.
-    pub kernel: &'static str,
-    /// How the interpolated field was built (or read), and what it takes.
-    #[serde(skip_serializing_if = "Option::is_none")]
+    pub kernel: String,
+    /// How the interpolated field was built, and what it takes.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
     pub build: Option<BuildStats>,
-    /// Whether it was read from the store, built and stored, or built without one.
-    #[serde(skip_serializing_if = "Option::is_none")]
+    /// Whether it was read from the store, built and stored, or built without one (not
+    /// serialised; see above).
+    #[serde(skip)]
     pub store: Option<String>,
+    /// Wall-clock time this process spent building the field, s (`None`: read from the store,
+    /// or the direct method; not serialised, see above).
+    #[serde(skip)]
+    pub build_s: Option<f64>,
 }
 
 impl FieldUsed {
     /// The direct method.
     pub fn direct() -> FieldUsed {
         FieldUsed {
-            method: "direct",
+            method: "direct".into(),
             max_rel_error: None,
-            kernel: cpu_kernel(),
+            kernel: cpu_kernel().into(),
             build: None,
             store: None,
+            build_s: None,
         }
     }
 
     /// The method without the machine's kernel (for figures, which must not depend on the
     /// machine).
     pub fn describe_method(&self) -> String {
-        match self.max_rel_error {
-            Some(e) => format!(
-                "polyhedron, interpolated to a relative acceleration error of {e:e} (Werner & \
-                 Scheeres 1997)"
-            ),
-            None => "polyhedron, direct sum (Werner & Scheeres 1997)".into(),
-        }
+        describe_method(self.max_rel_error)
     }
 
     /// One line for manifests and status bars.
@@ -138,6 +144,27 @@ impl FieldUsed {
             ),
         }
     }
+}
+
+/// A gravity method without the machine's kernel: the interpolated field to the bound
+/// `max_rel_error`, or the direct sum (`None`).
+pub fn describe_method(max_rel_error: Option<f64>) -> String {
+    match max_rel_error {
+        Some(e) => format!(
+            "polyhedron, interpolated to a relative acceleration error of {e:e} (Werner & \
+             Scheeres 1997)"
+        ),
+        None => "polyhedron, direct sum (Werner & Scheeres 1997)".into(),
+    }
+}
+
+/// [`describe_method`] of the field section in force (see [`GravityOptions::resolve`]): what
+/// [`FieldUsed::describe_method`] will say once the model is built.
+pub fn describe_spec(spec: &FieldSpec) -> String {
+    describe_method(match spec.method {
+        FieldMethodSpec::Interpolated => Some(spec.max_rel_error),
+        FieldMethodSpec::Direct => None,
+    })
 }
 
 /// The gravity model of `shape` (already placed in the body frame) with `mass`, by the method
@@ -171,17 +198,21 @@ pub fn gravity_model(
             let folder = options.cache_folder();
             let (field, outcome) =
                 load_or_build(shape.mesh(), mass, settings, folder.as_deref(), hooks)?;
-            let store = match outcome {
-                StoreOutcome::Read(p) => format!("read from {}", p.display()),
-                StoreOutcome::Built(p) => format!("built and stored as {}", p.display()),
-                StoreOutcome::BuiltWithoutStore(why) => format!("built, not stored: {why}"),
+            let built_s = Some(field.stats().build_s);
+            let (store, build_s) = match outcome {
+                StoreOutcome::Read(p) => (format!("read from {}", p.display()), None),
+                StoreOutcome::Built(p) => (format!("built and stored as {}", p.display()), built_s),
+                StoreOutcome::BuiltWithoutStore(why) => {
+                    (format!("built, not stored: {why}"), built_s)
+                }
             };
             let used = FieldUsed {
-                method: "interpolated",
+                method: "interpolated".into(),
                 max_rel_error: Some(spec.max_rel_error),
-                kernel: cpu_kernel(),
+                kernel: cpu_kernel().into(),
                 build: Some(field.stats().clone()),
                 store: Some(store),
+                build_s,
             };
             Ok((Arc::new(field), used))
         }

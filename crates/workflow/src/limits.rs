@@ -48,7 +48,16 @@ const CONTACT_BYTES: u64 = 400;
 
 /// The estimate of a run of `scenario` on a body of `face_count` faces with `settings`.
 pub fn estimate(scenario: &Scenario, face_count: usize, settings: &FlightSettings) -> Estimate {
-    let launches = scenario.launch_count();
+    estimate_launches(scenario, scenario.launch_count(), face_count, settings)
+}
+
+/// As [`estimate`], for `launches` of the scenario's launches (the share of one shard).
+pub fn estimate_launches(
+    scenario: &Scenario,
+    launches: u64,
+    face_count: usize,
+    settings: &FlightSettings,
+) -> Estimate {
     let samples = 2 * settings.sampling.max_samples_per_frame as u64;
     let contacts = u64::from(settings.bounce.max_bounces) + 2;
     let id_bytes = scenario

@@ -315,7 +315,7 @@ mod tests {
             "the key is deterministic"
         );
         let interpolated = FieldUsed {
-            method: "interpolated",
+            method: "interpolated".into(),
             max_rel_error: Some(1e-6),
             ..FieldUsed::direct()
         };

@@ -12,9 +12,10 @@ use spinfall_dynamics::{Body, FlightSettings};
 use crate::error::{Result, WorkflowError};
 use crate::field_cache::BuildHooks;
 use crate::gravity_method::{FieldUsed, GravityOptions, gravity_model};
-use crate::limits::{Estimate, Limits, estimate};
+use crate::limits::{Estimate, Limits, estimate_launches};
 use crate::scenario_file::LoadedScenario;
 use crate::shape::{OpenedContact, OpenedShape, open_contact_shape, open_shape};
+use crate::shard::Shard;
 
 /// What a run is prepared for.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -35,17 +36,30 @@ pub struct PrepareOptions {
     pub limits: Limits,
     /// How gravity is computed.
     pub gravity: GravityOptions,
+    /// Fly only this shard's launches (see [`crate::shard`]); the limits and the estimate then
+    /// apply to the shard's share.
+    pub shard: Option<Shard>,
 }
 
 impl PrepareOptions {
-    /// Options for `purpose` with default limits and gravity.
+    /// Options for `purpose` with default limits and gravity, every launch.
     pub fn new(purpose: Purpose) -> Self {
         PrepareOptions {
             purpose,
             limits: Limits::default(),
             gravity: GravityOptions::default(),
+            shard: None,
         }
     }
+}
+
+/// The share of a sharded run that a prepared run flies.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct ShardPlan {
+    /// The shard.
+    pub shard: Shard,
+    /// Launches of the whole run.
+    pub launch_count: usize,
 }
 
 /// A run ready to fly.
@@ -57,7 +71,8 @@ pub struct PreparedRun {
     pub shape: OpenedShape,
     /// The body (shape, gravity, spin).
     pub body: Arc<Body>,
-    /// The expanded launches (empty for [`Purpose::BodyOnly`]).
+    /// The expanded launches (empty for [`Purpose::BodyOnly`]); with a shard, only the
+    /// shard's, in launch order.
     pub launches: Vec<LaunchState>,
     /// Integrator, contact model and sampling.
     pub settings: FlightSettings,
@@ -72,12 +87,24 @@ pub struct PreparedRun {
     pub targeting: Vec<TargetedEntry>,
     /// The scenario's separate contact shape, if any, as placed in the body.
     pub contact: Option<OpenedContact>,
+    /// The share flown, for a shard of a run.
+    pub shard: Option<ShardPlan>,
 }
 
 impl PreparedRun {
     /// The scenario.
     pub fn scenario(&self) -> &Scenario {
         &self.loaded.scenario
+    }
+
+    /// Where the launch with index `launch` of the whole run is in [`PreparedRun::launches`]
+    /// (`None`: another shard flies it). [`TargetedEntry::launches`] are such indices.
+    pub fn position_of(&self, launch: usize) -> Option<usize> {
+        match &self.shard {
+            Some(plan) => plan.shard.position_of(launch),
+            None => Some(launch),
+        }
+        .filter(|&p| p < self.launches.len())
     }
 }
 
@@ -163,7 +190,12 @@ pub fn prepare_shape_targeting(
         error,
     };
     let settings = scenario.flight_settings();
-    let est = estimate(scenario, shape.shape.face_count(), &settings);
+    let est = estimate_launches(
+        scenario,
+        flown_count(scenario, options),
+        shape.shape.face_count(),
+        &settings,
+    );
     if options.purpose == Purpose::Fly {
         options.limits.check(scenario, &est)?;
     }
@@ -177,17 +209,40 @@ pub fn prepare_shape_targeting(
         None => body,
     };
     let body = Arc::new(body);
-    let (launches, targeted) = match options.purpose {
+    let (launches, targeted, shard) = match options.purpose {
         Purpose::Fly => {
+            // A shard solves only the targeted entries it flies some launches of.
+            let ranges = entry_ranges(scenario);
+            let solve = |entry: usize| match (options.shard, ranges.get(entry)) {
+                (Some(shard), Some(range)) => shard.owns_any(range.clone()),
+                _ => true,
+            };
             let built = scenario
-                .build_launches_targeted(&body, targeting, hooks.cancel)
+                .build_launches_targeted_for(&body, &solve, targeting, hooks.cancel)
                 .map_err(|e| match e {
                     DynamicsError::Cancelled => WorkflowError::Cancelled,
                     other => refused(other),
                 })?;
-            (built.states, built.targeting)
+            match options.shard {
+                Some(shard) => {
+                    let launch_count = built.states.len();
+                    let states = built
+                        .states
+                        .into_iter()
+                        .enumerate()
+                        .filter(|(i, _)| shard.owns(*i))
+                        .map(|(_, s)| s)
+                        .collect();
+                    let plan = ShardPlan {
+                        shard,
+                        launch_count,
+                    };
+                    (states, built.targeting, Some(plan))
+                }
+                None => (built.states, built.targeting, None),
+            }
         }
-        Purpose::BodyOnly => (Vec::new(), Vec::new()),
+        Purpose::BodyOnly => (Vec::new(), Vec::new(), None),
     };
     Ok(PreparedRun {
         loaded,
@@ -200,10 +255,123 @@ pub fn prepare_shape_targeting(
         field,
         targeting: targeted,
         contact,
+        shard,
     })
 }
 
-/// Fails early: no launches to fly, or more than the limit (counted without building them).
+/// What [`check_scenario`] found.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ScenarioCheck {
+    /// Launches of the whole run.
+    pub launches: u64,
+    /// The field section in force (the scenario's with the options over it).
+    pub field: spinfall_dynamics::scenario::FieldSpec,
+    /// Warnings of the shape models (shown; they do not stop the run).
+    pub warnings: Vec<String>,
+}
+
+/// Every check [`prepare`] makes of a scenario to fly, without its costly work: the launch
+/// count and limits (of `options.shard`'s share when given), the shape model and contact
+/// shape opened, the body built, the field settings checked, and the launches expanded with
+/// their sites and targets placed; no interpolated field is built and no target is solved.
+/// For checking a scenario where it will not run (a cluster's login node): the memory estimate
+/// is left to the machine that flies it.
+///
+/// # Errors
+/// As [`prepare`].
+pub fn check_scenario(loaded: &LoadedScenario, options: &PrepareOptions) -> Result<ScenarioCheck> {
+    let options = PrepareOptions {
+        purpose: Purpose::Fly,
+        limits: Limits {
+            memory_bytes: Some(u64::MAX),
+            ..options.limits
+        },
+        ..options.clone()
+    };
+    check_launch_count(loaded, &options)?;
+    let scenario = &loaded.scenario;
+    let field = options.gravity.resolve(scenario.field.as_ref());
+    crate::gravity_method::check_field(&field)?;
+    let shape = open_shape(&loaded.shape_request())?;
+    let settings = scenario.flight_settings();
+    let est = estimate_launches(
+        scenario,
+        flown_count(scenario, &options),
+        shape.shape.face_count(),
+        &settings,
+    );
+    options.limits.check(scenario, &est)?;
+    let direct = GravityOptions {
+        method: Some(spinfall_dynamics::scenario::FieldMethodSpec::Direct),
+        ..options.gravity.clone()
+    };
+    let (body, _) = build_body(scenario, &shape, &direct, &BuildHooks::default())?;
+    let mut warnings: Vec<String> = shape
+        .warnings
+        .iter()
+        .map(|w| format!("shape model: {w}"))
+        .collect();
+    let body = match loaded.contact_request() {
+        Some((request, kind)) => {
+            let c = open_contact_shape(&request, kind, &shape)?;
+            warnings.extend(c.warnings.iter().map(|w| format!("contact shape: {w}")));
+            body.with_contact(c.contact.clone())
+        }
+        None => body,
+    };
+    scenario
+        .build_launches_targeted_for(
+            &body,
+            &|_| false,
+            &|_, _, _| {},
+            &std::sync::atomic::AtomicBool::new(false),
+        )
+        .map_err(|error| WorkflowError::Scenario {
+            what: loaded.describe(),
+            error,
+        })?;
+    Ok(ScenarioCheck {
+        launches: scenario.launch_count(),
+        field,
+        warnings,
+    })
+}
+
+/// The launches (indices in launch order) of each entry of `scenario`, counted without
+/// building them.
+fn entry_ranges(scenario: &Scenario) -> Vec<std::ops::Range<usize>> {
+    let mut start = 0usize;
+    scenario
+        .launches
+        .iter()
+        .map(|l| {
+            let count = usize::try_from(l.member_count()).unwrap_or(usize::MAX);
+            let range = start..start.saturating_add(count);
+            start = range.end;
+            range
+        })
+        .collect()
+}
+
+/// How many launches a run prepared with `options` flies: every launch, or a shard's share.
+fn flown_count(scenario: &Scenario, options: &PrepareOptions) -> u64 {
+    let total = scenario.launch_count();
+    match options.shard {
+        Some(shard) => shard.share(total),
+        None => total,
+    }
+}
+
+/// Fails early: no launches to fly, or more than the limit (counted without building them;
+/// for a shard, its share).
+///
+/// # Errors
+/// [`WorkflowError::TooManyLaunches`], or no launches.
+pub fn check_launch_limit(loaded: &LoadedScenario, options: &PrepareOptions) -> Result<()> {
+    check_launch_count(loaded, options)
+}
+
+/// See [`check_launch_limit`].
 fn check_launch_count(loaded: &LoadedScenario, options: &PrepareOptions) -> Result<()> {
     if options.purpose != Purpose::Fly {
         return Ok(());
@@ -216,7 +384,12 @@ fn check_launch_count(loaded: &LoadedScenario, options: &PrepareOptions) -> Resu
         )));
     }
     // The body's size is not known yet: count launches only.
-    let est = estimate(scenario, 0, &scenario.flight_settings());
+    let est = estimate_launches(
+        scenario,
+        flown_count(scenario, options),
+        0,
+        &scenario.flight_settings(),
+    );
     let limit = options
         .limits
         .max_launches

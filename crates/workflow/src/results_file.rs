@@ -21,7 +21,7 @@ use spinfall_dynamics::scenario::{BUILTIN_QUILLON, FieldMethodSpec, Scenario};
 use spinfall_gravity::text::excerpt;
 
 use crate::error::{Result, WorkflowError};
-use crate::gravity_method::GravityOptions;
+use crate::gravity_method::{FieldUsed, GravityOptions};
 use crate::prepare::{PrepareOptions, PreparedRun, Purpose, prepare};
 use crate::scenario_file::LoadedScenario;
 
@@ -73,6 +73,9 @@ pub struct StoredResults {
     pub dir: PathBuf,
     /// The scenario it ran (`None` in files written before it was embedded).
     pub embedded: Option<EmbeddedScenario>,
+    /// How its gravity was computed (`None` in files without the record); the store outcome
+    /// and the build time are not in the file.
+    pub field: Option<FieldUsed>,
     /// One report per launch, without trajectories.
     pub reports: Vec<FlightReport>,
 }
@@ -83,21 +86,25 @@ struct ResultsDoc {
     format: String,
     version: u32,
     #[serde(default)]
+    field: Option<FieldUsed>,
+    #[serde(default)]
     scenario: Option<serde_json::Value>,
     #[serde(default)]
     scenario_dir: Option<PathBuf>,
     #[serde(default)]
     shape_check: Option<ShapeCheck>,
-    launches: Vec<serde_json::Value>,
+    launches: Vec<FlightReport>,
 }
 
-/// Reads a results.json written by `spinfall fly` (or an export).
+/// Reads a results.json written by `spinfall fly` (or an export). The file is parsed as it is
+/// read: the launches are held once, as reports, not also as text.
 ///
 /// # Errors
 /// [`WorkflowError::Read`] when it cannot be read; [`WorkflowError::Invalid`] naming the file
-/// and what is wrong when it is not a Spinfall results file.
+/// and what is wrong (with the path of the offending value, such as `launches[3].outcome`) when
+/// it is not a Spinfall results file.
 pub fn read_results(path: &Path) -> Result<StoredResults> {
-    let bytes = std::fs::read(path).map_err(|error| WorkflowError::Read {
+    let file = std::fs::File::open(path).map_err(|error| WorkflowError::Read {
         path: path.to_path_buf(),
         error,
     })?;
@@ -105,7 +112,11 @@ pub fn read_results(path: &Path) -> Result<StoredResults> {
         Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
         _ => PathBuf::from("."),
     };
-    parse_results(&bytes, &path.display().to_string(), dir)
+    parse_results_from(
+        std::io::BufReader::with_capacity(1 << 16, file),
+        &path.display().to_string(),
+        dir,
+    )
 }
 
 /// Parses results.json bytes (`name` for messages, `dir` its folder).
@@ -117,7 +128,34 @@ pub fn parse_results(bytes: &[u8], name: &str, dir: PathBuf) -> Result<StoredRes
     let text =
         spinfall_gravity::text::decode_utf8(bytes, spinfall_gravity::text::InvalidBytes::Refuse)
             .map_err(|e| bad(e.to_string()))?;
-    let doc: ResultsDoc = serde_json::from_str(&text).map_err(|e| bad(excerpt(&e.to_string())))?;
+    parse_results_from(text.as_bytes(), name, dir)
+}
+
+/// Parses results.json from `source` as it is read.
+fn parse_results_from(
+    source: impl std::io::Read,
+    name: &str,
+    dir: PathBuf,
+) -> Result<StoredResults> {
+    let bad = |what: String| WorkflowError::Invalid(format!("results file {name}: {what}"));
+    let mut de = serde_json::Deserializer::from_reader(source);
+    let doc: ResultsDoc = serde_path_to_error::deserialize(&mut de).map_err(|e| {
+        let path = e.path().to_string();
+        let inner = e.into_inner();
+        if let Some(kind) = inner.io_error_kind() {
+            return WorkflowError::Read {
+                path: PathBuf::from(name),
+                error: std::io::Error::new(kind, inner.to_string()),
+            };
+        }
+        let what = excerpt(&inner.to_string());
+        bad(if path == "." {
+            what
+        } else {
+            format!("{path}: {what}")
+        })
+    })?;
+    de.end().map_err(|e| bad(excerpt(&e.to_string())))?;
     if doc.format != "spinfall-results" {
         return Err(bad(format!(
             "format is {} where \"spinfall-results\" is expected",
@@ -129,17 +167,6 @@ pub fn parse_results(bytes: &[u8], name: &str, dir: PathBuf) -> Result<StoredRes
             "version {} is not read by this build (it reads 1)",
             doc.version
         )));
-    }
-    let mut reports = Vec::with_capacity(doc.launches.len());
-    for (i, mut launch) in doc.launches.into_iter().enumerate() {
-        if let Some(obj) = launch.as_object_mut() {
-            for key in ["trajectory_body", "trajectory_inertial"] {
-                obj.entry(key).or_insert_with(|| serde_json::json!([]));
-            }
-        }
-        let report: FlightReport = serde_json::from_value(launch)
-            .map_err(|e| bad(format!("launches[{i}]: {}", excerpt(&e.to_string()))))?;
-        reports.push(report);
     }
     let embedded = match doc.scenario {
         None => None,
@@ -157,7 +184,8 @@ pub fn parse_results(bytes: &[u8], name: &str, dir: PathBuf) -> Result<StoredRes
         name: name.into(),
         dir,
         embedded,
-        reports,
+        field: doc.field,
+        reports: doc.launches,
     })
 }
 

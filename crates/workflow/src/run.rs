@@ -60,13 +60,12 @@ fn fly_prepared(
     progress: &(dyn Fn(usize, usize) + Sync),
     cancel: &Cancel,
 ) -> Vec<FlightReport> {
+    // Targeted entries name launches by their index in the whole run; a shard flies a share.
     let mut skip: Vec<Option<String>> = vec![None; run.launches.len()];
     for t in &run.targeting {
         if let Some(reason) = t.failure_reason() {
-            for k in t.launches.clone() {
-                if let Some(s) = skip.get_mut(k) {
-                    *s = Some(reason.clone());
-                }
+            for k in t.launches.clone().filter_map(|k| run.position_of(k)) {
+                skip[k] = Some(reason.clone());
             }
         }
     }
@@ -92,7 +91,7 @@ fn fly_prepared(
             .collect()
     };
     for t in &run.targeting {
-        for k in t.launches.clone() {
+        for k in t.launches.clone().filter_map(|k| run.position_of(k)) {
             if let Some(r) = reports.get_mut(k) {
                 r.targeting = Some(Box::new(t.report.clone()));
             }

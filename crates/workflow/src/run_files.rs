@@ -13,7 +13,7 @@ use crate::export::{
     write_statistics_json, write_trajectories_csv,
 };
 use crate::gravity_method::FieldUsed;
-use crate::output::{OutputFolder, RUN_MANIFEST, RunInfo, SetFile};
+use crate::output::{OutputFolder, RUN_MANIFEST, RunInfo, SetFile, ShardRecord};
 use crate::prepare::PreparedRun;
 use crate::results_file::EmbeddedScenario;
 use crate::statistics::{LandingDensity, RunStatistics};
@@ -48,14 +48,23 @@ pub fn run_info(scenario: Option<&Scenario>, field: &FieldUsed) -> RunInfo {
             scenario_dir: None,
             shape_check: None,
         }),
+        shard: None,
+        merged_from: None,
     }
 }
 
 /// [`run_info`] of a prepared run, with the scenario embedded in full (its folder and the
-/// shape check; see [`crate::results_file`]).
+/// shape check; see [`crate::results_file`]), and a shard's record for a shard.
 pub fn run_info_of(run: &PreparedRun) -> RunInfo {
     RunInfo {
         embedded: Some(EmbeddedScenario::of_run(run)),
+        shard: run.shard.map(|plan| ShardRecord {
+            index: plan.shard.index(),
+            count: plan.shard.count(),
+            launch_count: plan.launch_count as u64,
+            field_method: run.field.describe_method(),
+            launch_ids: run.launches.iter().map(|l| l.id.clone()).collect(),
+        }),
         ..run_info(Some(run.scenario()), &run.field)
     }
 }
@@ -150,6 +159,38 @@ pub fn statistics_files<'a>(out: &StatisticsOutput<'a>, prefix: &str) -> Vec<Set
     ]
 }
 
+/// The files of a run folder, in the manifest's order: results.json, results.csv,
+/// trajectories.csv (from the reports' trajectories, or `trajectories` when given: a merge
+/// streams them), then the statistics files when there are statistics. `spinfall fly` and
+/// `spinfall merge` both write this set.
+pub fn run_set_files<'a>(
+    reports: &'a [FlightReport],
+    info: &'a RunInfo,
+    trajectories: Option<SetFile<'a>>,
+    statistics: Option<&StatisticsOutput<'a>>,
+) -> Vec<SetFile<'a>> {
+    let mut files = match trajectories {
+        None => result_files(reports, info, "", ResultSelection::ALL),
+        Some(streamed) => {
+            let mut files = result_files(
+                reports,
+                info,
+                "",
+                ResultSelection {
+                    results: true,
+                    trajectories: false,
+                },
+            );
+            files.push(streamed);
+            files
+        }
+    };
+    if let Some(out) = statistics {
+        files.extend(statistics_files(out, ""));
+    }
+    files
+}
+
 /// As [`write_run_folder`], with the statistics files when there are statistics.
 pub fn write_run_folder_with_statistics(
     folder: &OutputFolder,
@@ -157,10 +198,7 @@ pub fn write_run_folder_with_statistics(
     info: &RunInfo,
     statistics: Option<&StatisticsOutput<'_>>,
 ) -> Result<Vec<PathBuf>> {
-    let mut files = result_files(reports, info, "", ResultSelection::ALL);
-    if let Some(out) = statistics {
-        files.extend(statistics_files(out, ""));
-    }
+    let files = run_set_files(reports, info, None, statistics);
     folder.write_set(RUN_MANIFEST, files, info, &AtomicBool::new(false))
 }
 

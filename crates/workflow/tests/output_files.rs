@@ -192,8 +192,7 @@ fn a_set_is_all_or_nothing_and_its_manifest_verifies() {
     let info = RunInfo {
         scenario_sha256: Some("ab".repeat(32)),
         kernel: "test kernel".into(),
-        field: None,
-        embedded: None,
+        ..RunInfo::default()
     };
     let no = AtomicBool::new(false);
     folder

@@ -22,7 +22,9 @@ pub use results::{
 pub use slice::write_slice_csv;
 pub use statistics::{write_landing_density_csv, write_statistics_json};
 pub use surface_map::write_surface_map_csv;
-pub use trajectories::write_trajectories_csv;
+pub use trajectories::{
+    TRAJECTORY_HEADER, TrajectoryBlock, TrajectoryBlocks, TrajectoryCsv, write_trajectories_csv,
+};
 
 use crate::error::WorkflowError;
 

@@ -133,6 +133,13 @@ impl OutputFolder {
             scenario_sha256: info.scenario_sha256.clone(),
             kernel: info.kernel.clone(),
             note: crate::CAUTION.into(),
+            field_store: info.field.as_ref().and_then(|f| f.store.clone()),
+            field_build_s: info.field.as_ref().and_then(|f| f.build_s),
+            shard: info.shard.as_ref().map(|s| [s.index, s.count]),
+            launch_count: info.shard.as_ref().map(|s| s.launch_count),
+            field_method: info.shard.as_ref().map(|s| s.field_method.clone()),
+            launch_ids: info.shard.as_ref().map(|s| s.launch_ids.clone()),
+            merged_from: info.merged_from.clone(),
             files: listed.clone(),
         };
         // First the intent: a run killed while renaming leaves a manifest that says so.

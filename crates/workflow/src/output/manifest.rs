@@ -58,8 +58,62 @@ pub struct Manifest {
     pub kernel: String,
     /// The caution that goes with every result.
     pub note: String,
+    /// Where this process got the interpolated field: `read from PATH`, `built and stored as
+    /// PATH`, or `built, not stored: why` (absent for the direct method). Kept here, not in
+    /// results.json, because it belongs to the process, not to the results.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub field_store: Option<String>,
+    /// Wall-clock time this process spent building the interpolated field, s (absent when it
+    /// was read from the store). Kept here, not in results.json, for the same reason.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub field_build_s: Option<f64>,
+    /// A shard of a run (`spinfall fly --shard K/N`): `[K, N]`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub shard: Option<[u32; 2]>,
+    /// A shard: how many launches the whole run has.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub launch_count: Option<u64>,
+    /// A shard: the gravity method without the machine's kernel (a re-submitted shard is
+    /// skipped only when it would use the same one).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub field_method: Option<String>,
+    /// A shard: the ids of its launches, in launch order.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub launch_ids: Option<Vec<String>>,
+    /// A merged run (`spinfall merge`): the shards it was merged from, in shard order.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub merged_from: Option<Vec<MergedShard>>,
     /// The files of the set.
     pub files: Vec<ManifestFile>,
+}
+
+/// What a shard's manifest says about it besides the run manifest (see [`Manifest::shard`]).
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct ShardRecord {
+    /// `K` of `K/N`.
+    pub index: u32,
+    /// `N` of `K/N`.
+    pub count: u32,
+    /// Launches of the whole run.
+    pub launch_count: u64,
+    /// The gravity method without the machine's kernel.
+    pub field_method: String,
+    /// The shard's launch ids, in launch order.
+    pub launch_ids: Vec<String>,
+}
+
+/// One shard a merged run was made from.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct MergedShard {
+    /// `[K, N]`.
+    pub shard: [u32; 2],
+    /// The shard's folder, as given to the merge.
+    pub folder: PathBuf,
+    /// The run id in the shard's manifest.
+    pub run_id: String,
+    /// The gravity method and kernel the shard used.
+    pub kernel: String,
 }
 
 /// What the writer of a set says about it.
@@ -73,6 +127,10 @@ pub struct RunInfo {
     pub field: Option<crate::gravity_method::FieldUsed>,
     /// The scenario the run flew, embedded in results.json (not in the manifest).
     pub embedded: Option<crate::results_file::EmbeddedScenario>,
+    /// A shard's record (`spinfall fly --shard`).
+    pub shard: Option<ShardRecord>,
+    /// The shards of a merged run (`spinfall merge`).
+    pub merged_from: Option<Vec<MergedShard>>,
 }
 
 /// A set whose manifest is complete and whose files all match it.
@@ -130,12 +188,8 @@ pub fn read_verified(folder: &Path, manifest_name: &str) -> Result<VerifiedSet> 
             )));
         }
         let file = folder.join(&f.name);
-        let data = std::fs::read(&file).map_err(|error| WorkflowError::Read {
-            path: file.clone(),
-            error,
-        })?;
-        let sha = super::staging::hex(&sha2::Sha256::digest(&data));
-        if data.len() as u64 != f.bytes || sha != f.sha256 {
+        let (bytes, sha) = file_digest(&file)?;
+        if bytes != f.bytes || sha != f.sha256 {
             return Err(bad(format!(
                 "{} does not match the manifest (it was changed or written by another run)",
                 f.name
@@ -144,6 +198,31 @@ pub fn read_verified(folder: &Path, manifest_name: &str) -> Result<VerifiedSet> 
         files.push(file);
     }
     Ok(VerifiedSet { manifest, files })
+}
+
+/// Size and SHA-256 (lowercase hex) of a file, read in pieces (a shard's trajectories may not
+/// fit in memory).
+pub fn file_digest(path: &Path) -> Result<(u64, String)> {
+    use std::io::Read;
+    let read_error = |error| WorkflowError::Read {
+        path: path.to_path_buf(),
+        error,
+    };
+    let mut file = std::fs::File::open(path).map_err(read_error)?;
+    let mut hash = sha2::Sha256::new();
+    let mut buf = vec![0u8; 1 << 20];
+    let mut bytes = 0u64;
+    loop {
+        let n = match file.read(&mut buf) {
+            Ok(0) => break,
+            Ok(n) => n,
+            Err(e) if e.kind() == std::io::ErrorKind::Interrupted => continue,
+            Err(e) => return Err(read_error(e)),
+        };
+        hash.update(&buf[..n]);
+        bytes += n as u64;
+    }
+    Ok((bytes, super::staging::hex(&hash.finalize())))
 }
 
 use sha2::Digest;

@@ -27,8 +27,11 @@ use std::sync::atomic::AtomicBool;
 pub use destination::{OutputTarget, parent_folder};
 pub use folder::{OutputFolder, SetFile};
 pub use lock::{LOCK_FILE, LOCK_WAIT};
-pub use manifest::read_verified;
-pub use manifest::{Manifest, ManifestFile, ManifestState, RUN_MANIFEST, RunInfo, VerifiedSet};
+pub use manifest::{
+    Manifest, ManifestFile, ManifestState, MergedShard, RUN_MANIFEST, RunInfo, ShardRecord,
+    VerifiedSet,
+};
+pub use manifest::{file_digest, read_verified};
 pub use staging::{Fill, TEMP_PREFIX, TEMP_SUFFIX, Written};
 
 use destination::{Destination, resolve};

@@ -103,7 +103,10 @@ pub struct BuildStats {
     pub exterior_degree: usize,
     /// Where the exterior expansion takes over, in Brillouin radii.
     pub switch_brillouin_multiple: f64,
-    /// Wall-clock time of the build, s.
+    /// Wall-clock time of the build, s. Not serialised (stored fields and results files keep
+    /// it out: it belongs to the process that built the field, not to the field), so 0 in a
+    /// copy read back.
+    #[serde(default, skip_serializing)]
     pub build_s: f64,
     /// Memory taken by the field (octree, polynomials, near sets, face data), bytes; the exact
     /// field it keeps for fallback cells adds its own tables.
