@@ -234,7 +234,7 @@ pub struct FlyArgs {
     pub out: PathBuf,
     /// Fly only shard K of N: the launches i with i mod N = K (launch order after fans and
     /// dispersion sets are expanded); no statistics files (`spinfall merge` writes them).
-    #[arg(long, value_name = "K/N", value_parser = parse_shard)]
+    #[arg(long, value_name = "K/N", value_parser = parse_shard, allow_hyphen_values = true)]
     pub shard: Option<Shard>,
     /// With --shard: do nothing (exit 0) when --out already holds this shard complete, of the
     /// same scenario, software and gravity method, every file matching its manifest.

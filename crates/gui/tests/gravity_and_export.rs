@@ -65,7 +65,7 @@ fn the_gravity_method_is_chosen_built_with_progress_shown_with_the_results_and_s
     assert!(saw_progress, "no progress of the build was shown");
     let used = h.state().body_field().clone();
     assert_eq!(
-        (used.method, used.max_rel_error),
+        (used.method.as_str(), used.max_rel_error),
         ("interpolated", Some(1e-6))
     );
     h.get_by_label_contains("Body now: interpolated, relative error ≤ 1e-6");

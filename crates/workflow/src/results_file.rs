@@ -39,7 +39,8 @@ pub struct ShapeCheck {
 pub struct EmbeddedScenario {
     /// The scenario, as read (its shape path as written).
     pub scenario: Scenario,
-    /// Absolute folder its relative shape path was resolved against (`None`: unknown).
+    /// Absolute folder its relative shape path was resolved against (`None`: unknown, or the
+    /// scenario names no file).
     pub scenario_dir: Option<PathBuf>,
     /// The shape model's face count and volume.
     pub shape_check: Option<ShapeCheck>,
@@ -50,9 +51,18 @@ impl EmbeddedScenario {
     /// shape check.
     pub fn of_run(run: &PreparedRun) -> EmbeddedScenario {
         let dir = &run.loaded.dir;
-        let scenario_dir = std::fs::canonicalize(dir)
-            .ok()
-            .or_else(|| std::path::absolute(dir).ok());
+        // A scenario that names no file (the built-in body, no contact shape) needs no folder:
+        // recording one (the working folder of the process) would make results depend on
+        // where they were flown.
+        let body = &run.scenario().body;
+        let names_files = body.shape != BUILTIN_QUILLON || body.contact_shape.is_some();
+        let scenario_dir = names_files
+            .then(|| {
+                std::fs::canonicalize(dir)
+                    .ok()
+                    .or_else(|| std::path::absolute(dir).ok())
+            })
+            .flatten();
         EmbeddedScenario {
             scenario: run.scenario().clone(),
             scenario_dir,

@@ -248,13 +248,11 @@ pub fn existing_shard(folder: &Path, expected: &ShardExpectation) -> ExistingSha
         || m.launch_ids.as_deref() != Some(expected.launch_ids.as_slice())
     {
         Some("its launches are not this shard's".into())
-    } else if let Some(name) = RUN_FILES
-        .iter()
-        .find(|n| !m.files.iter().any(|f| f.name == **n))
-    {
-        Some(format!("its manifest does not list {name}"))
     } else {
-        None
+        RUN_FILES
+            .iter()
+            .find(|n| !m.files.iter().any(|f| f.name == **n))
+            .map(|name| format!("its manifest does not list {name}"))
     };
     match why {
         Some(why) => ExistingShard::Redo(format!("{}: {why}", folder.display())),

@@ -182,6 +182,13 @@ pub fn check_options(r: &SlurmRequest) -> Result<()> {
                 spinfall_gravity::text::excerpt(&text.escape_debug().to_string())
             )));
         }
+        if what == "--work-dir" && text.contains('%') {
+            return Err(WorkflowError::Invalid(format!(
+                "--work-dir {}: Slurm reads '%' in log file names as a pattern; choose a folder \
+                 without '%'",
+                spinfall_gravity::text::excerpt(text)
+            )));
+        }
         if what != "the scenario" && !path.is_absolute() {
             return Err(WorkflowError::Invalid(format!(
                 "{what} {}: must be an absolute path in the script",
@@ -294,9 +301,13 @@ pub fn driver_script(r: &SlurmRequest) -> Result<String> {
         n - 1
     ));
     line("#   - a merge job after every task succeeded: WORK/merged, as one run would write it.");
-    line(
-        "# It prints \"field-job ID\" (interpolated field only), \"array-job ID\" and \"merge-job ID\".",
-    );
+    if interpolated {
+        line(
+            "# It prints \"field-job ID\", \"array-job ID\" and \"merge-job ID\" on standard output.",
+        );
+    } else {
+        line("# It prints \"array-job ID\" and \"merge-job ID\" on standard output.");
+    }
     line("# Run it again after a failure: everything is submitted again, complete shards skip.");
     line(&format!("# WORK is {work}; Slurm logs in WORK/logs."));
     line("# Spinfall is for research and planning, not flight-certified.");
@@ -535,6 +546,20 @@ mod tests {
             },
             "absolute",
         );
+        check(
+            SlurmRequest {
+                work_dir: "/scratch/100%".into(),
+                ..request()
+            },
+            "'%'",
+        );
+        check(
+            SlurmRequest {
+                time: Some("90".into()),
+                ..request()
+            },
+            "--time \"90\"",
+        );
     }
 
     #[test]
@@ -549,6 +574,10 @@ mod tests {
         assert!(s.contains("--shard \"$k/4\""), "{s}");
         assert!(s.contains("--skip-complete --max-launches 200000"), "{s}");
         assert!(!s.contains("field-job"), "direct field: no field job\n{s}");
+        assert!(
+            !s.contains("field.sbatch"),
+            "direct field: no field job\n{s}"
+        );
         let interp = driver_script(&SlurmRequest {
             method: FieldMethodSpec::Interpolated,
             gravity: GravityOptions {

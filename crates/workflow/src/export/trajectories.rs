@@ -217,3 +217,89 @@ impl<R: Read> TrajectoryBlocks<R> {
 fn bad(name: &str, what: String) -> WorkflowError {
     WorkflowError::Invalid(format!("{name}: {what}"))
 }
+
+#[cfg(test)]
+#[allow(clippy::unwrap_used, reason = "tests unwrap freely")]
+mod tests {
+    use super::*;
+
+    fn sample(t_s: f64) -> TrajectorySample {
+        TrajectorySample {
+            t_s,
+            pos_m: [t_s * 0.1, -1.0 / 3.0, 1e-300],
+            vel_m_s: [f64::MAX, f64::MIN_POSITIVE, -0.0],
+        }
+    }
+
+    fn report(id: &str, body: usize, inertial: usize) -> FlightReport {
+        let launch = spinfall_dynamics::launch::LaunchState::from_state(
+            id,
+            nalgebra::Point3::new(1.0, 2.0, 3.0),
+            nalgebra::Vector3::new(0.0, 0.0, 1.0),
+        )
+        .unwrap();
+        let mut r = FlightReport::not_flown(&launch, "test");
+        r.trajectory_body = (0..body).map(|k| sample(k as f64 + 0.5)).collect();
+        r.trajectory_inertial = (0..inertial).map(|k| sample(k as f64 * 7.0)).collect();
+        r
+    }
+
+    /// What the writer writes reads back launch by launch to the same samples, bit for bit,
+    /// and written again gives the same bytes (what a merge relies on).
+    #[test]
+    fn blocks_read_back_exactly_and_write_the_same_bytes() {
+        let reports = vec![
+            report("a", 3, 2),
+            report("no samples", 0, 0),
+            report("quote \" and, comma", 1, 4),
+            report("only inertial", 0, 2),
+        ];
+        let mut first = Vec::new();
+        write_trajectories_csv(&mut first, &reports).unwrap();
+        let mut blocks = TrajectoryBlocks::new(first.as_slice(), "t.csv").unwrap();
+        let mut again = Vec::new();
+        {
+            let mut out = TrajectoryCsv::start(&mut again).unwrap();
+            for r in &reports {
+                let b = blocks.take(&r.id).unwrap();
+                assert_eq!(b.body, r.trajectory_body, "{}", r.id);
+                assert_eq!(b.inertial, r.trajectory_inertial, "{}", r.id);
+                out.launch(&r.id, &b.body, &b.inertial).unwrap();
+            }
+            out.finish().unwrap();
+        }
+        blocks.finish().unwrap();
+        assert!(first == again);
+    }
+
+    #[test]
+    fn rows_out_of_order_or_malformed_are_refused() {
+        let reports = vec![report("a", 2, 1), report("b", 1, 1)];
+        let mut text = Vec::new();
+        write_trajectories_csv(&mut text, &reports).unwrap();
+        // Asked in another order: b's rows are left over.
+        let mut blocks = TrajectoryBlocks::new(text.as_slice(), "t.csv").unwrap();
+        assert!(blocks.take("b").unwrap().body.is_empty());
+        blocks.take("a").unwrap();
+        let e = blocks.finish().err().unwrap().to_string();
+        assert!(e.contains("t.csv") && e.contains("launch \"b\""), "{e}");
+        // Another header, a bad number, a body row after inertial ones.
+        let e = TrajectoryBlocks::new(&b"id,t\n"[..], "x.csv")
+            .err()
+            .unwrap();
+        assert!(e.to_string().contains("header"), "{e}");
+        let head = TRAJECTORY_HEADER.join(",");
+        let bad = format!("{head}\na,body,1,2,3,x,5,6,7\n");
+        let e = TrajectoryBlocks::new(bad.as_bytes(), "x.csv")
+            .unwrap()
+            .take("a")
+            .unwrap_err();
+        assert!(e.to_string().contains("z_m"), "{e}");
+        let swapped = format!("{head}\na,inertial,1,2,3,4,5,6,7\na,body,1,2,3,4,5,6,7\n");
+        let e = TrajectoryBlocks::new(swapped.as_bytes(), "x.csv")
+            .unwrap()
+            .take("a")
+            .unwrap_err();
+        assert!(e.to_string().contains("frame"), "{e}");
+    }
+}
