@@ -390,6 +390,64 @@ fn merge_refuses_bad_shard_sets_by_name_and_writes_nothing() {
     assert_same_run(&f.single(), &dir.join("good"));
 }
 
+/// Shards from machines with other vector units are merged, with a warning and every kernel
+/// named. (This machine has one kernel: the other shard's record is edited, and its manifest's
+/// hash brought up to date, as another machine would have written it.)
+#[test]
+fn shards_of_different_kernels_merge_with_a_warning() {
+    let f = fixture();
+    let dir = scratch("kernels");
+    let shards: Vec<PathBuf> = (0..3)
+        .map(|k| {
+            let d = dir.join(format!("shard-{k}"));
+            copy_dir(&f.shard(k, 3), &d);
+            d
+        })
+        .collect();
+    let results = shards[2].join("results.json");
+    let mut doc = json(&results);
+    let ours = doc["field"]["kernel"].as_str().unwrap().to_string();
+    let other = if ours == "portable SIMD kernel" {
+        "AVX2+FMA kernel"
+    } else {
+        "portable SIMD kernel"
+    };
+    doc["field"]["kernel"] = other.into();
+    let text = serde_json::to_string_pretty(&doc).unwrap() + "\n";
+    std::fs::write(&results, text).unwrap();
+    let (bytes, sha) = spinfall_workflow::output::file_digest(&results).unwrap();
+    edit_manifest(&shards[2], |m| {
+        let kernel = m["kernel"].as_str().unwrap().replace(&ours, other);
+        m["kernel"] = kernel.into();
+        let file = &mut m["files"][0];
+        assert_eq!(file["name"], "results.json");
+        file["bytes"] = bytes.into();
+        file["sha256"] = sha.into();
+    });
+    let merged = dir.join("merged");
+    let e = ok(&merge(&dir, &shards, &merged));
+    assert!(e.contains("different vector kernels"), "{e}");
+    assert!(e.contains(&format!("2/3: {other}")), "{e}");
+    let kernel = json(&merged.join("results.json"))["field"]["kernel"].clone();
+    assert_eq!(kernel, format!("mixed: {ours} + {other}").as_str());
+    let m = json(&merged.join(MANIFEST));
+    assert!(m["kernel"].as_str().unwrap().contains("mixed"), "{m}");
+    assert!(
+        m["merged_from"][2]["kernel"]
+            .as_str()
+            .unwrap()
+            .contains(other)
+    );
+    // The flights themselves are this machine's: the tables and trajectories are unchanged.
+    for name in ["results.csv", "trajectories.csv", "statistics.json"] {
+        assert!(
+            std::fs::read(merged.join(name)).unwrap()
+                == std::fs::read(f.single().join(name)).unwrap(),
+            "{name}"
+        );
+    }
+}
+
 #[test]
 fn fly_refuses_malformed_shards_before_any_work() {
     let dir = scratch("bad-shards");

@@ -15,6 +15,9 @@
 //!   store beside the interpolated fields ([`map_cache`]), the equilibrium points
 //!   ([`equilibria`]), the geopotential on planes and the zero-velocity curves
 //!   ([`zero_velocity`]), plot series ([`series`]) and pictures ([`images`]);
+//! - sharded runs: a deterministic share of the launches ([`shard`]), the shards merged into
+//!   the files one run writes ([`merge`]), and the driver script of a Slurm job array
+//!   ([`slurm`]);
 //! - every exporter ([`export`]: results JSON and CSV, trajectories CSV, surface map CSV, field
 //!   samples, shape figures, equilibria JSON) and the one module that writes files
 //!   ([`output`]: exclusive

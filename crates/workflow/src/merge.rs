@@ -19,7 +19,8 @@
 //! field's store outcome and build time) is only in the manifests, so the merged results.json,
 //! results.csv, trajectories.csv, statistics.json and landing_density.csv equal a single run's
 //! byte for byte. Shards that ran different vector kernels (the manifest's `kernel`; a cluster
-//! of mixed machines) are merged with a warning: their results then agree to rounding, within
+//! of mixed machines) are merged with a warning: their gravity sums differ by rounding, which
+//! the integration carries into the trajectories, so the results are to be compared within
 //! each launch's `frame_agreement_m`, not bit for bit.
 //!
 //! **Memory.** The launch reports are held (as a single run holds them, without trajectories);
@@ -515,8 +516,9 @@ fn merged_field(
             .take(12)
             .collect();
         warn(format!(
-            "the shards ran different vector kernels ({}): the merged results agree with a \
-             single run to rounding, within each launch's frame_agreement_m, not byte for byte",
+            "the shards ran different vector kernels ({}): the merged results differ from a \
+             single run by rounding, to be compared within each launch's frame_agreement_m, \
+             not byte for byte",
             per_shard.join(", ")
         ));
         field.kernel = format!("mixed: {}", kernels.join(" + "));
