@@ -54,10 +54,11 @@ fn json(path: &Path) -> Value {
     serde_json::from_slice(&std::fs::read(path).unwrap()).unwrap()
 }
 
-/// A folder of its own under Cargo's temporary folder for this test binary.
+/// A folder of its own under Cargo's temporary folder for this test binary, emptied first (so
+/// each run replaces the last one's files instead of piling them up).
 fn scratch(name: &str) -> PathBuf {
     let dir = PathBuf::from(env!("CARGO_TARGET_TMPDIR"))
-        .join(format!("cli_shards-{}", std::process::id()))
+        .join("cli_shards")
         .join(name);
     let _ = std::fs::remove_dir_all(&dir);
     std::fs::create_dir_all(&dir).unwrap();
@@ -212,6 +213,67 @@ fn shards_merged_equal_the_single_run_byte_for_byte() {
             std::fs::read(stats_out.join("statistics.json")).unwrap()
                 == std::fs::read(f.single().join("statistics.json")).unwrap(),
             "stats on the merged results differ from fly's statistics"
+        );
+    }
+}
+
+/// Targeted entries in shards: each shard solves only the entries it flies (the others are
+/// not even solved), and the merge still equals one run, the solutions, the dispersion set
+/// around one and the placeholders of an unreachable target included.
+#[test]
+fn targeted_launches_in_shards_merge_to_the_single_run() {
+    let dir = scratch("targeted");
+    std::fs::copy(root().join("shapes/box.obj"), dir.join("rock.obj")).unwrap();
+    // shapes/box.obj: 2 x 1.2 x 0.8 km, top face at z = 400 m. Launch order: hop#0..hop#3
+    // (0-3), plain (4), slow (5, unreachable: 1 mm/s cannot carry a grain that far).
+    std::fs::write(
+        dir.join("hops.json"),
+        r#"{"format": "spinfall-scenario", "version": 1, "seed": 3,
+  "body": {"shape": "rock.obj", "unit": "km", "density_kg_m3": 2400,
+           "spin": {"period_h": 3.7, "axis": [0,0,1], "phase_deg": 0}},
+  "launches": [
+    {"id": "hop", "site": {"point_m": [-300, 0, 400]}, "target": {"point_m": [300, 100, 450]},
+     "mode": "min_speed", "miss_tolerance_m": 0.2,
+     "dispersion": {"count": 4, "speed_sigma_percent": 2, "direction_sigma_deg": 1}},
+    {"id": "plain", "site": {"point_m": [0, 0, 400]}, "speed_m_s": 0.1, "elevation_deg": 60},
+    {"id": "slow", "site": {"point_m": [-300, 0, 400]}, "target": {"face": 0},
+     "mode": {"fixed_speed_m_s": 0.001, "arc": "low"}}],
+  "integrator": {"rel_tol": 1e-11, "max_time_s": 200000},
+  "bounce": {"normal_restitution": 0.5, "tangential_restitution": 0.8, "max_bounces": 3}}"#,
+    )
+    .unwrap();
+    let single = dir.join("single");
+    ok(&run_in(&dir, &["fly", "hops.json", "--out", s(&single)]));
+    let n = 5;
+    let mut shards = Vec::new();
+    for k in 0..n {
+        let out = dir.join(format!("shard-{k}"));
+        let shard = format!("{k}/{n}");
+        let e = ok(&run_in(
+            &dir,
+            &["fly", "hops.json", "--shard", &shard, "--out", s(&out)],
+        ));
+        // Shard 4 flies only `plain` (launch 4): it solves no target.
+        assert_eq!(k == 4, !e.contains("targeting"), "shard {k}: {e}");
+        shards.push(out);
+    }
+    ok(&merge(&dir, &shards, &dir.join("merged")));
+    assert_same_run_files(
+        &single,
+        &dir.join("merged"),
+        &["results.json", "results.csv", "trajectories.csv"],
+    );
+    let results = json(&single.join("results.json"));
+    assert_eq!(results["launches"][1]["targeting"]["status"], "solved");
+    assert_eq!(results["launches"][5]["targeting"]["status"], "unreachable");
+}
+
+/// The files `names` of two run folders are equal byte for byte.
+fn assert_same_run_files(a: &Path, b: &Path, names: &[&str]) {
+    for name in names {
+        assert!(
+            std::fs::read(a.join(name)).unwrap() == std::fs::read(b.join(name)).unwrap(),
+            "{name} differs between {a:?} and {b:?}"
         );
     }
 }

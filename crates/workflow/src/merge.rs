@@ -127,8 +127,11 @@ pub fn merge_shards(
         // The shape model, for the statistics (found as `spinfall stats` finds it).
         let run = open_results_body(
             &StoredResults {
+                name: first.name.clone(),
+                dir: first.dir.clone(),
+                embedded: first.embedded.clone(),
+                field: None,
                 reports: Vec::new(),
-                ..first.clone()
             },
             None,
         )
