@@ -72,6 +72,47 @@ def box_obj(lo, hi) -> str:
     )
 
 
+def ellipsoid_obj(subdivisions, axes_km) -> str:
+    """An OBJ of a triaxial ellipsoid-like body in km: an icosahedron subdivided `subdivisions`
+    times (20 * 4**subdivisions faces), its vertices on the unit sphere, scaled per axis."""
+    t = (1 + 5**0.5) / 2
+    vertices = [
+        (-1, t, 0), (1, t, 0), (-1, -t, 0), (1, -t, 0), (0, -1, t), (0, 1, t),
+        (0, -1, -t), (0, 1, -t), (t, 0, -1), (t, 0, 1), (-t, 0, -1), (-t, 0, 1),
+    ]
+    faces = [
+        (0, 11, 5), (0, 5, 1), (0, 1, 7), (0, 7, 10), (0, 10, 11), (1, 5, 9), (5, 11, 4),
+        (11, 10, 2), (10, 7, 6), (7, 1, 8), (3, 9, 4), (3, 4, 2), (3, 2, 6), (3, 6, 8),
+        (3, 8, 9), (4, 9, 5), (2, 4, 11), (6, 2, 10), (8, 6, 7), (9, 8, 1),
+    ]
+    v = [np.array(p, dtype=float) / np.linalg.norm(p) for p in vertices]
+    for _ in range(subdivisions):
+        middle = {}
+
+        def mid(a, b):
+            key = (min(a, b), max(a, b))
+            if key not in middle:
+                p = v[a] + v[b]
+                v.append(p / np.linalg.norm(p))
+                middle[key] = len(v) - 1
+            return middle[key]
+
+        faces = [
+            f
+            for a, b, c in faces
+            for f in (
+                (a, mid(a, b), mid(c, a)),
+                (b, mid(b, c), mid(a, b)),
+                (c, mid(c, a), mid(b, c)),
+                (mid(a, b), mid(b, c), mid(c, a)),
+            )
+        ]
+    scale = np.asarray(axes_km, dtype=float)
+    return "".join("v %r %r %r\n" % tuple(float(x) for x in p * scale) for p in v) + "".join(
+        f"f {a + 1} {b + 1} {c + 1}\n" for a, b, c in faces
+    )
+
+
 def builtin_with(**changes) -> dict:
     """The built-in example as a JSON document, with top-level keys replaced."""
     doc = json.loads(spinfall.Scenario.builtin().to_json())

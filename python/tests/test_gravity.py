@@ -7,7 +7,7 @@ import numpy as np
 import pytest
 
 import spinfall
-from conftest import box_obj, same
+from conftest import box_obj, ellipsoid_obj, same
 
 # The prism of the closed-form checks: not centred, not cubic, in metres.
 LO = (-300.0, -200.0, -150.0)
@@ -170,7 +170,10 @@ def demo_points():
 
 
 def test_direct_field_is_bit_for_bit_what_spinfall_gravity_writes(cli, tmp_path):
-    points = demo_points()
+    # More points than one chunk of evaluate() (about 20,000 on this body), so the chunked
+    # Python path is compared with the CLI's single batch.
+    rng = np.random.default_rng(4)
+    points = np.vstack([demo_points(), rng.uniform(-7000.0, 7000.0, size=(24000, 3))])
     shape = spinfall.Shape.builtin(recenter=True)
     out = spinfall.Field(shape, density_kg_m3=2100.0).evaluate(points)
     lines = cli_samples(
@@ -181,7 +184,10 @@ def test_direct_field_is_bit_for_bit_what_spinfall_gravity_writes(cli, tmp_path)
 
 
 def test_interpolated_field_is_what_spinfall_gravity_reads_from_the_same_cache(cli, tmp_path):
-    shape = spinfall.Shape.builtin()
+    # A 1,280-face ellipsoid-like body: an octree of a few hundred cells, built in seconds.
+    body = tmp_path / "pebble.obj"
+    body.write_text(ellipsoid_obj(3, (3.0, 2.0, 1.5)))
+    shape = spinfall.Shape.load(body)
     cache = tmp_path / "fields"
     stages = []
     field = spinfall.Field(
@@ -194,6 +200,7 @@ def test_interpolated_field_is_what_spinfall_gravity_reads_from_the_same_cache(c
     )
     assert field.method == "interpolated" and field.max_rel_error == 1e-6
     assert field.info["store"].startswith("built and stored as"), field.info
+    assert field.info["build"]["cells"] > 100, field.info
     assert set(stages) == {"field"}
     again = spinfall.Field(
         shape, density_kg_m3=1900.0, method="interpolated", max_rel_error=1e-6, cache_dir=cache
@@ -203,7 +210,7 @@ def test_interpolated_field_is_what_spinfall_gravity_reads_from_the_same_cache(c
     out = field.evaluate(points)
     lines = cli_samples(
         cli,
-        ["builtin:quillon"],
+        [body],
         ["--density", "1900"],
         points,
         tmp_path,
@@ -217,6 +224,7 @@ def test_interpolated_field_is_what_spinfall_gravity_reads_from_the_same_cache(c
     scale = np.maximum(np.linalg.norm(direct["acceleration_m_s2"], axis=1), floor)
     err = np.linalg.norm(out["acceleration_m_s2"] - direct["acceleration_m_s2"], axis=1)
     assert (err <= 1e-6 * scale).all(), (err / scale).max()
+    assert (out["inside"] == direct["inside"]).all() and out["inside"].any()
 
 
 def test_an_empty_batch_gives_empty_arrays(prism):

@@ -120,7 +120,24 @@ def test_ctrl_c_cancels_the_run_and_raises_keyboard_interrupt():
     assert len(spinfall.Scenario.builtin().fly()) == 16
 
 
-def test_ctrl_c_cancels_a_surface_map_too(monkeypatch):
+def test_ctrl_c_interrupts_a_large_evaluate_between_chunks():
+    field = spinfall.Field(spinfall.Shape.builtin(), density_kg_m3=1900.0)
+    points = np.random.default_rng(5).uniform(-8000.0, 8000.0, size=(400_000, 3))
+    timer = threading.Timer(0.5, os.kill, (os.getpid(), signal.SIGINT))
+    start = time.perf_counter()
+    timer.start()
+    try:
+        with pytest.raises(KeyboardInterrupt):
+            field.evaluate(points)
+    finally:
+        timer.cancel()
+    # The whole batch takes tens of seconds here; the interrupt lands after the current chunk
+    # (about 20,000 points of this body).
+    assert time.perf_counter() - start < 5.0
+    assert idle_cpu_s(0.3) < 0.1
+
+
+def test_ctrl_c_cancels_a_surface_map_too():
     # A map of the built-in body takes well under a second; interrupt at the first progress
     # report instead, through the same path as a signal.
     def progress(stage, done, total):
