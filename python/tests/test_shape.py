@@ -88,3 +88,34 @@ def test_the_shipped_ellipsoid_has_the_volume_of_its_semi_axes():
     s = spinfall.Shape.load(REPO / "shapes" / "ellipsoid.obj")
     exact = 4.0 / 3.0 * np.pi * 3000.0 * 2000.0 * 1500.0
     assert 0.98 * exact < s.volume_m3 < exact
+
+
+def test_ply_and_stl_files_open_through_the_same_loader(tmp_path):
+    lo, hi = (-1.0, -0.6, -0.4), (1.0, 0.6, 0.4)
+    obj = box_obj(lo, hi)
+    vertices = [line.split()[1:] for line in obj.splitlines() if line.startswith("v ")]
+    faces = [[int(i) - 1 for i in line.split()[1:]] for line in obj.splitlines() if line.startswith("f ")]
+    ply = tmp_path / "brick.ply"
+    ply.write_text(
+        "ply\nformat ascii 1.0\n"
+        f"element vertex {len(vertices)}\nproperty double x\nproperty double y\nproperty double z\n"
+        f"element face {len(faces)}\nproperty list uchar int vertex_indices\nend_header\n"
+        + "".join(" ".join(v) + "\n" for v in vertices)
+        + "".join("3 " + " ".join(map(str, f)) + "\n" for f in faces)
+    )
+    stl = tmp_path / "brick.stl"
+    stl.write_text(
+        "solid brick\n"
+        + "".join(
+            "facet normal 0 0 0\n outer loop\n"
+            + "".join(f"  vertex {' '.join(vertices[i])}\n" for i in f)
+            + " endloop\nendfacet\n"
+            for f in faces
+        )
+        + "endsolid brick\n"
+    )
+    for path in (ply, stl):
+        shape = spinfall.Shape.load(path)
+        assert shape.face_count == 12, path
+        assert shape.volume_m3 == pytest.approx(1.92e9, rel=1e-14), path
+        np.testing.assert_allclose(shape.centroid_m, 0.0, atol=1e-6)
