@@ -119,10 +119,23 @@ pub fn evaluate_field(
     field: &dyn spinfall_dynamics::GravityModel,
     points: &FieldPoints,
 ) -> Result<Vec<FieldSample>> {
-    let samples = field.evaluate_batch(&points.points_m).ok_or_else(|| {
+    evaluate_points(field, &points.points_m, &|k| {
+        points.labels.get(k).cloned().unwrap_or_default()
+    })
+}
+
+/// [`evaluate_field`] for points without stored labels: `label(k)` names point `k` in the error
+/// (only called for a point that fails). The Python package evaluates numpy arrays here, so
+/// both front ends share the batch kernel and the finiteness check.
+pub fn evaluate_points(
+    field: &dyn spinfall_dynamics::GravityModel,
+    points_m: &[Point3<f64>],
+    label: &dyn Fn(usize) -> String,
+) -> Result<Vec<FieldSample>> {
+    let samples = field.evaluate_batch(points_m).ok_or_else(|| {
         WorkflowError::Invalid("this gravity model gives no gradient tensor".into())
     })?;
-    for ((s, p), label) in samples.iter().zip(&points.points_m).zip(&points.labels) {
+    for (k, (s, p)) in samples.iter().zip(points_m).enumerate() {
         let bad = if !s.potential_m2_s2.is_finite() {
             Some("the potential")
         } else if !s.acceleration_m_s2.iter().all(|v| v.is_finite()) {
@@ -136,9 +149,12 @@ pub fn evaluate_field(
         };
         if let Some(what) = bad {
             return Err(WorkflowError::NonFinite(format!(
-                "{what} at {label} ({:e}, {:e}, {:e}) m is not a finite number: the point is \
+                "{what} at {} ({:e}, {:e}, {:e}) m is not a finite number: the point is \
                  beyond what f64 arithmetic can evaluate; use a nearer point",
-                p.x, p.y, p.z
+                label(k),
+                p.x,
+                p.y,
+                p.z
             )));
         }
     }

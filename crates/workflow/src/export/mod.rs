@@ -13,7 +13,8 @@ mod trajectories;
 
 pub use equilibria::write_equilibria_json;
 pub use field::{
-    FieldPoints, evaluate_field, parse_points_csv, read_points_file, write_field_samples,
+    FieldPoints, evaluate_field, evaluate_points, parse_points_csv, read_points_file,
+    write_field_samples,
 };
 pub use info::{ShapeInfo, shape_info, write_shape_info};
 pub use results::{
