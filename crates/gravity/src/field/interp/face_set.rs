@@ -35,6 +35,9 @@ pub(crate) struct FaceGeometry {
     pub edge_normals: Vec<[[f64; 3]; 3]>,
     /// Lengths of those edges, m.
     pub edge_len_m: Vec<[f64; 3]>,
+    /// The mesh's undirected edges numbered, made on first use (the build's face-set tables
+    /// need them; queries do not): see [`FaceGeometry::face_edges`].
+    edge_numbers: std::sync::OnceLock<(Vec<[u32; 3]>, usize)>,
 }
 
 fn sub(a: [f64; 3], b: [f64; 3]) -> [f64; 3] {
@@ -87,7 +90,40 @@ impl FaceGeometry {
             normals,
             edge_normals,
             edge_len_m,
+            edge_numbers: std::sync::OnceLock::new(),
         }
+    }
+
+    /// For each face, the numbers of its edges `(v0, v1)`, `(v1, v2)`, `(v2, v0)` among the
+    /// mesh's undirected edges (two faces sharing an edge get the same number), and how many
+    /// edges there are. Computed once, on first use, by sorting the vertex pairs.
+    pub fn face_edges(&self) -> (&[[u32; 3]], usize) {
+        let (numbers, count) = self.edge_numbers.get_or_init(|| {
+            let mut keyed: Vec<(u64, u32)> = Vec::with_capacity(3 * self.faces.len());
+            for (f, face) in self.faces.iter().enumerate() {
+                for k in 0..3 {
+                    let (a, b) = (face[k], face[(k + 1) % 3]);
+                    let key = (u64::from(a.min(b)) << 32) | u64::from(a.max(b));
+                    keyed.push((key, (3 * f + k) as u32));
+                }
+            }
+            keyed.sort_unstable();
+            let mut numbers = vec![[0u32; 3]; self.faces.len()];
+            let mut count = 0u32;
+            for (i, &(key, slot)) in keyed.iter().enumerate() {
+                if i > 0 && keyed[i - 1].0 != key {
+                    count += 1;
+                }
+                numbers[slot as usize / 3][slot as usize % 3] = count;
+            }
+            let edges = if keyed.is_empty() {
+                0
+            } else {
+                count as usize + 1
+            };
+            (numbers, edges)
+        });
+        (numbers, *count)
     }
 
     pub fn face_count(&self) -> usize {
