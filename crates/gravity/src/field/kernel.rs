@@ -13,12 +13,6 @@
 //! faces near a cell): `sum_f h_f n_f grad(omega_f)^T - sum_e (E_e r_e) grad(L_e)^T`, with
 //! `grad omega_f` the Biot–Savart field of a unit current around face `f` and
 //! `grad L_e = 2 l (r_a/|r_a| + r_b/|r_b|) / (s^2 - l^2)`, `s = |r_a| + |r_b|`.
-//! Both run in the edge loop: `grad omega_f` is a sum over the face's edges of
-//! `+-w_e`, `w_e = (r_a x r_b)(|r_a| + |r_b|) / (|r_a||r_b|(|r_a||r_b| + r_a . r_b))` (the sign
-//! by the direction the face runs along the edge), and `h_f = n_f . r_a` at either end of any
-//! of its edges, so `sum_f h_f n_f grad(omega_f)^T = sum_e (M_e r_a) w_e^T` with the symmetric
-//! `M_e = sum_(f on e) +-n_f n_f^T` of the tables (`Tables::open_dyad`): one Biot–Savart term
-//! per edge instead of one per face and edge, shared by the edge's two faces.
 //!
 //! Every lane runs the same operations in the same order whatever the lane type, so a point's
 //! sums do not depend on the width, on its neighbours in the block or on the thread: the
@@ -41,19 +35,14 @@ fn dot3<V: Lanes>(a: &[V], b: &[V]) -> V {
     a[2].mul_add(b[2], a[1].mul_add(b[1], a[0] * b[0]))
 }
 
-/// `acc += a b^T + b a^T + c d^T + d c^T` on the six components xx, xy, xz, yy, yz, zz.
+/// `acc += s (a b^T + b a^T) / 2` on the six components xx, xy, xz, yy, yz, zz.
 #[inline(always)]
-fn add_two_sym_outer<V: Lanes>(
-    acc: &mut [V; 6],
-    (a, b): (&[V; 3], &[V; 3]),
-    (c, d): (&[V; 3], &[V; 3]),
-) {
+fn add_sym_outer<V: Lanes>(acc: &mut [V; 6], a: &[V; 3], b: &[V; 3], s: V) {
+    let half = V::splat(0.5) * s;
     let pairs = [(0, 0), (0, 1), (0, 2), (1, 1), (1, 2), (2, 2)];
     for (k, (i, j)) in pairs.into_iter().enumerate() {
-        let v = a[i].mul_add(b[j], acc[k]);
-        let v = a[j].mul_add(b[i], v);
-        let v = c[i].mul_add(d[j], v);
-        acc[k] = c[j].mul_add(d[i], v);
+        let v = a[i].mul_add(b[j], a[j] * b[i]);
+        acc[k] = v.mul_add(half, acc[k]);
     }
 }
 
@@ -106,6 +95,26 @@ pub(crate) fn sums<V: Lanes, const GRAD: bool, const OPEN: bool, const BASE: usi
                 face_grad[k] = V::splat(m[k]).mul_add(omega, face_grad[k]);
             }
         }
+        if OPEN {
+            // grad omega = sum over the edges (a, b) of the face of
+            // (r_a x r_b)(|r_a| + |r_b|) / (|r_a||r_b|(|r_a||r_b| + r_a . r_b)).
+            let mut g_om = [zero; 3];
+            for (ra, rb) in [(&r1, &r2), (&r2, &r3), (&r3, &r1)] {
+                let c = [
+                    ra[1].mul_sub(rb[2], ra[2] * rb[1]),
+                    ra[2].mul_sub(rb[0], ra[0] * rb[2]),
+                    ra[0].mul_sub(rb[1], ra[1] * rb[0]),
+                ];
+                let ab = ra[3] * rb[3];
+                let d = ab * (ab + dot3(ra, rb));
+                let s = V::select(d.gt(zero), (ra[3] + rb[3]) / d, zero);
+                for k in 0..3 {
+                    g_om[k] = c[k].mul_add(s, g_om[k]);
+                }
+            }
+            let hn = [h * n[0], h * n[1], h * n[2]];
+            add_sym_outer(&mut open_grad, &hn, &g_om, V::splat(1.0));
+        }
     }
     let floor = V::splat(EDGE_FLOOR);
     let mut edge_u = zero;
@@ -116,13 +125,7 @@ pub(crate) fn sums<V: Lanes, const GRAD: bool, const OPEN: bool, const BASE: usi
     let ends = t.e0[..ne].iter().zip(&t.e1[..ne]).zip(&t.edge_len_m[..ne]);
     let dyads = (d.xx[..ne].iter().zip(&d.xy[..ne]).zip(&d.xz[..ne]))
         .zip(d.yy[..ne].iter().zip(&d.yz[..ne]).zip(&d.zz[..ne]));
-    // Face sets' open-set dyads (see `Tables::open_dyad`); empty unless `OPEN`.
-    let o = &t.open_dyad;
-    let open_len = if OPEN { ne } else { 0 };
-    let open = [&o.xx, &o.xy, &o.xz, &o.yy, &o.yz, &o.zz].map(|v| &v[..open_len]);
-    for (e, (((&ia, &ib), &len), (((&xx, &xy), &xz), ((&yy, &yz), &zz)))) in
-        ends.zip(dyads).enumerate()
-    {
+    for (((&ia, &ib), &len), (((&xx, &xy), &xz), ((&yy, &yz), &zz))) in ends.zip(dyads) {
         let ra: [V; 4] = vertex::<V, BASE>(q, ia);
         let rb: [V; 4] = vertex::<V, BASE>(q, ib);
         let len_v = V::splat(len);
@@ -144,31 +147,14 @@ pub(crate) fn sums<V: Lanes, const GRAD: bool, const OPEN: bool, const BASE: usi
         }
         if OPEN {
             let s = ra[3] + rb[3];
-            let ab = ra[3] * rb[3];
-            // Biot–Savart term w of the edge and (M_e / 2) r_a.
-            let c = [
-                ra[1].mul_sub(rb[2], ra[2] * rb[1]),
-                ra[2].mul_sub(rb[0], ra[0] * rb[2]),
-                ra[0].mul_sub(rb[1], ra[1] * rb[0]),
-            ];
-            let d = ab * (ab + dot3(&ra, &rb));
-            let ws = V::select(d.gt(zero), s / d, zero);
-            let w = [c[0] * ws, c[1] * ws, c[2] * ws];
-            let om = open.map(|v| V::splat(v[e]));
-            let hn = [
-                dot3(&[om[0], om[1], om[2]], &ra),
-                dot3(&[om[1], om[3], om[4]], &ra),
-                dot3(&[om[2], om[4], om[5]], &ra),
-            ];
-            // -(1/2) grad L_e.
             let den = (s * s - len_v * len_v).max(floor * s * s);
-            let coef = V::splat(-len) / (den * ab);
+            let coef = (len_v + len_v) / (den * ra[3] * rb[3]);
             let gl = [
                 ra[0].mul_add(rb[3], rb[0] * ra[3]) * coef,
                 ra[1].mul_add(rb[3], rb[1] * ra[3]) * coef,
                 ra[2].mul_add(rb[3], rb[2] * ra[3]) * coef,
             ];
-            add_two_sym_outer(&mut open_grad, (&hn, &w), (&er, &gl));
+            add_sym_outer(&mut open_grad, &er, &gl, V::splat(-1.0));
         }
     }
     let omega = omega_acc.to_array();

@@ -38,23 +38,6 @@ impl SymSoa {
         self.zz.push(m[(2, 2)]);
     }
 
-    /// Appends the six components `m` (xx, xy, xz, yy, yz, zz).
-    fn push_sym(&mut self, m: &[f64; 6]) {
-        for (v, x) in [
-            &mut self.xx,
-            &mut self.xy,
-            &mut self.xz,
-            &mut self.yy,
-            &mut self.yz,
-            &mut self.zz,
-        ]
-        .into_iter()
-        .zip(m)
-        {
-            v.push(*x);
-        }
-    }
-
     fn heap_bytes(&self) -> usize {
         6 * self.xx.capacity() * std::mem::size_of::<f64>()
     }
@@ -97,11 +80,6 @@ pub(crate) struct Tables {
     /// The face each edge was taken from (its end vertices are that face's corners; not
     /// padded). Edges are stored in increasing order of it. Empty in pieces.
     pub edge_owner: Vec<u32>,
-    /// Face sets only (empty otherwise; padded with zeros): half of
-    /// `M_e = sum over the set's faces f on edge e of s_fe n_f n_f^T`, `s_fe = +1` where `f`
-    /// runs along the edge from `e0` to `e1` and `-1` the other way. The kernel's `OPEN` terms
-    /// use it to gather the faces' Biot–Savart terms by edge (see `kernel`).
-    pub open_dyad: SymSoa,
 }
 
 /// The low 21 bits of `v` spread to every third bit (bit `k` to bit `3k`), for Morton codes.
@@ -221,7 +199,6 @@ impl Tables {
             edge_len_m: Vec::new(),
             edge_dyad: SymSoa::default(),
             edge_owner: Vec::with_capacity(3 * nf / 2),
-            open_dyad: SymSoa::default(),
         };
         for (f, face) in mesh.faces.iter().enumerate() {
             t.f0.push(face[0]);
@@ -344,7 +321,6 @@ impl Tables {
             let mut e1 = Vec::with_capacity(ne_max);
             let mut edge_len_m = Vec::with_capacity(ne_max);
             let mut dyads: Vec<Matrix3<f64>> = Vec::with_capacity(ne_max);
-            let mut open: Vec<[f64; 6]> = Vec::with_capacity(ne_max);
             for &f in faces {
                 let fi = f as usize;
                 let l = g.faces[fi].map(|v| {
@@ -367,14 +343,6 @@ impl Tables {
                 ny.push(n[1]);
                 nz.push(n[2]);
                 let nv = Vector3::new(n[0], n[1], n[2]);
-                let nn = [
-                    n[0] * n[0],
-                    n[0] * n[1],
-                    n[0] * n[2],
-                    n[1] * n[1],
-                    n[1] * n[2],
-                    n[2] * n[2],
-                ];
                 for k in 0..3 {
                     let e = face_edges[fi][k];
                     let slot = &mut edge_slot[e as usize];
@@ -384,17 +352,12 @@ impl Tables {
                         e1.push(a.max(b));
                         edge_len_m.push(g.edge_len_m[fi][k]);
                         dyads.push(Matrix3::zeros());
-                        open.push([0.0; 6]);
                         global_edges.push(e);
                         *slot = global_edges.len() as u32;
                     }
                     let i = *slot as usize - 1;
                     let nu = g.edge_normals[fi][k];
                     dyads[i] += nv * Vector3::new(nu[0], nu[1], nu[2]).transpose();
-                    let half = if a < b { 0.5 } else { -0.5 };
-                    for (o, m) in open[i].iter_mut().zip(nn) {
-                        *o += half * m;
-                    }
                 }
             }
             for &v in &global_vertices {
@@ -422,7 +385,6 @@ impl Tables {
                 edge_len_m,
                 edge_dyad: SymSoa::default(),
                 edge_owner: Vec::new(),
-                open_dyad: SymSoa::default(),
             };
             for d in [
                 &mut t.edge_dyad.xx,
@@ -436,15 +398,6 @@ impl Tables {
             }
             for d in &dyads {
                 t.edge_dyad.push(d);
-            }
-            let o = &mut t.open_dyad;
-            for v in [
-                &mut o.xx, &mut o.xy, &mut o.xz, &mut o.yy, &mut o.yz, &mut o.zz,
-            ] {
-                v.reserve(padded(edge_count));
-            }
-            for m in &open {
-                o.push_sym(m);
             }
             t.pad_only();
             t
@@ -500,7 +453,6 @@ impl Tables {
                 edge_len_m: Vec::new(),
                 edge_dyad: SymSoa::default(),
                 edge_owner: Vec::new(),
-                open_dyad: SymSoa::default(),
             };
             for &f in faces {
                 let f = f as usize;
@@ -593,11 +545,6 @@ impl Tables {
             self.edge_len_m.push(1.0);
             self.edge_dyad.push(&Matrix3::zeros());
         }
-        if !self.open_dyad.xx.is_empty() {
-            while !self.open_dyad.xx.len().is_multiple_of(PAD) {
-                self.open_dyad.push_sym(&[0.0; 6]);
-            }
-        }
     }
 
     /// Frees spare capacity (tables kept for the life of a field).
@@ -623,12 +570,11 @@ impl Tables {
         ] {
             v.shrink_to_fit();
         }
-        for d in [&mut self.edge_dyad, &mut self.open_dyad] {
-            for v in [
-                &mut d.xx, &mut d.xy, &mut d.xz, &mut d.yy, &mut d.yz, &mut d.zz,
-            ] {
-                v.shrink_to_fit();
-            }
+        let d = &mut self.edge_dyad;
+        for v in [
+            &mut d.xx, &mut d.xy, &mut d.xz, &mut d.yy, &mut d.yz, &mut d.zz,
+        ] {
+            v.shrink_to_fit();
         }
     }
 
@@ -642,7 +588,6 @@ impl Tables {
             + 2 * self.e0.capacity() * u32s
             + self.edge_len_m.capacity() * f64s
             + self.edge_dyad.heap_bytes()
-            + self.open_dyad.heap_bytes()
             + self.edge_owner.capacity() * u32s
     }
 }

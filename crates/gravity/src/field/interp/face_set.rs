@@ -470,6 +470,55 @@ mod tests {
     }
 
     #[test]
+    fn edge_numbers_pair_the_faces_of_each_edge() {
+        // Euler: a closed triangle mesh has E = 3F/2 edges, each shared by exactly two faces
+        // that list its ends in opposite orders.
+        let mesh = generate::demo_body(2);
+        let g = FaceGeometry::new(&mesh);
+        let (numbers, count) = g.face_edges();
+        assert_eq!(count, 3 * g.face_count() / 2);
+        let mut ends: Vec<Vec<(u32, u32)>> = vec![Vec::new(); count];
+        for (f, face) in g.faces.iter().enumerate() {
+            for k in 0..3 {
+                ends[numbers[f][k] as usize].push((face[k], face[(k + 1) % 3]));
+            }
+        }
+        for (e, pair) in ends.iter().enumerate() {
+            assert_eq!(pair.len(), 2, "edge {e}");
+            assert_eq!(pair[0], (pair[1].1, pair[1].0), "edge {e}");
+        }
+    }
+
+    #[test]
+    fn face_set_tables_do_not_depend_on_the_sets_built_before() {
+        // The tables keep per-thread slots between calls: a set's tables must come out the
+        // same after other (overlapping) sets were built on the thread as on a fresh thread.
+        let mesh = generate::demo_body(2);
+        let g = FaceGeometry::new(&mesh);
+        let a: Vec<u32> = (0..g.face_count() as u32).step_by(2).collect();
+        let b: Vec<u32> = (0..g.face_count() as u32).rev().step_by(3).collect();
+        let _ = Tables::from_face_set(&g, &a);
+        let here = Tables::from_face_set(&g, &b);
+        let fresh = std::thread::scope(|s| {
+            s.spawn(|| Tables::from_face_set(&g, &b))
+                .join()
+                .expect("thread")
+        });
+        assert_eq!(here.vx, fresh.vx);
+        assert_eq!((here.f0, here.f1, here.f2), (fresh.f0, fresh.f1, fresh.f2));
+        assert_eq!((here.e0, here.e1), (fresh.e0, fresh.e1));
+        assert_eq!(here.edge_dyad.xy, fresh.edge_dyad.xy);
+        assert_eq!(here.edge_count, fresh.edge_count);
+        // Every local vertex is a corner of the set (none left over from set a).
+        let corners: std::collections::HashSet<[u64; 3]> = b
+            .iter()
+            .flat_map(|&f| g.faces[f as usize])
+            .map(|v| g.vertices[v as usize].map(f64::to_bits))
+            .collect();
+        assert_eq!(corners.len(), here.vx.len());
+    }
+
+    #[test]
     fn a_subset_has_a_consistent_gradient_and_hessian() {
         // For an open set of faces only the per-face split is consistent: check the gradient
         // and Hessian against central differences of the potential and gradient.
