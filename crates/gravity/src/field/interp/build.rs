@@ -527,24 +527,37 @@ struct Prepared {
 /// Fits of every degree of [`degrees`] for cells whose data are `preps` (one matrix product
 /// per degree, in chunks of cells): the non-constant basis coefficients.
 fn fit_all(preps: &[&Prepared]) -> Vec<Vec<Vec<f64>>> {
-    let mut out: Vec<Vec<Vec<f64>>> = vec![Vec::new(); preps.len()];
+    // Chunks of up to 256 cells of one space, fitted in parallel (each chunk's product is the
+    // same whichever thread computes it).
+    let mut chunks: Vec<(Space, Vec<usize>)> = Vec::new();
     for space in [Space::Biharmonic, Space::Harmonic] {
         let idx: Vec<usize> = (0..preps.len())
             .filter(|&k| preps[k].space == space)
             .collect();
-        let Some(&first) = idx.first() else { continue };
-        let data_len = preps[first].derivs.len();
-        for chunk in idx.chunks(256) {
+        chunks.extend(idx.chunks(256).map(|c| (space, c.to_vec())));
+    }
+    let fitted: Vec<Vec<Vec<Vec<f64>>>> = chunks
+        .par_iter()
+        .map(|(space, chunk)| {
+            let data_len = chunk.first().map_or(0, |&i| preps[i].derivs.len());
             let mut data = nalgebra::DMatrix::<f64>::zeros(data_len, chunk.len());
             for (k, &i) in chunk.iter().enumerate() {
                 data.column_mut(k).copy_from_slice(&preps[i].derivs);
             }
-            for p in degrees(space) {
-                let coefs = Solver::get(space, p).fit_many(&data);
-                for (k, &i) in chunk.iter().enumerate() {
-                    out[i].push(coefs.column(k).as_slice().to_vec());
+            let mut per_cell: Vec<Vec<Vec<f64>>> = vec![Vec::new(); chunk.len()];
+            for p in degrees(*space) {
+                let coefs = Solver::get(*space, p).fit_many(&data);
+                for (k, cell) in per_cell.iter_mut().enumerate() {
+                    cell.push(coefs.column(k).as_slice().to_vec());
                 }
             }
+            per_cell
+        })
+        .collect();
+    let mut out: Vec<Vec<Vec<f64>>> = vec![Vec::new(); preps.len()];
+    for ((_, chunk), cells) in chunks.iter().zip(fitted) {
+        for (&i, coefs) in chunk.iter().zip(cells) {
+            out[i] = coefs;
         }
     }
     out
@@ -718,8 +731,10 @@ pub fn build_interpolated(
         drop(point_of_key);
         let g_rho = crate::field::G_SI * exact.density_kg_m3();
         let mut exact_jets: Vec<SetJet> = Vec::with_capacity(exact_points.len());
-        // In chunks, so that a cancel is seen within a second or so on large meshes.
-        let chunk = (4_000_000 / nf.max(1)).clamp(16, 4096);
+        // In chunks, so that a cancel is seen within a second or so on large meshes; large
+        // enough (~1e8 face terms) to keep both threads busy to the end of each chunk (each
+        // point's value does not depend on the chunk).
+        let chunk = (100_000_000 / nf.max(1)).clamp(256, 8192);
         for points in exact_points.chunks(chunk) {
             if cancel.load(Ordering::Relaxed) {
                 return Err(GravityError::Cancelled);
