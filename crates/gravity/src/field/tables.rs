@@ -80,6 +80,11 @@ pub(crate) struct Tables {
     /// The face each edge was taken from (its end vertices are that face's corners; not
     /// padded). Edges are stored in increasing order of it. Empty in pieces.
     pub edge_owner: Vec<u32>,
+    /// Face sets only (empty otherwise): the edges of the set with one of their two faces in
+    /// it, each as (from, to) in the direction that face runs along it, padded with (0, 0).
+    /// The kernel's `OPEN` terms are a line integral along them (see `kernel`).
+    pub b0: Vec<u32>,
+    pub b1: Vec<u32>,
 }
 
 /// The low 21 bits of `v` spread to every third bit (bit `k` to bit `3k`), for Morton codes.
@@ -199,6 +204,8 @@ impl Tables {
             edge_len_m: Vec::new(),
             edge_dyad: SymSoa::default(),
             edge_owner: Vec::with_capacity(3 * nf / 2),
+            b0: Vec::new(),
+            b1: Vec::new(),
         };
         for (f, face) in mesh.faces.iter().enumerate() {
             t.f0.push(face[0]);
@@ -321,6 +328,8 @@ impl Tables {
             let mut e1 = Vec::with_capacity(ne_max);
             let mut edge_len_m = Vec::with_capacity(ne_max);
             let mut dyads: Vec<Matrix3<f64>> = Vec::with_capacity(ne_max);
+            // Faces of the set on each edge, and the direction the first runs along it.
+            let mut on_edge: Vec<(u8, u32, u32)> = Vec::with_capacity(ne_max);
             for &f in faces {
                 let fi = f as usize;
                 let l = g.faces[fi].map(|v| {
@@ -352,10 +361,12 @@ impl Tables {
                         e1.push(a.max(b));
                         edge_len_m.push(g.edge_len_m[fi][k]);
                         dyads.push(Matrix3::zeros());
+                        on_edge.push((0, a, b));
                         global_edges.push(e);
                         *slot = global_edges.len() as u32;
                     }
                     let i = *slot as usize - 1;
+                    on_edge[i].0 += 1;
                     let nu = g.edge_normals[fi][k];
                     dyads[i] += nv * Vector3::new(nu[0], nu[1], nu[2]).transpose();
                 }
@@ -385,7 +396,19 @@ impl Tables {
                 edge_len_m,
                 edge_dyad: SymSoa::default(),
                 edge_owner: Vec::new(),
+                b0: Vec::new(),
+                b1: Vec::new(),
             };
+            for &(count, a, b) in &on_edge {
+                if count == 1 {
+                    t.b0.push(a);
+                    t.b1.push(b);
+                }
+            }
+            while !t.b0.len().is_multiple_of(PAD) {
+                t.b0.push(0);
+                t.b1.push(0);
+            }
             for d in [
                 &mut t.edge_dyad.xx,
                 &mut t.edge_dyad.xy,
@@ -453,6 +476,8 @@ impl Tables {
                 edge_len_m: Vec::new(),
                 edge_dyad: SymSoa::default(),
                 edge_owner: Vec::new(),
+                b0: Vec::new(),
+                b1: Vec::new(),
             };
             for &f in faces {
                 let f = f as usize;
@@ -589,6 +614,7 @@ impl Tables {
             + self.edge_len_m.capacity() * f64s
             + self.edge_dyad.heap_bytes()
             + self.edge_owner.capacity() * u32s
+            + (self.b0.capacity() + self.b1.capacity()) * u32s
     }
 }
 

@@ -428,10 +428,19 @@ mod tests {
             .take(150)
             .collect();
         let all: Vec<u32> = (0..g.face_count() as u32).collect();
+        // Also points next to the surface: off a corner and an edge of a face in the subset,
+        // and off one of its boundary edges (the open-set terms are a line integral along the
+        // set's boundary, see `kernel`).
+        let [a, b, c] = mesh.triangle(some[7] as usize);
+        let n = (b - a).cross(&(c - a)).normalize();
+        let mid = Point3::from((a.coords + b.coords) * 0.5);
         let pts = [
             Point3::new(2600.0, 900.0, 400.0),
             Point3::new(-300.0, 2200.0, -1700.0),
             Point3::new(50.0, -80.0, 20.0),
+            a + n * 1e-3,
+            mid + n * 0.5,
+            Point3::from((a.coords + b.coords + c.coords) / 3.0) + n * 2.0,
         ];
         let mut scratch = Vec::new();
         for set in [&some, &all] {
