@@ -22,6 +22,7 @@ fn main() {
         ..Default::default()
     };
     let t0 = Instant::now();
+    let cpu0 = process_cpu_s();
     let field = match build_interpolated(
         &mesh,
         MassSpec::DensityKgM3(2100.0),
@@ -42,12 +43,14 @@ fn main() {
             std::process::exit(1);
         }
     };
+    let cpu_s = process_cpu_s().zip(cpu0).map(|(b, a)| b - a);
     let s = field.stats();
     println!(
-        "{} faces, bound {bound:e}: {s} ({:.0} B/facet; {:.2} s wall in all)",
+        "{} faces, bound {bound:e}: {s} ({:.0} B/facet; {:.2} s wall in all, {} CPU)",
         mesh.faces.len(),
         s.memory_bytes as f64 / mesh.faces.len() as f64,
         t0.elapsed().as_secs_f64(),
+        cpu_s.map_or("?".into(), |c| format!("{c:.1} s")),
     );
     let exact: &PolyhedronGravity = field.exact();
     // Test points: on the surface (face centroids nudged out by 1 mm .. 1 facet), near edges
@@ -83,14 +86,20 @@ fn main() {
     }
     let com = exact.center_of_mass_m();
     let rb = exact.brillouin_radius_m();
-    for _ in 0..400 {
-        let dir = Vector3::new(rnd() - 0.5, rnd() - 0.5, rnd() - 0.5).normalize();
-        let r = rb * (0.3 + 5.0 * rnd());
-        let p: Point3<f64> = com + dir * r;
-        if !exact.is_inside(&p) {
-            pts.push(p);
-        }
-    }
+    let volume: Vec<Point3<f64>> = (0..400)
+        .map(|_| {
+            let dir = Vector3::new(rnd() - 0.5, rnd() - 0.5, rnd() - 0.5).normalize();
+            com + dir * (rb * (0.3 + 5.0 * rnd()))
+        })
+        .collect();
+    let inside = exact.is_inside_batch(&volume);
+    pts.extend(
+        volume
+            .iter()
+            .zip(&inside)
+            .filter(|(_, i)| !**i)
+            .map(|(p, _)| *p),
+    );
     let t1 = Instant::now();
     let want = exact.potential_acceleration_batch(&pts);
     let exact_s = t1.elapsed().as_secs_f64();
@@ -100,6 +109,14 @@ fn main() {
         .map(|p| field.potential_acceleration(p))
         .collect();
     let interp_s = t2.elapsed().as_secs_f64();
+    // A fingerprint of the field: its values at the test points, bit for bit (FNV-1a over
+    // the bits), to see whether a change to the build changed the field at all.
+    let fingerprint = got.iter().fold(0xcbf2_9ce4_8422_2325u64, |h, (u, a)| {
+        [*u, a.x, a.y, a.z]
+            .iter()
+            .fold(h, |h, v| (h ^ v.to_bits()).wrapping_mul(0x0100_0000_01b3))
+    });
+    println!("field fingerprint at the test points: {fingerprint:016x}");
     let mut worst = 0.0f64;
     let mut worst_u = 0.0f64;
     for ((p, w), g) in pts.iter().zip(&want).zip(&got) {
@@ -137,9 +154,11 @@ fn main() {
     // (Points inside the body, a few of those nudged off concave vertices, are evaluated
     // exactly: left out of the timing.)
     let outside = |set: &[Point3<f64>]| -> Vec<Point3<f64>> {
+        let inside = exact.is_inside_batch(set);
         set.iter()
-            .copied()
-            .filter(|p| !exact.is_inside(p))
+            .zip(&inside)
+            .filter(|(_, i)| !**i)
+            .map(|(p, _)| *p)
             .collect()
     };
     // What answers the queries, and what each kind costs.
@@ -196,4 +215,15 @@ fn main() {
         exact_s * 1e6 / pts.len() as f64,
         interp_s * 1e6 / pts.len() as f64
     );
+}
+
+/// CPU time of the whole process (all threads), s, from `/proc/self/stat` (utime + stime in
+/// clock ticks, assumed 100 per second as on Linux): unlike wall time it stays meaningful on a
+/// machine shared with other work. `None` elsewhere.
+fn process_cpu_s() -> Option<f64> {
+    let text = std::fs::read_to_string("/proc/self/stat").ok()?;
+    let rest = text.rsplit_once(')')?.1;
+    let fields: Vec<&str> = rest.split_whitespace().collect();
+    let ticks: u64 = fields.get(11)?.parse::<u64>().ok()? + fields.get(12)?.parse::<u64>().ok()?;
+    Some(ticks as f64 / 100.0)
 }

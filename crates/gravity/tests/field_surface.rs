@@ -97,11 +97,15 @@ fn laplacian_and_inside_test_agree_with_ray_crossing_on_irregular_body() {
     let mut rng = ChaCha8Rng::seed_from_u64(20261201);
     let mut counts = [0, 0];
     let dir = Vector3::new(0.577, 0.3321, 0.7456).normalize();
+    let mut points = Vec::new();
+    let mut by_ray = Vec::new();
     for _ in 0..300 {
         let t = Vector3::new(rng.random::<f64>(), rng.random(), rng.random());
         let p = Point3::from(min + (max - min).component_mul(&t) * 1.2 - (max - min) * 0.1);
         let s = field.evaluate(&p);
         let inside = inside_by_ray(&mesh, &p, &dir);
+        points.push(p);
+        by_ray.push(inside);
         assert_eq!(s.inside, inside, "{p}");
         assert_eq!(field.is_inside(&p), inside, "{p}");
         let want = if inside { -4.0 * PI * g_rho } else { 0.0 };
@@ -115,6 +119,9 @@ fn laplacian_and_inside_test_agree_with_ray_crossing_on_irregular_body() {
         counts[inside as usize] += 1;
     }
     assert!(counts[0] > 30 && counts[1] > 30, "{counts:?}");
+    // The batch test (the interpolated build's) gives the same answers, including for points
+    // whose neighbours in the batch are on the other side.
+    assert_eq!(field.is_inside_batch(&points), by_ray);
 }
 
 #[test]

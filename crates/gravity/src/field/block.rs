@@ -23,21 +23,28 @@ pub(crate) const BLOCK: usize = 8;
 pub(crate) struct Oct(pub [f64; 4 * BLOCK]);
 
 /// Fills `out` with one [`Oct`] per vertex of `t` for the field points `p` (no fused operations,
-/// so every compiled variant rounds the same way).
+/// so every compiled variant rounds the same way). The blocks are written in place (`out`
+/// keeps its length from call to call when the tables do), lanes side by side so the compiler
+/// vectorises over the points.
 #[multiversion(targets("x86_64+avx512f+avx512dq+avx2+fma+avx", "x86_64+avx2+fma+avx"))]
 pub(crate) fn fill_block(t: &Tables, p: &[[f64; 3]; BLOCK], out: &mut Vec<Oct>) {
-    out.clear();
-    out.extend(t.vx.iter().zip(&t.vy).zip(&t.vz).map(|((&x, &y), &z)| {
-        let mut q = [0.0; 4 * BLOCK];
-        for (k, pk) in p.iter().enumerate() {
-            let (rx, ry, rz) = (x - pk[0], y - pk[1], z - pk[2]);
-            q[k] = rx;
-            q[BLOCK + k] = ry;
-            q[2 * BLOCK + k] = rz;
-            q[3 * BLOCK + k] = (rx * rx + ry * ry + rz * rz).sqrt();
+    out.resize(t.vx.len(), Oct([0.0; 4 * BLOCK]));
+    let px: [f64; BLOCK] = std::array::from_fn(|k| p[k][0]);
+    let py: [f64; BLOCK] = std::array::from_fn(|k| p[k][1]);
+    let pz: [f64; BLOCK] = std::array::from_fn(|k| p[k][2]);
+    for (o, ((&x, &y), &z)) in out.iter_mut().zip(t.vx.iter().zip(&t.vy).zip(&t.vz)) {
+        let (qx, rest) = o.0.split_at_mut(BLOCK);
+        let (qy, rest) = rest.split_at_mut(BLOCK);
+        let (qz, qr) = rest.split_at_mut(BLOCK);
+        for k in 0..BLOCK {
+            qx[k] = x - px[k];
+            qy[k] = y - py[k];
+            qz[k] = z - pz[k];
         }
-        Oct(q)
-    }));
+        for k in 0..BLOCK {
+            qr[k] = (qx[k] * qx[k] + qy[k] * qy[k] + qz[k] * qz[k]).sqrt();
+        }
+    }
 }
 
 /// A kernel instantiation that runs blocks.

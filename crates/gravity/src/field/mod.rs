@@ -505,6 +505,21 @@ impl PolyhedronGravity {
         is_inside_omega(self.point_sums::<false>(p, DirectKernel::Auto).omega)
     }
 
+    /// [`Self::is_inside`] for many points, in parallel over points through the batch kernel;
+    /// each answer is the one a lone call gives (the same sums to the bit).
+    pub fn is_inside_batch(&self, points: &[Point3<f64>]) -> Vec<bool> {
+        let mut out = vec![false; points.len()];
+        self.batch_with::<false, _>(
+            points,
+            DirectKernel::Auto,
+            true,
+            &mut out,
+            |_, s| is_inside_omega(s.omega),
+            |_, _| false,
+        );
+        out
+    }
+
     /// [`Self::potential_acceleration`] for many points, in parallel over points; each entry is
     /// bit-for-bit what a lone call gives, whatever the batch and the thread count.
     pub fn potential_acceleration_batch(&self, points: &[Point3<f64>]) -> Vec<(f64, Vector3<f64>)> {

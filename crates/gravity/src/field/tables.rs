@@ -80,6 +80,11 @@ pub(crate) struct Tables {
     /// The face each edge was taken from (its end vertices are that face's corners; not
     /// padded). Edges are stored in increasing order of it. Empty in pieces.
     pub edge_owner: Vec<u32>,
+    /// Face sets only (empty otherwise): the edges of the set with one of their two faces in
+    /// it, each as (from, to) in the direction that face runs along it, padded with (0, 0).
+    /// The kernel's `OPEN` terms are a line integral along them (see `kernel`).
+    pub b0: Vec<u32>,
+    pub b1: Vec<u32>,
 }
 
 /// The low 21 bits of `v` spread to every third bit (bit `k` to bit `3k`), for Morton codes.
@@ -199,6 +204,8 @@ impl Tables {
             edge_len_m: Vec::new(),
             edge_dyad: SymSoa::default(),
             edge_owner: Vec::with_capacity(3 * nf / 2),
+            b0: Vec::new(),
+            b1: Vec::new(),
         };
         for (f, face) in mesh.faces.iter().enumerate() {
             t.f0.push(face[0]);
@@ -282,83 +289,142 @@ impl Tables {
     /// n_f nu_fe^T` as its dyad (the Werner–Scheeres dyad where both faces are in the set).
     /// The kernel's sums over these tables are the set's potential and its gradient in the
     /// single-layer split (see `interp::face_set`); its tensor needs the `OPEN` terms.
+    ///
+    /// Local vertices and edges are numbered in order of first appearance in `faces`. The
+    /// mesh's edge numbering ([`FaceGeometry::face_edges`]) and a per-thread table of slots
+    /// (indexed by mesh vertex and edge, cleared after use) find repeated ones without hashing,
+    /// so the tables cost a small fraction of one point's sums per face (the interpolated
+    /// field's build makes them for every cell's rings).
+    ///
+    /// [`FaceGeometry::face_edges`]: super::interp::face_set::FaceGeometry::face_edges
     pub fn from_face_set(g: &super::interp::face_set::FaceGeometry, faces: &[u32]) -> Tables {
-        let mut local: HashMap<u32, u32> = HashMap::with_capacity(faces.len());
-        let mut vx = Vec::new();
-        let mut vy = Vec::new();
-        let mut vz = Vec::new();
-        let mut map = |v: u32| -> u32 {
-            *local.entry(v).or_insert_with(|| {
-                let p = g.vertices[v as usize];
-                vx.push(p[0]);
-                vy.push(p[1]);
-                vz.push(p[2]);
-                (vx.len() - 1) as u32
-            })
-        };
-        let np = padded(faces.len());
-        let mut f0 = Vec::with_capacity(np);
-        let mut f1 = Vec::with_capacity(np);
-        let mut f2 = Vec::with_capacity(np);
-        let mut nx = Vec::with_capacity(np);
-        let mut ny = Vec::with_capacity(np);
-        let mut nz = Vec::with_capacity(np);
-        let mut edges: HashMap<(u32, u32), usize> = HashMap::with_capacity(2 * faces.len());
-        let mut e0 = Vec::new();
-        let mut e1 = Vec::new();
-        let mut edge_len_m = Vec::new();
-        let mut dyads: Vec<Matrix3<f64>> = Vec::new();
-        for &f in faces {
-            let fi = f as usize;
-            let idx = g.faces[fi];
-            let l = idx.map(&mut map);
-            f0.push(l[0]);
-            f1.push(l[1]);
-            f2.push(l[2]);
-            let n = g.normals[fi];
-            nx.push(n[0]);
-            ny.push(n[1]);
-            nz.push(n[2]);
-            let nv = Vector3::new(n[0], n[1], n[2]);
-            for k in 0..3 {
-                let (a, b) = (l[k], l[(k + 1) % 3]);
-                let key = (a.min(b), a.max(b));
-                let slot = *edges.entry(key).or_insert_with(|| {
-                    e0.push(key.0);
-                    e1.push(key.1);
-                    edge_len_m.push(g.edge_len_m[fi][k]);
-                    dyads.push(Matrix3::zeros());
-                    dyads.len() - 1
-                });
-                let nu = g.edge_normals[fi][k];
-                dyads[slot] += nv * Vector3::new(nu[0], nu[1], nu[2]).transpose();
+        thread_local! {
+            /// Local index + 1 of each mesh vertex and edge in the set being built (0: absent).
+            static SLOTS: std::cell::RefCell<(Vec<u32>, Vec<u32>)> =
+                const { std::cell::RefCell::new((Vec::new(), Vec::new())) };
+        }
+        let (face_edges, mesh_edges) = g.face_edges();
+        SLOTS.with_borrow_mut(|(vertex_slot, edge_slot)| {
+            if vertex_slot.len() < g.vertices.len() {
+                vertex_slot.resize(g.vertices.len(), 0);
             }
-        }
-        let face_count = f0.len();
-        let edge_count = e0.len();
-        let mut t = Tables {
-            vx,
-            vy,
-            vz,
-            face_count,
-            f0,
-            f1,
-            f2,
-            nx,
-            ny,
-            nz,
-            edge_count,
-            e0,
-            e1,
-            edge_len_m,
-            edge_dyad: SymSoa::default(),
-            edge_owner: Vec::new(),
-        };
-        for d in &dyads {
-            t.edge_dyad.push(d);
-        }
-        t.pad();
-        t
+            if edge_slot.len() < mesh_edges {
+                edge_slot.resize(mesh_edges, 0);
+            }
+            let np = padded(faces.len());
+            let mut global_vertices: Vec<u32> = Vec::with_capacity(faces.len() / 2 + 8);
+            let mut vx = Vec::with_capacity(faces.len() / 2 + 8);
+            let mut vy = Vec::with_capacity(faces.len() / 2 + 8);
+            let mut vz = Vec::with_capacity(faces.len() / 2 + 8);
+            let mut f0 = Vec::with_capacity(np);
+            let mut f1 = Vec::with_capacity(np);
+            let mut f2 = Vec::with_capacity(np);
+            let mut nx = Vec::with_capacity(np);
+            let mut ny = Vec::with_capacity(np);
+            let mut nz = Vec::with_capacity(np);
+            let ne_max = padded(3 * faces.len() / 2 + faces.len() / 4 + 8);
+            let mut global_edges: Vec<u32> = Vec::with_capacity(ne_max);
+            let mut e0 = Vec::with_capacity(ne_max);
+            let mut e1 = Vec::with_capacity(ne_max);
+            let mut edge_len_m = Vec::with_capacity(ne_max);
+            let mut dyads: Vec<Matrix3<f64>> = Vec::with_capacity(ne_max);
+            // Faces of the set on each edge, and the direction the first runs along it.
+            let mut on_edge: Vec<(u8, u32, u32)> = Vec::with_capacity(ne_max);
+            for &f in faces {
+                let fi = f as usize;
+                let l = g.faces[fi].map(|v| {
+                    let slot = &mut vertex_slot[v as usize];
+                    if *slot == 0 {
+                        let p = g.vertices[v as usize];
+                        vx.push(p[0]);
+                        vy.push(p[1]);
+                        vz.push(p[2]);
+                        global_vertices.push(v);
+                        *slot = global_vertices.len() as u32;
+                    }
+                    *slot - 1
+                });
+                f0.push(l[0]);
+                f1.push(l[1]);
+                f2.push(l[2]);
+                let n = g.normals[fi];
+                nx.push(n[0]);
+                ny.push(n[1]);
+                nz.push(n[2]);
+                let nv = Vector3::new(n[0], n[1], n[2]);
+                for k in 0..3 {
+                    let e = face_edges[fi][k];
+                    let slot = &mut edge_slot[e as usize];
+                    let (a, b) = (l[k], l[(k + 1) % 3]);
+                    if *slot == 0 {
+                        e0.push(a.min(b));
+                        e1.push(a.max(b));
+                        edge_len_m.push(g.edge_len_m[fi][k]);
+                        dyads.push(Matrix3::zeros());
+                        on_edge.push((0, a, b));
+                        global_edges.push(e);
+                        *slot = global_edges.len() as u32;
+                    }
+                    let i = *slot as usize - 1;
+                    on_edge[i].0 += 1;
+                    let nu = g.edge_normals[fi][k];
+                    dyads[i] += nv * Vector3::new(nu[0], nu[1], nu[2]).transpose();
+                }
+            }
+            for &v in &global_vertices {
+                vertex_slot[v as usize] = 0;
+            }
+            for &e in &global_edges {
+                edge_slot[e as usize] = 0;
+            }
+            let face_count = f0.len();
+            let edge_count = e0.len();
+            let mut t = Tables {
+                vx,
+                vy,
+                vz,
+                face_count,
+                f0,
+                f1,
+                f2,
+                nx,
+                ny,
+                nz,
+                edge_count,
+                e0,
+                e1,
+                edge_len_m,
+                edge_dyad: SymSoa::default(),
+                edge_owner: Vec::new(),
+                b0: Vec::new(),
+                b1: Vec::new(),
+            };
+            for &(count, a, b) in &on_edge {
+                if count == 1 {
+                    t.b0.push(a);
+                    t.b1.push(b);
+                }
+            }
+            while !t.b0.len().is_multiple_of(PAD) {
+                t.b0.push(0);
+                t.b1.push(0);
+            }
+            for d in [
+                &mut t.edge_dyad.xx,
+                &mut t.edge_dyad.xy,
+                &mut t.edge_dyad.xz,
+                &mut t.edge_dyad.yy,
+                &mut t.edge_dyad.yz,
+                &mut t.edge_dyad.zz,
+            ] {
+                d.reserve(padded(edge_count));
+            }
+            for d in &dyads {
+                t.edge_dyad.push(d);
+            }
+            t.pad_only();
+            t
+        })
     }
 
     /// The mesh cut into pieces of `faces_per_piece` faces close together (consecutive along a
@@ -410,6 +476,8 @@ impl Tables {
                 edge_len_m: Vec::new(),
                 edge_dyad: SymSoa::default(),
                 edge_owner: Vec::new(),
+                b0: Vec::new(),
+                b1: Vec::new(),
             };
             for &f in faces {
                 let f = f as usize;
@@ -479,8 +547,15 @@ impl Tables {
         keyed.into_iter().map(|(_, f)| f).collect()
     }
 
-    /// Pads faces and edges to a multiple of [`PAD`] with inert entries.
+    /// Pads faces and edges to a multiple of [`PAD`] with inert entries and frees spare
+    /// capacity.
     fn pad(&mut self) {
+        self.pad_only();
+        self.shrink();
+    }
+
+    /// Pads faces and edges to a multiple of [`PAD`] with inert entries.
+    fn pad_only(&mut self) {
         while !self.f0.len().is_multiple_of(PAD) {
             self.f0.push(0);
             self.f1.push(0);
@@ -495,6 +570,10 @@ impl Tables {
             self.edge_len_m.push(1.0);
             self.edge_dyad.push(&Matrix3::zeros());
         }
+    }
+
+    /// Frees spare capacity (tables kept for the life of a field).
+    fn shrink(&mut self) {
         for v in [
             &mut self.vx,
             &mut self.vy,
@@ -535,6 +614,7 @@ impl Tables {
             + self.edge_len_m.capacity() * f64s
             + self.edge_dyad.heap_bytes()
             + self.edge_owner.capacity() * u32s
+            + (self.b0.capacity() + self.b1.capacity()) * u32s
     }
 }
 

@@ -330,11 +330,11 @@ impl Builder<'_> {
         let points = cell.template_points(self);
         let mut scratch = Vec::new();
         let near_tables = Tables::from_face_set(self.geometry, &cell.fit_near);
-        let near = set_jets::<true>(&near_tables, &points, &mut scratch);
+        let nfit = t.fit_points.len();
         let (data, total): (Vec<SetJet>, Vec<[f64; 3]>) = match (&cell.source.poly, exact_at) {
             (None, Some(exact)) => exact
                 .iter()
-                .zip(&near)
+                .zip(&set_jets::<true>(&near_tables, &points, &mut scratch))
                 .map(|(e, n)| {
                     let mut f = *e;
                     f.add(n, -1.0);
@@ -342,6 +342,10 @@ impl Builder<'_> {
                 })
                 .unzip(),
             (source_poly, _) => {
+                // The near sums are needed for the total gravity at the check points only
+                // (the size errors are relative to); a point's sums do not depend on the
+                // other points evaluated with it.
+                let near_at_checks = set_jets::<false>(&near_tables, &points[nfit..], &mut scratch);
                 // F_cell = F_source + (faces near the source but not here) - (faces near here
                 // but not near the source).
                 let plus = difference(&cell.source.near, &cell.fit_near);
@@ -363,19 +367,20 @@ impl Builder<'_> {
                 points
                     .iter()
                     .zip(plus.iter().zip(&minus))
-                    .zip(&near)
-                    .map(|((p, (a, b)), n)| {
+                    .enumerate()
+                    .map(|(k, (p, (a, b)))| {
                         let mut f = source_poly.as_ref().map(|s| s.jet(p)).unwrap_or_default();
                         f.add(a, 1.0);
                         f.add(b, -1.0);
                         let mut tot = f;
-                        tot.add(n, 1.0);
+                        if let Some(n) = k.checked_sub(nfit).map(|c| &near_at_checks[c]) {
+                            tot.add(n, 1.0);
+                        }
                         (f, tot.grad)
                     })
                     .unzip()
             }
         };
-        let nfit = t.fit_points.len();
         let mut derivs = Vec::with_capacity(nfit * ROWS_PER_POINT);
         let mut values = Vec::with_capacity(nfit);
         for f in &data[..nfit] {
@@ -522,24 +527,37 @@ struct Prepared {
 /// Fits of every degree of [`degrees`] for cells whose data are `preps` (one matrix product
 /// per degree, in chunks of cells): the non-constant basis coefficients.
 fn fit_all(preps: &[&Prepared]) -> Vec<Vec<Vec<f64>>> {
-    let mut out: Vec<Vec<Vec<f64>>> = vec![Vec::new(); preps.len()];
+    // Chunks of up to 256 cells of one space, fitted in parallel (each chunk's product is the
+    // same whichever thread computes it).
+    let mut chunks: Vec<(Space, Vec<usize>)> = Vec::new();
     for space in [Space::Biharmonic, Space::Harmonic] {
         let idx: Vec<usize> = (0..preps.len())
             .filter(|&k| preps[k].space == space)
             .collect();
-        let Some(&first) = idx.first() else { continue };
-        let data_len = preps[first].derivs.len();
-        for chunk in idx.chunks(256) {
+        chunks.extend(idx.chunks(256).map(|c| (space, c.to_vec())));
+    }
+    let fitted: Vec<Vec<Vec<Vec<f64>>>> = chunks
+        .par_iter()
+        .map(|(space, chunk)| {
+            let data_len = chunk.first().map_or(0, |&i| preps[i].derivs.len());
             let mut data = nalgebra::DMatrix::<f64>::zeros(data_len, chunk.len());
             for (k, &i) in chunk.iter().enumerate() {
                 data.column_mut(k).copy_from_slice(&preps[i].derivs);
             }
-            for p in degrees(space) {
-                let coefs = Solver::get(space, p).fit_many(&data);
-                for (k, &i) in chunk.iter().enumerate() {
-                    out[i].push(coefs.column(k).as_slice().to_vec());
+            let mut per_cell: Vec<Vec<Vec<f64>>> = vec![Vec::new(); chunk.len()];
+            for p in degrees(*space) {
+                let coefs = Solver::get(*space, p).fit_many(&data);
+                for (k, cell) in per_cell.iter_mut().enumerate() {
+                    cell.push(coefs.column(k).as_slice().to_vec());
                 }
             }
+            per_cell
+        })
+        .collect();
+    let mut out: Vec<Vec<Vec<f64>>> = vec![Vec::new(); preps.len()];
+    for ((_, chunk), cells) in chunks.iter().zip(fitted) {
+        for (&i, coefs) in chunk.iter().zip(cells) {
+            out[i] = coefs;
         }
     }
     out
@@ -662,7 +680,28 @@ pub fn build_interpolated(
         }
         let depth = level[0].depth;
         stats.depth = stats.depth.max(depth);
-        let kinds: Vec<Option<Outcome>> = level.par_iter().map(|c| classify(&builder, c)).collect();
+        // Cells clear of the surface are wholly inside or outside: their centres are tested in
+        // one batch of the exact field (the same answers as one at a time).
+        let touches: Vec<bool> = level
+            .par_iter()
+            .map(|c| touches_surface(&builder, c))
+            .collect();
+        let clear: Vec<Point3<f64>> = level
+            .iter()
+            .zip(&touches)
+            .filter(|(_, t)| !**t)
+            .map(|(c, _)| Point3::new(c.center[0], c.center[1], c.center[2]))
+            .collect();
+        let mut clear_inside = exact.is_inside_batch(&clear).into_iter();
+        let inside: Vec<bool> = touches
+            .iter()
+            .map(|t| !t && clear_inside.next().unwrap_or(false))
+            .collect();
+        let kinds: Vec<Option<Outcome>> = level
+            .par_iter()
+            .zip(&inside)
+            .map(|(c, &inside)| classify(&builder, c, inside))
+            .collect();
         // Cells fitted from the exact field: their template points in one batch.
         let exact_cells: Vec<usize> = (0..level.len())
             .filter(|&k| kinds[k].is_none() && level[k].source.poly.is_none())
@@ -692,8 +731,10 @@ pub fn build_interpolated(
         drop(point_of_key);
         let g_rho = crate::field::G_SI * exact.density_kg_m3();
         let mut exact_jets: Vec<SetJet> = Vec::with_capacity(exact_points.len());
-        // In chunks, so that a cancel is seen within a second or so on large meshes.
-        let chunk = (4_000_000 / nf.max(1)).clamp(16, 4096);
+        // In chunks, so that a cancel is seen within a second or so on large meshes; large
+        // enough (~1e8 face terms) to keep both threads busy to the end of each chunk (each
+        // point's value does not depend on the chunk).
+        let chunk = (100_000_000 / nf.max(1)).clamp(256, 8192);
         for points in exact_points.chunks(chunk) {
             if cancel.load(Ordering::Relaxed) {
                 return Err(GravityError::Cancelled);
@@ -829,10 +870,11 @@ pub fn build_interpolated(
         if std::env::var("SPINFALL_TRACE_LEVELS").is_ok() {
             let fitted = outcomes.iter().flatten().count();
             eprintln!(
-                "level {depth}: {} cells ({} from the exact field, {} from a source), {:.1} s, {} full evaluations, {:.2e} ring terms so far",
+                "level {depth}: {} cells ({} from the exact field, {} from a source, {} fitted again), {:.1} s, {} full evaluations, {:.2e} ring terms so far",
                 level.len(),
                 exact_cells.len(),
                 fitted.saturating_sub(exact_cells.len()),
+                retry.len(),
                 start.elapsed().as_secs_f64(),
                 builder.full_evaluations.load(Ordering::Relaxed),
                 builder.ring_face_terms.load(Ordering::Relaxed) as f64
@@ -966,19 +1008,20 @@ pub fn build_interpolated(
     })
 }
 
-/// What a cell is before fitting: `None` when it needs a fit.
-fn classify(b: &Builder<'_>, cell: &Pending) -> Option<Outcome> {
-    let nf = b.all_faces.len();
+/// Whether a face comes within the cell's circumscribed sphere.
+fn touches_surface(b: &Builder<'_>, cell: &Pending) -> bool {
     let circum = 3f64.sqrt() * cell.half_m;
-    let touches_surface = cell
-        .near
+    cell.near
         .iter()
-        .any(|&f| b.geometry.distance_to_face(f as usize, cell.center) <= circum);
-    if !touches_surface {
-        let c = Point3::new(cell.center[0], cell.center[1], cell.center[2]);
-        if b.exact.is_inside(&c) {
-            return Some(Outcome::Exact);
-        }
+        .any(|&f| b.geometry.distance_to_face(f as usize, cell.center) <= circum)
+}
+
+/// What a cell is before fitting: `None` when it needs a fit. `inside`: the cell is clear of
+/// the surface and its centre inside the body.
+fn classify(b: &Builder<'_>, cell: &Pending, inside: bool) -> Option<Outcome> {
+    let nf = b.all_faces.len();
+    if inside {
+        return Some(Outcome::Exact);
     }
     let fit = cell.fit_near.len();
     let top = cell.source.poly.is_none() && fit as f64 > TOP_FRACTION * nf as f64;

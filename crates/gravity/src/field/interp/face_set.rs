@@ -35,6 +35,9 @@ pub(crate) struct FaceGeometry {
     pub edge_normals: Vec<[[f64; 3]; 3]>,
     /// Lengths of those edges, m.
     pub edge_len_m: Vec<[f64; 3]>,
+    /// The mesh's undirected edges numbered, made on first use (the build's face-set tables
+    /// need them; queries do not): see [`FaceGeometry::face_edges`].
+    edge_numbers: std::sync::OnceLock<(Vec<[u32; 3]>, usize)>,
 }
 
 fn sub(a: [f64; 3], b: [f64; 3]) -> [f64; 3] {
@@ -87,7 +90,40 @@ impl FaceGeometry {
             normals,
             edge_normals,
             edge_len_m,
+            edge_numbers: std::sync::OnceLock::new(),
         }
+    }
+
+    /// For each face, the numbers of its edges `(v0, v1)`, `(v1, v2)`, `(v2, v0)` among the
+    /// mesh's undirected edges (two faces sharing an edge get the same number), and how many
+    /// edges there are. Computed once, on first use, by sorting the vertex pairs.
+    pub fn face_edges(&self) -> (&[[u32; 3]], usize) {
+        let (numbers, count) = self.edge_numbers.get_or_init(|| {
+            let mut keyed: Vec<(u64, u32)> = Vec::with_capacity(3 * self.faces.len());
+            for (f, face) in self.faces.iter().enumerate() {
+                for k in 0..3 {
+                    let (a, b) = (face[k], face[(k + 1) % 3]);
+                    let key = (u64::from(a.min(b)) << 32) | u64::from(a.max(b));
+                    keyed.push((key, (3 * f + k) as u32));
+                }
+            }
+            keyed.sort_unstable();
+            let mut numbers = vec![[0u32; 3]; self.faces.len()];
+            let mut count = 0u32;
+            for (i, &(key, slot)) in keyed.iter().enumerate() {
+                if i > 0 && keyed[i - 1].0 != key {
+                    count += 1;
+                }
+                numbers[slot as usize / 3][slot as usize % 3] = count;
+            }
+            let edges = if keyed.is_empty() {
+                0
+            } else {
+                count as usize + 1
+            };
+            (numbers, edges)
+        });
+        (numbers, *count)
     }
 
     pub fn face_count(&self) -> usize {
@@ -392,10 +428,19 @@ mod tests {
             .take(150)
             .collect();
         let all: Vec<u32> = (0..g.face_count() as u32).collect();
+        // Also points next to the surface: off a corner and an edge of a face in the subset,
+        // and off one of its boundary edges (the open-set terms are a line integral along the
+        // set's boundary, see `kernel`).
+        let [a, b, c] = mesh.triangle(some[7] as usize);
+        let n = (b - a).cross(&(c - a)).normalize();
+        let mid = Point3::from((a.coords + b.coords) * 0.5);
         let pts = [
             Point3::new(2600.0, 900.0, 400.0),
             Point3::new(-300.0, 2200.0, -1700.0),
             Point3::new(50.0, -80.0, 20.0),
+            a + n * 1e-3,
+            mid + n * 0.5,
+            Point3::from((a.coords + b.coords + c.coords) / 3.0) + n * 2.0,
         ];
         let mut scratch = Vec::new();
         for set in [&some, &all] {
@@ -431,6 +476,55 @@ mod tests {
                 assert!((f.omega - s.omega).abs() < 1e-12);
             }
         }
+    }
+
+    #[test]
+    fn edge_numbers_pair_the_faces_of_each_edge() {
+        // Euler: a closed triangle mesh has E = 3F/2 edges, each shared by exactly two faces
+        // that list its ends in opposite orders.
+        let mesh = generate::demo_body(2);
+        let g = FaceGeometry::new(&mesh);
+        let (numbers, count) = g.face_edges();
+        assert_eq!(count, 3 * g.face_count() / 2);
+        let mut ends: Vec<Vec<(u32, u32)>> = vec![Vec::new(); count];
+        for (f, face) in g.faces.iter().enumerate() {
+            for k in 0..3 {
+                ends[numbers[f][k] as usize].push((face[k], face[(k + 1) % 3]));
+            }
+        }
+        for (e, pair) in ends.iter().enumerate() {
+            assert_eq!(pair.len(), 2, "edge {e}");
+            assert_eq!(pair[0], (pair[1].1, pair[1].0), "edge {e}");
+        }
+    }
+
+    #[test]
+    fn face_set_tables_do_not_depend_on_the_sets_built_before() {
+        // The tables keep per-thread slots between calls: a set's tables must come out the
+        // same after other (overlapping) sets were built on the thread as on a fresh thread.
+        let mesh = generate::demo_body(2);
+        let g = FaceGeometry::new(&mesh);
+        let a: Vec<u32> = (0..g.face_count() as u32).step_by(2).collect();
+        let b: Vec<u32> = (0..g.face_count() as u32).rev().step_by(3).collect();
+        let _ = Tables::from_face_set(&g, &a);
+        let here = Tables::from_face_set(&g, &b);
+        let fresh = std::thread::scope(|s| {
+            s.spawn(|| Tables::from_face_set(&g, &b))
+                .join()
+                .expect("thread")
+        });
+        assert_eq!(here.vx, fresh.vx);
+        assert_eq!((here.f0, here.f1, here.f2), (fresh.f0, fresh.f1, fresh.f2));
+        assert_eq!((here.e0, here.e1), (fresh.e0, fresh.e1));
+        assert_eq!(here.edge_dyad.xy, fresh.edge_dyad.xy);
+        assert_eq!(here.edge_count, fresh.edge_count);
+        // Every local vertex is a corner of the set (none left over from set a).
+        let corners: std::collections::HashSet<[u64; 3]> = b
+            .iter()
+            .flat_map(|&f| g.faces[f as usize])
+            .map(|v| g.vertices[v as usize].map(f64::to_bits))
+            .collect();
+        assert_eq!(corners.len(), here.vx.len());
     }
 
     #[test]

@@ -15,8 +15,7 @@
 //! ones stay in the basis and are evaluated by the recurrences of `solid` (cells the build fits
 //! only to feed their children).
 
-use std::collections::HashMap;
-use std::sync::{Arc, Mutex, OnceLock};
+use std::sync::OnceLock;
 
 use nalgebra::DMatrix;
 use serde::{Deserialize, Serialize};
@@ -62,6 +61,14 @@ impl Space {
             Space::Biharmonic if p >= 1 => (p + 1) * (p + 1) + (p - 1) * (p - 1),
             Space::Biharmonic => 1,
             Space::Harmonic => (p + 1) * (p + 1),
+        }
+    }
+
+    /// Index of the space in per-space tables.
+    fn slot(self) -> usize {
+        match self {
+            Space::Biharmonic => 0,
+            Space::Harmonic => 1,
         }
     }
 
@@ -144,10 +151,10 @@ impl Pattern {
         }
     }
 
-    /// The pattern of `space` (built once per process).
-    pub fn get(space: Space) -> Arc<Pattern> {
-        static CACHE: OnceLock<Mutex<HashMap<Space, Arc<Pattern>>>> = OnceLock::new();
-        cached(&CACHE, space, || Pattern::new(space))
+    /// The pattern of `space` (built once per process; no lock once built).
+    pub fn get(space: Space) -> &'static Pattern {
+        static CACHE: [OnceLock<Pattern>; 2] = [const { OnceLock::new() }; 2];
+        CACHE[space.slot()].get_or_init(|| Pattern::new(space))
     }
 
     /// The gradients (cell units) at the check points of the fit with non-constant basis
@@ -170,23 +177,6 @@ impl Pattern {
             .sum::<f64>()
             / values.len().max(1) as f64
     }
-}
-
-fn cached<K: std::hash::Hash + Eq + Copy, V>(
-    cache: &'static OnceLock<Mutex<HashMap<K, Arc<V>>>>,
-    key: K,
-    make: impl FnOnce() -> V,
-) -> Arc<V> {
-    let map = cache.get_or_init(|| Mutex::new(HashMap::new()));
-    if let Some(v) = map.lock().unwrap_or_else(|e| e.into_inner()).get(&key) {
-        return Arc::clone(v);
-    }
-    let v = Arc::new(make());
-    map.lock()
-        .unwrap_or_else(|e| e.into_inner())
-        .entry(key)
-        .or_insert(v)
-        .clone()
 }
 
 /// The least-squares solution of one degree, and its conversion to monomials.
@@ -240,12 +230,13 @@ impl Solver {
         }
     }
 
-    /// The solver of `space` at degree `p` (built once per process).
-    pub fn get(space: Space, p: usize) -> Arc<Solver> {
-        type Cache = Mutex<HashMap<(Space, usize), Arc<Solver>>>;
-        static CACHE: OnceLock<Cache> = OnceLock::new();
+    /// The solver of `space` at degree `p` (built once per process; no lock once built, as
+    /// every query of a fitted cell asks for one).
+    pub fn get(space: Space, p: usize) -> &'static Solver {
+        const DEGREES: usize = MONOMIAL_MAX_DEGREE + 1;
+        static CACHE: [OnceLock<Solver>; 2 * DEGREES] = [const { OnceLock::new() }; 2 * DEGREES];
         let p = p.min(space.max_degree());
-        cached(&CACHE, (space, p), || Solver::new(space, p))
+        CACHE[space.slot() * DEGREES + p].get_or_init(|| Solver::new(space, p))
     }
 
     /// Non-constant basis coefficients for many cells: column `k` of `data` holds cell `k`'s

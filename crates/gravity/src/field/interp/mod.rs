@@ -23,8 +23,10 @@
 //! Hessians of `F` at a fixed pattern of 125 points, see `fit`) come from the nearest
 //! ancestor whose fit held ("the source"): `F_cell = F_source + sum_(near(source) - near(cell))
 //! U_f`, the source's polynomial plus exact sums over the ring of faces between the two near
-//! sets, so no cell below the top needs a sum over the whole mesh. Each fit is checked at 26
-//! points it did not use; its error there, added to its source's, is the cell's error. A cell
+//! sets, so no cell below the top needs a sum over the whole mesh (the ring's gradient tensor
+//! includes terms an open set of faces has; by Stokes' theorem they are a line integral around
+//! the ring's boundary, see the field kernel). Each fit is checked at 64 points it did not use
+//! (27 in a cell with no near faces); its error there, added to its source's, is the cell's error. A cell
 //! becomes a leaf when that error is below the bound and its near set is small enough to sum
 //! quickly; otherwise it is split. Cells inside the body, and any cell the fit cannot bring
 //! under the bound at the deepest level, evaluate the exact sums instead (never wrong, only
