@@ -142,7 +142,8 @@ class Field:
         """The interpolated field's error bound (None for direct)."""
     @property
     def info(self) -> dict[str, Any]:
-        """How the field was computed (the ``field`` record of results.json)."""
+        """How the field was computed: the ``field`` record of results.json, plus ``store`` and
+        ``build_s`` (this process's cache outcome and build time) for an interpolated field."""
     def describe(self) -> str:
         """One line saying how the field is computed."""
 

@@ -158,8 +158,8 @@ impl PyField {
 
     /// "direct" or "interpolated".
     #[getter]
-    fn method(&self) -> &'static str {
-        self.used.method
+    fn method(&self) -> String {
+        self.used.method.clone()
     }
 
     /// The interpolated field's bound of the relative acceleration error (None for direct).
@@ -168,12 +168,24 @@ impl PyField {
         self.used.max_rel_error
     }
 
-    /// How the field was computed, as the `field` record of results.json: method, bound,
-    /// the vector kernel of this machine, and for an interpolated field its build statistics
-    /// and whether it was read from the cache folder or built.
+    /// How the field was computed: the `field` record of results.json (method, bound, the
+    /// vector kernel of this machine, an interpolated field's build statistics) plus, for an
+    /// interpolated field, `store` (read from the cache folder, or built and stored, or built
+    /// without storing, and why) and `build_s` (this process's build time, when it built it).
     #[getter]
     fn info<'py>(&self, py: Python<'py>) -> PyResult<Bound<'py, PyAny>> {
-        to_py_value(py, &self.used)
+        let info = to_py_value(py, &self.used)?;
+        // What this process did (kept out of results files, which must not depend on the
+        // process; here it tells the user whether the cache worked).
+        if let Ok(dict) = info.cast::<PyDict>() {
+            if let Some(store) = &self.used.store {
+                dict.set_item("store", store)?;
+            }
+            if let Some(build_s) = self.used.build_s {
+                dict.set_item("build_s", build_s)?;
+            }
+        }
+        Ok(info)
     }
 
     /// One line saying how the field is computed (as in manifests).
