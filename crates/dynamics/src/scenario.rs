@@ -513,7 +513,8 @@ fn located(e: serde_path_to_error::Error<serde_json::Error>) -> DynamicsError {
     let inner = e.into_inner();
     let message = inner.to_string();
     err(
-        if path == "." {
+        // "." is the document itself; "?" is where the text ended before the value did.
+        if path == "." || path == "?" {
             String::new()
         } else if path.chars().count() > 2 * spinfall_gravity::text::EXCERPT_CHARS {
             // A key of unbounded length is part of the path: keep its start.

@@ -379,6 +379,21 @@ fn a_scenario_without_launches_is_valid() {
     assert_eq!(back, s);
 }
 
+/// A document cut short names where the text ended, not a field path ("?" before).
+#[test]
+fn a_truncated_document_names_the_line_and_column_only() {
+    for cut in [
+        &MINIMAL[..MINIMAL.len() / 2],
+        "{\"bad\": 1",
+        "{\"format\": \"spinfall-scenario\"",
+    ] {
+        let e = Scenario::from_json_str(cut).unwrap_err().to_string();
+        assert!(e.contains("EOF while parsing"), "{e}");
+        assert!(e.contains("line"), "{e}");
+        assert!(!e.contains('?'), "{e}");
+    }
+}
+
 /// Issue 9, fault 13: a UTF-8 byte-order mark is not "expected value at line 1 column 1", and
 /// UTF-16 is named.
 #[test]

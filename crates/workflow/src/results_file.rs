@@ -159,7 +159,8 @@ fn parse_results_from(
             };
         }
         let what = excerpt(&inner.to_string());
-        bad(if path == "." {
+        // "." is the document itself; "?" is where the text ended before the value did.
+        bad(if path == "." || path == "?" {
             what
         } else {
             format!("{path}: {what}")
