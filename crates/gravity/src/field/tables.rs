@@ -42,6 +42,25 @@ impl SymSoa {
         6 * self.xx.capacity() * std::mem::size_of::<f64>()
     }
 
+    /// The six columns, in the order of [`SymSoa::get`].
+    fn columns_mut(&mut self) -> [&mut Vec<f64>; 6] {
+        [
+            &mut self.xx,
+            &mut self.xy,
+            &mut self.xz,
+            &mut self.yy,
+            &mut self.yz,
+            &mut self.zz,
+        ]
+    }
+
+    /// Pushes a matrix stored as by [`SymSoa::get`] (already symmetric).
+    fn push_stored(&mut self, m: [f64; 6]) {
+        for (column, x) in self.columns_mut().into_iter().zip(m) {
+            column.push(x);
+        }
+    }
+
     /// The matrix at `i`.
     pub fn get(&self, i: usize) -> [f64; 6] {
         [
@@ -409,14 +428,7 @@ impl Tables {
                 t.b0.push(0);
                 t.b1.push(0);
             }
-            for d in [
-                &mut t.edge_dyad.xx,
-                &mut t.edge_dyad.xy,
-                &mut t.edge_dyad.xz,
-                &mut t.edge_dyad.yy,
-                &mut t.edge_dyad.yz,
-                &mut t.edge_dyad.zz,
-            ] {
+            for d in t.edge_dyad.columns_mut() {
                 d.reserve(padded(edge_count));
             }
             for d in &dyads {
@@ -493,20 +505,7 @@ impl Tables {
                 t.e0.push(map(self.e0[e], &mut global));
                 t.e1.push(map(self.e1[e], &mut global));
                 t.edge_len_m.push(self.edge_len_m[e]);
-                let m = self.edge_dyad.get(e);
-                for (v, x) in [
-                    &mut t.edge_dyad.xx,
-                    &mut t.edge_dyad.xy,
-                    &mut t.edge_dyad.xz,
-                    &mut t.edge_dyad.yy,
-                    &mut t.edge_dyad.yz,
-                    &mut t.edge_dyad.zz,
-                ]
-                .into_iter()
-                .zip(m)
-                {
-                    v.push(x);
-                }
+                t.edge_dyad.push_stored(self.edge_dyad.get(e));
             }
             t.edge_count = t.e0.len();
             for &g in &global {
