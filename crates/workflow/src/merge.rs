@@ -42,7 +42,7 @@ use crate::output::{
 };
 use crate::results_file::{StoredResults, open_results_body, read_results};
 use crate::run_files::{RUN_FILES, StatisticsOutput, run_set_files, scenario_sha256};
-use crate::shard::{Shard, software};
+use crate::shard::{Shard, software, unlisted_run_file};
 use crate::statistics::{StatisticsRequest, compute_statistics};
 
 /// One shard, checked.
@@ -125,17 +125,8 @@ pub fn merge_shards(
         None
     } else {
         // The shape model, for the statistics (found as `spinfall stats` finds it).
-        let run = open_results_body(
-            &StoredResults {
-                name: first.name.clone(),
-                dir: first.dir.clone(),
-                embedded: first.embedded.clone(),
-                field: None,
-                reports: Vec::new(),
-            },
-            None,
-        )
-        .map_err(|e| in_folder(&shards[0].folder, e.to_string()))?;
+        let run = open_results_body(first, None)
+            .map_err(|e| in_folder(&shards[0].folder, e.to_string()))?;
         for w in &run.shape.warnings {
             warn(format!("shape model: {w}"));
         }
@@ -178,6 +169,22 @@ pub fn merge_shards(
                 .collect(),
         ),
     };
+    // Each shard's trajectories.csv with its manifest entry (read_manifests checked it is
+    // listed).
+    let sources: Vec<(PathBuf, ManifestFile)> = shards
+        .iter()
+        .map(|s| {
+            let listed = s.manifest.files.iter().find(|f| f.name == RUN_FILES[2]);
+            listed
+                .map(|f| (s.folder.join(RUN_FILES[2]), f.clone()))
+                .ok_or_else(|| {
+                    in_folder(
+                        &s.folder,
+                        format!("its manifest does not list {}", RUN_FILES[2]),
+                    )
+                })
+        })
+        .collect::<Result<_>>()?;
     // Everything is checked: now the output folder.
     let folder = OutputFolder::prepare(out)?;
     let needed: u64 = shards
@@ -186,23 +193,6 @@ pub fn merge_shards(
         .map(|f| f.bytes)
         .sum();
     folder.check_space(needed)?;
-    let sources: Vec<(PathBuf, ManifestFile)> = shards
-        .iter()
-        .map(|s| {
-            let f = s
-                .manifest
-                .files
-                .iter()
-                .find(|f| f.name == RUN_FILES[2])
-                .cloned()
-                .unwrap_or_else(|| ManifestFile {
-                    name: RUN_FILES[2].into(),
-                    bytes: 0,
-                    sha256: String::new(),
-                });
-            (s.folder.join(RUN_FILES[2]), f)
-        })
-        .collect();
     let trajectories = {
         let (sources, ids) = (&sources, &ids);
         SetFile::new(RUN_FILES[2], move |w| stream_trajectories(w, sources, ids))
@@ -302,10 +292,7 @@ fn read_manifests(folders: &[PathBuf]) -> Result<Vec<ShardInput>> {
                 "its manifest does not list the shard's launches".into(),
             ));
         }
-        if let Some(name) = RUN_FILES
-            .iter()
-            .find(|name| !m.files.iter().any(|f| f.name == **name))
-        {
+        if let Some(name) = unlisted_run_file(&m) {
             return Err(in_folder(
                 folder,
                 format!("its manifest does not list {name}"),

@@ -212,6 +212,14 @@ pub fn software() -> String {
     format!("spinfall {}", env!("CARGO_PKG_VERSION"))
 }
 
+/// The first file of a run folder ([`RUN_FILES`]) that manifest `m` does not list, if any.
+pub(crate) fn unlisted_run_file(m: &Manifest) -> Option<&'static str> {
+    RUN_FILES
+        .iter()
+        .copied()
+        .find(|name| !m.files.iter().any(|f| f.name == *name))
+}
+
 /// Whether `folder` holds a complete shard as `expected`: a complete manifest whose files all
 /// match it (sizes and SHA-256), of the same shard, scenario, software, gravity method and
 /// launches. Never fails: anything else is [`ExistingShard::Redo`] with the reason.
@@ -249,10 +257,7 @@ pub fn existing_shard(folder: &Path, expected: &ShardExpectation) -> ExistingSha
     {
         Some("its launches are not this shard's".into())
     } else {
-        RUN_FILES
-            .iter()
-            .find(|n| !m.files.iter().any(|f| f.name == **n))
-            .map(|name| format!("its manifest does not list {name}"))
+        unlisted_run_file(&m).map(|name| format!("its manifest does not list {name}"))
     };
     match why {
         Some(why) => ExistingShard::Redo(format!("{}: {why}", folder.display())),
