@@ -99,6 +99,20 @@ fn geometry(site: &Site, report: &TargetingReport) -> Geometry {
     }
 }
 
+/// The solved launch flown again on its own with the full contact model: the distance from
+/// its first contact to the target, m.
+fn miss_when_flown_again(body: &Body, site: &Site, rep: &TargetingReport) -> f64 {
+    let spec = rep.launch_spec("again", site, 0.05).unwrap();
+    let flown = fly(
+        body,
+        &spec.state().unwrap(),
+        &settings(),
+        &AtomicBool::new(false),
+    );
+    let first = Point3::from(flown.contacts[0].pos_body_m);
+    (first - Point3::from(rep.target.point_body_m)).norm()
+}
+
 fn site(body: &Body, lat: f64, lon: f64) -> Site {
     Site::from_lat_lon(body, lat, lon, NormalMode::Face).unwrap()
 }
@@ -221,15 +235,7 @@ fn min_speed_matches_the_minimum_energy_trajectory_and_flies_again_to_the_target
         g_min.to_degrees()
     );
     // The solved launch flown again with the full contact model lands first within tol.
-    let spec = rep.launch_spec("again", &s, 0.05).unwrap();
-    let flown = fly(
-        &body,
-        &spec.state().unwrap(),
-        &settings(),
-        &AtomicBool::new(false),
-    );
-    let first = Point3::from(flown.contacts[0].pos_body_m);
-    let miss = (first - Point3::from(rep.target.point_body_m)).norm();
+    let miss = miss_when_flown_again(&body, &s, &rep);
     assert!(miss <= tol, "miss {miss}");
 }
 
@@ -367,15 +373,7 @@ fn rotating_ellipsoid_solutions_land_within_tolerance_when_flown_again() {
         );
         // Flown again with the full contact model: the first contact is within tol (this is
         // the definition of a solution; the physics is checked on the sphere above).
-        let spec = rep.launch_spec("again", &s, 0.05).unwrap();
-        let flown = fly(
-            &body,
-            &spec.state().unwrap(),
-            &settings(),
-            &AtomicBool::new(false),
-        );
-        let first = Point3::from(flown.contacts[0].pos_body_m);
-        let miss = (first - Point3::from(rep.target.point_body_m)).norm();
+        let miss = miss_when_flown_again(&body, &s, &rep);
         assert!(miss <= tol, "{mode:?}: miss {miss}");
         assert!(rep.flights <= 200);
     }
