@@ -1,8 +1,9 @@
 //! Builds the interpolated field of the demo body at a chosen resolution and bound, then checks
 //! it against the exact field and times both.
 //!
-//! `cargo run --release -p spinfall-gravity --example interp_build -- FREQ [MAX_REL_ERROR]`
-//! (the demo body over a geodesic sphere of frequency FREQ: 20 FREQ^2 faces).
+//! `cargo run --release -p spinfall-gravity --example interp_build -- FREQ [MAX_REL_ERROR
+//! [LEAF_NEAR_FACES]]` (the demo body over a geodesic sphere of frequency FREQ: 20 FREQ^2
+//! faces; LEAF_NEAR_FACES: the most faces a leaf sums exactly, default the library's).
 
 use std::sync::atomic::AtomicBool;
 use std::time::Instant;
@@ -17,10 +18,13 @@ fn main() {
     let freq: u32 = args.get(1).and_then(|v| v.parse().ok()).unwrap_or(16);
     let bound: f64 = args.get(2).and_then(|v| v.parse().ok()).unwrap_or(1e-9);
     let mesh = generate::demo_body_geodesic(freq);
-    let settings = InterpolationSettings {
+    let mut settings = InterpolationSettings {
         max_rel_error: bound,
         ..Default::default()
     };
+    if let Some(n) = args.get(3).and_then(|v| v.parse().ok()) {
+        settings.leaf_near_faces = n;
+    }
     let t0 = Instant::now();
     let cpu0 = process_cpu_s();
     let field = match build_interpolated(

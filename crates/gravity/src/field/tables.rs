@@ -117,6 +117,34 @@ fn spread_bits(v: u64) -> u64 {
     x
 }
 
+/// The bounding box of vertices given one coordinate array per axis: `(low, span)` per axis.
+pub(crate) fn axis_bounds(coords: [&[f64]; 3]) -> [(f64, f64); 3] {
+    coords.map(|v| {
+        let lo = v.iter().copied().fold(f64::INFINITY, f64::min);
+        let hi = v.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+        (lo, (hi - lo).max(f64::MIN_POSITIVE))
+    })
+}
+
+/// Indices of `points` sorted along a Morton (Z-order) curve, 21 bits per axis over the box
+/// `axes` (see [`axis_bounds`]; ties by index, so the order is reproducible).
+pub(crate) fn morton_order(points: &[[f64; 3]], axes: [(f64, f64); 3]) -> Vec<u32> {
+    let mut keyed: Vec<(u64, u32)> = points
+        .iter()
+        .enumerate()
+        .map(|(i, p)| {
+            let mut code = 0u64;
+            for (axis, &(lo, span)) in axes.iter().enumerate() {
+                let cell = (((p[axis] - lo) / span) * 2_097_151.0).clamp(0.0, 2_097_151.0) as u64;
+                code |= spread_bits(cell) << axis;
+            }
+            (code, i as u32)
+        })
+        .collect();
+    keyed.sort_unstable();
+    keyed.into_iter().map(|(_, i)| i).collect()
+}
+
 /// Volume and centre of mass of the homogeneous polyhedron (signed tetrahedra from the origin).
 #[derive(Debug, Clone, Copy)]
 pub(crate) struct Bulk {
@@ -520,30 +548,17 @@ impl Tables {
         out
     }
 
-    /// Face indices sorted along a Morton (Z-order) curve through the face centroids, 21 bits
-    /// per axis over the bounding box (ties by index, so the order is reproducible).
+    /// Face indices sorted along a Morton (Z-order) curve through the face centroids over the
+    /// vertices' bounding box (see [`morton_order`]).
     fn spatial_face_order(&self) -> Vec<u32> {
-        let bounds = |v: &[f64]| {
-            let lo = v.iter().copied().fold(f64::INFINITY, f64::min);
-            let hi = v.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-            (lo, (hi - lo).max(f64::MIN_POSITIVE))
-        };
-        let axes = [bounds(&self.vx), bounds(&self.vy), bounds(&self.vz)];
-        let coords = [&self.vx, &self.vy, &self.vz];
-        let mut keyed: Vec<(u64, u32)> = (0..self.face_count)
+        let centroids: Vec<[f64; 3]> = (0..self.face_count)
             .map(|f| {
                 let corners = [self.f0[f], self.f1[f], self.f2[f]].map(|i| i as usize);
-                let mut code = 0u64;
-                for (axis, (&(lo, span), v)) in axes.iter().zip(coords).enumerate() {
-                    let c = corners.iter().map(|&i| v[i]).sum::<f64>() / 3.0;
-                    let cell = (((c - lo) / span) * 2_097_151.0).clamp(0.0, 2_097_151.0) as u64;
-                    code |= spread_bits(cell) << axis;
-                }
-                (code, f as u32)
+                let v = [&self.vx, &self.vy, &self.vz];
+                std::array::from_fn(|a| corners.iter().map(|&i| v[a][i]).sum::<f64>() / 3.0)
             })
             .collect();
-        keyed.sort_unstable();
-        keyed.into_iter().map(|(_, f)| f).collect()
+        morton_order(&centroids, axis_bounds([&self.vx, &self.vy, &self.vz]))
     }
 
     /// Pads faces and edges to a multiple of [`PAD`] with inert entries and frees spare

@@ -30,12 +30,20 @@ pub(crate) const ROWS_PER_POINT: usize = 9;
 /// Highest degree kept as monomials (leaf cells); higher degrees lose digits in that form.
 pub(crate) const MONOMIAL_MAX_DEGREE: usize = 16;
 
-/// Points per axis of the fit grid (Chebyshev–Lobatto, corners included): `9 * 5^3 = 1125`
-/// data, at least twice the unknowns up to each space's highest degree. (With values, first and
-/// second derivatives at five nodes per axis a degree-`p` polynomial is fixed along the grid
-/// lines up to `p = 14`; degree 16 fits the smooth fields met here as well, as the checks show,
-/// but a higher degree would need a finer grid.)
-const GRID: usize = 5;
+/// Points per axis of the biharmonic fit grid (Chebyshev–Lobatto, corners included):
+/// `9 * 5^3 = 1125` data, at least twice the unknowns up to the highest degree. (With values,
+/// first and second derivatives at five nodes per axis a degree-`p` polynomial is fixed along
+/// the grid lines up to `p = 14`; degree 16 fits the smooth fields met here as well, as the
+/// checks show, but a higher degree would need a finer grid.)
+const BIHARMONIC_GRID: usize = 5;
+
+/// Points per axis of the harmonic fit grid: `9 * 4^3 = 576` data, twice the 288 non-constant
+/// solid harmonics up to degree 16. The cells with no faces near, away from the body, are fitted
+/// from exact evaluations over the whole mesh; a smaller grid halves what each costs (with the
+/// points shared with neighbours, about 27 new points a cell against 64), and their fits stay
+/// far inside the bound (degrees 10 to 12 at 1e-11 to 1e-13 of the local gravity on the demo
+/// body), as the checks, on their own grid, confirm cell by cell.
+const HARMONIC_GRID: usize = 4;
 
 /// The function space of a fit.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize)]
@@ -72,6 +80,14 @@ impl Space {
         }
     }
 
+    /// Points per axis of the fit grid.
+    fn grid(self) -> usize {
+        match self {
+            Space::Biharmonic => BIHARMONIC_GRID,
+            Space::Harmonic => HARMONIC_GRID,
+        }
+    }
+
     fn check_grid(self) -> usize {
         match self {
             Space::Biharmonic => 4,
@@ -85,11 +101,12 @@ impl Space {
 pub(crate) struct Pattern {
     /// Fit points in cell coordinates (Chebyshev–Lobatto grid, corners included).
     pub fit_points: Vec<[f64; 3]>,
-    /// Node indices of the fit points per axis (`0..GRID`): a fit point of the cell with
+    /// Node indices of the fit points per axis (`0..grid`): a fit point of the cell with
     /// lattice index `i` has the lattice key `key_stride * i + fit_keys[k]` per axis, and the
-    /// last node of a cell is the first of its neighbour's.
+    /// last node of a cell is the first of its neighbour's (within one space: the spaces'
+    /// grids differ).
     pub fit_keys: Vec<[i64; 3]>,
-    /// `GRID - 1`.
+    /// `grid - 1`.
     pub key_stride: i64,
     /// Points used only to check a fit (none of them a fit point).
     pub check_points: Vec<[f64; 3]>,
@@ -104,11 +121,12 @@ pub(crate) struct Pattern {
 
 impl Pattern {
     fn new(space: Space) -> Pattern {
-        let nodes: Vec<f64> = (0..GRID)
-            .map(|k| -(std::f64::consts::PI * k as f64 / (GRID - 1) as f64).cos())
+        let grid = space.grid();
+        let nodes: Vec<f64> = (0..grid)
+            .map(|k| -(std::f64::consts::PI * k as f64 / (grid - 1) as f64).cos())
             .collect();
-        let mut fit_points = Vec::with_capacity(GRID * GRID * GRID);
-        let mut fit_keys = Vec::with_capacity(GRID * GRID * GRID);
+        let mut fit_points = Vec::with_capacity(grid * grid * grid);
+        let mut fit_keys = Vec::with_capacity(grid * grid * grid);
         for (i, &x) in nodes.iter().enumerate() {
             for (j, &y) in nodes.iter().enumerate() {
                 for (k, &z) in nodes.iter().enumerate() {
@@ -143,7 +161,7 @@ impl Pattern {
         Pattern {
             fit_points,
             fit_keys,
-            key_stride: GRID as i64 - 1,
+            key_stride: grid as i64 - 1,
             check_points,
             fit_values,
             check_grads,
@@ -267,8 +285,9 @@ pub(crate) fn monomial_jet<const HESS: bool>(layout: &Layout, coef: &[f64], xi: 
 }
 
 /// The check points: the `m x m x m` grid of Chebyshev points of the first kind
-/// (`cos((2k+1) pi / 2m)`; for m = 4: +-0.924, +-0.383 per axis), none of them on the
-/// five-point Chebyshev–Lobatto fit grid, reaching near the corners, edges and faces of the cell
+/// (`cos((2k+1) pi / 2m)`; for m = 4: +-0.924, +-0.383 per axis; for m = 3: +-0.866, 0), none
+/// of them on the fit grid of their space (five Chebyshev–Lobatto nodes per axis with m = 4,
+/// four with m = 3: -1, -0.5, 0.5, 1), reaching near the corners, edges and faces of the cell
 /// as well as inside it.
 fn check_pattern(m: usize) -> Vec<[f64; 3]> {
     let nodes: Vec<f64> = (0..m)
@@ -315,10 +334,14 @@ mod tests {
     fn members_of_each_space_are_fitted_exactly_in_both_forms() {
         // Data taken from a member of the space: the fit must return it to rounding at the
         // check points, in the basis form and (degree <= 16) in the monomial form.
+        // Degree 16 is the highest fitted: the harmonic space's smaller grid must fix all of
+        // its 288 non-constant members too.
         for (space, p) in [
             (Space::Biharmonic, 6),
             (Space::Biharmonic, 12),
+            (Space::Biharmonic, 16),
             (Space::Harmonic, 12),
+            (Space::Harmonic, 16),
         ] {
             let k = space.unknowns(p);
             let target: Vec<f64> = (0..k).map(|i| ((i * 37) % 11) as f64 / 5.0 - 1.0).collect();
@@ -355,6 +378,33 @@ mod tests {
                 if let (Some(m), Some(layout)) = (&mono, solver.layout()) {
                     let c = monomial_jet::<false>(layout, m, *pt);
                     assert!((c.value - b.value).abs() < tol && (c.grad[0] - b.grad[0]).abs() < tol);
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn check_points_are_never_fit_points_and_grids_share_their_sides() {
+        // A check point on the fit grid would check the fit where it was made to agree.
+        for space in [Space::Biharmonic, Space::Harmonic] {
+            let pattern = Pattern::get(space);
+            for c in &pattern.check_points {
+                for f in &pattern.fit_points {
+                    let d = (0..3).map(|a| (c[a] - f[a]).abs()).fold(0.0, f64::max);
+                    assert!(d > 0.05, "{space:?}: check {c:?} on fit point {f:?}");
+                }
+            }
+            // The first and last node per axis are the cell's sides (-1 and 1 exactly), so a
+            // side's fit points are those of the neighbour's opposite side.
+            let g = pattern.key_stride;
+            for (f, k) in pattern.fit_points.iter().zip(&pattern.fit_keys) {
+                for a in 0..3 {
+                    if k[a] == 0 {
+                        assert_eq!(f[a], -1.0);
+                    }
+                    if k[a] == g {
+                        assert_eq!(f[a], 1.0);
+                    }
                 }
             }
         }

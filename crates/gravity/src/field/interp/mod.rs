@@ -20,8 +20,8 @@
 //!
 //! # The build
 //! The cells are fitted level by level from the root down. A cell's data (gradients and
-//! Hessians of `F` at a fixed pattern of 125 points, see `fit`) come from the nearest
-//! ancestor whose fit held ("the source"): `F_cell = F_source + sum_(near(source) - near(cell))
+//! Hessians of `F` at a fixed pattern of 125 points, 64 where no face is near, see `fit`) come
+//! from the nearest ancestor whose fit held ("the source"): `F_cell = F_source + sum_(near(source) - near(cell))
 //! U_f`, the source's polynomial plus exact sums over the ring of faces between the two near
 //! sets, so no cell below the top needs a sum over the whole mesh (the ring's gradient tensor
 //! includes terms an open set of faces has; by Stokes' theorem they are a line integral around
