@@ -186,32 +186,29 @@ enum Maps {
     Both,
 }
 
+/// Maps every face of `body` and prints the time under `label`.
+fn time_map(body: &Body, label: &str) {
+    let cancel = AtomicBool::new(false);
+    let t = Instant::now();
+    let map = surface_map(body, &|_, _| {}, &cancel);
+    println!(
+        "surface map, {label}, {} faces: {:.1} s ({} faces mapped)",
+        body.shape.face_count(),
+        t.elapsed().as_secs_f64(),
+        map.map(|m| m.len()).unwrap_or(0)
+    );
+}
+
 fn case_map(freq: u32, dir: &std::path::Path, maps: Maps) {
     let shape = shape(freq);
-    let cancel = AtomicBool::new(false);
     if maps != Maps::Interpolated {
-        let body = direct(&shape);
-        let t = Instant::now();
-        let map = surface_map(&body, &|_, _| {}, &cancel);
-        println!(
-            "surface map, direct, {} faces: {:.1} s ({} faces mapped)",
-            shape.face_count(),
-            t.elapsed().as_secs_f64(),
-            map.map(|m| m.len()).unwrap_or(0)
-        );
+        time_map(&direct(&shape), "direct");
     }
     if maps == Maps::Direct {
         return;
     }
     let ib = interpolated(&shape, dir);
-    let t = Instant::now();
-    let map = surface_map(&ib, &|_, _| {}, &cancel);
-    println!(
-        "surface map, interpolated, {} faces: {:.1} s (field warm; {} faces mapped)",
-        shape.face_count(),
-        t.elapsed().as_secs_f64(),
-        map.map(|m| m.len()).unwrap_or(0)
-    );
+    time_map(&ib, "interpolated (field warm)");
     let (near, away) = test_points(&ib, 2000);
     println!(
         "interpolated evaluation: {:.2} us per point within 3 m of the surface, {:.2} us away \
