@@ -258,6 +258,45 @@ fn stored_fields_read_back_identically_and_damage_is_detected() {
 }
 
 #[test]
+fn progress_reaches_every_level_and_its_cell_count() {
+    // A progress bar fed by the build must fill for each level, in order, never going back
+    // within a level, including levels whose cells are all settled without a fit (the root).
+    let mesh = generate::demo_body(2);
+    let reports = std::sync::Mutex::new(Vec::new());
+    let settings = InterpolationSettings {
+        max_rel_error: 1e-6,
+        leaf_near_faces: 120,
+        ..Default::default()
+    };
+    let field = build_interpolated(
+        &mesh,
+        MassSpec::DensityKgM3(2000.0),
+        settings,
+        &|p| reports.lock().unwrap().push(*p),
+        &AtomicBool::new(false),
+    )
+    .unwrap();
+    let reports = reports.into_inner().unwrap();
+    let depth = field.stats().depth;
+    for level in 0..=depth {
+        let of_level: Vec<_> = reports.iter().filter(|p| p.level == level).collect();
+        let last = of_level
+            .last()
+            .unwrap_or_else(|| panic!("no report for level {level}"));
+        assert!(
+            of_level.iter().all(|p| p.cells_done <= p.cells_in_level),
+            "level {level}"
+        );
+        let done = of_level.iter().map(|p| p.cells_done).max().unwrap_or(0);
+        assert_eq!(done, last.cells_in_level, "level {level} never completes");
+    }
+    assert!(
+        reports.windows(2).all(|w| w[0].level <= w[1].level),
+        "levels out of order"
+    );
+}
+
+#[test]
 fn bad_settings_are_refused_with_the_reason() {
     let mesh = generate::demo_body(1);
     let mass = MassSpec::DensityKgM3(2100.0);

@@ -833,6 +833,9 @@ pub fn build_interpolated(
                 elapsed_s: start.elapsed().as_secs_f64(),
             });
         };
+        // Cells settled without a fit (inside, or split unfitted) count as done at once, so a
+        // level's progress reaches its cell count (and a level of such cells alone reports).
+        report(kinds.iter().filter(|k| k.is_some()).count());
         let preps: Vec<Option<Prepared>> = level
             .par_iter()
             .zip(kinds.par_iter())
