@@ -117,13 +117,18 @@ fn spread_bits(v: u64) -> u64 {
     x
 }
 
-/// The bounding box of vertices given one coordinate array per axis: `(low, span)` per axis.
-pub(crate) fn axis_bounds(coords: [&[f64]; 3]) -> [(f64, f64); 3] {
-    coords.map(|v| {
-        let lo = v.iter().copied().fold(f64::INFINITY, f64::min);
-        let hi = v.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-        (lo, (hi - lo).max(f64::MIN_POSITIVE))
-    })
+/// The bounding box of `points`: `(low, span)` per axis (a zero span taken as the smallest
+/// positive number).
+pub(crate) fn axis_bounds(points: impl Iterator<Item = [f64; 3]>) -> [(f64, f64); 3] {
+    let mut lo = [f64::INFINITY; 3];
+    let mut hi = [f64::NEG_INFINITY; 3];
+    for p in points {
+        for a in 0..3 {
+            lo[a] = lo[a].min(p[a]);
+            hi[a] = hi[a].max(p[a]);
+        }
+    }
+    std::array::from_fn(|a| (lo[a], (hi[a] - lo[a]).max(f64::MIN_POSITIVE)))
 }
 
 /// Indices of `points` sorted along a Morton (Z-order) curve, 21 bits per axis over the box
@@ -558,7 +563,8 @@ impl Tables {
                 std::array::from_fn(|a| corners.iter().map(|&i| v[a][i]).sum::<f64>() / 3.0)
             })
             .collect();
-        morton_order(&centroids, axis_bounds([&self.vx, &self.vy, &self.vz]))
+        let vertices = (0..self.vx.len()).map(|i| [self.vx[i], self.vy[i], self.vz[i]]);
+        morton_order(&centroids, axis_bounds(vertices))
     }
 
     /// Pads faces and edges to a multiple of [`PAD`] with inert entries and frees spare

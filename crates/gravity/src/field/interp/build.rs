@@ -78,11 +78,10 @@ fn leaf_kappa(max_rel_error: f64) -> f64 {
 /// its fit leaves room in the bound for theirs (a source's error is in all its descendants'),
 /// no larger than that, since the rings its children sum grow with its square (a child's ring
 /// is the faces between its own near set and its source's). The radius only moves cost between
-/// fits and rings: every fit is still checked against the bound. Measured on the demo body
-/// (2026-12-02): at 100,820 facets and 1e-7, 4 half-widths instead of 5 took the build from
-/// 66–70 s to 53 s (ring terms 1.0e10 to 7.0e9, whole-mesh evaluations 138k to 103k, same
-/// leaves); at 5,120 facets and 1e-9, 4 half-widths left too few sources (7.2 s against 6.7 s
-/// with 6).
+/// fits and rings: every fit is still checked against the bound. On the demo body at 100,820
+/// facets and 1e-7, 4 half-widths instead of 5 cut the ring terms from 1.0e10 to 7.0e9 and the
+/// whole-mesh evaluations from 138k to 103k (same leaves); at 5,120 facets and 1e-9, 4 left too
+/// few sources and was slower than 6 (README, Performance).
 fn source_kappa(max_rel_error: f64) -> f64 {
     if max_rel_error >= 1e-8 {
         4.0
@@ -758,53 +757,60 @@ pub fn build_interpolated(
         drop(point_of_key);
         let g_rho = crate::field::G_SI * exact.density_kg_m3();
         let per_g_rho = |a: &Vector3<f64>| [a.x / g_rho, a.y / g_rho, a.z / g_rho];
-        let mut fit_jets: Vec<SetJet> = Vec::with_capacity(fit_points.len());
-        let mut check_jets: Vec<SetJet> = Vec::with_capacity(check_points.len());
         // In chunks, so that a cancel is seen within a second or so on large meshes; large
         // enough (~1e8 face terms) to keep both threads busy to the end of each chunk (each
         // point's value does not depend on the chunk).
         let chunk = (100_000_000 / nf.max(1)).clamp(256, 8192);
-        for points in fit_points.chunks(chunk) {
-            if cancel.load(Ordering::Relaxed) {
-                return Err(GravityError::Cancelled);
-            }
-            fit_jets.extend(exact.evaluate_batch(points).iter().map(|s| {
-                let g = s.gradient_s2 / g_rho;
-                SetJet {
-                    potential: s.potential_m2_s2 / g_rho,
-                    grad: per_g_rho(&s.acceleration_m_s2),
-                    hess: [
-                        g[(0, 0)],
-                        g[(0, 1)],
-                        g[(0, 2)],
-                        g[(1, 1)],
-                        g[(1, 2)],
-                        g[(2, 2)],
-                    ],
-                    omega: 0.0,
+        let in_chunks = |points: &[Point3<f64>],
+                         eval: &dyn Fn(&[Point3<f64>]) -> Vec<SetJet>|
+         -> Result<Vec<SetJet>> {
+            let mut out = Vec::with_capacity(points.len());
+            for part in points.chunks(chunk) {
+                if cancel.load(Ordering::Relaxed) {
+                    return Err(GravityError::Cancelled);
                 }
-            }));
-        }
-        for points in check_points.chunks(chunk) {
-            if cancel.load(Ordering::Relaxed) {
-                return Err(GravityError::Cancelled);
+                out.extend(eval(part));
             }
-            check_jets.extend(
-                exact
-                    .potential_acceleration_batch(points)
-                    .iter()
-                    .map(|(u, a)| SetJet {
-                        potential: u / g_rho,
-                        grad: per_g_rho(a),
-                        hess: [0.0; 6],
+            Ok(out)
+        };
+        let fit_jets = in_chunks(&fit_points, &|points| {
+            exact
+                .evaluate_batch(points)
+                .iter()
+                .map(|s| {
+                    let g = s.gradient_s2 / g_rho;
+                    SetJet {
+                        potential: s.potential_m2_s2 / g_rho,
+                        grad: per_g_rho(&s.acceleration_m_s2),
+                        hess: [
+                            g[(0, 0)],
+                            g[(0, 1)],
+                            g[(0, 2)],
+                            g[(1, 1)],
+                            g[(1, 2)],
+                            g[(2, 2)],
+                        ],
                         omega: 0.0,
-                    }),
-            );
-        }
-        let exact_points = fit_points.len() + check_points.len();
-        builder
-            .full_evaluations
-            .fetch_add(exact_points as u64, Ordering::Relaxed);
+                    }
+                })
+                .collect()
+        })?;
+        let check_jets = in_chunks(&check_points, &|points| {
+            exact
+                .potential_acceleration_batch(points)
+                .iter()
+                .map(|(u, a)| SetJet {
+                    potential: u / g_rho,
+                    grad: per_g_rho(a),
+                    hess: [0.0; 6],
+                    omega: 0.0,
+                })
+                .collect()
+        })?;
+        builder.full_evaluations.fetch_add(
+            (fit_points.len() + check_points.len()) as u64,
+            Ordering::Relaxed,
+        );
         let mut exact_of: Vec<Option<Vec<SetJet>>> = vec![None; level.len()];
         for (idx, &k) in gather.iter().zip(&exact_cells) {
             exact_of[k] = Some(

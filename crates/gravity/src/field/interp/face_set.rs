@@ -147,9 +147,7 @@ impl FaceGeometry {
                     std::array::from_fn(|k| (a[k] + b[k] + c[k]) / 3.0)
                 })
                 .collect();
-            let [x, y, z] =
-                [0, 1, 2].map(|a| self.vertices.iter().map(|v| v[a]).collect::<Vec<f64>>());
-            let axes = crate::field::tables::axis_bounds([&x, &y, &z]);
+            let axes = crate::field::tables::axis_bounds(self.vertices.iter().copied());
             let order = crate::field::tables::morton_order(&centroids, axes);
             let mut rank = vec![0u32; order.len()];
             for (r, &f) in order.iter().enumerate() {
