@@ -190,6 +190,8 @@ struct Pending {
     fit_near: Arc<Vec<u32>>,
     /// Whether the cell may become a leaf.
     leaf_candidate: bool,
+    /// Whether the cell is known to lie wholly outside the body (a part of a cell that is).
+    clear_outside: bool,
     source: Arc<Source>,
 }
 
@@ -374,10 +376,15 @@ impl Builder<'_> {
                     ((plus.len() + minus.len()) * points.len()) as u64,
                     Ordering::Relaxed,
                 );
-                let plus =
-                    set_jets::<true>(&FaceSet::new(self.geometry, &plus), &points, &mut scratch);
-                let minus =
-                    set_jets::<true>(&FaceSet::new(self.geometry, &minus), &points, &mut scratch);
+                // The fit points need the Hessian, the check points only the gradient.
+                let mut ring = |faces: &[u32]| {
+                    let set = FaceSet::new(self.geometry, faces);
+                    let mut jets = set_jets::<true>(&set, &points[..nfit], &mut scratch);
+                    jets.extend(set_jets::<false>(&set, &points[nfit..], &mut scratch));
+                    jets
+                };
+                let plus = ring(&plus);
+                let minus = ring(&minus);
                 points
                     .iter()
                     .zip(plus.iter().zip(&minus))
@@ -685,6 +692,7 @@ pub fn build_interpolated(
         near: Arc::clone(&all_faces),
         fit_near: Arc::clone(&all_faces),
         leaf_candidate: nf <= settings.leaf_near_faces,
+        clear_outside: false,
         source: root_source,
     }];
     let fixed_bytes = nf * std::mem::size_of::<[f64; 3]>() * 9 + exact.memory_bytes();
@@ -694,22 +702,39 @@ pub fn build_interpolated(
         }
         let depth = level[0].depth;
         stats.depth = stats.depth.max(depth);
-        // Cells clear of the surface are wholly inside or outside: their centres are tested in
-        // one batch of the exact field (the same answers as one at a time).
-        let touches: Vec<bool> = level
-            .par_iter()
-            .map(|c| touches_surface(&builder, c))
-            .collect();
-        let clear: Vec<Point3<f64>> = level
+        // Cells clear of the surface are wholly inside or outside. The children of such a
+        // cell (an outside one: inside cells are not split) inherit its side; other cells learn
+        // it from the face nearest their centre when the perpendicular foot is inside that
+        // face (see `FaceGeometry::side_by_nearest_face`), and only the rest from the exact
+        // field's solid angle, in one batch (at 1M facets these whole-mesh sums cost about
+        // as much as the fits' samples).
+        let sides: Vec<Side> = level.par_iter().map(|c| side_of(&builder, c)).collect();
+        let unknown: Vec<Point3<f64>> = level
             .iter()
-            .zip(&touches)
-            .filter(|(_, t)| !**t)
+            .zip(&sides)
+            .filter(|(_, s)| matches!(s, Side::Unknown))
             .map(|(c, _)| Point3::new(c.center[0], c.center[1], c.center[2]))
             .collect();
-        let mut clear_inside = exact.is_inside_batch(&clear).into_iter();
-        let inside: Vec<bool> = touches
+        if std::env::var("SPINFALL_TRACE_LEVELS").is_ok() {
+            eprintln!(
+                "level {depth}: {} cells clear of the surface, {} of them tested with the exact field",
+                sides.iter().filter(|s| !matches!(s, Side::Touches)).count(),
+                unknown.len()
+            );
+        }
+        let mut unknown_inside = exact.is_inside_batch(&unknown).into_iter();
+        let inside: Vec<bool> = sides
             .iter()
-            .map(|t| !t && clear_inside.next().unwrap_or(false))
+            .map(|s| match s {
+                Side::Touches => false,
+                Side::Clear { inside } => *inside,
+                Side::Unknown => unknown_inside.next().unwrap_or(false),
+            })
+            .collect();
+        let clear_outside: Vec<bool> = sides
+            .iter()
+            .zip(&inside)
+            .map(|(s, i)| !matches!(s, Side::Touches) && !i)
             .collect();
         let kinds: Vec<Option<Outcome>> = level
             .par_iter()
@@ -905,6 +930,7 @@ pub fn build_interpolated(
                         near: Arc::clone(&c.near),
                         fit_near: Arc::clone(&c.near),
                         leaf_candidate: false,
+                        clear_outside: c.clear_outside,
                         source: Arc::clone(&c.source),
                     }
                 })
@@ -942,7 +968,7 @@ pub fn build_interpolated(
             );
         }
         let mut next = Vec::new();
-        for (cell, out) in level.into_iter().zip(outcomes) {
+        for ((cell, out), clear_outside) in level.into_iter().zip(outcomes).zip(clear_outside) {
             let Some(out) = out else {
                 return Err(GravityError::Cancelled);
             };
@@ -994,6 +1020,7 @@ pub fn build_interpolated(
                             cell.depth + 1,
                             Arc::clone(&cell.near),
                             Arc::clone(&source),
+                            clear_outside,
                         ));
                     }
                 }
@@ -1003,7 +1030,7 @@ pub fn build_interpolated(
         level = next
             .into_par_iter()
             .map(
-                |(node, index, center, half_m, depth, parent_near, source)| {
+                |(node, index, center, half_m, depth, parent_near, source, clear_outside)| {
                     let (near, fit, leaf_candidate) =
                         builder.near_sets(&parent_near, center, half_m);
                     let near = Arc::new(near);
@@ -1021,6 +1048,7 @@ pub fn build_interpolated(
                         near,
                         fit_near,
                         leaf_candidate,
+                        clear_outside,
                         source,
                     }
                 },
@@ -1069,12 +1097,64 @@ pub fn build_interpolated(
     })
 }
 
-/// Whether a face comes within the cell's circumscribed sphere.
-fn touches_surface(b: &Builder<'_>, cell: &Pending) -> bool {
+/// Where a cell lies with respect to the surface.
+enum Side {
+    /// A face comes within the cell's circumscribed sphere.
+    Touches,
+    /// Clear of the surface, wholly inside or outside.
+    Clear { inside: bool },
+    /// Clear of the surface, the side to be found with the exact field.
+    Unknown,
+}
+
+/// Whether a face comes within the cell's circumscribed sphere and, if none does, which side
+/// of the surface the cell is on when that is known without the exact field (see the caller).
+fn side_of(b: &Builder<'_>, cell: &Pending) -> Side {
+    if cell.clear_outside {
+        return Side::Clear { inside: false };
+    }
     let circum = 3f64.sqrt() * cell.half_m;
-    cell.near
-        .iter()
-        .any(|&f| b.geometry.distance_to_face(f as usize, cell.center) <= circum)
+    let nearest_to = |p: [f64; 3]| {
+        let mut nearest: Option<(f64, u32)> = None;
+        for &f in cell.near.iter() {
+            let d = b.geometry.distance_to_face(f as usize, p);
+            if nearest.is_none_or(|(best, _)| d < best) {
+                nearest = Some((d, f));
+            }
+        }
+        nearest
+    };
+    let Some((d, f)) = nearest_to(cell.center) else {
+        return Side::Unknown;
+    };
+    if d <= circum {
+        return Side::Touches;
+    }
+    // `near` holds every face within the source radius of the centre, so the nearest face it
+    // holds to a point `s` from the centre is the mesh's if it is within the radius less `s`.
+    // The whole circumscribed sphere is on one side: when the centre's nearest point is on an
+    // edge or a vertex (common away from convex parts), the corners are tried.
+    let radius = b.source_kappa * cell.half_m;
+    if let Some(inside) = b.geometry.side_by_nearest_face(f as usize, cell.center) {
+        return Side::Clear { inside };
+    }
+    for k in 0..8 {
+        let corner: [f64; 3] = std::array::from_fn(|a| {
+            cell.center[a]
+                + if (k >> a) & 1 == 1 {
+                    cell.half_m
+                } else {
+                    -cell.half_m
+                }
+        });
+        if let Some((d, f)) = nearest_to(corner)
+            && d <= radius - circum
+            && let Some(inside) = b.geometry.side_by_nearest_face(f as usize, corner)
+        {
+            return Side::Clear { inside };
+        }
+    }
+    Side::Unknown
 }
 
 /// What a cell is before fitting: `None` when it needs a fit. `inside`: the cell is clear of

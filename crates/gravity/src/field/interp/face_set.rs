@@ -166,6 +166,31 @@ impl FaceGeometry {
     }
 }
 
+impl FaceGeometry {
+    /// Whether `p` lies inside the body, decided by face `f` when `f` holds the point of the
+    /// surface nearest `p` (the caller's part): `Some` when the foot of the perpendicular from
+    /// `p` to the face's plane falls inside the triangle, clear of its edges (barycentric
+    /// coordinates above 1e-9). The open segment from `p` to that foot then meets no surface
+    /// (a point of it would be nearer `p`) and around the foot the surface is the face's plane,
+    /// so `p` is on the side the outward normal says. `None` when the foot is on or near an
+    /// edge or a vertex, where the neighbouring faces would have a say.
+    pub fn side_by_nearest_face(&self, f: usize, p: [f64; 3]) -> Option<bool> {
+        let [a, b, c] = self.faces[f].map(|i| self.vertices[i as usize]);
+        let n = self.normals[f];
+        let h = dot(sub(p, a), n);
+        let foot = sub(p, scale(n, h));
+        // Barycentric coordinates of the foot from the signed areas of the sub-triangles.
+        let total = dot(cross(sub(b, a), sub(c, a)), n);
+        if total <= 0.0 || h == 0.0 {
+            return None;
+        }
+        let wa = dot(cross(sub(b, foot), sub(c, foot)), n) / total;
+        let wb = dot(cross(sub(c, foot), sub(a, foot)), n) / total;
+        let wc = 1.0 - wa - wb;
+        (wa > 1e-9 && wb > 1e-9 && wc > 1e-9).then_some(h < 0.0)
+    }
+}
+
 fn closest_point_on_triangle(p: [f64; 3], a: [f64; 3], b: [f64; 3], c: [f64; 3]) -> [f64; 3] {
     let ab = sub(b, a);
     let ac = sub(c, a);
@@ -456,6 +481,45 @@ mod tests {
     use super::*;
     use crate::field::{G_SI, MassSpec, PolyhedronGravity};
     use crate::generate;
+
+    #[test]
+    fn the_nearest_face_rule_agrees_with_the_solid_angle() {
+        // Points at random around the demo body (inside, outside, near and far): wherever the
+        // nearest-face rule gives a side, the exact field's solid angle (4 pi inside, 0
+        // outside) must give the same; and the rule must decide a good share of them.
+        let mesh = generate::demo_body(3);
+        let g = FaceGeometry::new(&mesh);
+        let field = PolyhedronGravity::from_mesh(&mesh, MassSpec::DensityKgM3(2000.0)).unwrap();
+        let mut seed = 7u64;
+        let mut rnd = || {
+            seed = seed
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            (seed >> 11) as f64 / (1u64 << 53) as f64 - 0.5
+        };
+        let (mut decided, mut inside_seen, mut outside_seen) = (0, 0, 0);
+        for _ in 0..2000 {
+            let p = [8000.0 * rnd(), 8000.0 * rnd(), 8000.0 * rnd()];
+            let nearest = (0..g.face_count())
+                .map(|f| (g.distance_to_face(f, p), f))
+                .fold((f64::INFINITY, 0), |a, b| if b.0 < a.0 { b } else { a });
+            if let Some(inside) = g.side_by_nearest_face(nearest.1, p) {
+                let want = field.is_inside(&Point3::new(p[0], p[1], p[2]));
+                assert_eq!(inside, want, "{p:?}");
+                decided += 1;
+                if inside {
+                    inside_seen += 1;
+                } else {
+                    outside_seen += 1;
+                }
+            }
+        }
+        assert!(decided > 300, "only {decided} of 2000 points decided");
+        assert!(
+            inside_seen > 50 && outside_seen > 50,
+            "{inside_seen} / {outside_seen}"
+        );
+    }
 
     #[test]
     fn all_faces_give_the_werner_scheeres_field_and_tensor() {
