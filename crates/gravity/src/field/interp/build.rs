@@ -1132,12 +1132,12 @@ fn side_of(b: &Builder<'_>, cell: &Pending) -> Side {
     }
     // `near` holds every face within the source radius of the centre, so the nearest face it
     // holds to a point `s` from the centre is the mesh's if it is within the radius less `s`.
-    // The whole circumscribed sphere is on one side: when the centre's nearest point is on an
-    // edge or a vertex (common away from convex parts), the corners are tried.
-    let radius = b.source_kappa * cell.half_m;
     if let Some(inside) = b.geometry.side_by_nearest_face(f as usize, cell.center) {
         return Side::Clear { inside };
     }
+    // The whole circumscribed sphere is on one side: when the centre's nearest point is on an
+    // edge or a vertex (common away from convex parts), the corners are tried.
+    let radius = b.source_kappa * cell.half_m;
     for k in 0..8 {
         let corner: [f64; 3] = std::array::from_fn(|a| {
             cell.center[a]

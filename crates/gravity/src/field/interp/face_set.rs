@@ -164,9 +164,7 @@ impl FaceGeometry {
         let q = closest_point_on_triangle(p, a, b, c);
         norm(sub(p, q))
     }
-}
 
-impl FaceGeometry {
     /// Whether `p` lies inside the body, decided by face `f` when `f` holds the point of the
     /// surface nearest `p` (the caller's part): `Some` when the foot of the perpendicular from
     /// `p` to the face's plane falls inside the triangle, clear of its edges (barycentric
