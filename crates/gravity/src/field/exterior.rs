@@ -70,7 +70,7 @@ fn index(n: usize, m: usize) -> usize {
 
 /// Gauss–Legendre nodes and weights on [0, 1] (weights sum to 1), by Newton iteration on
 /// `P_k` (Abramowitz & Stegun 25.4.29 for the weights).
-fn gauss_legendre_01(k: usize) -> Vec<(f64, f64)> {
+pub(crate) fn gauss_legendre_01(k: usize) -> Vec<(f64, f64)> {
     let mut out = Vec::with_capacity(k);
     for i in 0..k {
         let mut x = (std::f64::consts::PI * (i as f64 + 0.75) / (k as f64 + 0.5)).cos();
@@ -339,38 +339,44 @@ impl Exterior {
         let rules: Vec<Vec<(f64, f64)>> = (1..=degree / 2 + 1).map(gauss_legendre_01).collect();
         let steps = Recurrence::new(degree);
         let scaled = |p: Point3<f64>| (p - center_m) / ref_radius_m;
-        let zero = || (vec![0.0; len], vec![0.0; len]);
-        let (c, s) = (0..face_count)
+        // Faces in fixed chunks of 1,024, each chunk's sums added in face order and the chunks
+        // in chunk order, so the moments are the same to the bit whatever the thread count
+        // (a fold-and-reduce over rayon's adaptive splits adds in an order that depends on
+        // which thread stole what).
+        let chunk_sums: Vec<(Vec<f64>, Vec<f64>)> = (0..face_count.div_ceil(1024))
             .into_par_iter()
-            .with_min_len(1024)
-            .fold(zero, |(mut c, mut s), f| {
-                let [p0, p1, p2] = triangle(f);
-                let (v0, v1, v2) = (scaled(p0), scaled(p1), scaled(p2));
-                let cross = (v1 - v0).cross(&(v2 - v0)); // 2 A n
-                let area2 = cross.norm();
-                if area2 == 0.0 {
-                    return (c, s);
-                }
-                let height = cross.dot(&v0) / area2;
-                let (e1, e2) = (v1 - v0, v2 - v1);
-                let size = e1.norm().max(e2.norm()).max((v0 - v2).norm());
-                let rule = &rules[rule_points(size, degree, switch_multiple) - 1];
-                for &(xi, wx) in rule {
-                    for &(eta, we) in rule {
-                        let p = v0 + xi * (e1 + eta * e2);
-                        let w = area2 * wx * we * xi * height;
-                        steps.accumulate([p.x, p.y, p.z], w, &mut c, &mut s);
+            .map(|chunk| {
+                let (mut c, mut s) = (vec![0.0; len], vec![0.0; len]);
+                for f in chunk * 1024..((chunk + 1) * 1024).min(face_count) {
+                    let [p0, p1, p2] = triangle(f);
+                    let (v0, v1, v2) = (scaled(p0), scaled(p1), scaled(p2));
+                    let cross = (v1 - v0).cross(&(v2 - v0)); // 2 A n
+                    let area2 = cross.norm();
+                    if area2 == 0.0 {
+                        continue;
+                    }
+                    let height = cross.dot(&v0) / area2;
+                    let (e1, e2) = (v1 - v0, v2 - v1);
+                    let size = e1.norm().max(e2.norm()).max((v0 - v2).norm());
+                    let rule = &rules[rule_points(size, degree, switch_multiple) - 1];
+                    for &(xi, wx) in rule {
+                        for &(eta, we) in rule {
+                            let p = v0 + xi * (e1 + eta * e2);
+                            let w = area2 * wx * we * xi * height;
+                            steps.accumulate([p.x, p.y, p.z], w, &mut c, &mut s);
+                        }
                     }
                 }
                 (c, s)
             })
-            .reduce(zero, |(mut c, mut s), (c2, s2)| {
-                for i in 0..len {
-                    c[i] += c2[i];
-                    s[i] += s2[i];
-                }
-                (c, s)
-            });
+            .collect();
+        let (mut c, mut s) = (vec![0.0; len], vec![0.0; len]);
+        for (c2, s2) in &chunk_sums {
+            for i in 0..len {
+                c[i] += c2[i];
+                s[i] += s2[i];
+            }
+        }
         let mut out = Self {
             degree,
             ref_radius_m,
@@ -532,6 +538,36 @@ mod tests {
                 assert!((s[i] - w * h.im[i]).abs() <= 1e-12 * (w * h.im[i]).abs().max(1e-3));
             }
         }
+    }
+
+    #[test]
+    fn moments_are_the_same_whatever_the_thread_count() {
+        // Chunks of faces summed in a fixed order: one, two and three threads give the same
+        // bits (the build's fields, and the caches keyed on their inputs, rely on it).
+        let mesh = crate::generate::demo_body(4);
+        let com = Point3::new(10.0, -20.0, 5.0);
+        let moments = |threads: usize| {
+            let pool = rayon::ThreadPoolBuilder::new()
+                .num_threads(threads)
+                .build()
+                .map_err(|e| e.to_string());
+            let pool = match pool {
+                Ok(p) => p,
+                Err(e) => panic!("{e}"),
+            };
+            pool.install(|| {
+                let e = Exterior::from_mesh(&mesh, com, 12);
+                let (_, _, c, s) = e.parts();
+                (
+                    c.iter().chain(s).map(|v| v.to_bits()).collect::<Vec<u64>>(),
+                    e.degree(),
+                )
+            })
+        };
+        let one = moments(1);
+        assert!(mesh.faces.len() > 4 * 1024, "several chunks");
+        assert_eq!(one, moments(2));
+        assert_eq!(one, moments(3));
     }
 
     #[test]

@@ -21,11 +21,14 @@
 //! # The build
 //! The cells are fitted level by level from the root down. A cell's data (gradients and
 //! Hessians of `F` at a fixed pattern of 125 points, 64 where no face is near, see `fit`) come
-//! from the nearest ancestor whose fit held ("the source"): `F_cell = F_source + sum_(near(source) - near(cell))
-//! U_f`, the source's polynomial plus exact sums over the ring of faces between the two near
-//! sets, so no cell below the top needs a sum over the whole mesh (the ring's gradient tensor
-//! includes terms an open set of faces has; by Stokes' theorem they are a line integral around
-//! the ring's boundary, see the field kernel). Each fit is checked at 64 points it did not use
+//! from the nearest ancestor whose fit held ("the source"): `F_cell = F_source +
+//! sum_(near(source) - near(cell)) U_f`, the source's polynomial plus exact sums over the ring
+//! of faces between the two near sets (the ring's gradient tensor includes terms an open set of
+//! faces has; by Stokes' theorem they are a line integral around the ring's boundary, see the
+//! field kernel). So only the top cells, which have no source, need the whole mesh's field:
+//! the exact sums, or on large meshes a tree of face clusters whose far members are Taylor
+//! expansions with a rigorous error bound (`far_field`; that bound, a small share of the error
+//! budget, is added to those cells' measured errors). Each fit is checked at 64 points it did not use
 //! (27 in a cell with no near faces); its error there, added to its source's, is the cell's error. A cell
 //! becomes a leaf when that error is below the bound and its near set is small enough to sum
 //! quickly; otherwise it is split. Cells inside the body, and any cell the fit cannot bring
@@ -39,6 +42,7 @@ pub(crate) mod basis;
 mod build;
 mod codec;
 pub(crate) mod face_set;
+pub(crate) mod far_field;
 pub(crate) mod fit;
 pub(crate) mod near;
 pub(crate) mod poly3;
