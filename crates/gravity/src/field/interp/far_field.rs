@@ -543,10 +543,11 @@ impl FarField {
         let n = moment_len();
         let c = self.clusters[k].center;
         let m = &self.moments[k * 4 * n..(k + 1) * 4 * n];
-        let rel: [[f64; LANES]; 3] =
-            std::array::from_fn(|a| std::array::from_fn(|l| xs[l][a] - c[a]));
-        let top = degrees.iter().copied().max().unwrap_or(0);
-        expand_lanes::<HESS>(m, n, &rel, degrees, top)
+        let at = LanePoints {
+            rel: std::array::from_fn(|a| std::array::from_fn(|l| xs[l][a] - c[a])),
+            degrees: *degrees,
+        };
+        expand_lanes::<HESS>(m, n, &at)
     }
 
     /// Faces in the tree (for tests).
@@ -578,15 +579,15 @@ fn expansion_degree(a: f64, r: f64, allowed: f64) -> Option<usize> {
     None
 }
 
-/// The expansion with moments `m` (four rows of `n`) at points `rel` (relative to the centre,
-/// lanes side by side), lane `l` truncated after degree `degrees[l]`; `top` the largest.
-fn expand_lanes<const HESS: bool>(
-    m: &[f64],
-    n: usize,
-    rel: &[[f64; LANES]; 3],
-    degrees: &[usize; LANES],
-    top: usize,
-) -> [SetJet; LANES] {
+/// Up to [`LANES`] points relative to an expansion's centre (lanes side by side), lane `l`
+/// truncated after degree `degrees[l]`.
+struct LanePoints {
+    rel: [[f64; LANES]; 3],
+    degrees: [usize; LANES],
+}
+
+/// The expansion with moments `m` (four rows of `n`) at the points `at`.
+fn expand_lanes<const HESS: bool>(m: &[f64], n: usize, at: &LanePoints) -> [SetJet; LANES] {
     thread_local! {
         static B: std::cell::RefCell<Vec<[f64; LANES]>> = const { std::cell::RefCell::new(Vec::new()) };
     }
@@ -596,7 +597,7 @@ fn expand_lanes<const HESS: bool>(
         if b.len() != zero + 1 {
             *b = vec![[0.0; LANES]; zero + 1];
         }
-        expand_into::<HESS>(&mut b, m, n, rel, degrees, top)
+        expand_into::<HESS>(&mut b, m, n, at)
     })
 }
 
@@ -606,11 +607,11 @@ fn expand_into<const HESS: bool>(
     b: &mut [[f64; LANES]],
     m: &[f64],
     n: usize,
-    rel: &[[f64; LANES]; 3],
-    degrees: &[usize; LANES],
-    top: usize,
+    at: &LanePoints,
 ) -> [SetJet; LANES] {
     let ix = Index::get();
+    let (rel, degrees) = (&at.rel, &at.degrees);
+    let top = degrees.iter().copied().max().unwrap_or(0);
     let reach = top + if HESS { 2 } else { 1 };
     let r2: [f64; LANES] = std::array::from_fn(|l| {
         rel[0][l] * rel[0][l] + rel[1][l] * rel[1][l] + rel[2][l] * rel[2][l]
@@ -812,7 +813,11 @@ mod tests {
                         y[0].powi(al[0] as i32) * y[1].powi(al[1] as i32) * y[2].powi(al[2] as i32);
                 }
                 let rel: [[f64; LANES]; 3] = std::array::from_fn(|k| [x[k]; LANES]);
-                let jets = expand_lanes::<false>(&m, n, &rel, &[p; LANES], p);
+                let at = LanePoints {
+                    rel,
+                    degrees: [p; LANES],
+                };
+                let jets = expand_lanes::<false>(&m, n, &at);
                 let exact = 1.0 / norm(sub(x, y));
                 let err = (2.0 * jets[0].potential - exact).abs();
                 let q = a / r;
