@@ -39,7 +39,7 @@ use multiversion::multiversion;
 use nalgebra::Point3;
 use rayon::prelude::*;
 
-use super::face_set::{FaceGeometry, FaceSet, SetJet, set_jets};
+use super::face_set::{FaceGeometry, FaceSet, SetJet, cross, dot, norm, set_jets, sub};
 
 /// Highest degree of a cluster's expansion.
 pub(crate) const MAX_ORDER: usize = 18;
@@ -257,16 +257,6 @@ pub(crate) struct FarField {
     total_area: f64,
 }
 
-fn sub(a: [f64; 3], b: [f64; 3]) -> [f64; 3] {
-    [a[0] - b[0], a[1] - b[1], a[2] - b[2]]
-}
-fn dot(a: [f64; 3], b: [f64; 3]) -> f64 {
-    a[0] * b[0] + a[1] * b[1] + a[2] * b[2]
-}
-fn norm(a: [f64; 3]) -> f64 {
-    dot(a, a).sqrt()
-}
-
 /// What one point needs from one cluster.
 #[derive(Clone, Copy)]
 enum Need {
@@ -332,14 +322,7 @@ impl FarField {
         let n = moment_len();
         let area_of = |f: u32| {
             let [a, b, c] = corners(f);
-            let e1 = sub(b, a);
-            let e2 = sub(c, a);
-            let cr = [
-                e1[1] * e2[2] - e1[2] * e2[1],
-                e1[2] * e2[0] - e1[0] * e2[2],
-                e1[0] * e2[1] - e1[1] * e2[0],
-            ];
-            0.5 * norm(cr)
+            0.5 * norm(cross(sub(b, a), sub(c, a)))
         };
         let total_area = order.iter().map(|&f| area_of(f)).sum();
         // Leaves: exact triangle moments; parents: children's moments moved, from the last
@@ -750,14 +733,7 @@ mod tests {
 
     fn triangle() -> ([[f64; 3]; 3], f64) {
         let v = [[0.3, -0.2, 0.1], [1.1, 0.4, -0.3], [-0.2, 0.9, 0.5]];
-        let e1 = sub(v[1], v[0]);
-        let e2 = sub(v[2], v[0]);
-        let c = [
-            e1[1] * e2[2] - e1[2] * e2[1],
-            e1[2] * e2[0] - e1[0] * e2[2],
-            e1[0] * e2[1] - e1[1] * e2[0],
-        ];
-        (v, 0.5 * norm(c))
+        (v, 0.5 * norm(cross(sub(v[1], v[0]), sub(v[2], v[0]))))
     }
 
     #[test]
