@@ -10,7 +10,8 @@ use std::time::Instant;
 
 use nalgebra::{Point3, Vector3};
 use spinfall_gravity::{
-    Answer, InterpolationSettings, MassSpec, PolyhedronGravity, build_interpolated, generate,
+    Answer, InterpolatedGravity, InterpolationSettings, MassSpec, Mesh, PolyhedronGravity,
+    build_interpolated, cache_key, generate,
 };
 
 fn main() {
@@ -27,9 +28,24 @@ fn main() {
     }
     let t0 = Instant::now();
     let cpu0 = process_cpu_s();
+    // `SPINFALL_FIELD_FILE`: read the field from that file when it exists (to time queries
+    // without building again), else build it and write it there.
+    let stored = std::env::var("SPINFALL_FIELD_FILE").ok();
+    let mass = MassSpec::DensityKgM3(2100.0);
+    if let Some(path) = &stored
+        && let Ok(mut file) = std::fs::File::open(path)
+    {
+        match InterpolatedGravity::read_from(&mut file, &mesh, mass, &settings) {
+            Ok(field) => {
+                println!("read {path} in {:.2} s", t0.elapsed().as_secs_f64());
+                return check(&mesh, &field, bound);
+            }
+            Err(e) => eprintln!("{path}: {e}; building"),
+        }
+    }
     let field = match build_interpolated(
         &mesh,
-        MassSpec::DensityKgM3(2100.0),
+        mass,
         settings,
         &|p| {
             if p.cells_done == p.cells_in_level {
@@ -56,6 +72,19 @@ fn main() {
         t0.elapsed().as_secs_f64(),
         cpu_s.map_or("?".into(), |c| format!("{c:.1} s")),
     );
+    if let Some(path) = &stored {
+        let written = std::fs::File::create(path)
+            .map_err(|e| e.to_string())
+            .and_then(|mut f| field.write_to(&mut f, &cache_key(&mesh, mass, &settings)).map_err(|e| e.to_string()));
+        if let Err(e) = written {
+            eprintln!("{path}: {e}");
+        }
+    }
+    check(&mesh, &field, bound);
+}
+
+/// Checks `field` against the exact sums at test points and times its queries.
+fn check(mesh: &Mesh, field: &InterpolatedGravity, bound: f64) {
     let exact: &PolyhedronGravity = field.exact();
     // Test points: on the surface (face centroids nudged out by 1 mm .. 1 facet), near edges
     // and vertices, and in the volume out to past the switch radius.

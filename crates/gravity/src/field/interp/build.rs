@@ -56,6 +56,18 @@ const FAR_FIELD_MIN_FACES: usize = 50_000;
 /// the check points of the cells fitted to it).
 const FAR_SHARE: f64 = 0.05;
 
+/// Cells fitted together (their data, fits of every degree, and checks), a level at a time in
+/// chunks of this many: ~30 kB each, so ~120 MB in flight.
+const FIT_CHUNK_CELLS: usize = 4096;
+
+/// Memory of one cell being fitted, bytes: its data (~12 kB) and its fits of every degree
+/// (~13 kB), rounded up.
+const FIT_CELL_BYTES: usize = 30_000;
+
+/// Memory of a ring's tables per face, bytes (vertices, face and edge data, edge dyads),
+/// rounded up.
+const RING_FACE_BYTES: usize = 160;
+
 /// Deepest level of the octree.
 const MAX_DEPTH: usize = 24;
 
@@ -618,19 +630,41 @@ pub fn build_interpolated(
     progress: &(dyn Fn(&BuildProgress) + Sync),
     cancel: &AtomicBool,
 ) -> Result<InterpolatedGravity> {
-    build_with(mesh, mass, settings, progress, cancel, FAR_FIELD_MIN_FACES)
+    build_with(mesh, mass, settings, progress, cancel, Knobs::default())
 }
 
-/// [`build_interpolated`], the top cells fitted to the cluster tree from `tree_min_faces`
-/// faces.
+/// How the build shares out its work (tests vary them; the field must not change, or only
+/// within its bound).
+#[derive(Debug, Clone, Copy)]
+struct Knobs {
+    /// Meshes from this many faces fit their top cells to the cluster tree.
+    tree_min_faces: usize,
+    /// Cells fitted together.
+    fit_chunk_cells: usize,
+}
+
+impl Default for Knobs {
+    fn default() -> Self {
+        Knobs {
+            tree_min_faces: FAR_FIELD_MIN_FACES,
+            fit_chunk_cells: FIT_CHUNK_CELLS,
+        }
+    }
+}
+
+/// [`build_interpolated`] with the work shared out as `knobs` say.
 fn build_with(
     mesh: &Mesh,
     mass: MassSpec,
     settings: InterpolationSettings,
     progress: &(dyn Fn(&BuildProgress) + Sync),
     cancel: &AtomicBool,
-    tree_min_faces: usize,
+    knobs: Knobs,
 ) -> Result<InterpolatedGravity> {
+    let Knobs {
+        tree_min_faces,
+        fit_chunk_cells,
+    } = knobs;
     let start = Instant::now();
     if !(settings.max_rel_error >= 1e-12 && settings.max_rel_error <= 1e-3) {
         return Err(GravityError::InvalidParameter {
@@ -741,6 +775,10 @@ fn build_with(
         ring_face_terms: AtomicU64::new(0),
         g_floor,
     };
+    // Memory held beyond the field: the cluster tree's moments, and the near sets and sources
+    // of the level's cells (see `Held`).
+    let tree_bytes = far.as_ref().map_or(0, |f| f.moment_bytes());
+    let mut held_bytes = tree_bytes;
     let mut nodes = vec![Node::Exact];
     let mut coefs: Vec<f64> = Vec::new();
     let mut near_faces: Vec<u32> = Vec::new();
@@ -935,6 +973,19 @@ fn build_with(
         if cancel.load(Ordering::Relaxed) {
             return Err(GravityError::Cancelled);
         }
+        let exact_bytes: usize = exact_of
+            .iter()
+            .flatten()
+            .map(|e| e.capacity() * std::mem::size_of::<SetJet>())
+            .sum();
+        check_memory(
+            &mut stats,
+            &settings,
+            field_bytes(fixed_bytes, &coefs, &near_faces, &nodes)
+                + held_bytes
+                + exact_bytes
+                + fitting_bytes(&level, fit_chunk_cells),
+        )?;
         let done = std::sync::atomic::AtomicUsize::new(0);
         let total = level.len();
         let leaves_before = stats.leaves;
@@ -951,56 +1002,57 @@ fn build_with(
         // Cells settled without a fit (inside, or split unfitted) count as done at once, so a
         // level's progress reaches its cell count (and a level of such cells alone reports).
         report(kinds.iter().filter(|k| k.is_some()).count());
-        let preps: Vec<Option<Prepared>> = level
-            .par_iter()
-            .zip(kinds.par_iter())
-            .zip(exact_of.par_iter())
-            .map(|((cell, kind), ex)| {
-                if kind.is_some() || cancel.load(Ordering::Relaxed) {
-                    return None;
-                }
-                let p = builder.prepare(cell, ex.as_deref());
-                report(1);
-                Some(p)
-            })
+        let mut outcomes = kinds;
+        // The cells to fit, a chunk at a time: a cell's data and its fits of every degree
+        // (~30 kB) live only while its chunk is decided, so the build's transient memory does
+        // not grow with the level (a deep level at 1M facets has ~500,000 cells). Each cell's
+        // outcome depends on its own data alone, whatever chunk it is in.
+        let to_fit: Vec<usize> = (0..level.len())
+            .filter(|&k| outcomes[k].is_none())
             .collect();
-        if cancel.load(Ordering::Relaxed) {
-            return Err(GravityError::Cancelled);
-        }
-        let fitted: Vec<usize> = (0..level.len()).filter(|&k| preps[k].is_some()).collect();
-        let prep_refs: Vec<&Prepared> = fitted.iter().filter_map(|&k| preps[k].as_ref()).collect();
-        let fits = fit_all(&prep_refs);
-        let mut fit_of: Vec<Option<&Vec<Vec<f64>>>> = vec![None; level.len()];
-        for (i, &k) in fitted.iter().enumerate() {
-            fit_of[k] = Some(&fits[i]);
-        }
-        let mut outcomes: Vec<Option<Outcome>> = kinds
-            .into_par_iter()
-            .zip(level.par_iter())
-            .zip(preps.par_iter().zip(fit_of.par_iter()))
-            .map(|((kind, cell), (prep, coefs))| match (kind, prep, coefs) {
-                (Some(k), _, _) => Some(k),
-                (None, Some(prep), Some(coefs)) => Some(builder.decide(cell, prep, coefs)),
-                _ => None,
-            })
-            .collect();
-        drop(preps);
-        // Cells that failed as leaves feed their children from the same source unless they
-        // become one: fitted again without the faces out to the source radius (a smoother
-        // remainder), a pass that lets their children sum those faces instead of the whole mesh.
-        let retry: Vec<usize> = (0..level.len())
-            .filter(|&k| {
+        let mut retried = 0;
+        for chunk in to_fit.chunks(fit_chunk_cells) {
+            if cancel.load(Ordering::Relaxed) {
+                return Err(GravityError::Cancelled);
+            }
+            let preps: Vec<Prepared> = chunk
+                .par_iter()
+                .map(|&k| {
+                    let p = builder.prepare(&level[k], exact_of[k].as_deref());
+                    report(1);
+                    p
+                })
+                .collect();
+            let refs: Vec<&Prepared> = preps.iter().collect();
+            let fits = fit_all(&refs);
+            let decided: Vec<Outcome> = chunk
+                .par_iter()
+                .zip(preps.par_iter().zip(fits.par_iter()))
+                .map(|(&k, (prep, coefs))| builder.decide(&level[k], prep, coefs))
+                .collect();
+            drop((preps, fits));
+            // Cells that failed as leaves feed their children from the same source unless they
+            // become one: fitted again without the faces out to the source radius (a smoother
+            // remainder), a pass that lets their children sum those faces instead of the whole
+            // mesh.
+            let mut retry = Vec::new();
+            for (&k, out) in chunk.iter().zip(decided) {
                 let cell = &level[k];
-                matches!(&outcomes[k], Some(Outcome::Split { source })
-                    if Arc::ptr_eq(source, &cell.source))
+                if matches!(&out, Outcome::Split { source } if Arc::ptr_eq(source, &cell.source))
                     && cell.leaf_candidate
                     && cell.near.len() > cell.fit_near.len()
                     // Fitted again in the biharmonic space: the exact data at the template
                     // points of a harmonic cell (another grid) would not serve.
                     && (cell.source.poly.is_some() || !cell.fit_near.is_empty())
-            })
-            .collect();
-        if !retry.is_empty() {
+                {
+                    retry.push(k);
+                }
+                outcomes[k] = Some(out);
+            }
+            if retry.is_empty() {
+                continue;
+            }
+            retried += retry.len();
             let cells: Vec<Pending> = retry
                 .iter()
                 .map(|&k| {
@@ -1045,7 +1097,7 @@ fn build_with(
                 level.len(),
                 exact_cells.len(),
                 fitted.saturating_sub(exact_cells.len()),
-                retry.len(),
+                retried,
                 start.elapsed().as_secs_f64(),
                 builder.full_evaluations.load(Ordering::Relaxed),
                 builder.ring_face_terms.load(Ordering::Relaxed) as f64
@@ -1110,6 +1162,12 @@ fn build_with(
                 }
             }
         }
+        // What the build holds beyond the field while it makes the next level: the parents'
+        // near sets and the children's, and the sources' polynomials (each shared one once).
+        let mut held = Held::default();
+        for entry in &next {
+            held.near_set(&entry.5);
+        }
         // Near sets of the next level, in parallel (each from its parent's).
         level = next
             .into_par_iter()
@@ -1138,20 +1196,25 @@ fn build_with(
                 },
             )
             .collect();
-        let memory = fixed_bytes
-            + coefs.len() * 8
-            + near_faces.len() * 4
-            + nodes.len() * std::mem::size_of::<Node>();
-        if memory > settings.max_memory_bytes {
-            return Err(GravityError::MemoryLimit {
-                what: format!(
-                    "the interpolated field for a relative error of {:e}",
-                    settings.max_rel_error
-                ),
-                needed_mb: memory.div_ceil(1 << 20),
-                limit_mb: settings.max_memory_bytes >> 20,
-            });
+        for cell in &level {
+            held.cell(cell);
         }
+        held_bytes = held.bytes + tree_bytes;
+        let field = field_bytes(fixed_bytes, &coefs, &near_faces, &nodes);
+        if std::env::var("SPINFALL_TRACE_LEVELS").is_ok() {
+            eprintln!(
+                "next level: {} cells, field {:.0} MB, near sets and sources {:.0} MB",
+                level.len(),
+                field as f64 / 1e6,
+                held.bytes as f64 / 1e6
+            );
+        }
+        // The next level's fits add a chunk of cells' data.
+        check_memory(
+            &mut stats,
+            &settings,
+            field + held_bytes + fitting_bytes(&level, fit_chunk_cells),
+        )?;
     }
     stats.cells = nodes.len();
     stats.mean_leaf_near_faces = near_total as f64 / stats.leaves.max(1) as f64;
@@ -1159,10 +1222,8 @@ fn build_with(
     stats.ring_face_terms = builder.ring_face_terms.load(Ordering::Relaxed);
     stats.exterior_degree = exterior_degree;
     stats.switch_brillouin_multiple = switch_radius_m / r_b;
-    stats.memory_bytes = fixed_bytes - exact.memory_bytes()
-        + coefs.len() * 8
-        + near_faces.len() * 4
-        + nodes.len() * std::mem::size_of::<Node>();
+    stats.memory_bytes =
+        field_bytes(fixed_bytes, &coefs, &near_faces, &nodes) - exact.memory_bytes();
     stats.build_s = start.elapsed().as_secs_f64();
     coefs.shrink_to_fit();
     near_faces.shrink_to_fit();
@@ -1179,6 +1240,73 @@ fn build_with(
         settings,
         stats,
     })
+}
+
+/// Memory taken by a field of `nodes`, `coefs` and `near_faces` whose fixed part (face data
+/// and exact field) takes `fixed` bytes.
+fn field_bytes(fixed: usize, coefs: &[f64], near_faces: &[u32], nodes: &[Node]) -> usize {
+    fixed + coefs.len() * 8 + near_faces.len() * 4 + std::mem::size_of_val(nodes)
+}
+
+/// Records the build's memory `bytes` in `stats` and stops the build when it exceeds the
+/// limit.
+fn check_memory(
+    stats: &mut BuildStats,
+    settings: &InterpolationSettings,
+    bytes: usize,
+) -> Result<()> {
+    stats.build_peak_bytes = stats.build_peak_bytes.max(bytes);
+    if bytes > settings.max_memory_bytes {
+        return Err(GravityError::MemoryLimit {
+            what: format!(
+                "the interpolated field for a relative error of {:e} (with its build's working \
+                 memory)",
+                settings.max_rel_error
+            ),
+            needed_mb: bytes.div_ceil(1 << 20),
+            limit_mb: settings.max_memory_bytes >> 20,
+        });
+    }
+    Ok(())
+}
+
+/// Memory the fits of `level`'s cells take at once, bytes: a chunk of cells' data and fits,
+/// and on each thread the tables of a ring (at most its source's near set).
+fn fitting_bytes(level: &[Pending], fit_chunk_cells: usize) -> usize {
+    let ring = level.iter().map(|c| c.source.near.len()).max().unwrap_or(0);
+    level.len().min(fit_chunk_cells) * FIT_CELL_BYTES
+        + rayon::current_num_threads() * ring * RING_FACE_BYTES
+}
+
+/// Memory the build holds for its cells beyond the field: near sets and sources, each
+/// counted once however many cells share it.
+#[derive(Default)]
+struct Held {
+    seen: std::collections::HashSet<usize>,
+    bytes: usize,
+}
+
+impl Held {
+    fn near_set(&mut self, set: &Arc<Vec<u32>>) {
+        if self.seen.insert(Arc::as_ptr(set) as usize) {
+            self.bytes += set.capacity() * 4 + 32;
+        }
+    }
+
+    fn cell(&mut self, cell: &Pending) {
+        self.bytes += std::mem::size_of::<Pending>();
+        self.near_set(&cell.near);
+        self.near_set(&cell.fit_near);
+        let source = &cell.source;
+        if self.seen.insert(Arc::as_ptr(source) as usize) {
+            self.near_set(&source.near);
+            if let Some(poly) = &source.poly {
+                self.bytes += std::mem::size_of::<Source>()
+                    + poly.coef.capacity() * 8
+                    + poly.monomials.as_ref().map_or(0, |m| m.capacity() * 8);
+            }
+        }
+    }
 }
 
 /// Where a cell lies with respect to the surface.
@@ -1279,19 +1407,13 @@ mod tests {
         // bound at points the build never saw (surface, just above it, the volume), checked
         // against the exact sums.
         let mesh = generate::demo_body(2);
-        let bound = 1e-7;
-        let settings = InterpolationSettings {
-            max_rel_error: bound,
-            leaf_near_faces: 120,
-            ..Default::default()
-        };
-        let field = build_with(
-            &mesh,
-            MassSpec::DensityKgM3(2100.0),
-            settings,
-            &|_| {},
-            &AtomicBool::new(false),
-            0,
+        let bound = loose().max_rel_error;
+        let field = build_demo(
+            loose(),
+            Knobs {
+                tree_min_faces: 0,
+                ..Default::default()
+            },
         )
         .map_err(|e| e.to_string());
         let field = match field {
@@ -1315,6 +1437,90 @@ mod tests {
             let (_, a) = field.potential_acceleration(p);
             let e = (a - w.1).norm() / w.1.norm();
             assert!(e <= bound, "{e:e} at {p}");
+        }
+    }
+
+    fn build_demo(
+        settings: InterpolationSettings,
+        knobs: Knobs,
+    ) -> std::result::Result<InterpolatedGravity, GravityError> {
+        build_with(
+            &generate::demo_body(2),
+            MassSpec::DensityKgM3(2100.0),
+            settings,
+            &|_| {},
+            &AtomicBool::new(false),
+            knobs,
+        )
+    }
+
+    fn loose() -> InterpolationSettings {
+        InterpolationSettings {
+            max_rel_error: 1e-7,
+            leaf_near_faces: 120,
+            ..Default::default()
+        }
+    }
+
+    #[test]
+    fn fitting_a_level_in_chunks_leaves_the_field_alone() {
+        // Each cell's outcome depends on its own data alone: fitted five cells at a time, the
+        // field has the same cells and near sets as fitted a whole level at once, and values
+        // equal to rounding (the fits' matrix products group their columns differently).
+        let build = |fit_chunk_cells| {
+            build_demo(
+                loose(),
+                Knobs {
+                    fit_chunk_cells,
+                    ..Default::default()
+                },
+            )
+            .map_err(|e| e.to_string())
+        };
+        let (a, b) = match (build(5), build(1 << 20)) {
+            (Ok(a), Ok(b)) => (a, b),
+            (a, b) => panic!("{:?} {:?}", a.err(), b.err()),
+        };
+        assert!(a.stats().leaves > 100, "{}", a.stats());
+        assert_eq!(a.nodes.len(), b.nodes.len());
+        assert_eq!(a.near_faces, b.near_faces);
+        assert_eq!(a.coefs.len(), b.coefs.len());
+        let mesh = generate::demo_body(2);
+        for f in 0..mesh.faces.len() {
+            let [p, q, r] = mesh.triangle(f);
+            let n = (q - p).cross(&(r - p)).normalize();
+            let x = Point3::from((p.coords + q.coords + r.coords) / 3.0) + n * 5.0;
+            let (ga, gb) = (
+                a.potential_acceleration(&x).1,
+                b.potential_acceleration(&x).1,
+            );
+            assert!((ga - gb).norm() <= 1e-12 * gb.norm(), "{ga} {gb} at {x}");
+        }
+    }
+
+    #[test]
+    fn the_working_memory_of_the_build_counts_against_the_limit() {
+        let built = build_demo(loose(), Knobs::default()).map_err(|e| e.to_string());
+        let field = match built {
+            Ok(f) => f,
+            Err(e) => panic!("{e}"),
+        };
+        let s = field.stats();
+        let finished = s.memory_bytes + field.exact().memory_bytes();
+        assert!(s.build_peak_bytes > finished, "{s}");
+        // A limit the finished field keeps but its build did not: refused, with the figure.
+        let limit = finished + (s.build_peak_bytes - finished) / 2;
+        let settings = InterpolationSettings {
+            max_memory_bytes: limit,
+            ..loose()
+        };
+        match build_demo(settings, Knobs::default()) {
+            Err(GravityError::MemoryLimit {
+                needed_mb,
+                limit_mb,
+                ..
+            }) => assert!(needed_mb > limit_mb),
+            other => panic!("{:?}", other.map(|f| f.stats().to_string())),
         }
     }
 }

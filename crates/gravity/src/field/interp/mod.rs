@@ -66,7 +66,8 @@ pub struct InterpolationSettings {
     /// Largest relative error of the acceleration, as a fraction of the local gravity, allowed
     /// anywhere outside the body: in [1e-12, 1e-3].
     pub max_rel_error: f64,
-    /// Most memory the field may take, bytes (the build stops with an error beyond it).
+    /// Most memory the field may take, bytes, its build included (the build stops with an
+    /// error beyond it).
     pub max_memory_bytes: usize,
     /// Most faces summed exactly in a leaf cell (smaller: faster evaluation, more cells).
     pub leaf_near_faces: usize,
@@ -117,6 +118,11 @@ pub struct BuildStats {
     /// Memory taken by the field (octree, polynomials, near sets, face data), bytes; the exact
     /// field it keeps for fallback cells adds its own tables.
     pub memory_bytes: usize,
+    /// Most memory the build held at once (the field so far, the near sets and sources of a
+    /// level's cells, and a chunk of cells being fitted), bytes; checked against the memory
+    /// limit after each level. Not serialised, like `build_s`.
+    #[serde(default, skip_serializing)]
+    pub build_peak_bytes: usize,
 }
 
 /// What answers a query of the interpolated field at a point (for diagnostics and timing).
@@ -142,7 +148,8 @@ impl std::fmt::Display for BuildStats {
             f,
             "built in {:.2} s; {} cells, {} leaves, {} exact cells, depth {}, max degree {}, \
              mean near faces {:.0}, worst leaf bound {:.2e}, {} full evaluations, {:.3e} ring \
-             terms, {:.1} MB, switch at {:.2} R_B (exterior degree {})",
+             terms, {:.1} MB ({:.0} MB at most while building), switch at {:.2} R_B (exterior \
+             degree {})",
             self.build_s,
             self.cells,
             self.leaves,
@@ -154,6 +161,7 @@ impl std::fmt::Display for BuildStats {
             self.full_evaluations,
             self.ring_face_terms as f64,
             self.memory_bytes as f64 / 1e6,
+            self.build_peak_bytes as f64 / 1e6,
             self.switch_brillouin_multiple,
             self.exterior_degree
         )
