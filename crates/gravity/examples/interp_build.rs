@@ -75,7 +75,11 @@ fn main() {
     if let Some(path) = &stored {
         let written = std::fs::File::create(path)
             .map_err(|e| e.to_string())
-            .and_then(|mut f| field.write_to(&mut f, &cache_key(&mesh, mass, &settings)).map_err(|e| e.to_string()));
+            .and_then(|mut f| {
+                field
+                    .write_to(&mut f, &cache_key(&mesh, mass, &settings))
+                    .map_err(|e| e.to_string())
+            });
         if let Err(e) = written {
             eprintln!("{path}: {e}");
         }

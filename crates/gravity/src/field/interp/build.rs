@@ -267,7 +267,7 @@ impl Pending {
 /// What fitting one cell gave.
 enum Outcome {
     Leaf {
-        coef: Vec<f64>,
+        coef: Coef,
         space: Space,
         degree: usize,
         error: f64,
@@ -276,6 +276,29 @@ enum Outcome {
     Split {
         source: Arc<Source>,
     },
+}
+
+/// A leaf's polynomial: its coefficients until they are copied into the field's array, then
+/// where they are there (a deep level's leaves would otherwise hold ~1 GB of coefficients at
+/// 1M facets until the level ends).
+enum Coef {
+    Owned(Vec<f64>),
+    At(usize),
+}
+
+impl Coef {
+    /// Copies owned coefficients to the end of `field` (once) and says where they are.
+    fn place(&mut self, field: &mut Vec<f64>) -> usize {
+        match self {
+            Coef::Owned(c) => {
+                let at = field.len();
+                field.extend_from_slice(c);
+                *self = Coef::At(at);
+                at
+            }
+            Coef::At(at) => *at,
+        }
+    }
 }
 
 /// `n` unit vectors spread over the sphere (a Fibonacci lattice).
@@ -530,7 +553,7 @@ impl Builder<'_> {
             let (p, err) = errors[i];
             if let Some(coef) = Solver::get(space, p).monomials(&full(i)) {
                 return Outcome::Leaf {
-                    coef,
+                    coef: Coef::Owned(coef),
                     space,
                     degree: p,
                     error: cell.source.error + err,
@@ -808,7 +831,7 @@ fn build_with(
         clear_outside: false,
         source: root_source,
     }];
-    let fixed_bytes = nf * std::mem::size_of::<[f64; 3]>() * 9 + exact.memory_bytes();
+    let fixed_bytes = geometry.memory_bytes() + exact.memory_bytes();
     while !level.is_empty() {
         if cancel.load(Ordering::Relaxed) {
             return Err(GravityError::Cancelled);
@@ -1036,7 +1059,7 @@ fn build_with(
             // remainder), a pass that lets their children sum those faces instead of the whole
             // mesh.
             let mut retry = Vec::new();
-            for (&k, out) in chunk.iter().zip(decided) {
+            for (&k, mut out) in chunk.iter().zip(decided) {
                 let cell = &level[k];
                 if matches!(&out, Outcome::Split { source } if Arc::ptr_eq(source, &cell.source))
                     && cell.leaf_candidate
@@ -1046,6 +1069,10 @@ fn build_with(
                     && (cell.source.poly.is_some() || !cell.fit_near.is_empty())
                 {
                     retry.push(k);
+                }
+                // A leaf is final: its coefficients go to the field now.
+                if let Outcome::Leaf { coef, .. } = &mut out {
+                    coef.place(&mut coefs);
                 }
                 outcomes[k] = Some(out);
             }
@@ -1114,19 +1141,18 @@ fn build_with(
                     stats.exact_cells += 1;
                 }
                 Outcome::Leaf {
-                    coef,
+                    mut coef,
                     space,
                     degree,
                     error,
                 } => {
                     nodes[cell.node] = Node::Leaf {
-                        coef: coefs.len() as u32,
+                        coef: coef.place(&mut coefs) as u32,
                         space,
                         degree: degree as u8,
                         near: near_faces.len() as u32,
                         near_len: cell.fit_near.len() as u32,
                     };
-                    coefs.extend_from_slice(&coef);
                     near_faces.extend_from_slice(&cell.fit_near);
                     near_total += cell.fit_near.len();
                     stats.leaves += 1;
@@ -1383,7 +1409,7 @@ fn classify(b: &Builder<'_>, cell: &Pending, inside: bool) -> Option<Outcome> {
         // small enough to sum in a leaf.
         if nf <= b.settings.leaf_near_faces || cell.depth >= MAX_DEPTH {
             return Some(Outcome::Leaf {
-                coef: vec![0.0],
+                coef: Coef::Owned(vec![0.0]),
                 space: Space::Biharmonic,
                 degree: 0,
                 error: 0.0,

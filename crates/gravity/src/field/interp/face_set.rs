@@ -98,6 +98,16 @@ impl FaceGeometry {
         }
     }
 
+    /// Memory of the vertices and the per-face arrays, bytes (the edge numbers and spatial
+    /// ranks, made for builds only, aside).
+    pub fn memory_bytes(&self) -> usize {
+        std::mem::size_of_val(self.vertices.as_slice())
+            + std::mem::size_of_val(self.faces.as_slice())
+            + std::mem::size_of_val(self.normals.as_slice())
+            + std::mem::size_of_val(self.edge_normals.as_slice())
+            + std::mem::size_of_val(self.edge_len_m.as_slice())
+    }
+
     /// For each face, the numbers of its edges `(v0, v1)`, `(v1, v2)`, `(v2, v0)` among the
     /// mesh's undirected edges (two faces sharing an edge get the same number), and how many
     /// edges there are. Computed once, on first use, by sorting the vertex pairs.
