@@ -200,7 +200,7 @@ pub struct FieldArgs {
     /// gravity), in [1e-12, 1e-3]; default 1e-9.
     #[arg(long, value_name = "EPS")]
     pub max_rel_error: Option<f64>,
-    /// Most memory the interpolated field may take, MB (default 4096).
+    /// Most memory the interpolated field and its build may take, MB (default 4096).
     #[arg(long, value_name = "MB")]
     pub field_memory_mb: Option<u64>,
     /// Folder of stored interpolated fields (default: $SPINFALL_CACHE_DIR, else the per-user

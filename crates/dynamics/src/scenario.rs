@@ -99,7 +99,7 @@ pub struct FieldSpec {
     /// gravity, in [1e-12, 1e-3] (default [`DEFAULT_MAX_REL_ERROR`]; ignored by `direct`).
     #[serde(default = "default_max_rel_error")]
     pub max_rel_error: f64,
-    /// Most memory the interpolated field may take, MB (default 4096).
+    /// Most memory the interpolated field and its build may take, MB (default 4096).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub max_memory_mb: Option<u64>,
 }

@@ -319,6 +319,10 @@ impl SpinfallApp {
                         .unit("MB", 1.0)
                         .show(ui)
                         .labelled_by(l.id)
+                        .on_hover_text(
+                            "Most memory the interpolated field and its build may take; a \
+                             build that would need more stops with an error",
+                        )
                         .changed()
                     {
                         spec.max_memory_mb = Some(mb);

@@ -643,6 +643,31 @@ fn fit_all(preps: &[&Prepared]) -> Vec<Vec<Vec<f64>>> {
     out
 }
 
+/// What `cells` become, each fitted to its data (made with the exact field at its template
+/// points when given, see [`Builder::prepare`]); `prepared` is called as each cell's data are
+/// made.
+fn fit_cells(
+    b: &Builder<'_>,
+    cells: &[(&Pending, Option<&[SetJet]>)],
+    prepared: &(dyn Fn() + Sync),
+) -> Vec<Outcome> {
+    let preps: Vec<Prepared> = cells
+        .par_iter()
+        .map(|(cell, exact)| {
+            let p = b.prepare(cell, *exact);
+            prepared();
+            p
+        })
+        .collect();
+    let refs: Vec<&Prepared> = preps.iter().collect();
+    let fits = fit_all(&refs);
+    cells
+        .par_iter()
+        .zip(preps.par_iter().zip(fits.par_iter()))
+        .map(|((cell, _), (prep, coefs))| b.decide(cell, prep, coefs))
+        .collect()
+}
+
 /// Builds the interpolated field of the closed, outward-oriented `mesh` (metres) with `mass`
 /// (see the parent module). `progress` is called after each batch of cells; setting `cancel`
 /// stops the build with [`GravityError::Cancelled`].
@@ -1028,7 +1053,7 @@ fn build_with(
         let mut outcomes = kinds;
         // The cells to fit, a chunk at a time: a cell's data and its fits of every degree
         // (~30 kB) live only while its chunk is decided, so the build's transient memory does
-        // not grow with the level (a deep level at 1M facets has ~500,000 cells). Each cell's
+        // not grow with the level (a deep level at 1M facets has ~400,000 cells). Each cell's
         // outcome depends on its own data alone, whatever chunk it is in.
         let to_fit: Vec<usize> = (0..level.len())
             .filter(|&k| outcomes[k].is_none())
@@ -1038,22 +1063,11 @@ fn build_with(
             if cancel.load(Ordering::Relaxed) {
                 return Err(GravityError::Cancelled);
             }
-            let preps: Vec<Prepared> = chunk
-                .par_iter()
-                .map(|&k| {
-                    let p = builder.prepare(&level[k], exact_of[k].as_deref());
-                    report(1);
-                    p
-                })
+            let cells: Vec<(&Pending, Option<&[SetJet]>)> = chunk
+                .iter()
+                .map(|&k| (&level[k], exact_of[k].as_deref()))
                 .collect();
-            let refs: Vec<&Prepared> = preps.iter().collect();
-            let fits = fit_all(&refs);
-            let decided: Vec<Outcome> = chunk
-                .par_iter()
-                .zip(preps.par_iter().zip(fits.par_iter()))
-                .map(|(&k, (prep, coefs))| builder.decide(&level[k], prep, coefs))
-                .collect();
-            drop((preps, fits));
+            let decided = fit_cells(&builder, &cells, &|| report(1));
             // Cells that failed as leaves feed their children from the same source unless they
             // become one: fitted again without the faces out to the source radius (a smoother
             // remainder), a pass that lets their children sum those faces instead of the whole
@@ -1098,18 +1112,12 @@ fn build_with(
                     }
                 })
                 .collect();
-            let preps: Vec<Prepared> = cells
-                .par_iter()
-                .zip(retry.par_iter())
-                .map(|(cell, &k)| builder.prepare(cell, exact_of[k].as_deref()))
+            let with_exact: Vec<(&Pending, Option<&[SetJet]>)> = cells
+                .iter()
+                .zip(&retry)
+                .map(|(cell, &k)| (cell, exact_of[k].as_deref()))
                 .collect();
-            let refs: Vec<&Prepared> = preps.iter().collect();
-            let fits = fit_all(&refs);
-            let decided: Vec<Outcome> = cells
-                .par_iter()
-                .zip(preps.par_iter().zip(fits.par_iter()))
-                .map(|(cell, (prep, coefs))| builder.decide(cell, prep, coefs))
-                .collect();
+            let decided = fit_cells(&builder, &with_exact, &|| {});
             for (&k, out) in retry.iter().zip(decided) {
                 if let Outcome::Split { source } = out {
                     outcomes[k] = Some(Outcome::Split { source });
@@ -1191,8 +1199,8 @@ fn build_with(
         // What the build holds beyond the field while it makes the next level: the parents'
         // near sets and the children's, and the sources' polynomials (each shared one once).
         let mut held = Held::default();
-        for entry in &next {
-            held.near_set(&entry.5);
+        for (_, _, _, _, _, parent_near, _, _) in &next {
+            held.near_set(parent_near);
         }
         // Near sets of the next level, in parallel (each from its parent's).
         level = next
