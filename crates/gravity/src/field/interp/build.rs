@@ -1090,6 +1090,16 @@ fn build_with(
                 }
                 outcomes[k] = Some(out);
             }
+            // The field grows by the chunk's leaves while the level's near sets are all still
+            // held: the build's largest footprint comes at the end of a deep level.
+            check_memory(
+                &mut stats,
+                &settings,
+                field_bytes(fixed_bytes, &coefs, &near_faces, &nodes)
+                    + held_bytes
+                    + exact_bytes
+                    + fitting_bytes(&level, fit_chunk_cells),
+            )?;
             if retry.is_empty() {
                 continue;
             }
