@@ -4,6 +4,11 @@
 //! `cargo run --release -p spinfall-gravity --example interp_build -- FREQ [MAX_REL_ERROR
 //! [LEAF_NEAR_FACES]]` (the demo body over a geodesic sphere of frequency FREQ: 20 FREQ^2
 //! faces; LEAF_NEAR_FACES: the most faces a leaf sums exactly, default the library's).
+//!
+//! Environment: `SPINFALL_FIELD_FILE` reads the field from that file when it holds one for
+//! these inputs (to time queries without building again), else builds it and writes it there;
+//! `SPINFALL_QUERY_REPEAT` sets how often each test point is queried for the timings;
+//! `SPINFALL_TRACE_LEVELS` has the build print each level's work and memory.
 
 use std::sync::atomic::AtomicBool;
 use std::time::Instant;

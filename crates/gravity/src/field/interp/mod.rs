@@ -120,7 +120,7 @@ pub struct BuildStats {
     pub memory_bytes: usize,
     /// Most memory the build held at once (the field so far, the near sets and sources of a
     /// level's cells, and a chunk of cells being fitted), bytes; checked against the memory
-    /// limit after each level. Not serialised, like `build_s`.
+    /// limit as the build goes. Not serialised, like `build_s` (0 in a copy read back).
     #[serde(default, skip_serializing)]
     pub build_peak_bytes: usize,
 }
@@ -148,8 +148,7 @@ impl std::fmt::Display for BuildStats {
             f,
             "built in {:.2} s; {} cells, {} leaves, {} exact cells, depth {}, max degree {}, \
              mean near faces {:.0}, worst leaf bound {:.2e}, {} full evaluations, {:.3e} ring \
-             terms, {:.1} MB ({:.0} MB at most while building), switch at {:.2} R_B (exterior \
-             degree {})",
+             terms, {:.1} MB{}, switch at {:.2} R_B (exterior degree {})",
             self.build_s,
             self.cells,
             self.leaves,
@@ -161,7 +160,14 @@ impl std::fmt::Display for BuildStats {
             self.full_evaluations,
             self.ring_face_terms as f64,
             self.memory_bytes as f64 / 1e6,
-            self.build_peak_bytes as f64 / 1e6,
+            if self.build_peak_bytes > 0 {
+                format!(
+                    " ({:.0} MB at most while building)",
+                    self.build_peak_bytes as f64 / 1e6
+                )
+            } else {
+                String::new()
+            },
             self.switch_brillouin_multiple,
             self.exterior_degree
         )
