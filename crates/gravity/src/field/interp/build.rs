@@ -1026,13 +1026,12 @@ fn build_with(
             .flatten()
             .map(|e| e.capacity() * std::mem::size_of::<SetJet>())
             .sum();
+        // What the level holds besides the field, the same until it ends.
+        let level_bytes = held_bytes + exact_bytes + fitting_bytes(&level, fit_chunk_cells);
         check_memory(
             &mut stats,
             &settings,
-            field_bytes(fixed_bytes, &coefs, &near_faces, &nodes)
-                + held_bytes
-                + exact_bytes
-                + fitting_bytes(&level, fit_chunk_cells),
+            field_bytes(fixed_bytes, &coefs, &near_faces, &nodes) + level_bytes,
         )?;
         let done = std::sync::atomic::AtomicUsize::new(0);
         let total = level.len();
@@ -1095,10 +1094,7 @@ fn build_with(
             check_memory(
                 &mut stats,
                 &settings,
-                field_bytes(fixed_bytes, &coefs, &near_faces, &nodes)
-                    + held_bytes
-                    + exact_bytes
-                    + fitting_bytes(&level, fit_chunk_cells),
+                field_bytes(fixed_bytes, &coefs, &near_faces, &nodes) + level_bytes,
             )?;
             if retry.is_empty() {
                 continue;
