@@ -343,6 +343,8 @@ struct Builder<'a> {
     /// floor (0 without the tree: their data are then the exact sums).
     far_share: f64,
     ring_face_terms: AtomicU64,
+    /// Whether each cell's fit is printed (`SPINFALL_TRACE`).
+    trace_cells: bool,
     /// Floor of the gravity that errors are relative to, per unit `G rho`: a tenth of
     /// `GM / R_B^2`, below every surface value, so that points deep inside the body (where
     /// gravity vanishes at the centre, and no particle flies) do not dictate the fits.
@@ -525,7 +527,7 @@ impl Builder<'_> {
             .iter()
             .position(|&(p, e)| p <= MONOMIAL_MAX_DEGREE && e <= leaf_budget);
         let source = errors.iter().position(|&(_, e)| e <= source_budget);
-        if std::env::var("SPINFALL_TRACE").is_ok() {
+        if self.trace_cells {
             let best = errors.iter().fold(f64::INFINITY, |m, e| m.min(e.1));
             eprintln!(
                 "depth {} h {:.0} near {} src {} srcerr {:.1e} leaf {:?} source {:?} best {best:.2e} r {:.2}",
@@ -740,13 +742,13 @@ fn build_with(
     let far = (nf >= tree_min_faces).then(|| FarField::new(&geometry));
     let g_floor = 0.1 * exact.volume_m3() / (r_b * r_b);
     let far_tolerance = FAR_SHARE * settings.max_rel_error * g_floor;
-    if std::env::var("SPINFALL_TRACE_LEVELS").is_ok()
-        && let Some(f) = &far
-    {
+    // Diagnostics on stderr: each level's work and memory, and each cell's fit.
+    let trace_levels = std::env::var("SPINFALL_TRACE_LEVELS").is_ok();
+    if trace_levels && let Some(f) = &far {
         eprintln!(
-            "cluster tree: {:.1} s, {:.0} MB of moments",
+            "cluster tree: {:.1} s, {:.0} MB",
             start.elapsed().as_secs_f64(),
-            f.moment_bytes() as f64 / 1e6
+            f.memory_bytes() as f64 / 1e6
         );
     }
     // Switch radius and exterior degree: where the expansion's rigorous bound is a quarter of
@@ -774,7 +776,7 @@ fn build_with(
             .map(|(_, a)| a.norm())
             .collect(),
     };
-    if std::env::var("SPINFALL_TRACE_LEVELS").is_ok() {
+    if trace_levels {
         eprintln!(
             "gravity on the spheres: {:.1} s",
             start.elapsed().as_secs_f64()
@@ -802,7 +804,7 @@ fn build_with(
     let (exterior_degree, switch_multiple) = exterior_choice(settings.max_rel_error, &g_ratio);
     let switch_radius_m = switch_multiple * r_b;
     let exterior = Exterior::from_mesh_for_switch(mesh, com, exterior_degree, switch_multiple);
-    if std::env::var("SPINFALL_TRACE_LEVELS").is_ok() {
+    if trace_levels {
         eprintln!(
             "switch radius {switch_radius_m:?} m and exterior expansion: {:.1} s",
             start.elapsed().as_secs_f64()
@@ -821,11 +823,12 @@ fn build_with(
         full_evaluations: AtomicU64::new(0),
         far_share: if far.is_some() { FAR_SHARE } else { 0.0 },
         ring_face_terms: AtomicU64::new(0),
+        trace_cells: std::env::var("SPINFALL_TRACE").is_ok(),
         g_floor,
     };
-    // Memory held beyond the field: the cluster tree's moments, and the near sets and sources
-    // of the level's cells (see `Held`).
-    let tree_bytes = far.as_ref().map_or(0, |f| f.moment_bytes());
+    // Memory held beyond the field: the cluster tree, and the near sets and sources of the
+    // level's cells (see `Held`).
+    let tree_bytes = far.as_ref().map_or(0, FarField::memory_bytes);
     let mut held_bytes = tree_bytes;
     let mut nodes = vec![Node::Exact];
     let mut coefs: Vec<f64> = Vec::new();
@@ -876,7 +879,7 @@ fn build_with(
             .filter(|(_, s)| matches!(s, Side::Unknown))
             .map(|(c, _)| Point3::new(c.center[0], c.center[1], c.center[2]))
             .collect();
-        if std::env::var("SPINFALL_TRACE_LEVELS").is_ok() {
+        if trace_levels {
             eprintln!(
                 "level {depth}: {} cells clear of the surface, {} of them tested with the exact field",
                 sides.iter().filter(|s| !matches!(s, Side::Touches)).count(),
@@ -1131,7 +1134,7 @@ fn build_with(
             }
         }
         drop(exact_of);
-        if std::env::var("SPINFALL_TRACE_LEVELS").is_ok() {
+        if trace_levels {
             let fitted = outcomes.iter().flatten().count();
             eprintln!(
                 "level {depth}: {} cells ({} from the exact field, {} from a source, {} fitted again), {:.1} s, {} full evaluations, {:.2e} ring terms so far",
@@ -1241,7 +1244,7 @@ fn build_with(
         }
         held_bytes = held.bytes + tree_bytes;
         let field = field_bytes(fixed_bytes, &coefs, &near_faces, &nodes);
-        if std::env::var("SPINFALL_TRACE_LEVELS").is_ok() {
+        if trace_levels {
             eprintln!(
                 "next level: {} cells, field {:.0} MB, near sets and sources {:.0} MB",
                 level.len(),

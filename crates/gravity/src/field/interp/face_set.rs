@@ -400,6 +400,11 @@ pub(crate) struct FaceSet {
 }
 
 impl FaceSet {
+    /// Bytes its tables take.
+    pub fn heap_bytes(&self) -> usize {
+        self.pieces.iter().map(Tables::heap_bytes).sum()
+    }
+
     /// The set of `faces` (any order) of `g`.
     pub fn new(g: &FaceGeometry, faces: &[u32]) -> FaceSet {
         FaceSet::with_piece_faces(g, faces, SET_PIECE_FACES)

@@ -40,6 +40,7 @@ use nalgebra::Point3;
 use rayon::prelude::*;
 
 use super::face_set::{FaceGeometry, FaceSet, SetJet, cross, dot, norm, set_jets, sub};
+use super::solid::PAIRS;
 
 /// Highest degree of a cluster's expansion.
 pub(crate) const MAX_ORDER: usize = 18;
@@ -122,7 +123,6 @@ impl Index {
             .iter()
             .map(|al| std::array::from_fn(|i| at(shifted(al, i, 1))))
             .collect();
-        const PAIRS: [(usize, usize); 6] = [(0, 0), (0, 1), (0, 2), (1, 1), (1, 2), (2, 2)];
         let up2 = alpha
             .iter()
             .map(|al| {
@@ -327,13 +327,12 @@ impl FarField {
         let total_area = order.iter().map(|&f| area_of(f)).sum();
         // Leaves: exact triangle moments; parents: children's moments moved, from the last
         // cluster back (children come after their parents).
-        let leaf_moments: Vec<Option<Vec<f64>>> = clusters
-            .par_iter()
-            .map(|c| {
-                if c.children.is_some() {
-                    return None;
-                }
-                let mut m = vec![0.0; 4 * n];
+        let mut moments = vec![0.0; clusters.len() * 4 * n];
+        moments
+            .par_chunks_mut(4 * n)
+            .zip(&clusters)
+            .filter(|(_, c)| c.children.is_none())
+            .for_each(|(m, c)| {
                 let mut g = vec![0.0; n];
                 let mut scratch = [Vec::new(), Vec::new(), Vec::new(), Vec::new()];
                 for &f in &order[c.start..c.end] {
@@ -348,15 +347,7 @@ impl FarField {
                         }
                     }
                 }
-                Some(m)
-            })
-            .collect();
-        let mut moments = vec![0.0; clusters.len() * 4 * n];
-        for (k, m) in leaf_moments.into_iter().enumerate() {
-            if let Some(m) = m {
-                moments[k * 4 * n..(k + 1) * 4 * n].copy_from_slice(&m);
-            }
-        }
+            });
         for k in (0..clusters.len()).rev() {
             let Some(children) = clusters[k].children else {
                 continue;
@@ -402,9 +393,17 @@ impl FarField {
         }
     }
 
-    /// Bytes the tree takes (moments, face order and cluster records; the leaf tables not).
-    pub fn moment_bytes(&self) -> usize {
-        self.moments.len() * 8 + self.order.len() * 4 + self.clusters.len() * 64
+    /// Bytes the tree takes: moments, face order, cluster records and the leaves' face tables.
+    pub fn memory_bytes(&self) -> usize {
+        std::mem::size_of_val(self.moments.as_slice())
+            + std::mem::size_of_val(self.order.as_slice())
+            + std::mem::size_of_val(self.clusters.as_slice())
+            + self
+                .leaf_sets
+                .iter()
+                .flatten()
+                .map(FaceSet::heap_bytes)
+                .sum::<usize>()
     }
 
     /// The clusters a point needs and how, the acceleration error of the expansions at most
@@ -620,7 +619,6 @@ fn expand_into<const HESS: bool>(
     // Totals and one degree's part (added to the totals of the lanes that reach it): the value
     // of K = M^c - R . M^n, its gradient and Hessian; S^n and its gradient (gsn[j][i] =
     // d S^n_j / d x_i).
-    const PAIRS: [(usize, usize); 6] = [(0, 0), (0, 1), (0, 2), (1, 1), (1, 2), (2, 2)];
     let mut total = [[0.0; LANES]; 22];
     for deg in 0..=top {
         let mut part = [[0.0; LANES]; 22];

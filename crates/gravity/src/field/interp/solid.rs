@@ -36,7 +36,9 @@ fn index(n: usize, m: usize) -> usize {
     n * (n + 1) / 2 + m
 }
 
-const PAIRS: [(usize, usize); 6] = [(0, 0), (0, 1), (0, 2), (1, 1), (1, 2), (2, 2)];
+/// The index pairs of a symmetric 3 x 3 tensor's six entries, in storage order (xx, xy, xz,
+/// yy, yz, zz).
+pub(crate) const PAIRS: [(usize, usize); 6] = [(0, 0), (0, 1), (0, 2), (1, 1), (1, 2), (2, 2)];
 
 /// `a * b` for jets (product rule), `b` a plain complex coefficient times `w = x + i y`.
 fn times_w(j: &CJet, x: [f64; 3], hess: bool) -> CJet {
