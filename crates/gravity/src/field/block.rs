@@ -5,12 +5,10 @@
 //! over a block with the lanes over its points: eight at once with AVX-512, four at a time with
 //! AVX2 or the portable type. A block with four points or fewer is run four lanes wide only.
 
-use multiversion::multiversion;
-
 use super::DirectKernel;
 use super::direct::Sums;
 use super::kernel;
-use super::lanes::Portable;
+use super::lanes::{Lanes, Portable};
 use super::tables::Tables;
 
 /// Number of field points in a block.
@@ -22,27 +20,38 @@ pub(crate) const BLOCK: usize = 8;
 #[repr(C, align(64))]
 pub(crate) struct Oct(pub [f64; 4 * BLOCK]);
 
-/// Fills `out` with one [`Oct`] per vertex of `t` for the field points `p` (no fused operations,
-/// so every compiled variant rounds the same way). The blocks are written in place (`out`
-/// keeps its length from call to call when the tables do), lanes side by side so the compiler
-/// vectorises over the points.
-#[multiversion(targets("x86_64+avx512f+avx512dq+avx2+fma+avx", "x86_64+avx2+fma+avx"))]
+/// Fills `out` with one [`Oct`] per vertex of `t` for the field points `p`, with the widest
+/// lanes this CPU has, over the points (no fused operations, so every instruction set rounds
+/// the same way). The blocks are written in place (`out` keeps its length from call to call
+/// when the tables do).
 pub(crate) fn fill_block(t: &Tables, p: &[[f64; 3]; BLOCK], out: &mut Vec<Oct>) {
     out.resize(t.vx.len(), Oct([0.0; 4 * BLOCK]));
+    match best() {
+        Runner::Portable => fill_lanes::<Portable>(t, p, out),
+        #[cfg(target_arch = "x86_64")]
+        Runner::X86(isa) => isa.fill(t, p, out),
+    }
+}
+
+/// [`fill_block`] over lanes `V`, each vertex's block written a vector at a time (left to the
+/// compiler, the loop was vectorised across vertices instead, with a scatter per store: 15 %
+/// of the interpolated field's build at 1M facets).
+#[inline(always)]
+pub(crate) fn fill_lanes<V: Lanes>(t: &Tables, p: &[[f64; 3]; BLOCK], out: &mut [Oct]) {
     let px: [f64; BLOCK] = std::array::from_fn(|k| p[k][0]);
     let py: [f64; BLOCK] = std::array::from_fn(|k| p[k][1]);
     let pz: [f64; BLOCK] = std::array::from_fn(|k| p[k][2]);
     for (o, ((&x, &y), &z)) in out.iter_mut().zip(t.vx.iter().zip(&t.vy).zip(&t.vz)) {
-        let (qx, rest) = o.0.split_at_mut(BLOCK);
-        let (qy, rest) = rest.split_at_mut(BLOCK);
-        let (qz, qr) = rest.split_at_mut(BLOCK);
-        for k in 0..BLOCK {
-            qx[k] = x - px[k];
-            qy[k] = y - py[k];
-            qz[k] = z - pz[k];
-        }
-        for k in 0..BLOCK {
-            qr[k] = (qx[k] * qx[k] + qy[k] * qy[k] + qz[k] * qz[k]).sqrt();
+        let (vx, vy, vz) = (V::splat(x), V::splat(y), V::splat(z));
+        for base in (0..BLOCK).step_by(V::N) {
+            let qx = vx - V::load(&px[base..]);
+            let qy = vy - V::load(&py[base..]);
+            let qz = vz - V::load(&pz[base..]);
+            let r = (qx * qx + qy * qy + qz * qz).sqrt();
+            qx.store(&mut o.0[base..]);
+            qy.store(&mut o.0[BLOCK + base..]);
+            qz.store(&mut o.0[2 * BLOCK + base..]);
+            r.store(&mut o.0[3 * BLOCK + base..]);
         }
     }
 }

@@ -41,6 +41,8 @@ pub(crate) trait Lanes:
     fn load(s: &[f64]) -> Self;
     /// The lanes, in the first `N` slots.
     fn to_array(self) -> [f64; MAX_LANES];
+    /// Writes the lanes to the first `N` slots of `s`.
+    fn store(self, s: &mut [f64]);
     /// `self * b + c`, rounded once where the type fuses (every type but [`Portable`]).
     fn mul_add(self, b: Self, c: Self) -> Self;
     /// `self * b - c`, rounded as [`Lanes::mul_add`].
@@ -101,6 +103,10 @@ impl Lanes for Portable {
     #[inline(always)]
     fn load(s: &[f64]) -> Self {
         Portable(f64x4::new([s[0], s[1], s[2], s[3]]))
+    }
+    #[inline(always)]
+    fn store(self, s: &mut [f64]) {
+        s[..4].copy_from_slice(&self.0.to_array());
     }
     #[inline(always)]
     fn to_array(self) -> [f64; MAX_LANES] {

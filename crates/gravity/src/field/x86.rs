@@ -103,6 +103,11 @@ impl Lanes for Avx2 {
         Avx2(unsafe { _mm256_loadu_pd(s.as_ptr()) })
     }
     #[inline(always)]
+    fn store(self, s: &mut [f64]) {
+        let s = &mut s[..4];
+        unsafe { _mm256_storeu_pd(s.as_mut_ptr(), self.0) }
+    }
+    #[inline(always)]
     fn to_array(self) -> [f64; MAX_LANES] {
         let mut out = [0.0; MAX_LANES];
         unsafe { _mm256_storeu_pd(out.as_mut_ptr(), self.0) };
@@ -200,6 +205,11 @@ impl Lanes for Avx512 {
     fn load(s: &[f64]) -> Self {
         let s = &s[..8];
         Avx512(unsafe { _mm512_loadu_pd(s.as_ptr()) })
+    }
+    #[inline(always)]
+    fn store(self, s: &mut [f64]) {
+        let s = &mut s[..8];
+        unsafe { _mm512_storeu_pd(s.as_mut_ptr(), self.0) }
     }
     #[inline(always)]
     fn to_array(self) -> [f64; MAX_LANES] {
@@ -362,6 +372,32 @@ fn near_avx512(g: &FaceGeometry, faces: &[u32], p: [f64; 3]) -> NearSums {
 #[target_feature(enable = "avx2,fma,avx")]
 fn near_avx2(g: &FaceGeometry, faces: &[u32], p: [f64; 3]) -> NearSums {
     near::near_sums::<Avx2>(g, faces, p)
+}
+
+impl Isa {
+    /// [`fill_block`](super::block::fill_block) with this instruction set's lanes.
+    ///
+    /// # Panics
+    /// If this CPU lacks `self`'s features.
+    pub fn fill(self, t: &Tables, p: &[[f64; 3]; 8], out: &mut [Oct]) {
+        assert!(self.detected(), "{self:?} is not available on this CPU");
+        match self {
+            // SAFETY: the features were detected just above.
+            Isa::Avx512 => unsafe { fill_avx512(t, p, out) },
+            // SAFETY: as above.
+            Isa::Avx2 => unsafe { fill_avx2(t, p, out) },
+        }
+    }
+}
+
+#[target_feature(enable = "avx512f,avx512dq,avx2,fma,avx")]
+fn fill_avx512(t: &Tables, p: &[[f64; 3]; 8], out: &mut [Oct]) {
+    super::block::fill_lanes::<Avx512>(t, p, out);
+}
+
+#[target_feature(enable = "avx2,fma,avx")]
+fn fill_avx2(t: &Tables, p: &[[f64; 3]; 8], out: &mut [Oct]) {
+    super::block::fill_lanes::<Avx2>(t, p, out);
 }
 
 #[target_feature(enable = "avx512f,avx512dq,avx2,fma,avx")]

@@ -24,7 +24,7 @@ const MAGIC: &[u8; 8] = b"SPFIELD\x01";
 
 /// Version of the field's construction: part of every key, so a build of another version is
 /// never mistaken for this one's.
-const BUILD_VERSION: &str = "interpolated-field-1";
+const BUILD_VERSION: &str = "interpolated-field-2";
 
 /// The key of an interpolated field: SHA-256 (hexadecimal) of everything its values depend on
 /// (the mesh's coordinates and faces, the mass, the settings and the build version).

@@ -64,13 +64,44 @@ fn scale(a: [f64; 3], s: f64) -> [f64; 3] {
 }
 
 impl FaceGeometry {
-    /// From a closed, outward-oriented mesh (as the field accepts it).
+    /// From a closed, outward-oriented mesh (as the field accepts it), its faces renumbered
+    /// along a Morton curve through their centroids and its vertices in order of first use by
+    /// them: faces close together in space are close together in memory, so a set of faces
+    /// around a point (a leaf's near set, a ring) is read from a few runs of memory instead of
+    /// all over a large mesh, whatever the order of the file. Face numbers here are this
+    /// geometry's, not the mesh's.
     pub fn new(mesh: &Mesh) -> FaceGeometry {
-        let vertices: Vec<[f64; 3]> = mesh.vertices_m.iter().map(|p| [p.x, p.y, p.z]).collect();
-        let mut normals = Vec::with_capacity(mesh.faces.len());
-        let mut edge_normals = Vec::with_capacity(mesh.faces.len());
-        let mut edge_len_m = Vec::with_capacity(mesh.faces.len());
-        for f in &mesh.faces {
+        let mesh_vertices: Vec<[f64; 3]> =
+            mesh.vertices_m.iter().map(|p| [p.x, p.y, p.z]).collect();
+        let centroids: Vec<[f64; 3]> = mesh
+            .faces
+            .iter()
+            .map(|f| {
+                let [a, b, c] = f.map(|i| mesh_vertices[i as usize]);
+                std::array::from_fn(|k| (a[k] + b[k] + c[k]) / 3.0)
+            })
+            .collect();
+        let axes = crate::field::tables::axis_bounds(mesh_vertices.iter().copied());
+        let order = crate::field::tables::morton_order(&centroids, axes);
+        let mut new_index = vec![u32::MAX; mesh_vertices.len()];
+        let mut vertices = Vec::with_capacity(mesh_vertices.len());
+        let faces: Vec<[u32; 3]> = order
+            .iter()
+            .map(|&f| {
+                mesh.faces[f as usize].map(|v| {
+                    let slot = &mut new_index[v as usize];
+                    if *slot == u32::MAX {
+                        *slot = vertices.len() as u32;
+                        vertices.push(mesh_vertices[v as usize]);
+                    }
+                    *slot
+                })
+            })
+            .collect();
+        let mut normals = Vec::with_capacity(faces.len());
+        let mut edge_normals = Vec::with_capacity(faces.len());
+        let mut edge_len_m = Vec::with_capacity(faces.len());
+        for f in &faces {
             let v = f.map(|i| vertices[i as usize]);
             let nrm = cross(sub(v[1], v[0]), sub(v[2], v[0]));
             let n = scale(nrm, 1.0 / norm(nrm));
@@ -89,7 +120,7 @@ impl FaceGeometry {
         }
         FaceGeometry {
             vertices,
-            faces: mesh.faces.clone(),
+            faces,
             normals,
             edge_normals,
             edge_len_m,
@@ -597,7 +628,10 @@ mod tests {
         // Also points next to the surface: off a corner and an edge of a face in the subset,
         // and off one of its boundary edges (the open-set terms are a line integral along the
         // set's boundary, see `kernel`).
-        let [a, b, c] = mesh.triangle(some[7] as usize);
+        let [a, b, c] = g.faces[some[7] as usize].map(|i| {
+            let v = g.vertices[i as usize];
+            Point3::new(v[0], v[1], v[2])
+        });
         let n = (b - a).cross(&(c - a)).normalize();
         let mid = Point3::from((a.coords + b.coords) * 0.5);
         let pts = [

@@ -175,13 +175,11 @@ impl Pattern {
         CACHE[space.slot()].get_or_init(|| Pattern::new(space))
     }
 
-    /// The gradients (cell units) at the check points of the fit with non-constant basis
-    /// coefficients `coef` (any degree: a prefix of the basis), as rows `3 k + axis`.
-    pub fn check_gradients(&self, coef: &[f64]) -> Vec<f64> {
-        let cols = self.check_grads.columns(0, coef.len());
-        (cols * nalgebra::DVector::from_column_slice(coef))
-            .as_slice()
-            .to_vec()
+    /// The gradients (cell units) at the check points of fits with non-constant basis
+    /// coefficients `coefs` (a column per fit, any degree: a prefix of the basis), a column
+    /// per fit with rows `3 k + axis`.
+    pub fn check_gradients_many(&self, coefs: &DMatrix<f64>) -> DMatrix<f64> {
+        self.check_grads.columns(0, coefs.nrows()) * coefs
     }
 
     /// The constant making the fit's mean value at the fit points equal `values`' mean.
@@ -435,8 +433,7 @@ mod tests {
             }
         }
         let c = Solver::get(Space::Biharmonic, 6).fit_many(&data);
-        let c: Vec<f64> = c.column(0).iter().copied().collect();
-        let g = pattern.check_gradients(&c);
+        let g = pattern.check_gradients_many(&c);
         let worst = pattern
             .check_points
             .iter()

@@ -25,7 +25,13 @@
 //! sum_(near(source) - near(cell)) U_f`, the source's polynomial plus exact sums over the ring
 //! of faces between the two near sets (the ring's gradient tensor includes terms an open set of
 //! faces has; by Stokes' theorem they are a line integral around the ring's boundary, see the
-//! field kernel). So only the top cells, which have no source, need the whole mesh's field:
+//! field kernel). Neighbouring cells share the fit points on their common side (the patterns
+//! sit on one lattice): a cell takes a shared point from a side neighbour that computed it,
+//! adding the faces near that neighbour and not near itself and taking off the converse
+//! (`F_cell = F_neighbour + sum_(near(neighbour) - near(cell)) U_f - sum_(near(cell) -
+//! near(neighbour)) U_f`, about a seventh of a ring), where the neighbour's source is no less
+//! accurate than its own. The faces are numbered along a Morton curve through their centroids,
+//! so the faces of a near set or a ring lie close together in memory. So only the top cells, which have no source, need the whole mesh's field:
 //! the exact sums, or on large meshes a tree of face clusters whose far members are Taylor
 //! expansions with a rigorous error bound (`far_field`; that bound, a small share of the error
 //! budget, is added to those cells' measured errors). Each fit is checked at 64 points it did not use
