@@ -10,8 +10,8 @@ use rayon::prelude::*;
 use super::face_set::{FaceGeometry, FaceSet, SetJet, set_jets};
 use super::far_field::FarField;
 use super::fit::{MONOMIAL_MAX_DEGREE, Pattern, ROWS_PER_POINT, Solver, Space};
-use super::solid;
 use super::{BuildStats, InterpolatedGravity, InterpolationSettings, Node, lattice_point};
+use super::{poly3, solid};
 use crate::error::{GravityError, Result};
 use crate::field::exterior::Exterior;
 use crate::field::{MassSpec, PolyhedronGravity};
@@ -181,6 +181,32 @@ struct Poly {
 }
 
 impl Poly {
+    /// [`Poly::jet`] at each of `points`, eight at a time (the same bits as one at a time).
+    fn jets(&self, points: &[Point3<f64>]) -> Vec<SetJet> {
+        let solver = Solver::get(self.space, self.degree);
+        let (Some(m), Some(layout)) = (&self.monomials, solver.layout()) else {
+            return points.iter().map(|p| self.jet(p)).collect();
+        };
+        let h = self.half_m;
+        let mut out = Vec::with_capacity(points.len());
+        for block in points.chunks(poly3::LANES) {
+            let at = |a: usize| -> [f64; poly3::LANES] {
+                std::array::from_fn(|l| {
+                    let p = block[l.min(block.len() - 1)];
+                    (p[a] - self.center[a]) / h
+                })
+            };
+            let jets = poly3::eval_lanes(layout, m, &at(0), &at(1), &at(2));
+            out.extend(jets[..block.len()].iter().map(|j| SetJet {
+                potential: j.value,
+                grad: j.grad.map(|g| g / h),
+                hess: j.hess.map(|v| v / (h * h)),
+                omega: 0.0,
+            }));
+        }
+        out
+    }
+
     /// Value, gradient and Hessian per unit `G rho` at `p`.
     fn jet(&self, p: &Point3<f64>) -> SetJet {
         let h = self.half_m;
@@ -284,6 +310,14 @@ enum Outcome {
 /// where they are there (a deep level's leaves would otherwise hold ~1 GB of coefficients at
 /// 1M facets until the level ends).
 enum Coef {
+    /// Basis coefficients (constant first) of a fit of `degree` in `space`, until converted
+    /// to monomials with the other leaves of their chunk (one matrix product per degree).
+    Basis {
+        coef: Vec<f64>,
+        space: Space,
+        degree: usize,
+    },
+    /// Monomial coefficients.
     Owned(Vec<f64>),
     At(usize),
 }
@@ -291,7 +325,20 @@ enum Coef {
 impl Coef {
     /// Copies owned coefficients to the end of `field` (once) and says where they are.
     fn place(&mut self, field: &mut Vec<f64>) -> usize {
+        if let Coef::Basis {
+            coef,
+            space,
+            degree,
+        } = self
+        {
+            // Converted one by one (leaves normally arrive converted, see `convert_leaves`).
+            let monomials = Solver::get(*space, *degree)
+                .monomials(coef)
+                .unwrap_or_else(|| vec![0.0]);
+            *self = Coef::Owned(monomials);
+        }
         match self {
+            Coef::Basis { .. } => 0,
             Coef::Owned(c) => {
                 let at = field.len();
                 field.extend_from_slice(c);
@@ -409,24 +456,29 @@ impl Builder<'_> {
         let mut scratch = Vec::new();
         let near_tables = FaceSet::new(self.geometry, &cell.fit_near);
         let nfit = t.fit_points.len();
+        let own: Vec<usize> = (0..points.len())
+            .filter(|&k| !borrowed.get(k).copied().unwrap_or(false))
+            .collect();
+        let own_fit = own.partition_point(|&k| k < nfit);
+        let own_points: Vec<Point3<f64>> = own.iter().map(|&k| points[k]).collect();
         match (&cell.source.poly, exact_at) {
             (None, Some(exact)) => {
                 // The check points need no Hessian (nor have one in `exact`).
-                let mut near = set_jets::<true>(&near_tables, &points[..nfit], &mut scratch);
+                let mut near = set_jets::<true>(&near_tables, &own_points[..own_fit], &mut scratch);
                 near.extend(set_jets::<false>(
                     &near_tables,
-                    &points[nfit..],
+                    &own_points[own_fit..],
                     &mut scratch,
                 ));
-                exact
-                    .iter()
-                    .zip(&near)
-                    .map(|(e, n)| {
-                        let mut f = *e;
-                        f.add(n, -1.0);
-                        (f, e.grad)
-                    })
-                    .unzip()
+                let mut data = vec![SetJet::default(); points.len()];
+                let mut total = vec![[0.0; 3]; points.len()];
+                for (&k, n) in own.iter().zip(&near) {
+                    let mut f = exact[k];
+                    f.add(n, -1.0);
+                    data[k] = f;
+                    total[k] = exact[k].grad;
+                }
+                (data, total)
             }
             (source_poly, _) => {
                 // The near sums are needed for the total gravity at the check points only
@@ -436,11 +488,6 @@ impl Builder<'_> {
                 // F_cell = F_source + (faces near the source but not here) - (faces near here
                 // but not near the source), at the fit points not borrowed and the check
                 // points.
-                let own: Vec<usize> = (0..points.len())
-                    .filter(|&k| !borrowed.get(k).copied().unwrap_or(false))
-                    .collect();
-                let own_fit = own.partition_point(|&k| k < nfit);
-                let own_points: Vec<Point3<f64>> = own.iter().map(|&k| points[k]).collect();
                 let plus = difference(&cell.source.near, &cell.fit_near);
                 let minus = difference(&cell.fit_near, &cell.source.near);
                 self.ring_face_terms.fetch_add(
@@ -462,11 +509,9 @@ impl Builder<'_> {
                 let minus = ring(&minus);
                 let mut data = vec![SetJet::default(); points.len()];
                 let mut total = vec![[0.0; 3]; points.len()];
+                let from_source = source_poly.as_ref().map(|s| s.jets(&own_points));
                 for (i, &k) in own.iter().enumerate() {
-                    let mut f = source_poly
-                        .as_ref()
-                        .map(|s| s.jet(&points[k]))
-                        .unwrap_or_default();
+                    let mut f = from_source.as_ref().map(|j| j[i]).unwrap_or_default();
                     f.add(&plus[i], 1.0);
                     f.add(&minus[i], -1.0);
                     let mut tot = f;
@@ -590,9 +635,13 @@ impl Builder<'_> {
             && (small || cell.depth >= MAX_DEPTH)
         {
             let (p, err) = errors[i];
-            if let Some(coef) = Solver::get(space, p).monomials(&full(i)) {
+            if Solver::get(space, p).layout().is_some() {
                 return Outcome::Leaf {
-                    coef: Coef::Owned(coef),
+                    coef: Coef::Basis {
+                        coef: full(i),
+                        space,
+                        degree: p,
+                    },
                     space,
                     degree: p,
                     error: prep.source_error + err,
@@ -738,11 +787,71 @@ fn fit_cells(
     drop(own);
     let refs: Vec<&Prepared> = preps.iter().collect();
     let fits = fit_all(&refs);
-    cells
+    let mut outcomes: Vec<Outcome> = cells
         .par_iter()
         .zip(preps.par_iter().zip(fits.par_iter()))
         .map(|((cell, _), (prep, coefs))| b.decide(cell, prep, coefs))
-        .collect()
+        .collect();
+    convert_leaves(&mut outcomes);
+    outcomes
+}
+
+/// Converts the leaves' basis coefficients to monomials, one matrix product per space and
+/// degree (instead of a product with a vector per leaf).
+fn convert_leaves(outcomes: &mut [Outcome]) {
+    let mut groups: std::collections::BTreeMap<(usize, usize), Vec<usize>> =
+        std::collections::BTreeMap::new();
+    for (k, out) in outcomes.iter().enumerate() {
+        if let Outcome::Leaf {
+            coef: Coef::Basis { space, degree, .. },
+            ..
+        } = out
+        {
+            let slot = usize::from(*space == Space::Harmonic);
+            groups.entry((slot, *degree)).or_default().push(k);
+        }
+    }
+    let converted: Vec<(Vec<usize>, Option<nalgebra::DMatrix<f64>>)> = groups
+        .into_values()
+        .collect::<Vec<_>>()
+        .into_par_iter()
+        .flat_map_iter(|idx| {
+            idx.chunks(256)
+                .map(|chunk| {
+                    let columns: Vec<&[f64]> = chunk
+                        .iter()
+                        .filter_map(|&k| match &outcomes[k] {
+                            Outcome::Leaf {
+                                coef: Coef::Basis { coef, .. },
+                                ..
+                            } => Some(coef.as_slice()),
+                            _ => None,
+                        })
+                        .collect();
+                    let solver = match &outcomes[chunk[0]] {
+                        Outcome::Leaf {
+                            coef: Coef::Basis { space, degree, .. },
+                            ..
+                        } => Some(Solver::get(*space, *degree)),
+                        _ => None,
+                    };
+                    let rows = columns.first().map_or(0, |c| c.len());
+                    let m = nalgebra::DMatrix::from_fn(rows, columns.len(), |r, c| columns[c][r]);
+                    (chunk.to_vec(), solver.and_then(|s| s.monomials_many(&m)))
+                })
+                .collect::<Vec<_>>()
+        })
+        .collect();
+    for (chunk, monomials) in converted {
+        let Some(monomials) = monomials else {
+            continue;
+        };
+        for (c, &k) in chunk.iter().enumerate() {
+            if let Outcome::Leaf { coef, .. } = &mut outcomes[k] {
+                *coef = Coef::Owned(monomials.column(c).as_slice().to_vec());
+            }
+        }
+    }
 }
 
 /// A fit point whose data a cell takes from a neighbour: the neighbour's `F` there, plus the
@@ -761,9 +870,10 @@ struct Loan {
 /// side (the patterns are placed on one lattice); the first cell to reach a point computes it
 /// from its source, and a later cell sharing a side with it borrows it, paying for the faces
 /// near one of the two and not the other (about a seventh of a ring for cells side by side)
-/// instead of its whole ring. Only cells fitted from a polynomial source lend and borrow (the
-/// others' shared points are evaluated once already), each from a side neighbour of its own
-/// space whose source is no less accurate than its own; cells meeting at an edge or a corner
+/// instead of its whole ring (cells fitted from the exact field share the whole mesh's sums at
+/// a shared point already, and lend their subtraction of the near faces: a lent point costs
+/// the difference of two near sets instead of a near set). A cell borrows from a side
+/// neighbour of its own space and kind whose source is no less accurate than its own; cells meeting at an edge or a corner
 /// share too few points to be worth it (on the demo body at 100,820 facets and 1e-7, lending
 /// across edges too cut the ring terms by another 5 % but made no faster build). With
 /// `enabled` false nothing is lent.
@@ -771,16 +881,19 @@ fn lend(cells: &[(&Pending, Option<&[SetJet]>)], enabled: bool) -> Vec<Vec<Loan>
     if !enabled {
         return vec![Vec::new(); cells.len()];
     }
-    let mut owner: std::collections::HashMap<(Space, [i64; 3]), (usize, usize)> =
+    let mut owner: std::collections::HashMap<(bool, Space, [i64; 3]), (usize, usize)> =
         std::collections::HashMap::new();
     let mut loans = vec![Vec::new(); cells.len()];
     for (i, (cell, exact)) in cells.iter().enumerate() {
-        if exact.is_some() || cell.source.poly.is_none() {
+        // Cells fitted from the exact field lend to their kind only (their data carry the
+        // cluster tree's error, which the others' budgets leave out).
+        let from_exact = cell.source.poly.is_none();
+        if from_exact && exact.is_none() {
             continue;
         }
         let space = cell.space();
         for (j, key) in cell.fit_keys().into_iter().enumerate() {
-            match owner.entry((space, key)) {
+            match owner.entry((from_exact, space, key)) {
                 std::collections::hash_map::Entry::Vacant(v) => {
                     v.insert((i, j));
                 }

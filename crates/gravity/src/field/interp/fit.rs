@@ -271,6 +271,12 @@ impl Solver {
         )
     }
 
+    /// [`Solver::monomials`] of many fits at once, a column per fit.
+    pub fn monomials_many(&self, basis: &DMatrix<f64>) -> Option<DMatrix<f64>> {
+        let (_, conv) = self.to_monomials.as_ref()?;
+        Some(conv * basis)
+    }
+
     /// The monomial layout (degrees up to [`MONOMIAL_MAX_DEGREE`]).
     pub fn layout(&self) -> Option<&Layout> {
         self.to_monomials.as_ref().map(|(l, _)| l)

@@ -193,6 +193,71 @@ pub(crate) fn eval<const HESS: bool>(layout: &Layout, c: &[f64], x: f64, y: f64,
     out
 }
 
+/// Points evaluated side by side by [`eval_lanes`].
+pub(crate) const LANES: usize = 8;
+
+/// [`eval`] with the Hessian at [`LANES`] points side by side (the same operations in the same
+/// order per lane, nothing fused: each lane's result is [`eval`]'s to the bit). One point's
+/// Horner chains wait on each other's latency; eight run in the time of one.
+#[multiversion::multiversion(targets(
+    "x86_64+avx512f+avx512dq+avx2+fma+avx",
+    "x86_64+avx2+fma+avx"
+))]
+pub(crate) fn eval_lanes(
+    layout: &Layout,
+    c: &[f64],
+    x: &[f64; LANES],
+    y: &[f64; LANES],
+    z: &[f64; LANES],
+) -> [Jet; LANES] {
+    type L = [f64; LANES];
+    let p = layout.degree();
+    let zero = [0.0; LANES];
+    // out and q: value, grad (3), hess (6), as in `eval`.
+    let mut out = [zero; 10];
+    for i in (0..=p).rev() {
+        let mut q = [zero; 10];
+        for j in (0..=p - i).rev() {
+            let s = layout.start[i][j];
+            let n = p - i - j;
+            let (mut r, mut r1, mut r2): (L, L, L) = (zero, zero, zero);
+            for k in (0..=n).rev() {
+                let ck = c[s + k];
+                for l in 0..LANES {
+                    r2[l] = r2[l] * z[l] + 2.0 * r1[l];
+                    r1[l] = r1[l] * z[l] + r[l];
+                    r[l] = r[l] * z[l] + ck;
+                }
+            }
+            for l in 0..LANES {
+                q[7][l] = q[7][l] * y[l] + 2.0 * q[2][l];
+                q[8][l] = q[8][l] * y[l] + q[3][l];
+                q[9][l] = q[9][l] * y[l] + r2[l];
+                q[2][l] = q[2][l] * y[l] + q[0][l];
+                q[3][l] = q[3][l] * y[l] + r1[l];
+                q[0][l] = q[0][l] * y[l] + r[l];
+            }
+        }
+        for l in 0..LANES {
+            out[4][l] = out[4][l] * x[l] + 2.0 * out[1][l];
+            out[5][l] = out[5][l] * x[l] + out[2][l];
+            out[6][l] = out[6][l] * x[l] + out[3][l];
+            out[7][l] = out[7][l] * x[l] + q[7][l];
+            out[8][l] = out[8][l] * x[l] + q[8][l];
+            out[9][l] = out[9][l] * x[l] + q[9][l];
+            out[1][l] = out[1][l] * x[l] + out[0][l];
+            out[2][l] = out[2][l] * x[l] + q[2][l];
+            out[3][l] = out[3][l] * x[l] + q[3][l];
+            out[0][l] = out[0][l] * x[l] + q[0][l];
+        }
+    }
+    std::array::from_fn(|l| Jet {
+        value: out[0][l],
+        grad: [out[1][l], out[2][l], out[3][l]],
+        hess: std::array::from_fn(|k| out[4 + k][l]),
+    })
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -204,6 +269,28 @@ mod tests {
                 c[layout.index(i, j, k)] * x.powi(i as i32) * y.powi(j as i32) * z.powi(k as i32)
             })
             .sum()
+    }
+
+    #[test]
+    fn lanes_give_each_point_the_bits_of_the_single_point_horner() {
+        let layout = Layout::new(16);
+        let c: Vec<f64> = (0..layout.len())
+            .map(|k| ((k * 7919) % 101) as f64 / 50.0 - 1.0)
+            .collect();
+        let x: [f64; LANES] = std::array::from_fn(|l| 0.9 - 0.23 * l as f64);
+        let y: [f64; LANES] = std::array::from_fn(|l| -0.8 + 0.19 * l as f64);
+        let z: [f64; LANES] = std::array::from_fn(|l| 0.1 * (l as f64 - 3.5));
+        let got = eval_lanes(&layout, &c, &x, &y, &z);
+        for l in 0..LANES {
+            let want = eval::<true>(&layout, &c, x[l], y[l], z[l]);
+            assert_eq!(got[l].value.to_bits(), want.value.to_bits(), "lane {l}");
+            for k in 0..3 {
+                assert_eq!(got[l].grad[k].to_bits(), want.grad[k].to_bits(), "lane {l}");
+            }
+            for k in 0..6 {
+                assert_eq!(got[l].hess[k].to_bits(), want.hess[k].to_bits(), "lane {l}");
+            }
+        }
     }
 
     #[test]
