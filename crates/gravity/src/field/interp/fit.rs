@@ -271,10 +271,10 @@ impl Solver {
         )
     }
 
-    /// [`Solver::monomials`] of many fits at once, a column per fit.
-    pub fn monomials_many(&self, basis: &DMatrix<f64>) -> Option<DMatrix<f64>> {
-        let (_, conv) = self.to_monomials.as_ref()?;
-        Some(conv * basis)
+    /// The matrix taking basis coefficients (constant first, a column per fit) to monomial
+    /// ones, for degrees up to [`MONOMIAL_MAX_DEGREE`].
+    pub fn to_monomials(&self) -> Option<&DMatrix<f64>> {
+        self.to_monomials.as_ref().map(|(_, conv)| conv)
     }
 
     /// The monomial layout (degrees up to [`MONOMIAL_MAX_DEGREE`]).
