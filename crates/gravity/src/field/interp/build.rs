@@ -324,21 +324,19 @@ enum Coef {
 impl Coef {
     /// Copies owned coefficients to the end of `field` (once) and says where they are.
     fn place(&mut self, field: &mut Vec<f64>) -> usize {
-        if let Coef::Basis { coef, conv } = self {
-            // Converted alone (leaves normally arrive converted, see `convert_leaves`).
-            let monomials = *conv * nalgebra::DVector::from_column_slice(coef);
-            *self = Coef::Owned(monomials.as_slice().to_vec());
-        }
+        let at = field.len();
         match self {
-            Coef::Basis { .. } => 0,
-            Coef::Owned(c) => {
-                let at = field.len();
-                field.extend_from_slice(c);
-                *self = Coef::At(at);
-                at
+            Coef::Owned(c) => field.extend_from_slice(c),
+            // Converted alone (leaves normally arrive converted, see `convert_leaves`).
+            Coef::Basis { coef, conv } => {
+                field.extend_from_slice(
+                    (*conv * nalgebra::DVector::from_column_slice(coef)).as_slice(),
+                );
             }
-            Coef::At(at) => *at,
+            Coef::At(at) => return *at,
         }
+        *self = Coef::At(at);
+        at
     }
 }
 
@@ -432,7 +430,7 @@ impl Builder<'_> {
         d2.sqrt() <= self.switch_radius_m
     }
 
-    /// The data of one cell, from its source, at its template points (fit points first, then
+    /// The data of one cell, from its source, at its template `points` (fit points first, then
     /// check points): `F` (per unit `G rho`) and, at the check points, the gradient of the total
     /// field. `exact_at` holds the exact field (per unit `G rho`) at the template points when the
     /// source is the exact field. Fit points marked in `borrowed` are left at zero (a neighbour
@@ -440,11 +438,11 @@ impl Builder<'_> {
     fn source_data(
         &self,
         cell: &Pending,
+        points: &[Point3<f64>],
         exact_at: Option<&[SetJet]>,
         borrowed: &[bool],
     ) -> (Vec<SetJet>, Vec<[f64; 3]>) {
         let t = Pattern::get(cell.space());
-        let points = cell.template_points(self);
         let mut scratch = Vec::new();
         let near_tables = FaceSet::new(self.geometry, &cell.fit_near);
         let nfit = t.fit_points.len();
@@ -747,35 +745,40 @@ fn fit_cells(
     prepared: &(dyn Fn() + Sync),
 ) -> Vec<Outcome> {
     let loans = lend(cells, b.lend);
+    let points: Vec<Vec<Point3<f64>>> = cells
+        .par_iter()
+        .map(|(cell, _)| cell.template_points(b))
+        .collect();
     let own: Vec<(Vec<SetJet>, Vec<[f64; 3]>)> = cells
         .par_iter()
         .zip(&loans)
-        .map(|((cell, exact), loans)| {
+        .zip(&points)
+        .map(|(((cell, exact), loans), points)| {
             let mut borrowed = vec![false; loans.iter().map(|l| l.point + 1).max().unwrap_or(0)];
             for l in loans {
                 borrowed[l.point] = true;
             }
-            b.source_data(cell, *exact, &borrowed)
+            b.source_data(cell, points, *exact, &borrowed)
         })
         .collect();
     let preps: Vec<Prepared> = cells
         .par_iter()
         .zip(&loans)
-        .zip(&own)
-        .map(|(((cell, _), loans), (data, total))| {
+        .zip(points.par_iter().zip(&own))
+        .map(|(((cell, _), loans), (points, (data, total)))| {
             let error = cell.source.error;
             let p = if loans.is_empty() {
                 b.prepared(cell, data, total, error)
             } else {
                 let mut data = data.clone();
-                b.borrow(cell, cells, &own, loans, &mut data);
+                b.borrow(cell, points, cells, &own, loans, &mut data);
                 b.prepared(cell, &data, total, error)
             };
             prepared();
             p
         })
         .collect();
-    drop(own);
+    drop((own, points));
     let refs: Vec<&Prepared> = preps.iter().collect();
     let fits = fit_all(&refs);
     let mut outcomes: Vec<Outcome> = cells
@@ -904,17 +907,17 @@ fn lend(cells: &[(&Pending, Option<&[SetJet]>)], enabled: bool) -> Vec<Vec<Loan>
 }
 
 impl Builder<'_> {
-    /// Fills the fit points `cell` borrows (`loans`) in its `data` from the lenders' data
-    /// (`own`, indexed like `cells`).
+    /// Fills the fit points `cell` (template `points`) borrows (`loans`) in its `data` from the
+    /// lenders' data (`own`, indexed like `cells`).
     fn borrow(
         &self,
         cell: &Pending,
+        points: &[Point3<f64>],
         cells: &[(&Pending, Option<&[SetJet]>)],
         own: &[(Vec<SetJet>, Vec<[f64; 3]>)],
         loans: &[Loan],
         data: &mut [SetJet],
     ) {
-        let points = cell.template_points(self);
         let mut scratch = Vec::new();
         let mut start = 0;
         while start < loans.len() {
@@ -944,8 +947,8 @@ impl Builder<'_> {
             }
             if let Some(count) = self.verify_loans
                 && Arc::ptr_eq(&other.source, &cell.source)
+                && self.verify_loan(cell, group, &pts, data)
             {
-                self.verify_loan(cell, group, &pts, data);
                 count.fetch_add(group.len() as u64, Ordering::Relaxed);
             }
         }
@@ -953,10 +956,17 @@ impl Builder<'_> {
 
     /// Checks lent data against the cell's own (from its own source and ring) where lender
     /// and borrower share a source, so the two differ only by rounding (tests only: it costs
-    /// the ring lending saves). Panics on a mismatch.
-    fn verify_loan(&self, cell: &Pending, group: &[Loan], pts: &[Point3<f64>], data: &[SetJet]) {
+    /// the ring lending saves). Panics on a mismatch; says whether it checked (cells fitted
+    /// from the exact field are not).
+    fn verify_loan(
+        &self,
+        cell: &Pending,
+        group: &[Loan],
+        pts: &[Point3<f64>],
+        data: &[SetJet],
+    ) -> bool {
         let Some(poly) = &cell.source.poly else {
-            return;
+            return false;
         };
         let mut scratch = Vec::new();
         let plus = difference(&cell.source.near, &cell.fit_near);
@@ -980,6 +990,7 @@ impl Builder<'_> {
                 "lent data {got:?} differ from the cell's own {want:?}"
             );
         }
+        true
     }
 }
 

@@ -38,9 +38,6 @@ pub(crate) struct FaceGeometry {
     /// The mesh's undirected edges numbered, made on first use (the build's face-set tables
     /// need them; queries do not): see [`FaceGeometry::face_edges`].
     edge_numbers: std::sync::OnceLock<(Vec<[u32; 3]>, usize)>,
-    /// Each face's rank along a Morton curve through the face centroids, made on first use
-    /// (see [`FaceGeometry::spatial_rank`]).
-    spatial_rank: std::sync::OnceLock<Vec<u32>>,
 }
 
 pub(crate) fn sub(a: [f64; 3], b: [f64; 3]) -> [f64; 3] {
@@ -125,7 +122,6 @@ impl FaceGeometry {
             edge_normals,
             edge_len_m,
             edge_numbers: std::sync::OnceLock::new(),
-            spatial_rank: std::sync::OnceLock::new(),
         }
     }
 
@@ -173,29 +169,6 @@ impl FaceGeometry {
 
     pub fn face_count(&self) -> usize {
         self.faces.len()
-    }
-
-    /// Each face's rank along a Morton (Z-order) curve through the face centroids (21 bits per
-    /// axis over the bounding box, ties by index), so that faces of close rank are close
-    /// together. Computed once, on first use.
-    pub fn spatial_rank(&self) -> &[u32] {
-        self.spatial_rank.get_or_init(|| {
-            let centroids: Vec<[f64; 3]> = self
-                .faces
-                .iter()
-                .map(|f| {
-                    let [a, b, c] = f.map(|i| self.vertices[i as usize]);
-                    std::array::from_fn(|k| (a[k] + b[k] + c[k]) / 3.0)
-                })
-                .collect();
-            let axes = crate::field::tables::axis_bounds(self.vertices.iter().copied());
-            let order = crate::field::tables::morton_order(&centroids, axes);
-            let mut rank = vec![0u32; order.len()];
-            for (r, &f) in order.iter().enumerate() {
-                rank[f as usize] = r as u32;
-            }
-            rank
-        })
     }
 
     /// Smallest distance from `p` to the triangle of face `f`, m (Ericson, "Real-Time Collision
@@ -449,13 +422,9 @@ impl FaceSet {
                 pieces: vec![Tables::from_face_set(g, faces)],
             };
         }
-        let rank = g.spatial_rank();
-        let mut keyed: Vec<u64> = faces
-            .iter()
-            .map(|&f| (u64::from(rank[f as usize]) << 32) | u64::from(f))
-            .collect();
-        keyed.sort_unstable();
-        let ordered: Vec<u32> = keyed.iter().map(|k| *k as u32).collect();
+        // Face numbers run along the Morton curve (see `FaceGeometry::new`).
+        let mut ordered = faces.to_vec();
+        ordered.sort_unstable();
         FaceSet {
             pieces: ordered
                 .chunks(piece_faces)

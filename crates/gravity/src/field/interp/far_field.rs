@@ -273,9 +273,8 @@ impl FarField {
     /// The tree with leaves of at most `leaf_faces` faces.
     pub fn with_leaf_faces(geometry: &FaceGeometry, leaf_faces: usize) -> FarField {
         let leaf_faces = leaf_faces.max(1);
-        let rank = geometry.spatial_rank();
-        let mut order: Vec<u32> = (0..geometry.face_count() as u32).collect();
-        order.sort_unstable_by_key(|&f| rank[f as usize]);
+        // Face numbers run along the Morton curve (see `FaceGeometry::new`).
+        let order: Vec<u32> = (0..geometry.face_count() as u32).collect();
         // The tree, children after parents; leaves split ranges in halves.
         let mut clusters = Vec::new();
         let mut stack = vec![(0usize, order.len(), usize::MAX, 0usize)];
