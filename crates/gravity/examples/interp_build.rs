@@ -193,6 +193,23 @@ fn check(mesh: &Mesh, field: &InterpolatedGravity, bound: f64) {
             })
             .fold(f64::INFINITY, f64::min)
     };
+    // The same, each point queried `repeat` times in a row: a flight's consecutive steps
+    // query one cell and its near faces, which then sit in the cache.
+    let time_warm = |set: &[Point3<f64>]| {
+        (0..5)
+            .map(|_| {
+                let t = Instant::now();
+                let mut acc = 0.0;
+                for p in set {
+                    for _ in 0..repeat.div_ceil(5) {
+                        acc += field.potential_acceleration(p).0;
+                    }
+                }
+                std::hint::black_box(acc);
+                t.elapsed().as_secs_f64() * 1e6 / (repeat.div_ceil(5) * set.len().max(1)) as f64
+            })
+            .fold(f64::INFINITY, f64::min)
+    };
     // (Points inside the body, a few of those nudged off concave vertices, are evaluated
     // exactly: left out of the timing.)
     let outside = |set: &[Point3<f64>]| -> Vec<Point3<f64>> {
@@ -245,10 +262,15 @@ fn check(mesh: &Mesh, field: &InterpolatedGravity, bound: f64) {
             near as f64 / set.len() as f64
         );
     }
+    let (surface, volume) = (outside(&pts[..600]), outside(&pts[600..]));
     println!(
-        "query: {:.2} us/point within 5 facets of the surface, {:.2} us/point in the volume",
-        time_of(&outside(&pts[..600])),
-        time_of(&outside(&pts[600..]))
+        "query: {:.2} us/point within 5 facets of the surface, {:.2} us/point in the volume \
+         (each point once a round); {:.2} and {:.2} us/point with each point queried \
+         {repeat} times in a row (a flight's steps in one cell)",
+        time_of(&surface),
+        time_of(&volume),
+        time_warm(&surface),
+        time_warm(&volume)
     );
     println!(
         "{} test points: worst relative acceleration error {worst:.2e} (bound {bound:e}), potential {worst_u:.2e}; \

@@ -65,6 +65,19 @@ pub(crate) trait Lanes:
     /// For positive, normal, finite lanes: the mantissa with the exponent bits of 1.0 (in
     /// [1, 2)) and the unbiased binary exponent as an f64, both exact.
     fn split_exponent(self) -> (Self, Self);
+    /// Eight rows in, eight columns out: vector `j` holds `rows[lane][j]` in each lane (the
+    /// first `N` rows are read). Shuffles in registers where the type has them, else through
+    /// memory.
+    #[inline(always)]
+    fn transpose8(rows: [&[f64; 8]; MAX_LANES]) -> [Self; 8] {
+        let mut buf = [[0.0f64; MAX_LANES]; 8];
+        for (lane, row) in rows.iter().enumerate().take(Self::N) {
+            for (j, x) in row.iter().enumerate() {
+                buf[j][lane] = *x;
+            }
+        }
+        std::array::from_fn(|j| Self::load(&buf[j]))
+    }
 }
 
 /// Mask of an f64's mantissa bits.

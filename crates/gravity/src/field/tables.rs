@@ -399,7 +399,7 @@ impl Tables {
                 f0.push(l[0]);
                 f1.push(l[1]);
                 f2.push(l[2]);
-                let n = g.normals[fi];
+                let n = g.normal(fi);
                 nx.push(n[0]);
                 ny.push(n[1]);
                 nz.push(n[2]);
@@ -411,7 +411,7 @@ impl Tables {
                     if *slot == 0 {
                         e0.push(a.min(b));
                         e1.push(a.max(b));
-                        edge_len_m.push(g.edge_len_m[fi][k]);
+                        edge_len_m.push(g.edge_len_m(fi, k));
                         dyads.push(Matrix3::zeros());
                         on_edge.push((0, a, b));
                         global_edges.push(e);
@@ -419,7 +419,7 @@ impl Tables {
                     }
                     let i = *slot as usize - 1;
                     on_edge[i].0 += 1;
-                    let nu = g.edge_normals[fi][k];
+                    let nu = g.edge_normal(fi, k);
                     dyads[i] += nv * Vector3::new(nu[0], nu[1], nu[2]).transpose();
                 }
             }

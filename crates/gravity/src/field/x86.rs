@@ -192,6 +192,30 @@ impl Lanes for Avx2 {
             )
         }
     }
+    #[inline(always)]
+    fn transpose8(rows: [&[f64; 8]; MAX_LANES]) -> [Self; 8] {
+        // Two 4x4 transposes (columns 0-3, 4-7) of the first four rows, written out (see
+        // `Avx512::transpose8`).
+        unsafe {
+            let ld = |i: usize, h: usize| _mm256_loadu_pd(rows[i][4 * h..].as_ptr());
+            let (l0, l1, l2, l3) = (ld(0, 0), ld(1, 0), ld(2, 0), ld(3, 0));
+            let (h0, h1, h2, h3) = (ld(0, 1), ld(1, 1), ld(2, 1), ld(3, 1));
+            let (la, lb) = (_mm256_unpacklo_pd(l0, l1), _mm256_unpackhi_pd(l0, l1));
+            let (lc, ld2) = (_mm256_unpacklo_pd(l2, l3), _mm256_unpackhi_pd(l2, l3));
+            let (ha, hb) = (_mm256_unpacklo_pd(h0, h1), _mm256_unpackhi_pd(h0, h1));
+            let (hc, hd) = (_mm256_unpacklo_pd(h2, h3), _mm256_unpackhi_pd(h2, h3));
+            [
+                Avx2(_mm256_permute2f128_pd::<0x20>(la, lc)),
+                Avx2(_mm256_permute2f128_pd::<0x20>(lb, ld2)),
+                Avx2(_mm256_permute2f128_pd::<0x31>(la, lc)),
+                Avx2(_mm256_permute2f128_pd::<0x31>(lb, ld2)),
+                Avx2(_mm256_permute2f128_pd::<0x20>(ha, hc)),
+                Avx2(_mm256_permute2f128_pd::<0x20>(hb, hd)),
+                Avx2(_mm256_permute2f128_pd::<0x31>(ha, hc)),
+                Avx2(_mm256_permute2f128_pd::<0x31>(hb, hd)),
+            ]
+        }
+    }
 }
 
 impl Lanes for Avx512 {
@@ -292,6 +316,45 @@ impl Lanes for Avx512 {
                     _mm512_set1_pd(TWO_52_PLUS_BIAS),
                 )),
             )
+        }
+    }
+    #[inline(always)]
+    fn transpose8(rows: [&[f64; 8]; MAX_LANES]) -> [Self; 8] {
+        // Written out, without closures: a closure not inlined here would lose the target
+        // features and call each intrinsic.
+        unsafe {
+            let ld = |i: usize| _mm512_loadu_pd(rows[i].as_ptr());
+            let (r0, r1, r2, r3) = (ld(0), ld(1), ld(2), ld(3));
+            let (r4, r5, r6, r7) = (ld(4), ld(5), ld(6), ld(7));
+            // Pairs of rows interleaved: even columns (lo) and odd columns (hi).
+            let (e01, o01) = (_mm512_unpacklo_pd(r0, r1), _mm512_unpackhi_pd(r0, r1));
+            let (e23, o23) = (_mm512_unpacklo_pd(r2, r3), _mm512_unpackhi_pd(r2, r3));
+            let (e45, o45) = (_mm512_unpacklo_pd(r4, r5), _mm512_unpackhi_pd(r4, r5));
+            let (e67, o67) = (_mm512_unpacklo_pd(r6, r7), _mm512_unpackhi_pd(r6, r7));
+            // Four rows, columns c and c + 4: c = 0, 1 (lo) and 2, 3 (hi).
+            let lo = _mm512_setr_epi64(0, 1, 8, 9, 4, 5, 12, 13);
+            let hi = _mm512_setr_epi64(2, 3, 10, 11, 6, 7, 14, 15);
+            let a0 = _mm512_permutex2var_pd(e01, lo, e23);
+            let a1 = _mm512_permutex2var_pd(o01, lo, o23);
+            let a2 = _mm512_permutex2var_pd(e01, hi, e23);
+            let a3 = _mm512_permutex2var_pd(o01, hi, o23);
+            let b0 = _mm512_permutex2var_pd(e45, lo, e67);
+            let b1 = _mm512_permutex2var_pd(o45, lo, o67);
+            let b2 = _mm512_permutex2var_pd(e45, hi, e67);
+            let b3 = _mm512_permutex2var_pd(o45, hi, o67);
+            // All eight rows: column c from the low halves, c + 4 from the high halves.
+            let first = _mm512_setr_epi64(0, 1, 2, 3, 8, 9, 10, 11);
+            let second = _mm512_setr_epi64(4, 5, 6, 7, 12, 13, 14, 15);
+            [
+                Avx512(_mm512_permutex2var_pd(a0, first, b0)),
+                Avx512(_mm512_permutex2var_pd(a1, first, b1)),
+                Avx512(_mm512_permutex2var_pd(a2, first, b2)),
+                Avx512(_mm512_permutex2var_pd(a3, first, b3)),
+                Avx512(_mm512_permutex2var_pd(a0, second, b0)),
+                Avx512(_mm512_permutex2var_pd(a1, second, b1)),
+                Avx512(_mm512_permutex2var_pd(a2, second, b2)),
+                Avx512(_mm512_permutex2var_pd(a3, second, b3)),
+            ]
         }
     }
 }
@@ -459,6 +522,54 @@ mod tests {
                         ln_scalar(x).to_bits(),
                         "{isa:?}: ln({x:e})"
                     );
+                }
+            }
+        }
+    }
+
+    #[target_feature(enable = "avx2,fma,avx")]
+    fn transpose_avx2(rows: [&[f64; 8]; MAX_LANES]) -> Vec<[f64; MAX_LANES]> {
+        Avx2::transpose8(rows)
+            .iter()
+            .map(|v| v.to_array())
+            .collect()
+    }
+
+    #[target_feature(enable = "avx512f,avx512dq,avx2,fma,avx")]
+    fn transpose_avx512(rows: [&[f64; 8]; MAX_LANES]) -> Vec<[f64; MAX_LANES]> {
+        Avx512::transpose8(rows)
+            .iter()
+            .map(|v| v.to_array())
+            .collect()
+    }
+
+    #[test]
+    fn transposes_of_every_isa_put_row_l_column_j_in_vector_j_lane_l() {
+        let data: Vec<[f64; 8]> = (0..8)
+            .map(|i| std::array::from_fn(|j| (10 * i + j) as f64 + 0.5))
+            .collect();
+        let rows: [&[f64; 8]; MAX_LANES] = std::array::from_fn(|i| &data[i]);
+        let portable = crate::field::lanes::Portable::transpose8(rows);
+        for (j, v) in portable.iter().enumerate() {
+            let lanes = v.to_array();
+            for (l, x) in lanes[..4].iter().enumerate() {
+                assert_eq!(*x, data[l][j], "portable: row {l} column {j}");
+            }
+        }
+        for isa in [Isa::Avx2, Isa::Avx512] {
+            if !isa.detected() {
+                eprintln!("{isa:?} not on this CPU: skipped");
+                continue;
+            }
+            let (got, n) = match isa {
+                // SAFETY: detected just above.
+                Isa::Avx2 => (unsafe { transpose_avx2(rows) }, 4),
+                // SAFETY: as above.
+                Isa::Avx512 => (unsafe { transpose_avx512(rows) }, 8),
+            };
+            for (j, lanes) in got.iter().enumerate() {
+                for (l, x) in lanes[..n].iter().enumerate() {
+                    assert_eq!(*x, data[l][j], "{isa:?}: row {l} column {j}");
                 }
             }
         }

@@ -338,7 +338,7 @@ impl FarField {
                     let v = corners(f);
                     let rel = v.map(|p| sub(p, c.center));
                     triangle_moments(rel, area_of(f), &mut g, &mut scratch);
-                    let nrm = geometry.normals[f as usize];
+                    let nrm = geometry.normal(f as usize);
                     let w = [dot(nrm, rel[0]), nrm[0], nrm[1], nrm[2]];
                     for (d, wd) in w.iter().enumerate() {
                         for (o, gm) in m[d * n..(d + 1) * n].iter_mut().zip(&g) {

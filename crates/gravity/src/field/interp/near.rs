@@ -37,32 +37,40 @@ pub(crate) fn near_sums<V: Lanes>(g: &FaceGeometry, faces: &[u32], p: [f64; 3]) 
     let mut grad = [zero; 3];
     for chunk in faces.chunks(n) {
         let count = chunk.len();
-        // Gather: corners, normal, edge normals and lengths of the chunk's faces.
-        let mut buf = [[0.0f64; MAX_LANES]; 24];
-        for lane in 0..n {
-            let f = chunk[lane.min(count - 1)] as usize;
-            let idx = g.faces[f];
-            for (c, &vi) in idx.iter().enumerate() {
-                let v = g.vertices[vi as usize];
-                for a in 0..3 {
-                    buf[3 * c + a][lane] = v[a] - p[a];
-                }
-            }
-            let nrm = g.normals[f];
-            let en = g.edge_normals[f];
-            let el = g.edge_len_m[f];
-            for a in 0..3 {
-                buf[9 + a][lane] = nrm[a];
-                for k in 0..3 {
-                    buf[12 + 3 * k + a][lane] = en[k][a];
-                }
-                buf[21 + a][lane] = el[a];
+        // Corners, normal and edge lengths of the chunk's faces, a vector each
+        // (lanes past the chunk repeat its last face).
+        let rows: [&super::face_set::FaceRecord; MAX_LANES] =
+            std::array::from_fn(|lane| &g.records[chunk[lane.min(count - 1)] as usize]);
+        let mut q = [zero; 16];
+        for (b, out) in q.chunks_exact_mut(8).enumerate() {
+            out.copy_from_slice(&V::transpose8(std::array::from_fn(|l| &rows[l].0[b])));
+        }
+        let nv = [q[9], q[10], q[11]];
+        // The edges' in-plane normals, as `face_set::edge_normal` computes them (same bits),
+        // and the corners relative to the point. (Plain loops: closures called through
+        // `array::from_fn` are not always inlined into this function and its vector
+        // instructions, and then cost a call per operation.)
+        let one = V::splat(1.0);
+        let mut en = [[zero; 3]; 3];
+        let mut r = [[zero; 3]; 3];
+        for k in 0..3 {
+            let (a, b) = (3 * k, 3 * ((k + 1) % 3));
+            let d = [q[b] - q[a], q[b + 1] - q[a + 1], q[b + 2] - q[a + 2]];
+            let inv = one / q[12 + k];
+            en[k] = [
+                (d[1] * nv[2] - d[2] * nv[1]) * inv,
+                (d[2] * nv[0] - d[0] * nv[2]) * inv,
+                (d[0] * nv[1] - d[1] * nv[0]) * inv,
+            ];
+            for c in 0..3 {
+                r[k][c] = q[a + c] - V::splat(p[c]);
             }
         }
-        let ld = |i: usize| V::load(&buf[i]);
-        let r: [[V; 3]; 3] = std::array::from_fn(|c| [ld(3 * c), ld(3 * c + 1), ld(3 * c + 2)]);
-        let len: [V; 3] = std::array::from_fn(|c| dot3(&r[c], &r[c]).sqrt());
-        let nv = [ld(9), ld(10), ld(11)];
+        let len = [
+            dot3(&r[0], &r[0]).sqrt(),
+            dot3(&r[1], &r[1]).sqrt(),
+            dot3(&r[2], &r[2]).sqrt(),
+        ];
         // Solid angle (van Oosterom & Strackee) with the surface rule of `direct`.
         let cx = r[1][1].mul_sub(r[2][2], r[1][2] * r[2][1]);
         let cy = r[1][2].mul_sub(r[2][0], r[1][0] * r[2][2]);
@@ -81,8 +89,8 @@ pub(crate) fn near_sums<V: Lanes>(g: &FaceGeometry, faces: &[u32], p: [f64; 3]) 
         let mut grad_s = [nv[0] * omega, nv[1] * omega, nv[2] * omega];
         for k in 0..3 {
             let (a, b) = (k, (k + 1) % 3);
-            let l = edge_log(len[a] + len[b], ld(21 + k), floor);
-            let nu = [ld(12 + 3 * k), ld(13 + 3 * k), ld(14 + 3 * k)];
+            let l = edge_log(len[a] + len[b], q[12 + k], floor);
+            let nu = en[k];
             s = dot3(&nu, &r[a]).mul_add(l, s);
             for c in 0..3 {
                 grad_s[c] = grad_s[c] - nu[c] * l;
