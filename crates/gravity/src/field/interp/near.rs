@@ -35,7 +35,16 @@ pub(crate) fn near_sums<V: Lanes>(g: &FaceGeometry, faces: &[u32], p: [f64; 3]) 
     let lanes = V::load(&lane_index);
     let mut pot = zero;
     let mut grad = [zero; 3];
-    for chunk in faces.chunks(n) {
+    // Records are fetched this many faces ahead (a query next to the surface waits on memory
+    // when its cell's faces are not in the cache).
+    const AHEAD: usize = 16;
+    for (i, chunk) in faces.chunks(n).enumerate() {
+        #[cfg(target_arch = "x86_64")]
+        for f in faces.iter().skip(i * n + AHEAD).take(n) {
+            let r = &g.records[*f as usize];
+            super::super::x86::prefetch(&r.0[0]);
+            super::super::x86::prefetch(&r.0[1]);
+        }
         let count = chunk.len();
         // Corners, normal and edge lengths of the chunk's faces, a vector each
         // (lanes past the chunk repeat its last face).
@@ -130,7 +139,8 @@ mod tests {
 
     #[test]
     fn vector_near_sums_match_the_scalar_face_sums() {
-        // Every width this CPU runs against the scalar per-face formulas (checked in turn
+        // Every width this CPU runs (each with its own transposition of the face records)
+        // against the scalar per-face formulas (checked in turn
         // against the Werner–Scheeres field), for sets of every length modulo the width, at a
         // point off the surface and one on a vertex.
         let mesh = generate::demo_body(2);
@@ -140,12 +150,20 @@ mod tests {
             for len in [1usize, 3, 4, 8, 9, 17, 40] {
                 let faces: Vec<u32> = (0..len as u32).map(|k| k * 7 % 320).collect();
                 let want = set_jet::<false>(&g, &faces, &p);
-                let mut got = vec![near(&g, &faces, [p.x, p.y, p.z])];
+                let x = [p.x, p.y, p.z];
+                let mut got = vec![near(&g, &faces, x)];
                 got.push(near_sums::<super::super::super::lanes::Portable>(
-                    &g,
-                    &faces,
-                    [p.x, p.y, p.z],
+                    &g, &faces, x,
                 ));
+                #[cfg(target_arch = "x86_64")]
+                {
+                    use super::super::super::x86::Isa;
+                    for isa in [Isa::Avx2, Isa::Avx512] {
+                        if isa.detected() {
+                            got.push(isa.near(&g, &faces, x));
+                        }
+                    }
+                }
                 let scale = want.potential.abs().max(1.0);
                 for s in got {
                     assert!(
