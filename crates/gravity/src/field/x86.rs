@@ -320,8 +320,9 @@ impl Lanes for Avx512 {
     }
     #[inline(always)]
     fn transpose8(rows: [&[f64; 8]; MAX_LANES]) -> [Self; 8] {
-        // Written out, without closures: a closure not inlined here would lose the target
-        // features and call each intrinsic.
+        // Written out rather than through `array::from_fn`, whose closures were not always
+        // inlined here: a closure that is not loses the target features and calls each
+        // intrinsic (the loads' one-line closure is inlined).
         unsafe {
             let ld = |i: usize| _mm512_loadu_pd(rows[i].as_ptr());
             let (r0, r1, r2, r3) = (ld(0), ld(1), ld(2), ld(3));

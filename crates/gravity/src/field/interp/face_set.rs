@@ -62,7 +62,7 @@ pub(crate) fn edge_normal(a: [f64; 3], b: [f64; 3], n: [f64; 3], len: f64) -> [f
 pub(crate) struct FaceGeometry {
     pub vertices: Vec<[f64; 3]>,
     pub faces: Vec<[u32; 3]>,
-    /// Per face: corners, normal, edge normals and edge lengths (see [`FaceRecord`]).
+    /// Per face: corners, normal and edge lengths (see [`FaceRecord`]).
     pub records: Vec<FaceRecord>,
     /// The mesh's undirected edges numbered, made on first use (the build's face-set tables
     /// need them; queries do not): see [`FaceGeometry::face_edges`].
