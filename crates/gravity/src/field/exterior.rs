@@ -72,8 +72,8 @@ pub struct Exterior {
 /// coefficients once, so that an evaluation takes six products per harmonic for the gradient
 /// instead of three lookups and branches per term. With the recurrence of
 /// [`Harmonics::fill`] kept in registers, a degree-20 evaluation on the 2-core machine fell
-/// from 1.8-2.4 us to 1.2-1.4 us (`interp_build`'s points beyond the switch radius, old and
-/// new run alternately while other work ran).
+/// from 1.76-1.87 us to 0.81-0.84 us (`interp_build`'s points beyond the switch radius, old
+/// and new run alternately on a quiet machine).
 fn gradient_table(degree: usize, c: &[f64], s: &[f64]) -> Vec<[f64; 6]> {
     let len = if degree == 0 {
         0
