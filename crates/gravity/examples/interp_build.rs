@@ -177,36 +177,26 @@ fn check(mesh: &Mesh, field: &InterpolatedGravity, bound: f64) {
         .ok()
         .and_then(|v| v.parse().ok())
         .unwrap_or(20);
-    // The fastest of five rounds (other work on the machine only slows rounds down).
-    let time_of = |set: &[Point3<f64>]| {
+    // The fastest of five rounds (other work on the machine only slows rounds down). Each
+    // round queries every point once per pass (a new cell each time: its near faces come from
+    // memory), or with `in_a_row` each point its share of the repeats in a row (as a flight's
+    // consecutive steps query one cell, whose near faces then sit in the cache).
+    let time_queries = |set: &[Point3<f64>], in_a_row: bool| {
+        let rounds = repeat.div_ceil(5);
         (0..5)
             .map(|_| {
                 let t = Instant::now();
                 let mut acc = 0.0;
-                for _ in 0..repeat.div_ceil(5) {
-                    for p in set {
-                        acc += field.potential_acceleration(p).0;
-                    }
+                for k in 0..rounds * set.len() {
+                    let p = if in_a_row {
+                        &set[k / rounds]
+                    } else {
+                        &set[k % set.len()]
+                    };
+                    acc += field.potential_acceleration(p).0;
                 }
                 std::hint::black_box(acc);
-                t.elapsed().as_secs_f64() * 1e6 / (repeat.div_ceil(5) * set.len().max(1)) as f64
-            })
-            .fold(f64::INFINITY, f64::min)
-    };
-    // The same, each point queried `repeat` times in a row: a flight's consecutive steps
-    // query one cell and its near faces, which then sit in the cache.
-    let time_warm = |set: &[Point3<f64>]| {
-        (0..5)
-            .map(|_| {
-                let t = Instant::now();
-                let mut acc = 0.0;
-                for p in set {
-                    for _ in 0..repeat.div_ceil(5) {
-                        acc += field.potential_acceleration(p).0;
-                    }
-                }
-                std::hint::black_box(acc);
-                t.elapsed().as_secs_f64() * 1e6 / (repeat.div_ceil(5) * set.len().max(1)) as f64
+                t.elapsed().as_secs_f64() * 1e6 / (rounds * set.len().max(1)) as f64
             })
             .fold(f64::INFINITY, f64::min)
     };
@@ -258,7 +248,7 @@ fn check(mesh: &Mesh, field: &InterpolatedGravity, bound: f64) {
         println!(
             "  {name}: {} points, {:.2} us/point (mean near faces {:.0})",
             set.len(),
-            time_of(&set),
+            time_queries(&set, false),
             near as f64 / set.len() as f64
         );
     }
@@ -267,10 +257,10 @@ fn check(mesh: &Mesh, field: &InterpolatedGravity, bound: f64) {
         "query: {:.2} us/point within 5 facets of the surface, {:.2} us/point in the volume \
          (each point once a round); {:.2} and {:.2} us/point with each point queried \
          {repeat} times in a row (a flight's steps in one cell)",
-        time_of(&surface),
-        time_of(&volume),
-        time_warm(&surface),
-        time_warm(&volume)
+        time_queries(&surface, false),
+        time_queries(&volume, false),
+        time_queries(&surface, true),
+        time_queries(&volume, true)
     );
     println!(
         "{} test points: worst relative acceleration error {worst:.2e} (bound {bound:e}), potential {worst_u:.2e}; \

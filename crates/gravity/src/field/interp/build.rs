@@ -826,7 +826,6 @@ fn convert_leaves(outcomes: &mut [Outcome]) {
             Some(*conv * m)
         })
         .collect();
-    let chunks: Vec<Vec<usize>> = chunks.into_iter().map(<[usize]>::to_vec).collect();
     for (chunk, monomials) in chunks.iter().zip(converted) {
         let Some(monomials) = monomials else {
             continue;

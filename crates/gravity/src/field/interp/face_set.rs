@@ -334,6 +334,7 @@ pub(crate) fn set_jet<const HESS: bool>(
         let r = idx.map(|i| sub(g.vertices[i as usize], x));
         let len = r.map(norm);
         let n = g.normal(f);
+        let nus: [[f64; 3]; 3] = std::array::from_fn(|k| g.edge_normal(f, k));
         // Solid angle (van Oosterom & Strackee 1983) with the surface rule of `direct`.
         let num = dot(r[0], cross(r[1], r[2]));
         let prod = len[0] * len[1] * len[2];
@@ -354,7 +355,7 @@ pub(crate) fn set_jet<const HESS: bool>(
             let b = (k + 1) % 3;
             let l = edge_log(len[a], len[b], g.edge_len_m(f, k));
             *log = l;
-            let nu = g.edge_normal(f, k);
+            let nu = nus[k];
             s_f += dot(nu, r[a]) * l;
             for c in 0..3 {
                 grad_s[c] -= nu[c] * l;
@@ -386,7 +387,7 @@ pub(crate) fn set_jet<const HESS: bool>(
                     hs[i][j] = n[i] * grad_omega[j];
                 }
             }
-            for k in 0..3 {
+            for (k, nu) in nus.iter().enumerate() {
                 let (a, b) = (k, (k + 1) % 3);
                 let l = g.edge_len_m(f, k);
                 let s = len[a] + len[b];
@@ -394,7 +395,6 @@ pub(crate) fn set_jet<const HESS: bool>(
                 let coef = 2.0 * l / den;
                 let gl: [f64; 3] =
                     std::array::from_fn(|c| coef * (r[a][c] / len[a] + r[b][c] / len[b]));
-                let nu = g.edge_normal(f, k);
                 for i in 0..3 {
                     for j in 0..3 {
                         hs[i][j] -= nu[i] * gl[j];
